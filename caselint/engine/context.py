@@ -1,0 +1,39 @@
+"""What a rule sees: the case, its mesh (loaded on first use), its limits and parameters."""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any, Callable
+
+from caselint.model import Limits
+
+if TYPE_CHECKING:
+    from caselint.manifest.case import Case
+    from caselint.mesh.model import Mesh
+
+
+@dataclass
+class RuleContext:
+    """The inputs of one rule run.
+
+    ``mesh`` is read and its topology built only when a rule first asks for it, and is
+    shared by every rule of the case. ``today`` is the date waivers are judged on.
+    ``params`` holds the rule's parameters with the rule-set and case-file overrides applied.
+    """
+
+    case: "Case"
+    limits: Limits
+    params: dict[str, Any] = field(default_factory=dict)
+    today: dt.date = field(default_factory=dt.date.today)
+    _load_mesh: Callable[[], "Mesh"] | None = None
+    _mesh: "Mesh | None" = None
+
+    @property
+    def mesh(self) -> "Mesh":
+        """The case's mesh in metres, with topology and geometry computed lazily."""
+        if self._mesh is None:
+            if self._load_mesh is None:
+                raise RuntimeError("this rule context has no mesh")
+            self._mesh = self._load_mesh()
+        return self._mesh

@@ -1,0 +1,57 @@
+"""Hook specifications: every way a plugin (built-in or installed) extends caselint.
+
+Plugins implement these with ``@caselint.hookimpl``; installed packs are found through
+the entry-point group ``caselint``. Hooks are called by keyword. ``register_*`` hooks
+return lists that the engine flattens and indexes by id; a duplicate id is an error
+naming both plugins. Call order is never relied on: results are sorted by id.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import pluggy
+
+if TYPE_CHECKING:
+    from pathlib import Path
+
+    from caselint.model import Rule
+    from caselint.report.base import Reporter
+
+#: Marker for hook specifications (used only here).
+hookspec = pluggy.HookspecMarker("caselint")
+#: Marker for hook implementations; import it as ``from caselint import hookimpl``.
+hookimpl = pluggy.HookimplMarker("caselint")
+
+
+# -- rules and rule sets ---------------------------------------------------------------
+
+
+@hookspec
+def caselint_register_rules() -> "list[Rule]":
+    """Register rules.
+
+    :returns: A list of :class:`caselint.model.Rule`. Every plugin's list is collected;
+        the engine refuses two rules with the same id and names both plugins.
+    """
+
+
+@hookspec
+def caselint_register_rule_sets() -> "list[Path]":
+    """Register rule-set files.
+
+    :returns: A list of paths to rule-set YAML files. A set's name is its file stem;
+        a set may ``extends:`` any other registered set. Duplicate names are an error.
+    """
+
+
+# -- output ----------------------------------------------------------------------------
+
+
+@hookspec
+def caselint_register_reporters() -> "list[Reporter]":
+    """Register output formats.
+
+    :returns: A list of :class:`caselint.report.base.Reporter`, each selectable with
+        ``--format NAME``. Duplicate names are an error.
+    """

@@ -1,0 +1,70 @@
+"""The few errors caselint raises, and the exit codes the command line maps them to.
+
+Library code raises; only :mod:`caselint.cli` prints and picks an exit code.
+"""
+
+from __future__ import annotations
+
+import enum
+from dataclasses import dataclass
+
+
+class ExitCode(enum.IntEnum):
+    """Exit codes of the ``caselint`` command."""
+
+    #: Nothing at or above the fail level.
+    OK = 0
+    #: Findings at or above the fail level.
+    FINDINGS = 1
+    #: Bad input or usage: the message names the file, line and key.
+    USAGE = 2
+    #: An internal error in caselint itself.
+    INTERNAL = 3
+
+
+class CaselintError(Exception):
+    """Base of every error caselint raises on purpose."""
+
+
+class UsageError(CaselintError):
+    """The command line or an input file is wrong in a way the user can fix."""
+
+
+@dataclass
+class CaseFileError(UsageError):
+    """An error in a case file or rule set, with where it is and what was expected.
+
+    ``line`` and ``column`` are 1-based; ``key`` is the dotted key path
+    (``physics.fluid.density``), empty for the document itself.
+    """
+
+    file: str
+    message: str
+    line: int | None = None
+    column: int | None = None
+    key: str = ""
+
+    def __post_init__(self) -> None:
+        super().__init__(str(self))
+
+    def __str__(self) -> str:
+        where = self.file
+        if self.line is not None:
+            where += f":{self.line}"
+            if self.column is not None:
+                where += f":{self.column}"
+        key = f" [{self.key}]" if self.key else ""
+        return f"{where}:{key} {self.message}"
+
+
+class MeshReadError(UsageError):
+    """A mesh file is missing, unreadable, or holds nothing caselint can check."""
+
+    def __init__(self, file: str, message: str) -> None:
+        self.file = file
+        self.message = message
+        super().__init__(f"{file}: {message}")
+
+
+class PluginLoadError(UsageError):
+    """A plugin distribution failed to load, or two plugins register the same id."""

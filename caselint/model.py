@@ -1,0 +1,219 @@
+"""The typed data model shared by the engine, the rules and the reporters.
+
+A rule returns a :class:`RuleResult`; the engine grades it against the limits of the
+active rule set, applies waivers and builds :class:`Check` and :class:`Finding` records,
+collected per case in a :class:`CaseReport` and per run in a :class:`Report`.
+Values are SI unless a ``unit`` field says otherwise.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Callable, Literal
+
+Outcome = Literal["pass", "fail", "skipped", "waived", "error"]
+Severity = Literal["error", "warning", "note"]
+Worse = Literal["higher", "lower"]
+
+OUTCOMES: tuple[str, ...] = ("pass", "fail", "skipped", "waived", "error")
+SEVERITIES: tuple[str, ...] = ("error", "warning", "note")
+#: Rank of each severity; a larger number is more severe.
+SEVERITY_RANK: dict[str, int] = {"note": 0, "warning": 1, "error": 2}
+
+#: How many cell or face ids a finding lists; the count is always given in full.
+MAX_LISTED_IDS = 10
+
+
+@dataclass(frozen=True)
+class Limits:
+    """Warning and error limits of a graded rule; ``None`` disables that grade."""
+
+    warn: float | None = None
+    error: float | None = None
+
+
+@dataclass(frozen=True)
+class Where:
+    """Where a finding is: a scope (boundary or region) and a few cells, faces and a point."""
+
+    boundary: str | None = None
+    region: str | None = None
+    cells: tuple[int, ...] = ()
+    cell_count: int | None = None
+    faces: tuple[int, ...] = ()
+    face_count: int | None = None
+    point: tuple[float, float, float] | None = None
+    key: str | None = None       # case-file key path the finding concerns, e.g. "time.step"
+    line: int | None = None      # its 1-based line in the case file (filled in by the engine)
+
+    def __post_init__(self) -> None:
+        if len(self.cells) > MAX_LISTED_IDS or len(self.faces) > MAX_LISTED_IDS:
+            raise ValueError(
+                f"a finding lists at most {MAX_LISTED_IDS} ids; got {len(self.cells)} cells "
+                f"and {len(self.faces)} faces (give the full number as a count)"
+            )
+        if self.point is not None and not all(math.isfinite(v) for v in self.point):
+            raise ValueError(f"a finding's point must be finite, got {self.point}")
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain-data form with empty fields left out."""
+        out: dict[str, Any] = {}
+        for key in ("boundary", "region", "key", "line"):
+            if getattr(self, key) is not None:
+                out[key] = getattr(self, key)
+        if self.cell_count is not None:
+            out["cells"] = list(self.cells)
+            out["cell_count"] = self.cell_count
+        if self.face_count is not None:
+            out["faces"] = list(self.faces)
+            out["face_count"] = self.face_count
+        if self.point is not None:
+            out["point"] = [float(v) for v in self.point]
+        return out
+
+
+@dataclass(frozen=True)
+class Measurement:
+    """One measured value of a rule, graded by the engine against the rule's limits.
+
+    A rule that measures once per boundary or region returns one measurement per scope
+    (``where.boundary`` or ``where.region`` set), so a waiver can cover one scope only.
+    ``detail`` is plain words appended to the engine's message (counts, what the worst
+    place is); ``fix`` is a specific fix hint that replaces the rule's generic one.
+    """
+
+    value: float
+    where: Where = field(default_factory=Where)
+    detail: str = ""
+    fix: str = ""
+
+    def __post_init__(self) -> None:
+        if not math.isfinite(self.value):
+            raise ValueError(f"a measured value must be finite, got {self.value!r}")
+
+
+@dataclass(frozen=True)
+class Note:
+    """An informational finding (severity ``note``) that does not change the outcome."""
+
+    message: str
+    where: Where = field(default_factory=Where)
+
+
+@dataclass(frozen=True)
+class RuleResult:
+    """What a rule returns: measurements to grade, or the reason it was skipped."""
+
+    measurements: tuple[Measurement, ...] = ()
+    skipped: str | None = None
+    notes: tuple[Note, ...] = ()
+
+    def __post_init__(self) -> None:
+        if self.skipped is None and not self.measurements:
+            raise ValueError("a rule that runs returns at least one measurement, or a skip reason")
+
+    @classmethod
+    def skip(cls, reason: str) -> "RuleResult":
+        """A result saying the rule could not run, and why."""
+        return cls(skipped=reason)
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """A rule parameter beyond its limits, with its default and unit."""
+
+    name: str
+    default: Any
+    unit: str = ""
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class Rule:
+    """A check: its id, what it measures and why, its default limits, and its function.
+
+    ``check`` is a pure function ``check(ctx) -> RuleResult`` of a
+    :class:`caselint.engine.context.RuleContext`; it never prints, exits or writes files.
+    ``needs`` names the case data the rule reads (``"mesh"``, ``"physics.flow"``...),
+    shown by ``caselint explain``. ``worse`` says which direction of the measured value
+    crosses a limit: ``"higher"`` (a maximum) or ``"lower"`` (a minimum).
+    """
+
+    id: str
+    title: str
+    rationale: str
+    source: str
+    unit: str
+    limits: Limits
+    hint: str
+    check: Callable[..., RuleResult]
+    worse: Worse = "higher"
+    needs: tuple[str, ...] = ("mesh",)
+    parameters: tuple[Parameter, ...] = ()
+    measures: str = ""
+
+    def __post_init__(self) -> None:
+        import re
+
+        if not re.fullmatch(r"[a-z][a-z0-9]*(-[a-z0-9]+)*", self.id):
+            raise ValueError(f"rule id {self.id!r} must be lower-case words joined by '-'")
+        for attr in ("title", "rationale", "source", "hint"):
+            if not getattr(self, attr).strip():
+                raise ValueError(f"rule {self.id!r} has no {attr}")
+
+
+@dataclass(frozen=True)
+class Check:
+    """The outcome of one rule on one case, with its extreme measured value."""
+
+    rule: str
+    title: str
+    outcome: Outcome
+    severity: Severity | None
+    measured: float | None
+    limit: float | None
+    unit: str
+    reason: str = ""
+    limits: Limits = field(default_factory=Limits)
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One graded statement about a case, with the value, the limit and a fix hint."""
+
+    rule: str
+    severity: Severity
+    message: str
+    measured: float | None
+    limit: float | None
+    unit: str
+    where: Where
+    hint: str
+    source: str
+    waived: bool = False
+    waiver: str = ""
+    safety: str = ""
+
+
+@dataclass(frozen=True)
+class CaseReport:
+    """Everything found about one case file."""
+
+    case: str
+    name: str
+    safety: str
+    checks: tuple[Check, ...]
+    findings: tuple[Finding, ...]
+    safety_note: str = ""
+    mesh: str = ""
+    rule_sets: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Report:
+    """The result of one run over one or more case files."""
+
+    cases: tuple[CaseReport, ...]
+    caselint_version: str
+    rule_sets: tuple[str, ...] = ()
