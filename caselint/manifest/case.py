@@ -1,0 +1,162 @@
+"""The case as plain data: what a validated case file says, in SI units.
+
+Built by :mod:`caselint.manifest.loader`; rules read it and never parse YAML or units.
+Every quantity is SI (m, s, kg/m^3, Pa*s, m^2/s, m/s). ``lines`` maps each dotted key
+path of the case file to its 1-based line, so findings and errors can point at it.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from dataclasses import dataclass, field
+from pathlib import Path
+
+BOUNDARY_ROLES: tuple[str, ...] = (
+    "wall", "inlet", "outlet", "symmetry", "periodic", "opening", "interface",
+)
+SAFETY_CLASSES: tuple[str, ...] = (
+    "none", "structural-wind", "fire-smoke", "life-safety", "medical", "pressure-equipment",
+)
+#: ``physics.turbulence.model`` values (the schema's enum; a test keeps the two equal).
+TURBULENCE_MODELS: tuple[str, ...] = (
+    "laminar", "k-epsilon", "rng-k-epsilon", "realizable-k-epsilon", "k-omega", "k-omega-sst",
+    "spalart-allmaras", "transition-sst", "reynolds-stress", "les", "des", "ddes", "iddes", "dns",
+)
+#: ``physics.turbulence.wall_treatment`` values.
+WALL_TREATMENTS: tuple[str, ...] = ("resolved", "wall-function", "blended")
+
+
+@dataclass(frozen=True)
+class CaseInfo:
+    name: str
+    description: str = ""
+    safety: str = "none"
+
+
+@dataclass(frozen=True)
+class MeshSpec:
+    """Where the mesh is and how to read its boundary groups."""
+
+    file: Path                       # absolute, resolved against the case file's folder
+    units: str = "m"                 # length unit of the mesh coordinates
+    scale_to_m: float = 1.0          # factor turning mesh coordinates into metres
+    boundaries: dict[str, str] = field(default_factory=dict)   # group name -> role
+    tag_array: str | None = None     # cell-data array with an integer tag per boundary face
+    tags: dict[int, str] = field(default_factory=dict)         # tag -> group name
+
+
+@dataclass(frozen=True)
+class Fluid:
+    density: float | None = None                 # kg/m^3
+    viscosity: float | None = None               # dynamic, Pa*s
+    kinematic_viscosity: float | None = None     # m^2/s
+    sound_speed: float | None = None             # m/s
+    thermal_diffusivity: float | None = None     # m^2/s
+
+    @property
+    def nu(self) -> float | None:
+        """Kinematic viscosity in m^2/s, given or from viscosity / density."""
+        if self.kinematic_viscosity is not None:
+            return self.kinematic_viscosity
+        if self.viscosity is not None and self.density:
+            return self.viscosity / self.density
+        return None
+
+
+@dataclass(frozen=True)
+class Flow:
+    kind: str | None = None                      # internal | external
+    velocity: float | None = None                # m/s, reference speed
+    direction: tuple[float, float, float] | None = None   # unit vector
+    length: float | None = None                  # m, flow length (plate length, hydraulic diameter)
+    leading_edge: tuple[float, float, float] | None = None  # m, for local Re_x on external flows
+
+
+@dataclass(frozen=True)
+class Turbulence:
+    model: str | None = None                     # None: the case file does not say
+    wall_treatment: str | None = None            # resolved | wall-function | blended
+
+
+@dataclass(frozen=True)
+class Physics:
+    method: str = "finite-volume"                # or finite-element
+    fluid: Fluid = field(default_factory=Fluid)
+    flow: Flow = field(default_factory=Flow)
+    turbulence: Turbulence = field(default_factory=Turbulence)
+
+
+@dataclass(frozen=True)
+class TimeSpec:
+    mode: str = "steady"                         # steady | transient
+    step: float | None = None                    # s
+    end: float | None = None                     # s
+    integration: str | None = None              # implicit | explicit
+    scheme: str | None = None
+    output_interval: float | None = None         # s
+
+
+@dataclass(frozen=True)
+class Region:
+    """A region of interest: one of box, sphere or cylinder, with a cell-size target."""
+
+    name: str
+    shape: str                                   # box | sphere | cylinder
+    geometry: dict[str, object]                  # SI: box {min, max}; sphere {center, radius}; ...
+    max_cell_size: float | None = None           # m
+
+
+@dataclass(frozen=True)
+class Waiver:
+    rule: str
+    reason: str
+    approved_by: str
+    expires: _dt.date
+    boundary: str | None = None
+    region: str | None = None
+    key: str = ""                                # key path in the case file, e.g. checks.waivers[0]
+
+
+@dataclass(frozen=True)
+class Checks:
+    rule_sets: tuple[str, ...] = ("general",)
+    rules: dict[str, dict[str, object]] = field(default_factory=dict)   # id -> overrides
+    waivers: tuple[Waiver, ...] = ()
+
+
+@dataclass(frozen=True)
+class Review:
+    prepared_by: str | None = None
+    reviewers: tuple[str, ...] = ()
+    approved_by: str | None = None
+
+
+@dataclass(frozen=True)
+class GridStudy:
+    meshes: tuple[Path, ...] = ()
+
+
+@dataclass(frozen=True)
+class Case:
+    """A validated case file."""
+
+    path: Path
+    version: int
+    info: CaseInfo
+    mesh: MeshSpec
+    physics: Physics = field(default_factory=Physics)
+    time: TimeSpec = field(default_factory=TimeSpec)
+    regions: tuple[Region, ...] = ()
+    grid_study: GridStudy = field(default_factory=GridStudy)
+    checks: Checks = field(default_factory=Checks)
+    review: Review = field(default_factory=Review)
+    extensions: dict[str, object] = field(default_factory=dict)   # plugin-declared top-level sections, as validated data
+    lines: dict[str, int] = field(default_factory=dict, compare=False, repr=False)
+
+    def line_of(self, key: str) -> int | None:
+        """1-based line of a dotted key path, or of its nearest parent that has one."""
+        while key:
+            if key in self.lines:
+                return self.lines[key]
+            key = key.rpartition(".")[0]
+        return self.lines.get("")
