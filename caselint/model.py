@@ -25,12 +25,23 @@ SEVERITY_RANK: dict[str, int] = {"note": 0, "warning": 1, "error": 2}
 MAX_LISTED_IDS = 10
 
 
+def _require_finite(record: Any, names: tuple[str, ...]) -> None:
+    """Refuse NaN and infinity in the named optional number fields of a record."""
+    for name in names:
+        value = getattr(record, name)
+        if value is not None and not math.isfinite(value):
+            raise ValueError(f"{type(record).__name__}.{name} must be finite, got {value!r}")
+
+
 @dataclass(frozen=True)
 class Limits:
     """Warning and error limits of a graded rule; ``None`` disables that grade."""
 
     warn: float | None = None
     error: float | None = None
+
+    def __post_init__(self) -> None:
+        _require_finite(self, ("warn", "error"))
 
 
 @dataclass(frozen=True)
@@ -57,17 +68,20 @@ class Where:
             raise ValueError(f"a finding's point must be finite, got {self.point}")
 
     def to_dict(self) -> dict[str, Any]:
-        """Plain-data form with empty fields left out."""
+        """Plain-data form with empty fields left out.
+
+        Listed ids always come with their full count (the count defaults to the number
+        listed), so a reader never mistakes a capped list for all of them.
+        """
         out: dict[str, Any] = {}
         for key in ("boundary", "region", "key", "line"):
             if getattr(self, key) is not None:
                 out[key] = getattr(self, key)
-        if self.cell_count is not None:
-            out["cells"] = list(self.cells)
-            out["cell_count"] = self.cell_count
-        if self.face_count is not None:
-            out["faces"] = list(self.faces)
-            out["face_count"] = self.face_count
+        for kind, ids, count in (("cells", self.cells, self.cell_count),
+                                 ("faces", self.faces, self.face_count)):
+            if ids or count is not None:
+                out[kind] = [int(i) for i in ids]
+                out[f"{kind[:-1]}_count"] = int(count if count is not None else len(ids))
         if self.point is not None:
             out["point"] = [float(v) for v in self.point]
         return out
@@ -81,16 +95,33 @@ class Measurement:
     (``where.boundary`` or ``where.region`` set), so a waiver can cover one scope only.
     ``detail`` is plain words appended to the engine's message (counts, what the worst
     place is); ``fix`` is a specific fix hint that replaces the rule's generic one.
+
+    A rule that measures several quantities (a two-sided band, distances and a ratio)
+    gives each its own ``label`` (the subject of the finding's sentence), ``unit``,
+    ``worse`` direction and ``limits``; left unset they are the rule's. ``limits`` set
+    here are final: rule-set overrides apply to the rule's own limits only, so a rule
+    that sets them reads them from its parameters (``ctx.params``).
     """
 
     value: float
     where: Where = field(default_factory=Where)
     detail: str = ""
     fix: str = ""
+    label: str = ""
+    unit: str | None = None
+    worse: Worse | None = None
+    limits: Limits | None = None
 
     def __post_init__(self) -> None:
         if not math.isfinite(self.value):
             raise ValueError(f"a measured value must be finite, got {self.value!r}")
+        if self.worse is not None and self.worse not in ("higher", "lower"):
+            raise ValueError(f"worse must be 'higher' or 'lower', got {self.worse!r}")
+
+    @property
+    def own_scale(self) -> bool:
+        """True when the measurement uses its own limits, direction or unit."""
+        return self.limits is not None or self.worse is not None or self.unit is not None
 
 
 @dataclass(frozen=True)
@@ -177,6 +208,9 @@ class Check:
     reason: str = ""
     limits: Limits = field(default_factory=Limits)
 
+    def __post_init__(self) -> None:
+        _require_finite(self, ("measured", "limit"))
+
 
 @dataclass(frozen=True)
 class Finding:
@@ -194,6 +228,9 @@ class Finding:
     waived: bool = False
     waiver: str = ""
     safety: str = ""
+
+    def __post_init__(self) -> None:
+        _require_finite(self, ("measured", "limit"))
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,220 @@
+"""Rays cast from wall faces across the mesh: how wide each passage is and how many cells span it.
+
+A ray starts at the centroid of a wall face and runs along the face's inward normal
+(``-S_f / |S_f|``; ``S_f`` points out of the owner cell, that is, out of the fluid). It
+marches from cell to cell through shared faces until it reaches a boundary face: a wall
+ends a *gap*, any other boundary (inlet, outlet, symmetry, opening, periodic, interface,
+or a face in no group) ends the ray without one.
+
+Inside a cell the exit face is found as for any convex polyhedron: among the faces the ray
+leaves through (``d . n_out > 0``, ``n_out`` pointing out of the current cell) the one whose
+plane it meets first. The parameter ``t`` is measured from the ray's origin, so the width of
+a gap is ``t`` at the plane of the wall face hit, in metres, and the number of cells crossed
+includes the first and the last cell. The face the ray came in through is never an exit;
+``t`` never decreases along a ray. A ray that finds no exit (a degenerate cell) or is still
+marching after ``max_steps`` cells is *lost*, so a damaged mesh cannot loop forever.
+
+All rays march in lock step: one numpy step per cell crossed, over every ray still active
+(and over the at most six face slots of a cell), never a Python loop over rays or cells.
+Cells are taken as convex with planar faces; on warped cells the exit is the plane-based
+estimate, which is what a cell-by-cell count needs.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.mesh.geometry import CHUNK, chunks, coordinate_columns
+
+if TYPE_CHECKING:
+    from caselint.mesh.model import Mesh
+
+#: A ray that ended on a wall face: a gap.
+WALL = 0
+#: A ray that ended on a boundary that is not a wall (inlet, outlet, symmetry, ...): no gap.
+OPEN = 1
+#: A ray stopped by a degenerate cell or by the step limit: neither.
+LOST = 2
+
+#: Default limit on the cells one ray may cross.
+MAX_STEPS = 10_000
+# A face counts as an exit only if the ray is not parallel to it: d . S > this x |S|.
+_PARALLEL = 1e-9
+
+
+@dataclass(frozen=True)
+class RayHits:
+    """One ray per start face: where it ended, how far it went and how many cells it crossed.
+
+    ``width`` (m) is the distance along the ray to the plane of the face it ended on (0 for
+    lost rays); ``cells`` counts the cells it crossed, first and last included.
+    """
+
+    start_face: np.ndarray     # (R,) int64 face ids the rays start from
+    hit_face: np.ndarray       # (R,) int64 boundary face reached, -1 when lost
+    status: np.ndarray         # (R,) int8 WALL, OPEN or LOST
+    width: np.ndarray          # (R,) float64, m
+    cells: np.ndarray          # (R,) int64
+    origin: np.ndarray         # (R, 3) start points (face centroids), m
+    direction: np.ndarray      # (R, 3) unit directions
+
+    @property
+    def n_rays(self) -> int:
+        """Number of rays."""
+        return int(self.start_face.size)
+
+    def midpoint(self, ray: int) -> np.ndarray:
+        """The point halfway along ray ``ray`` (m)."""
+        return self.origin[ray] + 0.5 * self.width[ray] * self.direction[ray]
+
+
+def cell_faces_csr(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
+    """Cell-to-face incidence in CSR form: faces of cell c are ``faces[offsets[c]:offsets[c+1]]``."""
+
+    def build() -> tuple[np.ndarray, np.ndarray]:
+        owner, neighbour = mesh.owner, mesh.neighbour
+        inner = np.flatnonzero(neighbour >= 0)
+        cell = np.concatenate([owner, neighbour[inner]])
+        face = np.concatenate([np.arange(owner.size, dtype=np.int64), inner])
+        order = np.argsort(cell, kind="stable")
+        counts = np.bincount(cell, minlength=mesh.n_cells)
+        offsets = np.zeros(mesh.n_cells + 1, dtype=np.int64)
+        np.cumsum(counts, out=offsets[1:])
+        return offsets, face[order]
+
+    return mesh.cached("rays.cell_faces_csr", build)
+
+
+def cell_face_table(mesh: "Mesh") -> np.ndarray:
+    """(C, K) face ids of each cell, K the most faces of any cell, padded with -1."""
+
+    def build() -> np.ndarray:
+        offsets, faces = cell_faces_csr(mesh)
+        counts = np.diff(offsets)
+        width = int(counts.max()) if counts.size else 0
+        table = np.full((mesh.n_cells, width), -1, dtype=np.int64)
+        cell = np.repeat(np.arange(mesh.n_cells), counts)
+        slot = np.arange(faces.size) - offsets[cell]
+        table[cell, slot] = faces
+        return table
+
+    return mesh.cached("rays.cell_face_table", build)
+
+
+def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
+          max_steps: int = MAX_STEPS) -> RayHits:
+    """Cast one ray inward from each of ``start_faces`` (boundary faces) and march it.
+
+    ``wall_face`` is an (F,) bool mask of the faces that end a ray as a gap (the walls);
+    every other boundary face ends it without one.
+    """
+    if max_steps < 1:
+        raise ValueError(f"max_steps must be at least 1, got {max_steps}")
+    start_faces = np.asarray(start_faces, dtype=np.int64)
+    if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
+        raise ValueError("rays start from boundary faces only")
+    n = start_faces.size
+    out = RayHits(
+        start_face=start_faces,
+        hit_face=np.full(n, -1, dtype=np.int64),
+        status=np.full(n, LOST, dtype=np.int8),
+        width=np.zeros(n),
+        cells=np.zeros(n, dtype=np.int64),
+        origin=np.asarray(mesh.face_centroids[start_faces], dtype=np.float64).reshape(n, 3),
+        direction=np.zeros((n, 3)),
+    )
+    if n == 0:
+        return out
+    area = mesh.face_area_vectors[start_faces]
+    norm = np.sqrt((area**2).sum(axis=1))
+    ok = norm > 0                      # a collapsed face has no normal: its ray is lost
+    out.direction[ok] = -area[ok] / norm[ok, None]
+    faces = _FaceData(mesh, wall_face)
+    for sl in chunks(n, CHUNK):
+        _march_chunk(faces, out, np.arange(sl.start, sl.stop)[ok[sl]], max_steps)
+    return out
+
+
+class _FaceData:
+    """Face columns gathered once for the marching loop."""
+
+    def __init__(self, mesh: "Mesh", wall_face: np.ndarray) -> None:
+        self.table = cell_face_table(mesh)
+        self.owner = mesh.owner
+        self.neighbour = mesh.neighbour
+        self.wall = np.asarray(wall_face, dtype=bool)
+        if self.wall.shape != self.owner.shape:
+            raise ValueError(f"wall_face must have one entry per face ({self.owner.size}), "
+                             f"got shape {self.wall.shape}")
+        self.s = coordinate_columns(mesh.face_area_vectors)
+        self.x = coordinate_columns(mesh.face_centroids)
+        s = mesh.face_area_vectors
+        self.s_norm = np.sqrt((s**2).sum(axis=1))
+
+
+def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) -> None:
+    """March the rays ``rays`` (indices into ``out``) in lock step until they all stop."""
+    o = [out.origin[rays, k] for k in range(3)]
+    d = [out.direction[rays, k] for k in range(3)]
+    entry = out.start_face[rays]
+    cell = fd.owner[entry]
+    t_now = np.zeros(rays.size)
+    count = np.ones(rays.size, dtype=np.int64)
+    idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
+    for _ in range(max_steps):
+        if idx.size == 0:
+            return
+        t_exit, f_exit = _exit_faces(fd, cell, entry, [c[idx] for c in o], [c[idx] for c in d])
+        lost = f_exit < 0
+        t_exit = np.maximum(t_exit, t_now)   # a ray never goes back
+        nxt = np.where(fd.owner[np.maximum(f_exit, 0)] == cell,
+                       fd.neighbour[np.maximum(f_exit, 0)], fd.owner[np.maximum(f_exit, 0)])
+        ends = ~lost & (nxt < 0)
+        ray = rays[idx]
+        out.status[ray[ends]] = np.where(fd.wall[f_exit[ends]], WALL, OPEN)
+        out.hit_face[ray[ends]] = f_exit[ends]
+        out.width[ray[ends]] = t_exit[ends]
+        out.cells[ray[ends]] = count[idx[ends]]
+        out.cells[ray[lost]] = count[idx[lost]]
+        go = ~lost & ~ends
+        idx = idx[go]
+        cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
+        count[idx] += 1
+    out.cells[rays[idx]] = count[idx]   # still marching after max_steps: stays LOST
+
+
+def _exit_faces(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o, d):
+    """Parameter and id of the face each ray leaves its cell through; id -1 if none."""
+    faces = fd.table[cell]
+    best_t = np.full(cell.size, np.inf)
+    best_f = np.full(cell.size, -1, dtype=np.int64)
+    for k in range(faces.shape[1]):            # at most six face slots
+        f = faces[:, k]
+        present = (f >= 0) & (f != entry)
+        fs = np.where(present, f, 0)
+        sign = np.where(fd.owner[fs] == cell, 1.0, -1.0)    # orient S out of this cell
+        s = [fd.s[j][fs] * sign for j in range(3)]
+        denom = s[0] * d[0] + s[1] * d[1] + s[2] * d[2]
+        num = ((fd.x[0][fs] - o[0]) * s[0] + (fd.x[1][fs] - o[1]) * s[1]
+               + (fd.x[2][fs] - o[2]) * s[2])
+        leaving = present & (denom > _PARALLEL * fd.s_norm[fs])
+        t = np.where(leaving, num / np.where(leaving, denom, 1.0), np.inf)
+        better = t < best_t
+        best_t = np.where(better, t, best_t)
+        best_f = np.where(better, f, best_f)
+    return best_t, best_f
+
+
+def wall_rays(mesh: "Mesh", wall_groups: tuple[str, ...], max_steps: int = MAX_STEPS) -> RayHits:
+    """Rays from every face of the named wall groups, ending on any of them (cached on the mesh)."""
+    names = tuple(sorted(set(wall_groups)))
+
+    def build() -> RayHits:
+        index = [mesh.group_names.index(g) for g in names if g in mesh.group_names]
+        wall = np.isin(mesh.face_group, np.asarray(index, dtype=np.int32)) & (mesh.neighbour < 0)
+        return march(mesh, np.flatnonzero(wall), wall, max_steps)
+
+    return mesh.cached(f"rays.walls:{'|'.join(names)}:{max_steps}", build)

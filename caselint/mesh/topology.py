@@ -1,0 +1,313 @@
+"""Unique faces with owner and neighbour, and the boundary groups of the exposed faces.
+
+Every cell contributes one *half-face* per face template, in cell order. Half-faces with
+the same vertex set are paired by sorting one packed ``int64`` key per half-face with a
+stable ``argsort`` (far faster than ``np.unique(axis=0)``, see the design notes):
+
+- triangles: the three sorted vertex ids, 21 bits each (below 2**21 points), else two keys;
+- quadrilaterals: the diagonal through the smallest vertex (``a * P + c``), then the other
+  diagonal as a second key that is checked, not sorted, unless two different
+  quadrilaterals share the first key (then a two-key ``lexsort`` decides);
+- 2-D edges: ``min * P + max``.
+
+A pair becomes one face, oriented as in the cell with the lower id (its owner). A vertex
+set seen once is a boundary face; seen more than twice (or twice in one cell) it is
+non-manifold: every occurrence stays a separate face with no neighbour and is listed in
+``nonmanifold``. Faces come out sorted by owner cell. Two cells listing a shared face the
+same way round (one of them is inverted, or both are the same cell) are recorded in
+``clashing``; the geometry then takes each cell's side of that face in its own orientation.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.mesh.celltypes import FACES, TRIANGLE_FACES, face_index
+
+if TYPE_CHECKING:
+    from caselint.mesh.model import BoundaryElements, Mesh
+
+_TRI_PACK_LIMIT = 1 << 21
+
+
+@dataclass(frozen=True)
+class Topology:
+    """Faces, owner, neighbour and boundary groups of a mesh (see :class:`Mesh`)."""
+
+    faces: np.ndarray
+    owner: np.ndarray
+    neighbour: np.ndarray
+    nonmanifold: np.ndarray
+    clashing: np.ndarray
+    face_group: np.ndarray
+    unmatched: dict[str, int]
+    internal: dict[str, int]
+    multi_group: int
+
+
+def build_topology(mesh: "Mesh") -> Topology:
+    """Pair the half-faces of ``mesh`` into faces and label the exposed ones by group."""
+    n_points = mesh.n_points
+    half, hcell, tri_mask = _half_faces(mesh)
+    n_half = half.shape[1]
+    rep = np.zeros(n_half, dtype=bool)
+    other = np.full(n_half, -1, dtype=hcell.dtype)
+    odd = np.zeros(n_half, dtype=bool)
+    clash = np.zeros(n_half, dtype=bool)
+    for order, same, hidx, bit in _kind_sorts(half, tri_mask, n_points):
+        _pair_runs(order, same, hidx, bit, hcell, (rep, other, odd, clash))
+    fidx = np.flatnonzero(rep)
+    del rep
+    faces = np.empty((len(fidx), half.shape[0]), dtype=np.int64)
+    for k in range(half.shape[0]):
+        faces[:, k] = half[k, fidx]
+    owner = hcell[fidx].astype(np.int64)
+    neighbour = other[fidx].astype(np.int64)
+    nonmanifold = np.flatnonzero(odd[fidx])
+    clashing = np.flatnonzero(clash[fidx])
+    face_group, unmatched, internal, multi = match_groups(
+        faces, neighbour, mesh.boundary, mesh.group_names, n_points
+    )
+    return Topology(faces, owner, neighbour, nonmanifold, clashing, face_group, unmatched,
+                    internal, multi)
+
+
+def _half_faces(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """All half-faces (cell-major) as a (width, H) array, the cell of each, which are triangles."""
+    width = 4 if mesh.dim == 3 else 2
+    sizes = [len(b.connectivity) * len(FACES[b.type]) for b in mesh.cell_blocks]
+    dtype = np.result_type(*[b.connectivity.dtype for b in mesh.cell_blocks])
+    # One contiguous row per vertex slot: the key arithmetic reads whole columns.
+    half = np.empty((width, sum(sizes)), dtype=dtype)
+    hcell = np.empty(sum(sizes), dtype=np.int32 if mesh.n_cells < 2**31 else np.int64)
+    any_tri = mesh.dim == 3 and any(TRIANGLE_FACES[b.type] for b in mesh.cell_blocks)
+    tri_mask = np.zeros(sum(sizes), dtype=bool) if any_tri else None
+    offset = 0
+    for block, size in zip(mesh.cell_blocks, sizes):
+        tpl = face_index(block.type)
+        conn = block.connectivity
+        n, nf = len(conn), len(tpl)
+        for k in range(width):
+            view = half[k, offset : offset + size].reshape(n, nf)
+            for j in range(nf):
+                view[:, j] = conn[:, tpl[j, k]]
+        hcell[offset : offset + size].reshape(n, nf)[:] = np.arange(
+            block.start, block.stop, dtype=hcell.dtype
+        )[:, None]
+        if tri_mask is not None and TRIANGLE_FACES[block.type]:
+            flags = tri_mask[offset : offset + size].reshape(n, nf)
+            flags[:, list(TRIANGLE_FACES[block.type])] = True
+        offset += size
+    return half, hcell, tri_mask
+
+
+def _kind_sorts(half: np.ndarray, tri_mask: np.ndarray | None, n_points: int):
+    """Yield (order, same-as-next, global index or None, orientation bit) per kind."""
+    p = np.int64(max(n_points, 1))
+    if half.shape[0] == 2:
+        lo = np.minimum(half[0], half[1]).astype(np.int64)
+        hi = np.maximum(half[0], half[1]).astype(np.int64)
+        yield (*_sort_keys(lo * p + hi, None), None, half[0] < half[1])
+        return
+    quad_idx = None if tri_mask is None else np.flatnonzero(~tri_mask)
+    q = list(half) if quad_idx is None else [row[quad_idx] for row in half]
+    dup = (q[0] == q[1]) | (q[1] == q[2]) | (q[2] == q[3]) | (q[3] == q[0])
+    dup |= (q[0] == q[2]) | (q[1] == q[3])
+    tri_parts: list[tuple[np.ndarray, ...]] = []
+    if tri_mask is not None:
+        t_idx = np.flatnonzero(tri_mask)
+        t = [half[k, t_idx] for k in range(3)]
+        tri_parts.append((*t, t_idx, _cycle_bit(t)))
+    if dup.any():
+        # Collapsed quadrilaterals (degenerate cells) with three distinct vertices are
+        # triangles and must pair with true triangles; others keep their quad key.
+        rows = np.flatnonzero(dup)
+        listed = [col[rows] for col in q]
+        s = np.sort(np.stack(listed, axis=1), axis=1)
+        distinct = 1 + (s[:, 1] != s[:, 0]) + (s[:, 2] != s[:, 1]) + (s[:, 3] != s[:, 2])
+        three = distinct == 3
+        s3 = s[three]
+        # One adjacent pair of the sorted ids is equal; the largest id is always distinct.
+        u1 = np.where(s3[:, 0] == s3[:, 1], s3[:, 2], s3[:, 1])
+        glob = rows[three] if quad_idx is None else quad_idx[rows[three]]
+        bit = _cycle_bit([col[three] for col in listed])
+        tri_parts.append((s3[:, 0], u1, s3[:, 3], glob, bit))
+        keep = np.ones(len(q[0]), dtype=bool)
+        keep[rows[three]] = False
+        quad_idx = np.flatnonzero(keep) if quad_idx is None else quad_idx[keep]
+        q = [row[quad_idx] for row in half]
+    del dup
+    if len(q[0]):
+        k1, k2 = _quad_keys(q, p)
+        bit = _cycle_bit(q)
+        del q
+        yield (*_sort_keys(k1, k2), quad_idx, bit)
+    if tri_parts:
+        a, b, c, idx, bit = (np.concatenate(parts) for parts in zip(*tri_parts))
+        k1, k2 = _tri_keys(a, b, c, p)
+        yield (*_sort_keys(k1, k2), idx, bit)
+
+
+def _cycle_bit(loop: list[np.ndarray]) -> np.ndarray:
+    """Which way round a face is listed: from its smallest vertex, is the next vertex
+    smaller than the previous one? Repeated vertices are skipped. The two cells of a
+    consistently oriented face list it with opposite bits."""
+    n = len(loop)
+    a = loop[0]
+    for col in loop[1:]:
+        a = np.minimum(a, col)
+    nxt = np.zeros_like(a)
+    prv = np.zeros_like(a)
+    found = np.zeros(len(a), dtype=bool)
+    for j in range(n):
+        here = (loop[j] == a) & ~found
+        if not here.any():
+            continue
+        f1, f2 = loop[(j + 1) % n], loop[(j + 2) % n]
+        b1, b2 = loop[(j - 1) % n], loop[(j - 2) % n]
+        nxt = np.where(here, np.where(f1 != a, f1, f2), nxt)
+        prv = np.where(here, np.where(b1 != a, b1, b2), prv)
+        found |= here
+    return nxt < prv
+
+
+def _quad_keys(q: list[np.ndarray], p: np.int64) -> tuple[np.ndarray, np.ndarray]:
+    """The two diagonals of each quadrilateral as packed keys, smaller key first.
+
+    The diagonal through the smallest vertex nearly always identifies the face on its
+    own; the other diagonal is only compared (see :func:`_sort_keys`).
+    """
+    d02 = np.minimum(q[0], q[2]).astype(np.int64) * p + np.maximum(q[0], q[2])
+    d13 = np.minimum(q[1], q[3]).astype(np.int64) * p + np.maximum(q[1], q[3])
+    return np.minimum(d02, d13), np.maximum(d02, d13)
+
+
+def _tri_keys(a, b, c, p: np.int64) -> tuple[np.ndarray, np.ndarray | None]:
+    """Sorted-triple key: one packed int64 below 2**21 points, else two keys."""
+    a, b, c = (v.astype(np.int64) for v in (a, b, c))
+    lo, hi = np.minimum(a, b), np.maximum(a, b)
+    mid = np.maximum(lo, np.minimum(hi, c))
+    lo, hi = np.minimum(lo, c), np.maximum(hi, c)
+    if p <= _TRI_PACK_LIMIT:
+        return (lo << 42) | (mid << 21) | hi, None
+    return lo * p + mid, hi
+
+
+def _sort_keys(k1: np.ndarray, k2: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+    """Stable order of the keys and whether each sorted entry equals the next."""
+    order = np.argsort(k1, kind="stable")
+    s1 = k1[order]
+    same = s1[1:] == s1[:-1]
+    if k2 is not None:
+        s2 = k2[order]
+        differ = s2[1:] != s2[:-1]
+        if np.any(same & differ):
+            order = np.lexsort((k2, k1))
+            s1, s2 = k1[order], k2[order]
+            same = s1[1:] == s1[:-1]
+            differ = s2[1:] != s2[:-1]
+        same &= ~differ
+    return order, same
+
+
+def _pair_runs(order, same, hidx, bit, hcell, marks) -> None:
+    """Mark representatives, neighbours, non-manifold and clashing half-faces from runs."""
+    rep, other, odd, clash = marks
+    n = len(order)
+    if n == 0:
+        return
+    start = np.ones(n, dtype=bool)
+    start[1:] = ~same
+    starts = np.flatnonzero(start)
+    lengths = np.diff(np.append(starts, n))
+    single = order[starts[lengths == 1]]
+    rep[single if hidx is None else hidx[single]] = True
+    pair = starts[lengths == 2]
+    first, second = order[pair], order[pair + 1]
+    # Both cells list a consistently oriented face in opposite directions.
+    clashing = bit[first] == bit[second]
+    if hidx is not None:
+        first, second = hidx[first], hidx[second]
+    c1, c2 = hcell[first], hcell[second]
+    swap = c2 < c1
+    own = np.where(swap, second, first)
+    selfish = c1 == c2
+    keep = ~selfish
+    own = own[keep]
+    rep[own] = True
+    other[own] = np.maximum(c1, c2)[keep]
+    clash[own] = clashing[keep]
+    crowd = order[np.repeat(lengths > 2, lengths)]
+    bad = np.concatenate([crowd if hidx is None else hidx[crowd], first[selfish], second[selfish]])
+    rep[bad] = True
+    odd[bad] = True
+
+
+# -- boundary groups ---------------------------------------------------------
+def _set_keys(verts: np.ndarray, p: np.int64) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Keys of the vertex *set* of each row: (kind, k1, k2); kind = number of distinct ids."""
+    s = np.sort(verts.astype(np.int64), axis=1)
+    if s.shape[1] == 2:
+        return np.full(len(s), 2, dtype=np.int8), s[:, 0] * p + s[:, 1], np.zeros(len(s), np.int64)
+    new = np.ones_like(s, dtype=bool)
+    new[:, 1:] = s[:, 1:] != s[:, :-1]
+    kind = new.sum(axis=1).astype(np.int8)
+    # Move repeated ids to the end (as the row maximum) so the distinct ids lead.
+    s = np.sort(np.where(new, s, s[:, -1:]), axis=1)
+    return kind, s[:, 0] * p + s[:, 1], s[:, 2] * p + s[:, 3]
+
+
+def _match(face_ids, face_verts, elem_verts, p) -> np.ndarray:
+    """For each element, the id of a face with the same vertex set, or -1."""
+    fk, f1, f2 = _set_keys(face_verts, p)
+    ek, e1, e2 = _set_keys(elem_verts, p)
+    nf = len(face_ids)
+    kind, k1, k2 = np.concatenate([fk, ek]), np.concatenate([f1, e1]), np.concatenate([f2, e2])
+    src = np.concatenate([np.zeros(nf, np.int8), np.ones(len(ek), np.int8)])
+    order = np.lexsort((src, k2, k1, kind))
+    kind, k1, k2, src = kind[order], k1[order], k2[order], src[order]
+    start = np.ones(len(order), dtype=bool)
+    start[1:] = (kind[1:] != kind[:-1]) | (k1[1:] != k1[:-1]) | (k2[1:] != k2[:-1])
+    head = np.maximum.accumulate(np.where(start, np.arange(len(order)), 0))
+    out = np.full(len(ek), -1, dtype=np.int64)
+    is_elem = src == 1
+    hit = is_elem & (src[head] == 0)
+    out[order[hit] - nf] = face_ids[order[head[hit]]]
+    return out
+
+
+def match_groups(faces, neighbour, boundary: "BoundaryElements", names, n_points):
+    """Label exposed faces by the group of the file's boundary element on them."""
+    n_faces = len(faces)
+    face_group = np.full(n_faces, -1, dtype=np.int32)
+    if len(boundary.element) == 0:
+        return face_group, {}, {}, 0
+    p = np.int64(max(n_points, 1))
+    exposed = np.flatnonzero(neighbour < 0)
+    elem_face = _match(exposed, faces[exposed], boundary.vertices, p)
+    if np.any(elem_face < 0):
+        inner = np.flatnonzero(neighbour >= 0)
+        lost = np.flatnonzero(elem_face < 0)
+        elem_face[lost] = _match(inner, faces[inner], boundary.vertices[lost], p)
+    f = elem_face[boundary.element]
+    g = boundary.group.astype(np.int64)
+    n_groups = len(names)
+    unmatched = np.bincount(g[f < 0], minlength=n_groups)
+    on_internal = (f >= 0) & (neighbour[np.maximum(f, 0)] >= 0)
+    internal = np.bincount(g[on_internal], minlength=n_groups)
+    ok = (f >= 0) & ~on_internal
+    pairs = np.unique(f[ok] * n_groups + g[ok])
+    pf, pg = pairs // n_groups, pairs % n_groups
+    # Sorted by face then group, so the first pair of each face holds its lowest group.
+    first = np.ones(len(pf), dtype=bool)
+    first[1:] = pf[1:] != pf[:-1]
+    face_group[pf[first]] = pg[first]
+    multi = int(len(np.unique(pf[~first])))
+
+    def named(counts: np.ndarray) -> dict[str, int]:
+        return {names[i]: int(c) for i, c in enumerate(counts) if c}
+
+    return face_group, named(unmatched), named(internal), multi

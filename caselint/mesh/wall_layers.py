@@ -1,0 +1,265 @@
+"""Wall layer stacks: the cells lined up above each wall face, walked layer by layer.
+
+From a wall face the walk enters the cell behind it, crosses to the cell's *opposite
+face* (the one face sharing no vertex with the face it came in through: the far side of
+a hexahedron, the other triangle of a wedge entered through a triangle, the far edge of
+a 2-D quadrilateral) and on to the neighbour across that face. All wall faces walk in
+lock-step: one vectorised numpy step per layer, never a Python loop over faces.
+
+A cell *continues the stack* while
+
+- it has an opposite face (tetrahedra, pyramids and wedges entered through a
+  quadrilateral have none: a prism layer under a tetrahedral core ends there);
+- its height ``h`` (the distance between its entry and opposite face centroids, along
+  the entry face's normal) is positive;
+- the opposite face's normal stays within ``turn_deg`` of the wall normal (the layer
+  direction does not turn, as it does round a corner);
+- it is thin: ``h < max_aspect * width``, width = the square root of the entry face
+  area (in 2-D the entry edge length). A layer cell is flat; a cell as tall as it is
+  wide belongs to the core. The first wall cell is always measured, even when thick.
+
+The stack ends at the first cell failing one of these, when an opposite face is on the
+boundary, or after ``max_cells`` cells. The walk itself goes on through cells that are
+layer-shaped but thick (a structured hexahedral core), so that the cells across a
+boundary layer can be counted beyond the inflation stack.
+
+Distances: the first cell centre's wall distance is its centroid's distance from the
+wall face centroid along the wall normal (half the first-layer height on a prism or
+hexahedron); the first node's is the first-layer height ``h1``. Where the wall cell has
+no layer shape (tetrahedra), ``h1`` is the wall distance of its farthest vertex (the
+apex of a tetrahedron) and ``layered_first`` is False. The cell after a stack that ends
+in the core is measured the same way: its farthest vertex from the stack's last face.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from caselint.mesh.model import Mesh
+
+#: How a stack ended (``WallLayers.end``).
+NO_STACK = 0      #: the wall cell is no layer cell (a tetrahedron, or as tall as wide)
+END_CORE = 1      #: the next cell is a core cell: not layer-shaped, or not thin
+END_TURN = 2      #: the next cell's layer direction turns by more than ``turn_deg``
+END_BOUNDARY = 3  #: the last layer's opposite face is on the boundary
+END_LIMIT = 4     #: the stack reached ``max_cells``
+END_DEGENERATE = 5  #: the next layer-shaped cell has a non-positive height
+END_WORDS = {
+    NO_STACK: "no layer cell at the wall", END_CORE: "core cell", END_TURN: "layer direction turns",
+    END_BOUNDARY: "another boundary", END_LIMIT: "walk limit", END_DEGENERATE: "degenerate cell",
+}
+
+
+@dataclass(frozen=True)
+class WallLayers:
+    """Layer stacks above a set of boundary faces; every array has one row per face.
+
+    Lengths in metres. ``heights[i, k]`` is the height of the k-th cell walked from face
+    ``faces[i]`` (0 beyond ``n_walked[i]``); the first ``n_layers[i]`` of them form the
+    stack. ``max_growth`` is the largest ``h[k+1] / h[k]`` inside the stack (0 with fewer
+    than two layers), at layer ``growth_layer`` (1-based number of the larger layer).
+    ``core_jump`` is the core cell's height over the last layer's where ``end`` is
+    ``END_CORE`` (0 elsewhere).
+    """
+
+    faces: np.ndarray
+    cells: np.ndarray
+    normals: np.ndarray
+    centre_distance: np.ndarray
+    first_height: np.ndarray
+    layered_first: np.ndarray
+    n_layers: np.ndarray
+    n_walked: np.ndarray
+    heights: np.ndarray
+    thickness: np.ndarray
+    max_growth: np.ndarray
+    growth_layer: np.ndarray
+    end: np.ndarray
+    core_cell: np.ndarray
+    core_jump: np.ndarray
+
+    def subset(self, rows: np.ndarray) -> "WallLayers":
+        """The stacks of the given rows only (e.g. one boundary's faces)."""
+        return WallLayers(*(getattr(self, f)[rows] for f in self.__dataclass_fields__))
+
+    def rows_of(self, faces: np.ndarray) -> np.ndarray:
+        """Row index of each face id in ``faces`` (all must be among ``self.faces``)."""
+        rows = np.searchsorted(self.faces, faces)
+        if np.any(rows >= len(self.faces)) or np.any(self.faces[np.minimum(
+                rows, len(self.faces) - 1)] != faces):
+            raise KeyError("some faces have no stack in this WallLayers")
+        return rows
+
+    def cells_within(self, distance_m) -> np.ndarray:
+        """Per face, how many walked cells lie wholly within ``distance_m`` of the wall."""
+        if self.heights.shape[1] == 0:
+            return np.zeros(len(self.faces), dtype=np.int64)
+        tops = np.cumsum(self.heights, axis=1)
+        walked = np.arange(self.heights.shape[1])[None, :] < self.n_walked[:, None]
+        limit = np.broadcast_to(np.asarray(distance_m, dtype=np.float64), self.faces.shape)
+        return np.count_nonzero(walked & (tops <= limit[:, None]), axis=1)
+
+
+def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, turn_deg: float = 45.0,
+                max_cells: int = 200) -> WallLayers:
+    """The layer stacks above boundary ``faces`` (ids), cached on the mesh per face set."""
+    faces = np.unique(np.asarray(faces, dtype=np.int64))
+    if faces.size and (faces.min() < 0 or faces.max() >= mesh.n_faces
+                       or np.any(mesh.neighbour[faces] >= 0)):
+        raise ValueError("wall_layers() needs ids of boundary faces (faces with no neighbour)")
+    digest = hashlib.sha1(faces.tobytes()).hexdigest()
+    key = f"wall_layers:{digest}:{max_aspect!r}:{turn_deg!r}:{int(max_cells)}"
+    return mesh.cached(key, lambda: _walk(mesh, faces, max_aspect, turn_deg, int(max_cells)))
+
+
+def cell_faces(mesh: "Mesh") -> np.ndarray:
+    """(C, m) face ids of each cell, padded with -1 (m = most faces of any cell); cached."""
+
+    def compute() -> np.ndarray:
+        owner, neighbour = mesh.owner, mesh.neighbour
+        inner = np.flatnonzero(neighbour >= 0)
+        cells = np.concatenate([owner, neighbour[inner]])
+        ids = np.concatenate([np.arange(len(owner), dtype=np.int64), inner])
+        order = np.argsort(cells, kind="stable")
+        cells, ids = cells[order], ids[order]
+        counts = np.bincount(cells, minlength=mesh.n_cells)
+        start = np.cumsum(counts) - counts
+        out = np.full((mesh.n_cells, int(counts.max(initial=1))), -1, dtype=np.int64)
+        out[cells, np.arange(len(cells)) - start[cells]] = ids
+        return out
+
+    return mesh.cached("cell_faces", compute)
+
+
+def _opposite(vertices: np.ndarray, candidates: np.ndarray, entry: np.ndarray):
+    """Per row, the one candidate face sharing no vertex with ``entry``, and whether unique."""
+    ein = vertices[entry]
+    found = np.full(len(entry), -1, dtype=np.int64)
+    count = np.zeros(len(entry), dtype=np.int64)
+    width = vertices.shape[1]
+    for j in range(candidates.shape[1]):
+        fj = candidates[:, j]
+        valid = (fj >= 0) & (fj != entry)
+        vj = vertices[np.where(valid, fj, entry)]
+        share = np.zeros(len(entry), dtype=bool)
+        for a in range(width):
+            for b in range(width):
+                share |= vj[:, a] == ein[:, b]
+        disjoint = valid & ~share
+        count += disjoint
+        found = np.where(disjoint & (found < 0), fj, found)
+    return found, count == 1
+
+
+def _extent(mesh: "Mesh", cells: np.ndarray, origin: np.ndarray, normal: np.ndarray) -> np.ndarray:
+    """Largest distance of each cell's vertices from ``origin`` along unit ``normal`` (m)."""
+    out = np.zeros(len(cells))
+    for block in mesh.cell_blocks:
+        sel = np.flatnonzero((cells >= block.start) & (cells < block.stop))
+        if sel.size == 0:
+            continue
+        pts = mesh.points[block.connectivity[cells[sel] - block.start]]
+        d = np.einsum("ikj,ij->ik", pts - origin[sel][:, None, :], normal[sel])
+        out[sel] = d.max(axis=1)
+    return out
+
+
+def _unit_normals(mesh: "Mesh", faces: np.ndarray, sign: np.ndarray) -> np.ndarray:
+    s = mesh.face_area_vectors[faces]
+    area = mesh.face_areas[faces]
+    return s * (sign / np.where(area > 0, area, 1.0))[:, None]
+
+
+def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
+          max_cells: int) -> WallLayers:
+    """March every stack one cell per step (see the module docstring)."""
+    n = len(faces)
+    owner, neighbour, vertices = mesh.owner, mesh.neighbour, mesh.faces
+    xf, areas = mesh.face_centroids, mesh.face_areas
+    width = np.sqrt(areas) if mesh.dim == 3 else areas
+    by_cell = cell_faces(mesh)
+    cos_turn = math.cos(math.radians(turn_deg))
+
+    cells0 = owner[faces]
+    n_wall = _unit_normals(mesh, faces, -np.ones(n))      # area vectors point out of the domain
+    centre = np.einsum("ij,ij->i", mesh.cell_centroids[cells0] - xf[faces], n_wall)
+    first = _extent(mesh, cells0, xf[faces], n_wall)
+    layered_first = np.zeros(n, dtype=bool)
+
+    columns: list[np.ndarray] = []
+    n_walked = np.zeros(n, dtype=np.int64)
+    n_layers = np.zeros(n, dtype=np.int64)
+    in_stack = np.ones(n, dtype=bool)
+    end = np.full(n, END_LIMIT, dtype=np.int8)
+    core_cell = np.full(n, -1, dtype=np.int64)
+    core_origin = np.zeros((n, 3))
+    core_normal = np.zeros((n, 3))
+
+    act, cell, entry, nin = np.arange(n), cells0.copy(), faces.copy(), n_wall.copy()
+    for step in range(max_cells):
+        if act.size == 0:
+            break
+        opp, shaped = _opposite(vertices, by_cell[cell], entry)
+        opp = np.where(shaped, opp, entry)
+        mine = owner[opp] == cell
+        nout = _unit_normals(mesh, opp, np.where(mine, 1.0, -1.0))
+        h = np.einsum("ij,ij->i", xf[opp] - xf[entry], nin)
+        straight = np.einsum("ij,ij->i", nout, n_wall[act]) >= cos_turn
+        ok = shaped & straight & (h > 0)
+        thin = ok & (h < max_aspect * width[entry])
+        if step == 0:
+            first[ok] = h[ok]
+            layered_first[ok] = True
+        column = np.zeros(n)
+        column[act[ok]] = h[ok]
+        columns.append(column)
+        n_walked[act[ok]] += 1
+
+        stacking = in_stack[act]
+        n_layers[act[stacking & thin]] += 1
+        stops = stacking & ~thin
+        reason = np.where(~shaped | (ok & ~thin), END_CORE,
+                          np.where(~straight, END_TURN, END_DEGENERATE))
+        if step == 0:
+            reason[:] = NO_STACK
+        end[act[stops]] = reason[stops]
+        at_core = stops & (reason == END_CORE)
+        core_cell[act[at_core]] = cell[at_core]
+        core_origin[act[at_core]] = xf[entry[at_core]]
+        core_normal[act[at_core]] = nin[at_core]
+        in_stack[act[stops]] = False
+
+        on_boundary = ok & (neighbour[opp] < 0)
+        closing = stacking & thin & on_boundary
+        end[act[closing]] = END_BOUNDARY
+        in_stack[act[closing]] = False
+        go = ok & ~on_boundary
+        nxt = np.where(mine, neighbour[opp], owner[opp])
+        act, cell, entry, nin = act[go], nxt[go], opp[go], nout[go]
+
+    heights = np.column_stack(columns) if columns else np.zeros((n, 0))
+    depth = np.arange(heights.shape[1])[None, :]
+    in_layers = depth < n_layers[:, None]
+    thickness = np.where(in_layers, heights, 0.0).sum(axis=1)
+    max_growth = np.zeros(n)
+    growth_layer = np.zeros(n, dtype=np.int64)
+    if heights.shape[1] >= 2:
+        pair = in_layers[:, 1:]                       # layer k+1 (and so k) inside the stack
+        ratio = np.where(pair, heights[:, 1:] / np.where(pair, heights[:, :-1], 1.0), 0.0)
+        at = np.argmax(ratio, axis=1)
+        max_growth = ratio[np.arange(n), at]
+        growth_layer = np.where(max_growth > 0, at + 2, 0)
+    core_jump = np.zeros(n)
+    has_core = np.flatnonzero(core_cell >= 0)
+    if has_core.size:
+        core_h = _extent(mesh, core_cell[has_core], core_origin[has_core], core_normal[has_core])
+        last = heights[has_core, n_layers[has_core] - 1]
+        core_jump[has_core] = core_h / last
+    return WallLayers(faces, cells0, n_wall, centre, first, layered_first, n_layers, n_walked,
+                      heights, thickness, max_growth, growth_layer, end, core_cell, core_jump)
