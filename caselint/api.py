@@ -1,0 +1,111 @@
+"""The one entry point the command line and the tests use: lint case files into a report."""
+
+from __future__ import annotations
+
+import datetime as dt
+import difflib
+from pathlib import Path
+from typing import TYPE_CHECKING, Iterable
+
+from caselint import __version__
+from caselint.engine.plugins import get_plugin_manager
+from caselint.engine.registry import collect_rule_set_files, collect_rules
+from caselint.engine.rulesets import Selection, select_rules
+from caselint.engine.runner import run_case
+from caselint.errors import CaseFileError, MeshReadError
+from caselint.model import CaseReport, Report
+
+if TYPE_CHECKING:
+    import pluggy
+
+    from caselint.manifest.case import Case
+    from caselint.mesh.model import Mesh
+
+
+def load_case(path: str | Path) -> "Case":
+    """Read and validate a case file (units converted to SI)."""
+    from caselint.manifest.loader import load_case as _load
+
+    return _load(Path(path))
+
+
+def load_case_mesh(case: "Case") -> "Mesh":
+    """Read the case's mesh in metres and check that its named boundary groups exist.
+
+    :raises CaseFileError: the mesh cannot be read, or a boundary named in the case file is
+        not in the mesh; the message points at the case-file key.
+    """
+    from caselint.mesh import read_mesh
+
+    spec = case.mesh
+    try:
+        mesh = read_mesh(spec.file, scale_to_m=spec.scale_to_m, tag_array=spec.tag_array,
+                         tags=dict(spec.tags) or None)
+    except MeshReadError as exc:
+        raise CaseFileError(str(case.path), f"cannot read the mesh: {exc}",
+                            line=case.line_of("mesh.file"), key="mesh.file") from exc
+    for name in sorted(spec.boundaries):
+        if name not in mesh.group_names:
+            close = difflib.get_close_matches(name, mesh.group_names, n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            known = ", ".join(mesh.group_names) or "none"
+            key = f"mesh.boundaries.{name}"
+            raise CaseFileError(str(case.path), f"boundary group {name!r} is not in the mesh "
+                                f"{spec.file.name}{hint}; the mesh has: {known}",
+                                line=case.line_of(key), key=key)
+    return mesh
+
+
+def select_for_case(
+    case: "Case", pm: "pluggy.PluginManager", rule_sets: Iterable[str] | None = None
+) -> Selection:
+    """The rules (with limits) and checklist a case runs under.
+
+    ``rule_sets`` from the command line replace the case file's ``checks.rule_sets``.
+    """
+    names = tuple(rule_sets) if rule_sets else case.checks.rule_sets
+    rules = collect_rules(pm)
+    known_rules = set(rules)
+    for i, waiver in enumerate(case.checks.waivers):
+        if waiver.rule not in known_rules:
+            close = difflib.get_close_matches(waiver.rule, sorted(known_rules), n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            key = f"checks.waivers[{i}].rule"
+            raise CaseFileError(str(case.path), f"waiver names unknown rule {waiver.rule!r}{hint}",
+                                line=case.line_of(key), key=key)
+    return select_rules(names, collect_rule_set_files(pm), rules, case.checks.rules,
+                        case_file=str(case.path), case_lines=case.lines)
+
+
+def lint_case(
+    path: str | Path,
+    *,
+    rule_sets: Iterable[str] | None = None,
+    pm: "pluggy.PluginManager | None" = None,
+    today: dt.date | None = None,
+) -> CaseReport:
+    """Check one case file and return its report.
+
+    :raises UsageError: bad case file, rule set or mesh; the message names file, line and key.
+    """
+    pm = pm if pm is not None else get_plugin_manager()
+    case = load_case(path)
+    selection = select_for_case(case, pm, rule_sets)
+    needs_mesh = any("mesh" in a.rule.needs for a in selection.rules)
+    mesh = load_case_mesh(case) if needs_mesh else None
+    return run_case(case, selection.rules, lambda: mesh if mesh is not None else load_case_mesh(case),
+                    label=str(path), rule_sets=selection.rule_sets, today=today)
+
+
+def lint(
+    paths: Iterable[str | Path],
+    *,
+    rule_sets: Iterable[str] | None = None,
+    pm: "pluggy.PluginManager | None" = None,
+    today: dt.date | None = None,
+) -> Report:
+    """Check several case files; stops at the first bad input (see :func:`lint_case`)."""
+    pm = pm if pm is not None else get_plugin_manager()
+    rule_sets = tuple(rule_sets) if rule_sets else None
+    cases = tuple(lint_case(p, rule_sets=rule_sets, pm=pm, today=today) for p in paths)
+    return Report(cases=cases, caselint_version=__version__, rule_sets=rule_sets or ())

@@ -1,0 +1,14 @@
+"""Registers the rule sets shipped with caselint (``rules/*.yaml``) as a built-in plugin."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.resources import shipped_dir
+
+
+@hookimpl
+def caselint_register_rule_sets() -> list[Path]:
+    """The shipped rule-set files, sorted by name."""
+    return sorted(shipped_dir("rules").glob("*.yaml"))

@@ -1,0 +1,71 @@
+"""Grade a rule's measurements against its limits and word the findings."""
+
+from __future__ import annotations
+
+from caselint.model import SEVERITY_RANK, Limits, Measurement, Rule
+
+
+def grade(value: float, limits: Limits, worse: str) -> str | None:
+    """The severity a measured value earns ("error", "warning"), or None when it passes."""
+    if worse == "higher":
+        crossed = lambda limit: limit is not None and value > limit  # noqa: E731
+    else:
+        crossed = lambda limit: limit is not None and value < limit  # noqa: E731
+    if crossed(limits.error):
+        return "error"
+    if crossed(limits.warn):
+        return "warning"
+    return None
+
+
+def cap(severity: str | None, max_severity: str | None) -> str | None:
+    """Lower a severity to the rule set's ceiling for the rule, if it sets one."""
+    if severity is None or max_severity is None:
+        return severity
+    return max_severity if SEVERITY_RANK[severity] > SEVERITY_RANK[max_severity] else severity
+
+
+def worst(values: list[float], worse: str) -> float:
+    """The extreme value in the rule's bad direction."""
+    return max(values) if worse == "higher" else min(values)
+
+
+def limit_for(severity: str | None, limits: Limits) -> float | None:
+    """The limit a graded value crossed; for a pass, the first limit it would cross."""
+    if severity == "error":
+        return limits.error
+    if severity == "warning":
+        return limits.warn
+    return limits.warn if limits.warn is not None else limits.error
+
+
+def number(value: float) -> str:
+    """A measured value for a sentence: four significant digits, no exponent where avoidable."""
+    if value == int(value) and abs(value) < 1e9:
+        return str(int(value))
+    text = f"{value:.4g}"
+    return text
+
+
+def with_unit(value: float, unit: str) -> str:
+    """``78.2 deg``, ``1.45`` (no unit), ``12 cells``."""
+    return f"{number(value)} {unit}".rstrip()
+
+
+def message(rule: Rule, m: Measurement, severity: str, limit: float | None) -> str:
+    """The finding's sentence: what was measured, where, against which limit, and detail."""
+    what = m.label or rule.measures or rule.title
+    unit = m.unit if m.unit is not None else rule.unit
+    scope = ""
+    if m.where.boundary:
+        scope = f" on boundary '{m.where.boundary}'"
+    elif m.where.region:
+        scope = f" in region '{m.where.region}'"
+    grade_word = "error" if severity == "error" else "warning"
+    relation = "above" if (m.worse or rule.worse) == "higher" else "below"
+    text = f"{what}{scope} is {with_unit(m.value, unit)}"
+    if limit is not None:
+        text += f", {relation} the {grade_word} limit {with_unit(limit, unit)}"
+    if m.detail:
+        text += f"; {m.detail}"
+    return text

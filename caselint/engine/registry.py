@@ -1,0 +1,93 @@
+"""Collect what plugins register (rules, rule sets, reporters) and index it by id.
+
+Each ``caselint_register_*`` implementation is called on its own so that every item can
+be traced to the plugin that added it: a duplicate id is an error naming both plugins,
+and ``caselint plugins`` can say what each plugin adds. Results are sorted by id; the
+order in which pluggy calls plugins never shows in the output.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Callable
+
+import pluggy
+
+from caselint.errors import PluginLoadError
+from caselint.model import Rule
+
+if TYPE_CHECKING:
+    from caselint.report.base import Reporter
+
+
+def _collect(
+    pm: pluggy.PluginManager, hook_name: str, what: str, key: Callable[[Any], str]
+) -> dict[str, tuple[Any, str]]:
+    """Call every implementation of ``hook_name``; map each item's id to (item, plugin)."""
+    found: dict[str, tuple[Any, str]] = {}
+    for impl in getattr(pm.hook, hook_name).get_hookimpls():
+        try:
+            items = impl.function() or []
+        except Exception as exc:  # a pack's registration code is outside our control
+            raise PluginLoadError(
+                f"plugin {impl.plugin_name!r} failed in {hook_name} ({type(exc).__name__}: {exc})"
+            ) from exc
+        for item in items:
+            item_id = key(item)
+            if item_id in found:
+                raise PluginLoadError(
+                    f"{what} {item_id!r} is registered twice: by plugin {found[item_id][1]!r} "
+                    f"and by plugin {impl.plugin_name!r}"
+                )
+            found[item_id] = (item, impl.plugin_name)
+    return dict(sorted(found.items()))
+
+
+def _rule_id(rule: Any) -> str:
+    if not isinstance(rule, Rule):
+        raise PluginLoadError(f"caselint_register_rules returned {rule!r}, not a caselint Rule")
+    return rule.id
+
+
+def _rules_with_origin(pm: pluggy.PluginManager) -> dict[str, tuple[Rule, str]]:
+    return _collect(pm, "caselint_register_rules", "rule", _rule_id)
+
+
+def collect_rules(pm: pluggy.PluginManager) -> dict[str, Rule]:
+    """Every registered rule by id, sorted by id."""
+    return {rule_id: rule for rule_id, (rule, _) in _rules_with_origin(pm).items()}
+
+
+def rule_origins(pm: pluggy.PluginManager) -> dict[str, str]:
+    """The plugin name that registered each rule id."""
+    return {rule_id: origin for rule_id, (_, origin) in _rules_with_origin(pm).items()}
+
+
+def collect_reporters(pm: pluggy.PluginManager) -> dict[str, "Reporter"]:
+    """Every registered output format by name, sorted by name."""
+    found = _collect(pm, "caselint_register_reporters", "output format", lambda r: r.name)
+    return {name: reporter for name, (reporter, _) in found.items()}
+
+
+def collect_rule_set_files(pm: pluggy.PluginManager) -> dict[str, Path]:
+    """Every registered rule-set file by set name (the file stem), sorted by name."""
+    found = _collect(pm, "caselint_register_rule_sets", "rule set", lambda p: Path(p).stem)
+    return {name: Path(path) for name, (path, _) in found.items()}
+
+
+def contributions(pm: pluggy.PluginManager) -> dict[str, dict[str, list[str]]]:
+    """For each kind (rules, reporters, rule_sets), the ids each plugin adds."""
+    kinds = {
+        "rules": _collect(pm, "caselint_register_rules", "rule", _rule_id),
+        "reporters": _collect(pm, "caselint_register_reporters", "output format", lambda r: r.name),
+        "rule_sets": _collect(
+            pm, "caselint_register_rule_sets", "rule set", lambda p: Path(p).stem
+        ),
+    }
+    out: dict[str, dict[str, list[str]]] = {}
+    for kind, found in kinds.items():
+        per_plugin: dict[str, list[str]] = {}
+        for item_id, (_, plugin_name) in found.items():
+            per_plugin.setdefault(plugin_name, []).append(item_id)
+        out[kind] = per_plugin
+    return out

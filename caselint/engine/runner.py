@@ -1,0 +1,185 @@
+"""Run the selected rules on one case: grade, apply waivers, build the case report.
+
+A rule that raises is reported as an ``error`` outcome with an internal-error finding for
+that rule; the other rules still run. Bad input found while a rule runs (a mesh that
+cannot be read) is not a rule fault: it propagates as a :class:`UsageError`.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import functools
+import os
+import traceback
+from typing import TYPE_CHECKING, Callable
+
+from caselint.engine import grading
+from caselint.engine.context import RuleContext
+from caselint.engine.rulesets import ActiveRule
+from caselint.engine.safety import finding_caution, safety_note
+from caselint.errors import UsageError
+from caselint.model import SEVERITY_RANK, CaseReport, Check, Finding, Measurement, RuleResult, Where
+
+if TYPE_CHECKING:
+    from caselint.manifest.case import Case, Waiver
+    from caselint.mesh.model import Mesh
+
+
+def _matching_waiver(
+    rule_id: str, where: Where, waivers: "tuple[Waiver, ...]", today: dt.date
+) -> "Waiver | None":
+    """The first unexpired waiver of this rule whose scope (if any) covers ``where``."""
+    for waiver in waivers:
+        if waiver.rule != rule_id or waiver.expires < today:
+            continue
+        if waiver.boundary is not None and waiver.boundary != where.boundary:
+            continue
+        if waiver.region is not None and waiver.region != where.region:
+            continue
+        return waiver
+    return None
+
+
+def _with_line(where: Where, case: "Case") -> Where:
+    if where.key is None or where.line is not None:
+        return where
+    from dataclasses import replace
+
+    return replace(where, line=case.line_of(where.key))
+
+
+def _crash(active: ActiveRule, exc: BaseException, case: "Case") -> tuple[Check, Finding]:
+    rule = active.rule
+    last = traceback.extract_tb(exc.__traceback__)[-1] if exc.__traceback__ else None
+    at = f" at {last.filename}:{last.lineno}" if last else ""
+    reason = f"internal error in rule: {type(exc).__name__}: {exc}{at}"
+    check = Check(rule.id, rule.title, "error", "error", None, None, rule.unit, reason,
+                  active.limits)
+    finding = Finding(
+        rule=rule.id, severity="error", message=f"the rule could not run: {reason}",
+        measured=None, limit=None, unit=rule.unit, where=Where(), source=rule.source,
+        hint="This is a fault in the rule, not in the case: report it to the rule's author "
+             "(see `caselint plugins`); the other rules ran normally.",
+        safety=finding_caution(case.info.safety),
+    )
+    return check, finding
+
+
+def _grade(
+    active: ActiveRule, result: RuleResult, case: "Case", today: dt.date
+) -> tuple[Check, list[Finding]]:
+    rule, limits = active.rule, active.limits
+    caution = finding_caution(case.info.safety)
+    findings = [
+        Finding(rule.id, "note", n.message, None, None, rule.unit, _with_line(n.where, case),
+                rule.hint, rule.source, safety=caution)
+        for n in result.notes
+    ]
+    if result.skipped is not None:
+        check = Check(rule.id, rule.title, "skipped", None, None, None, rule.unit,
+                      result.skipped, limits)
+        return check, findings
+    worst_open: str | None = None
+    worst_waived: str | None = None
+    graded: list[tuple[Measurement, str | None]] = []
+    for m in result.measurements:
+        m_limits = m.limits or limits
+        severity = grading.cap(grading.grade(m.value, m_limits, m.worse or rule.worse),
+                               active.max_severity)
+        graded.append((m, severity))
+        if severity is None:
+            continue
+        where = _with_line(m.where, case)
+        limit = grading.limit_for(severity, m_limits)
+        waiver = _matching_waiver(rule.id, where, case.checks.waivers, today)
+        findings.append(Finding(
+            rule=rule.id, severity=severity, message=grading.message(rule, m, severity, limit),
+            measured=m.value, limit=limit, unit=m.unit if m.unit is not None else rule.unit,
+            where=where, hint=m.fix or rule.hint, source=rule.source, waived=waiver is not None,
+            waiver=(f"waived by {waiver.approved_by} until {waiver.expires}: {waiver.reason}"
+                    if waiver else ""),
+            safety=caution,
+        ))
+        if waiver is None:
+            worst_open = _more_severe(worst_open, severity)
+        else:
+            worst_waived = _more_severe(worst_waived, severity)
+    deciding, deciding_severity = _deciding(graded, rule.worse)
+    if worst_open is not None:
+        outcome, severity = "fail", worst_open
+    elif worst_waived is not None:
+        outcome, severity = "waived", worst_waived
+    else:
+        outcome, severity = "pass", None
+    d_limits = deciding.limits or limits
+    check = Check(rule.id, rule.title, outcome, severity, deciding.value,
+                  grading.limit_for(deciding_severity, d_limits),
+                  deciding.unit if deciding.unit is not None else rule.unit, "", d_limits)
+    return check, findings
+
+
+def _deciding(
+    graded: list[tuple[Measurement, str | None]], worse: str
+) -> tuple[Measurement, str | None]:
+    """The measurement a check reports: the most severe; among equals, the worst value of
+    those on the rule's own scale, else the first one the rule gave."""
+    top = max(-1 if s is None else SEVERITY_RANK[s] for _, s in graded)
+    tied = [(m, s) for m, s in graded if (-1 if s is None else SEVERITY_RANK[s]) == top]
+    own = [(m, s) for m, s in tied if not m.own_scale]
+    if not own:
+        return tied[0]
+    values = [m.value for m, _ in own]
+    pick = values.index(grading.worst(values, worse))
+    return own[pick]
+
+
+def _more_severe(a: str | None, b: str) -> str:
+    return b if a is None or SEVERITY_RANK[b] > SEVERITY_RANK[a] else a
+
+
+def _sort_findings(findings: list[Finding]) -> tuple[Finding, ...]:
+    return tuple(sorted(findings, key=lambda f: (-SEVERITY_RANK[f.severity], f.rule, f.message)))
+
+
+def run_case(
+    case: "Case",
+    active_rules: tuple[ActiveRule, ...],
+    load_mesh: "Callable[[], Mesh]",
+    *,
+    label: str | None = None,
+    rule_sets: tuple[str, ...] = (),
+    today: dt.date | None = None,
+) -> CaseReport:
+    """Run every active rule on ``case`` and collect checks and findings, sorted.
+
+    ``label`` is how the report names the case file (the path as the user gave it).
+    """
+    today = today or dt.date.today()
+    mesh_once = functools.lru_cache(maxsize=1)(load_mesh)
+    checks: list[Check] = []
+    findings: list[Finding] = []
+    for active in sorted(active_rules, key=lambda a: a.rule.id):
+        ctx = RuleContext(case=case, limits=active.limits, params=dict(active.params),
+                          today=today, _load_mesh=mesh_once)
+        try:
+            result = active.rule.check(ctx)
+            if not isinstance(result, RuleResult):
+                raise TypeError(f"rule returned {type(result).__name__}, not RuleResult")
+            check, found = _grade(active, result, case, today)
+        except UsageError:
+            raise
+        except Exception as exc:  # a rule's fault must not stop the other rules
+            check, crash = _crash(active, exc, case)
+            found = [crash]
+        checks.append(check)
+        findings.extend(found)
+    return CaseReport(
+        case=label if label is not None else str(case.path),
+        name=case.info.name,
+        safety=case.info.safety,
+        checks=tuple(checks),
+        findings=_sort_findings(findings),
+        safety_note=safety_note(case.info.safety),
+        mesh=os.path.relpath(case.mesh.file, case.path.parent),
+        rule_sets=rule_sets,
+    )
