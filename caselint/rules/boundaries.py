@@ -1,0 +1,112 @@
+"""Built-in boundary rules: every exposed face must belong to a boundary group with a role.
+
+A face on the outside of the mesh that no group names, or a group the case file gives no
+role (``mesh.boundaries``), would get whatever default condition the solver applies,
+usually a no-slip wall, silently. Groups the case names but the mesh lacks are a
+case-file error raised by the engine, not a finding of this rule.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
+from caselint.rules.mesh_quality import finite_point, plural
+
+if TYPE_CHECKING:
+    from caselint.engine.context import RuleContext
+    from caselint.mesh.model import Mesh
+
+
+def _faces_where(mesh: "Mesh", faces: np.ndarray, boundary: str | None = None) -> Where:
+    """Where listing the first faces (lowest ids), their cells, and a point on the first."""
+    faces = np.sort(faces)
+    listed = faces[:MAX_LISTED_IDS]
+    cells = np.unique(mesh.owner[faces])
+    point = finite_point(mesh.face_centroids[listed[0]]) if listed.size else None
+    return Where(
+        boundary=boundary,
+        faces=tuple(int(f) for f in listed),
+        face_count=int(faces.size),
+        cells=tuple(int(c) for c in cells[:MAX_LISTED_IDS]),
+        cell_count=int(cells.size),
+        point=point,
+    )
+
+
+def check_unassigned_boundary(ctx: "RuleContext") -> RuleResult:
+    """Exposed faces in no group, and mesh groups with no role in the case file."""
+    mesh = ctx.mesh
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    roles = ctx.case.mesh.boundaries
+    exposed = mesh.boundary_faces
+    ungrouped = exposed[mesh.face_group[exposed] < 0]
+    n_exposed = int(exposed.size)
+
+    if ungrouped.size:
+        detail = (f"{ungrouped.size} of {plural(n_exposed, 'exposed face')} in no boundary group; "
+                  f"first at cell {int(mesh.owner[np.min(ungrouped)])}")
+        fix = ("Name these faces in the mesher (a physical group, zone or patch) and give the "
+               "group a role under mesh.boundaries in the case file.")
+    else:
+        detail = f"all {n_exposed} exposed faces belong to a boundary group"
+        fix = ""
+    measurements = [Measurement(value=float(ungrouped.size), where=_faces_where(mesh, ungrouped),
+                                detail=detail, fix=fix)]
+
+    internal_elements = mesh.internal_group_elements
+    for name in sorted(set(mesh.group_names) - set(roles)):
+        faces = np.asarray(mesh.group_faces(name), dtype=np.int64)
+        # a group on internal faces (a baffle or zone interface) needs a role just the same
+        inside = int(internal_elements.get(name, 0))
+        extra = f", {inside} more on internal faces" if inside else ""
+        measurements.append(Measurement(
+            value=float(faces.size + inside),
+            where=_faces_where(mesh, faces, boundary=name),
+            detail=f"group '{name}' ({plural(faces.size, 'exposed face')}{extra}) has no role in "
+                   "the case file",
+            fix=(f"Add '{name}: <role>' under mesh.boundaries in the case file (roles: wall, "
+                 "inlet, outlet, symmetry, periodic, opening, interface), or remove the group "
+                 "from the mesh if it is not a boundary."),
+        ))
+
+    notes = tuple(
+        Note(message=(f"group '{name}' has {count} boundary element{'s' if count != 1 else ''} "
+                      "matching no face of a volume cell, ignored (check the mesh export)"),
+             where=Where(boundary=name))
+        for name, count in sorted(mesh.unmatched_group_elements.items()) if count
+    )
+    return RuleResult(measurements=tuple(measurements), notes=notes)
+
+
+UNASSIGNED_BOUNDARY = Rule(
+    id="unassigned-boundary",
+    title="Boundary faces without a role",
+    rationale=(
+        "Every face on the outside of the mesh needs a boundary condition. Faces that belong "
+        "to no named group, and groups the case file gives no role, are left to the solver's "
+        "default (often a no-slip wall), which silently changes the problem: a forgotten "
+        "outlet becomes a wall. One such face is an error (common practice)."
+    ),
+    source="common practice",
+    unit="faces",
+    limits=Limits(warn=None, error=0),
+    hint=("Put every exposed face in a named group in the mesher and give each group a role "
+          "under mesh.boundaries in the case file."),
+    check=check_unassigned_boundary,
+    needs=("mesh", "mesh.boundaries"),
+    # one measurement for exposed faces in no group, one per group without a role
+    measures="number of boundary faces without a role",
+)
+
+RULES: tuple[Rule, ...] = (UNASSIGNED_BOUNDARY,)
+
+
+@hookimpl
+def caselint_register_rules() -> list[Rule]:
+    """The built-in boundary rules."""
+    return list(RULES)

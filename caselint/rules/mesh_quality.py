@@ -1,0 +1,341 @@
+"""Built-in mesh-quality rules: inverted cells, non-orthogonality, skewness, aspect ratio, growth.
+
+Each rule reads one metric of :mod:`caselint.mesh.quality` (vectorised, cached on the mesh)
+and reports its extreme value, how many cells or faces are past the warning limit, the
+worst few ids (worst first) and a point at the worst one. Cell ids are those of the mesh
+file (volume cells in file order); face ids are caselint's own numbering, so each finding
+also names the cells on either side of its worst faces.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.mesh import quality
+from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
+
+if TYPE_CHECKING:
+    from caselint.engine.context import RuleContext
+    from caselint.mesh.model import Mesh
+
+_VERDICT = "Verdict geometric quality library (Stimpson et al., SAND2007-1751, 2007)"
+_FV_BOOKS = (
+    "Jasak 1996 (PhD thesis, Imperial College); Ferziger & Peric 2002; Moukalled et al. 2016"
+)
+
+
+# -- locating the worst entities (shared with caselint.rules.boundaries) -----------------
+
+
+def worst_ids(values: np.ndarray, threshold: float | None,
+              worse: str = "higher") -> tuple[np.ndarray, int]:
+    """Ids past ``threshold`` (worst first, ties by id, at most 10) and how many there are.
+
+    ``threshold`` None counts nothing but still lists the single worst id.
+    """
+    sign = 1.0 if worse == "higher" else -1.0
+    badness = sign * values
+    if threshold is None:
+        count = 0
+        candidates = np.arange(values.size)
+    else:
+        candidates = np.flatnonzero(badness > sign * threshold)
+        count = int(candidates.size)
+        if count == 0:
+            candidates = np.arange(values.size)
+    if candidates.size == 0:
+        return np.empty(0, dtype=np.int64), 0
+    keep = MAX_LISTED_IDS if count else 1
+    cand_bad = badness[candidates]
+    if candidates.size > keep:
+        # every candidate at least as bad as the keep-th worst, so ties are resolved by id
+        kth = np.partition(cand_bad, candidates.size - keep)[candidates.size - keep]
+        sel = cand_bad >= kth
+        candidates, cand_bad = candidates[sel], cand_bad[sel]
+    order = np.lexsort((candidates, -cand_bad))
+    return candidates[order][:keep].astype(np.int64), count
+
+
+def plural(count: int, noun: str) -> str:
+    """``1 face``, ``3 faces``."""
+    return f"{count} {noun}" if count == 1 else f"{count} {noun}s"
+
+
+def finite_point(xyz: np.ndarray) -> tuple[float, float, float] | None:
+    """A point as a plain tuple, or None when a damaged entity has no finite centroid."""
+    if not np.all(np.isfinite(xyz)):
+        return None
+    return (float(xyz[0]), float(xyz[1]), float(xyz[2]))
+
+
+def _cells_of_faces(mesh: "Mesh", faces: np.ndarray) -> np.ndarray:
+    """Cells on either side of ``faces`` (owner then neighbour), first appearance order."""
+    pairs = np.stack([mesh.owner[faces], mesh.neighbour[faces]], axis=1).ravel()
+    pairs = pairs[pairs >= 0]
+    _, first = np.unique(pairs, return_index=True)
+    return pairs[np.sort(first)]
+
+
+def _face_where(mesh: "Mesh", values: np.ndarray, limits: Limits, faces_considered: np.ndarray):
+    """Where of a face metric over ``faces_considered``, plus (worst face, offender count)."""
+    threshold = limits.warn if limits.warn is not None else limits.error
+    local, count = worst_ids(values[faces_considered], threshold)
+    listed = faces_considered[local]
+    worst = int(listed[0])
+    if count:
+        offenders = faces_considered[values[faces_considered] > threshold]
+        touching = np.concatenate([mesh.owner[offenders], mesh.neighbour[offenders]])
+        cell_count = int(np.unique(touching[touching >= 0]).size)  # -1 is no cell
+    else:
+        cell_count = 0
+    cells = _cells_of_faces(mesh, listed)[:MAX_LISTED_IDS]
+    where = Where(
+        faces=tuple(int(f) for f in listed) if count else (),
+        face_count=count,
+        cells=tuple(int(c) for c in cells) if count else (),
+        cell_count=cell_count,
+        point=finite_point(mesh.face_centroids[worst]),
+    )
+    return where, worst, count
+
+
+def _face_place(mesh: "Mesh", face: int) -> str:
+    """Plain words for where a face is: between two cells, or on a boundary."""
+    owner, neighbour = int(mesh.owner[face]), int(mesh.neighbour[face])
+    if neighbour >= 0:
+        return f"between cells {owner} and {neighbour}"
+    group = int(mesh.face_group[face])
+    name = f" '{mesh.group_names[group]}'" if group >= 0 else ""
+    return f"on boundary{name} at cell {owner}"
+
+
+def _nonfinite_skip(values: np.ndarray, what: str) -> RuleResult | None:
+    """Skip (instead of reporting NaN) when a damaged mesh gives a non-finite metric."""
+    if np.all(np.isfinite(values)):
+        return None
+    n = int(np.count_nonzero(~np.isfinite(values)))
+    return RuleResult.skip(
+        f"{what} is not finite on {n} entities (degenerate geometry); fix inverted or "
+        "collapsed cells first (see inverted-cells)"
+    )
+
+
+def _face_rule_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray, what: str,
+                      unit_words: str, fmt: str) -> RuleResult:
+    """Measurement of the maximum of a face metric, with the offending faces located."""
+    mesh = ctx.mesh
+    skip = _nonfinite_skip(values[faces], what)
+    if skip is not None:
+        return skip
+    where, worst, count = _face_where(mesh, values, ctx.limits, faces)
+    value = float(values[worst])
+    threshold = ctx.limits.warn if ctx.limits.warn is not None else ctx.limits.error
+    if count:
+        lead = f"{plural(count, 'face')} above {threshold:g}{unit_words}, worst"
+    else:
+        lead = f"no face above the limit; largest {format(value, fmt)}{unit_words}"
+    return RuleResult(measurements=(
+        Measurement(value=value, where=where, detail=f"{lead} {_face_place(mesh, worst)}"),
+    ))
+
+
+def _no_cells(mesh: "Mesh") -> RuleResult | None:
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    return None
+
+
+# -- checks ------------------------------------------------------------------------------
+
+
+def check_inverted_cells(ctx: "RuleContext") -> RuleResult:
+    """Count cells with a non-positive volume or a negative corner Jacobian."""
+    mesh = ctx.mesh
+    if (skip := _no_cells(mesh)) is not None:
+        return skip
+    volumes = mesh.cell_volumes
+    corner = quality.min_corner_jacobian(mesh)
+    scaled = quality.scaled_jacobian(mesh)
+    bad = (volumes <= 0.0) | (corner < 0.0)
+    bad_ids = np.flatnonzero(bad)
+    count = int(bad_ids.size)
+    # worst first: the most negative scaled Jacobian, then the smallest volume
+    order = np.lexsort((bad_ids, volumes[bad_ids], scaled[bad_ids]))
+    listed = bad_ids[order][:MAX_LISTED_IDS]
+    if count:
+        worst = int(listed[0])
+        detail = (f"{plural(count, 'cell')} inverted or folded, worst cell {worst} "
+                  f"(volume {volumes[worst]:.3g} m^3, scaled Jacobian {scaled[worst]:.3g})")
+    else:
+        worst = int(np.argmin(scaled))  # first of equal minima: the lowest id
+        detail = f"no inverted cells; lowest scaled Jacobian {scaled[worst]:.3g} in cell {worst}"
+    where = Where(cells=tuple(int(c) for c in listed), cell_count=count,
+                  point=finite_point(mesh.cell_centroids[worst]))
+    return RuleResult(measurements=(Measurement(value=float(count), where=where, detail=detail),))
+
+
+def check_non_orthogonality(ctx: "RuleContext") -> RuleResult:
+    """Largest angle between a face's area vector and the line joining the cell centres."""
+    mesh = ctx.mesh
+    if (skip := _no_cells(mesh)) is not None:
+        return skip
+    values = quality.non_orthogonality_deg(mesh)
+    return _face_rule_result(ctx, values, np.arange(mesh.n_faces), "non-orthogonality", " deg",
+                             ".1f")
+
+
+def check_skewness(ctx: "RuleContext") -> RuleResult:
+    """Largest face skewness: centroid offset from where PN crosses the face, over |PN|."""
+    mesh = ctx.mesh
+    if (skip := _no_cells(mesh)) is not None:
+        return skip
+    internal = np.flatnonzero(mesh.neighbour >= 0)
+    if internal.size == 0:
+        return RuleResult.skip("the mesh has no internal faces (a single cell): "
+                               "skewness is undefined")
+    values = quality.skewness(mesh)
+    return _face_rule_result(ctx, values, internal, "skewness", "", ".3g")
+
+
+def check_growth_ratio(ctx: "RuleContext") -> RuleResult:
+    """Largest volume ratio between two cells sharing a face."""
+    mesh = ctx.mesh
+    if (skip := _no_cells(mesh)) is not None:
+        return skip
+    internal = np.flatnonzero(mesh.neighbour >= 0)
+    if internal.size == 0:
+        return RuleResult.skip("the mesh has no internal faces (a single cell): "
+                               "no neighbours to compare")
+    values = quality.growth_ratio(mesh)
+    return _face_rule_result(ctx, values, internal, "growth ratio", "", ".4g")
+
+
+def check_aspect_ratio(ctx: "RuleContext") -> RuleResult:
+    """Largest edge ratio (longest over shortest edge) of any cell."""
+    mesh = ctx.mesh
+    if (skip := _no_cells(mesh)) is not None:
+        return skip
+    values = quality.edge_ratio(mesh)
+    if (skip := _nonfinite_skip(values, "edge ratio")) is not None:
+        return skip
+    threshold = ctx.limits.warn if ctx.limits.warn is not None else ctx.limits.error
+    listed, count = worst_ids(values, threshold)
+    worst = int(listed[0])
+    if count:
+        detail = (f"{plural(count, 'cell')} above {threshold:g}, "
+                  f"worst cell {worst} ({values[worst]:.4g})")
+    else:
+        detail = f"no cell above the limit; largest {values[worst]:.4g} in cell {worst}"
+    where = Where(cells=tuple(int(c) for c in listed) if count else (), cell_count=count,
+                  point=finite_point(mesh.cell_centroids[worst]))
+    measurement = Measurement(value=float(values[worst]), where=where, detail=detail)
+    return RuleResult(measurements=(measurement,))
+
+
+# -- the rules ---------------------------------------------------------------------------
+
+INVERTED_CELLS = Rule(
+    id="inverted-cells",
+    title="Inverted or folded cells",
+    rationale=(
+        "A cell with zero or negative volume, or with a corner whose Jacobian determinant is "
+        "negative (the cell folds over itself), has no meaningful control volume: fluxes and "
+        "gradients on it are wrong in sign or undefined and most solvers stop or diverge. The "
+        "corner Jacobian follows the Verdict definitions (" + _VERDICT + "). A single such cell "
+        "is an error."
+    ),
+    source=_VERDICT,
+    unit="cells",
+    limits=Limits(warn=None, error=0),
+    hint=("Re-mesh or untangle the listed cells: check the node ordering of hand-made blocks, "
+          "collapsed edges, and inflation layers that fold at sharp convex corners."),
+    check=check_inverted_cells,
+    measures="number of inverted or folded cells (non-positive volume or negative corner Jacobian)",
+)
+
+NON_ORTHOGONALITY = Rule(
+    id="non-orthogonality",
+    title="Face non-orthogonality",
+    rationale=(
+        "The angle between a face's area vector S_f and the vector d joining the centres of "
+        "the two cells it separates (on a boundary face, from the cell centre to the face "
+        "centre). Finite-volume diffusion terms use d; when it departs from S_f the "
+        "non-orthogonal correction grows, needs extra iterations and limits stability "
+        "(" + _FV_BOOKS + "). Warning above 70 deg, error above 85 deg: common practice."
+    ),
+    source=_FV_BOOKS + "; limits: common practice",
+    unit="deg",
+    limits=Limits(warn=70.0, error=85.0),
+    hint=("Straighten the cells around the listed faces: reduce shear in swept or sheared "
+          "blocks, align block edges with each other, smooth the mesh near sharp corners."),
+    check=check_non_orthogonality,
+    measures="largest face non-orthogonality (angle between face area vector and cell-centre line)",
+)
+
+SKEWNESS = Rule(
+    id="skewness",
+    title="Face skewness",
+    rationale=(
+        "Where the line joining two cell centres crosses a face at a distance from the face "
+        "centroid, face values interpolated along that line are not face-centred and lose "
+        "accuracy (" + _FV_BOOKS + "). caselint measures |x_f - x_i| / |d|: the distance from "
+        "the face centroid x_f to the crossing point x_i, over the centre distance |d|; 0 is "
+        "ideal, boundary faces are not measured. Warning above 0.5, error above 1.0: common "
+        "practice (a caselint default; tune per solver)."
+    ),
+    source=_FV_BOOKS + "; limits: common practice",
+    unit="",
+    limits=Limits(warn=0.5, error=1.0),
+    hint=("Even out cell sizes and shapes across the listed faces: avoid abrupt jumps in "
+          "block spacing and stretched cells that meet at a kink."),
+    check=check_skewness,
+    measures="largest face skewness (|x_f - x_i| / |d|, internal faces)",
+)
+
+ASPECT_RATIO = Rule(
+    id="aspect-ratio",
+    title="Cell aspect ratio (edge ratio)",
+    rationale=(
+        "The edge ratio of a cell, its longest edge over its shortest (Verdict 'edge ratio', "
+        + _VERDICT + "). Very flat or needle-like cells slow convergence and amplify round-off. "
+        "Wall-layer cells are anisotropic by design (thin normal to the wall, long along it), "
+        "so the limits are loose: warning above 1000, error above 10000 (common practice)."
+    ),
+    source=_VERDICT + "; limits: common practice",
+    unit="",
+    limits=Limits(warn=1000.0, error=10000.0),
+    hint=("Refine along the long edges of the listed cells or thicken the first layer; in "
+          "wall layers high ratios are expected, so only act when they appear away from walls."),
+    check=check_aspect_ratio,
+    measures="largest cell edge ratio (longest over shortest edge)",
+)
+
+GROWTH_RATIO = Rule(
+    id="growth-ratio",
+    title="Volume growth between neighbouring cells",
+    rationale=(
+        "The larger over the smaller volume of two cells sharing a face. Sudden jumps in cell "
+        "size add truncation error and spurious gradients; expansion between neighbours at "
+        "most about 1.3 is common practice (warning above 1.3), and a doubling (above 2.0, "
+        "common practice) is an error. Pairs with a non-positive volume are left to "
+        "inverted-cells."
+    ),
+    source="common practice",
+    unit="",
+    limits=Limits(warn=1.3, error=2.0),
+    hint=("Grade the spacing more gently near the listed faces (smaller expansion ratio, more "
+          "cells), and blend refinement zones over several cells rather than one."),
+    check=check_growth_ratio,
+    measures="largest volume ratio of two neighbouring cells",
+)
+
+RULES: tuple[Rule, ...] = (INVERTED_CELLS, NON_ORTHOGONALITY, SKEWNESS, ASPECT_RATIO, GROWTH_RATIO)
+
+
+@hookimpl
+def caselint_register_rules() -> list[Rule]:
+    """The built-in mesh-quality rules."""
+    return list(RULES)
