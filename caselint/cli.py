@@ -1,0 +1,163 @@
+"""The ``caselint`` command line: parse, call the library, print, map to an exit code.
+
+The commands themselves live in :mod:`caselint.cli_commands`. This module owns the
+argument parser and the one place where errors become messages and exit codes:
+
+- 0 nothing at or above the fail level; 1 findings at or above it;
+- 2 bad input or usage (``caselint: error: ...`` on stderr, never a traceback);
+- 3 an internal error (one line asking for a bug report; the traceback only with
+  ``CASELINT_DEBUG=1``).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import traceback
+from typing import Sequence
+
+from caselint import __version__
+from caselint import cli_commands as commands
+from caselint.errors import ExitCode, UsageError
+
+#: Set to 1 to print the traceback of an internal error.
+DEBUG_ENV = "CASELINT_DEBUG"
+
+_EPILOG = (
+    "exit codes: 0 nothing at or above the fail level, 1 findings at or above it, "
+    "2 bad input or usage, 3 internal error. Colour only on a terminal; NO_COLOR turns it off."
+)
+
+
+def _block_option(parser: argparse.ArgumentParser, dest: str, default: object) -> None:
+    """``-p no:NAME``: do not load the plugin NAME (a built-in module or an installed pack)."""
+    parser.add_argument(
+        "-p", dest=dest, action="append", default=default, metavar="no:NAME",
+        type=_blocked_name,
+        help="do not load plugin NAME (repeatable); `caselint plugins` lists the names",
+    )
+
+
+def _blocked_name(value: str) -> str:
+    if not value.startswith("no:") or not value[3:]:
+        raise argparse.ArgumentTypeError(f"expected no:NAME (a plugin to block), got {value!r}")
+    return value[3:]
+
+
+def _report_options(parser: argparse.ArgumentParser, *, demo: bool = False) -> None:
+    """Options shared by ``check`` and ``demo``: format, output file and fail level."""
+    parser.add_argument("--format", default="text", metavar="NAME",
+                        help="output format: text (default), json, or one a plugin adds")
+    parser.add_argument("--output", "-o", metavar="FILE",
+                        help="write the report to FILE (replaced atomically) instead of stdout")
+    parser.add_argument("--fail-on", choices=("error", "warning"),
+                        default=None if demo else "error",
+                        help=("exit 1 when an unwaived finding is at or above this severity "
+                              "(default for the demo: exit 0 once it has run)") if demo else
+                             ("exit 1 when an unwaived finding is at or above this severity "
+                              "(default: error)"))
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``caselint`` command and its sub-commands."""
+    parser = argparse.ArgumentParser(
+        prog="caselint",
+        description="Check a CFD case (YAML case file and mesh) against set-up guidelines "
+                    "before it is run.",
+        epilog=_EPILOG,
+    )
+    parser.add_argument("--version", action="version", version=f"caselint {__version__}")
+    _block_option(parser, "blocked_global", [])
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+
+    def command(name: str, func, help_text: str) -> argparse.ArgumentParser:
+        p = sub.add_parser(name, help=help_text, description=help_text, epilog=_EPILOG)
+        _block_option(p, "blocked_local", argparse.SUPPRESS)
+        p.set_defaults(func=func)
+        return p
+
+    check = command("check", commands.cmd_check, "check case files and report the findings")
+    check.add_argument("cases", nargs="+", metavar="CASE", help="case file (YAML)")
+    _report_options(check)
+    check.add_argument("--rule-set", action="append", metavar="NAME",
+                       help="use rule set NAME instead of those the case files name "
+                            "(repeatable)")
+
+    demo = command("demo", commands.cmd_demo, "check the example case shipped with caselint")
+    _report_options(demo, demo=True)
+
+    command("rules", commands.cmd_rules, "list the rules with their default limits and sources")
+    explain = command("explain", commands.cmd_explain,
+                      "explain one rule: what it measures, why, its limits and parameters")
+    explain.add_argument("rule", metavar="RULE", help="rule id, as listed by `caselint rules`")
+
+    schema = command("schema", commands.cmd_schema, "print the JSON Schema of the case file")
+    schema.add_argument("--report", action="store_true",
+                        help="print the JSON Schema of `--format json` reports instead")
+    command("plugins", commands.cmd_plugins,
+            "list the loaded plugins, their distributions and what each adds")
+
+    mesh = command("mesh", commands.cmd_mesh,
+                   "summarise a mesh: size, cell types, boundary groups, quality spread")
+    mesh.add_argument("mesh", metavar="MESH", help="mesh file (any format meshio reads)")
+    mesh.add_argument("--units", choices=sorted(commands.LENGTH_UNITS), default="m",
+                      help="length unit of the mesh coordinates (default: m)")
+    mesh.add_argument("--format", choices=("text", "json"), default="text",
+                      help="output format (default: text)")
+
+    init = command("init", commands.cmd_init, "write a starter case file for a mesh")
+    init.add_argument("mesh", metavar="MESH", help="mesh file the case will use")
+    init.add_argument("--output", "-o", metavar="FILE",
+                      help="case file to write (default: case.yaml beside the mesh); "
+                           "an existing file is never overwritten")
+    return parser
+
+
+def _exit_status(code: object) -> int:
+    """argparse's SystemExit code as an int: help and --version give 0, errors 2."""
+    if code is None:
+        return ExitCode.OK
+    return code if isinstance(code, int) else ExitCode.USAGE
+
+
+def _internal_error(exc: BaseException) -> int:
+    """One line asking for a bug report; the traceback only when CASELINT_DEBUG=1."""
+    text = " ".join(str(exc).split()) or "(no message)"
+    commands.message(f"internal error: {type(exc).__name__}: {text}; please report this as "
+                     f"a bug with the command you ran (set {DEBUG_ENV}=1 for the traceback)")
+    if os.environ.get(DEBUG_ENV, "") not in ("", "0"):
+        commands.emit(sys.stderr, "".join(traceback.format_exception(exc)))
+    return ExitCode.INTERNAL
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line with ``argv`` (default: ``sys.argv[1:]``) and return its exit code."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:
+        return _exit_status(exc.code)
+    args.blocked = list(args.blocked_global) + list(getattr(args, "blocked_local", []))
+    try:
+        return int(args.func(args))
+    except UsageError as exc:
+        commands.message(f"error: {exc}")
+        return ExitCode.USAGE
+    except KeyboardInterrupt:
+        commands.message("interrupted")
+        return 130  # the shell's convention for SIGINT
+    except BrokenPipeError:
+        # The reader (head, less) went away. Point stdout at devnull so the interpreter's
+        # final flush stays quiet; the report was not delivered, so do not claim success.
+        try:
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except (AttributeError, OSError, ValueError):
+            pass
+        return ExitCode.FINDINGS
+    except Exception as exc:  # the boundary: anything unexpected becomes exit 3
+        return _internal_error(exc)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

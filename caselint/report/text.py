@@ -1,0 +1,234 @@
+"""The ``text`` output format (the default): a terminal report drawn with rich.
+
+Per case: a header (name, case file, mesh, safety class and caution), a table of checks,
+what was not checked and why, then the findings grouped by severity with where, fix and
+source. The last line counts the outcomes and names the worst severity. Without colour
+(not a TTY, or ``NO_COLOR``) the output is plain text with ASCII rules and table borders,
+so it stays readable in CI logs and when piped.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from io import StringIO
+
+from rich import box
+from rich.cells import cell_len
+from rich.console import Console
+from rich.table import Table
+from rich.text import Text
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.model import OUTCOMES, SEVERITY_RANK, CaseReport, Check, Finding, Report, Where
+from caselint.report.base import RenderOptions, Reporter
+from caselint.report.json_report import check_sort_key, finding_sort_key
+
+#: Narrowest layout drawn; below it the table columns would fold into unreadable slivers.
+MIN_WIDTH = 60
+#: How many of a finding's listed cell or face ids the text shows (the count is in full).
+SHOWN_IDS = 5
+
+_OUTCOME_STYLE = {
+    "pass": "green",
+    "fail": "bold red",
+    "skipped": "yellow",
+    "waived": "magenta",
+    "error": "bold red reverse",
+}
+_SEVERITY_STYLE = {"error": "bold red", "warning": "bold yellow", "note": "cyan"}
+_GROUP_TITLE = {"error": "Errors", "warning": "Warnings", "note": "Notes"}
+
+
+def format_number(value: float | None) -> str:
+    """A measured value or limit with six significant digits; ``-`` when there is none."""
+    if value is None:
+        return "-"
+    text = f"{float(value):.6g}"
+    return "0" if text == "-0" else text
+
+
+def _ids(kind: str, ids: tuple[int, ...], count: int | None) -> str:
+    """``12 cells (ids 3, 9, 40, ...)``: the full count and the first few ids."""
+    n = count if count is not None else len(ids)
+    noun = kind if n != 1 else kind[:-1]
+    text = f"{n} {noun}"
+    if ids:
+        shown = ", ".join(str(i) for i in ids[:SHOWN_IDS])
+        more = ", ..." if n > min(len(ids), SHOWN_IDS) else ""
+        text += f" (ids {shown}{more})"
+    return text
+
+
+def format_where(where: Where) -> str:
+    """One line saying where a finding is; ``whole case`` when it has no location."""
+    parts: list[str] = []
+    if where.boundary is not None:
+        parts.append(f"boundary '{where.boundary}'")
+    if where.region is not None:
+        parts.append(f"region '{where.region}'")
+    if where.cell_count is not None or where.cells:
+        parts.append(_ids("cells", where.cells, where.cell_count))
+    if where.face_count is not None or where.faces:
+        parts.append(_ids("faces", where.faces, where.face_count))
+    if where.point is not None:
+        x, y, z = (f"{v:.4g}" for v in where.point)
+        parts.append(f"near ({x}, {y}, {z}) m")
+    return "; ".join(parts) if parts else "whole case"
+
+
+def _outcome_text(check: Check) -> Text:
+    """The outcome cell: a failed check also says which grade it crossed."""
+    label = check.outcome
+    if check.outcome == "fail" and check.severity:
+        label = f"fail ({check.severity})"
+    elif check.outcome == "error":
+        label = "error (rule raised)"
+    return Text(label, style=_OUTCOME_STYLE.get(check.outcome, ""))
+
+
+def _header(console: Console, case: CaseReport, plain: bool) -> None:
+    """Case name on a ruled line, then file, mesh and safety class (with its caution)."""
+    bar = "=" if plain else "━"
+    name = case.name or case.case
+    tail = max(3, console.width - cell_len(name) - 4)
+    line = Text(bar * 2 + " ", style="blue")
+    line.append(name, style="bold")
+    line.append(" " + bar * tail, style="blue")
+    console.print(line, no_wrap=True, overflow="crop")
+    grid = Table.grid(padding=(0, 2))
+    grid.add_column(no_wrap=True, style="bold")
+    grid.add_column(ratio=1)
+    grid.add_row("case file", case.case)
+    grid.add_row("mesh", case.mesh or "(none)")
+    grid.add_row("rule sets", ", ".join(case.rule_sets) or "(none)")
+    relevant = bool(case.safety) and case.safety != "none"
+    safety = f"{case.safety} (safety-relevant)" if relevant else "none (not marked safety-relevant)"
+    grid.add_row("safety", Text(safety, style="bold magenta" if relevant else ""))
+    if case.safety_note:
+        grid.add_row("caution", Text(case.safety_note, style="magenta"))
+    console.print(grid)
+
+
+def _bullets(rows: list[tuple[str, Text]]) -> Table:
+    """A list whose wrapped lines hang under their text, not under the bullet."""
+    grid = Table.grid(padding=(0, 1))
+    grid.add_column(no_wrap=True)
+    grid.add_column(ratio=1)
+    for bullet, text in rows:
+        grid.add_row(bullet, text)
+    return grid
+
+
+def _checks_table(console: Console, checks: list[Check], plain: bool) -> None:
+    """The summary table: one row per rule with its outcome, worst value and limit."""
+    if not checks:
+        console.print(Text("No rules were selected for this case.", style="yellow"))
+        return
+    table = Table(box=box.ASCII2 if plain else box.SIMPLE_HEAD, header_style="bold")
+    table.add_column("Rule", overflow="fold")
+    table.add_column("Outcome", min_width=7, overflow="fold")
+    table.add_column("Measured", justify="right", no_wrap=True)
+    table.add_column("Limit", justify="right", no_wrap=True)
+    table.add_column("Unit", no_wrap=True, min_width=4)
+    for check in checks:
+        table.add_row(
+            check.rule, _outcome_text(check), format_number(check.measured),
+            format_number(check.limit), check.unit,
+        )
+    console.print(table)
+    reasons = [c for c in checks if c.reason and c.outcome in ("skipped", "waived", "error")]
+    if reasons:
+        console.print(Text("Not checked, or waived:", style="bold"))
+        rows = []
+        for check in reasons:
+            text = Text().append(f"{check.rule} ({check.outcome})", _OUTCOME_STYLE[check.outcome])
+            rows.append(("-", text.append(": " + check.reason)))
+        console.print(_bullets(rows))
+
+
+def _finding_block(console: Console, finding: Finding, plain: bool) -> None:
+    """One finding: rule and message, then where, fix, source and any safety or waiver note."""
+    style = _SEVERITY_STYLE[finding.severity]
+    head = Text().append(finding.rule, style).append(": " + finding.message)
+    console.print(_bullets([("*" if plain else "●", head)]))
+    details = [("where", format_where(finding.where)), ("fix", finding.hint),
+               ("source", finding.source)]
+    if finding.safety:
+        details.append(("safety", finding.safety))
+    if finding.waived:
+        waiver = f"{finding.severity} waived" + (f": {finding.waiver}" if finding.waiver else "")
+        details.append(("waiver", waiver))
+    grid = Table.grid(padding=(0, 1))
+    grid.add_column(width=1)
+    grid.add_column(width=6, no_wrap=True, style="dim")
+    grid.add_column(ratio=1)
+    for label, value in details:
+        grid.add_row("", label, Text(value, style="magenta" if label == "safety" else ""))
+    console.print(grid)
+
+
+def _findings(console: Console, findings: list[Finding], plain: bool) -> None:
+    """Open findings grouped errors, warnings, notes; waived findings listed last."""
+    if not findings:
+        console.print(Text("No findings.", style="green"))
+        return
+    groups = [(_GROUP_TITLE[s], s, [f for f in findings if f.severity == s and not f.waived])
+              for s in ("error", "warning", "note")]
+    groups.append(("Waived", "note", [f for f in findings if f.waived]))
+    for title, severity, items in groups:
+        if not items:
+            continue
+        console.print(Text(f"{title} ({len(items)})", style=_SEVERITY_STYLE[severity]))
+        for finding in items:
+            _finding_block(console, finding, plain)
+
+
+def summary_line(report: Report, fail_on: str = "error") -> str:
+    """The last line: outcome counts over all cases and the worst unwaived severity."""
+    counts = Counter(c.outcome for case in report.cases for c in case.checks)
+    open_findings = [f for case in report.cases for f in case.findings if not f.waived]
+    worst = max((f.severity for f in open_findings), key=SEVERITY_RANK.__getitem__,
+                default="none")
+    n = len(report.cases)
+    outcomes = ", ".join(f"{counts.get(o, 0)} {o}" for o in OUTCOMES)
+    return (f"Result for {n} case{'s' if n != 1 else ''}: {outcomes}; "
+            f"worst severity: {worst} (fail level: {fail_on})")
+
+
+def render_text(report: Report, options: RenderOptions) -> str:
+    """The report as terminal text, coloured only when ``options.color`` is set."""
+    plain = not options.color
+    out = StringIO()
+    console = Console(
+        file=out, force_terminal=options.color, no_color=plain,
+        color_system="standard" if options.color else None, width=max(MIN_WIDTH, options.width),
+        highlight=False, emoji=False, markup=False, legacy_windows=False,
+    )
+    if not report.cases:
+        console.print("No case files were checked.")
+    for index, case in enumerate(report.cases):
+        if index:
+            console.print()
+        _header(console, case, plain)
+        console.print()
+        _checks_table(console, sorted(case.checks, key=check_sort_key), plain)
+        console.print()
+        _findings(console, sorted(case.findings, key=finding_sort_key), plain)
+    console.print()
+    # soft_wrap keeps the result on one line however narrow the terminal is, for grep.
+    console.print(Text(summary_line(report, options.fail_on), style="bold"), soft_wrap=True)
+    # rich pads every line to the full width; trailing blanks only clutter logs and diffs.
+    return "\n".join(line.rstrip() for line in out.getvalue().splitlines()) + "\n"
+
+
+@hookimpl
+def caselint_register_reporters() -> list[Reporter]:
+    """Register the ``text`` output format."""
+    return [
+        Reporter(
+            name="text",
+            description="Readable terminal report (default); plain ASCII without colour",
+            render=render_text,
+            suffix=".txt",
+        )
+    ]
