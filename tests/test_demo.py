@@ -1,0 +1,93 @@
+"""The shipped demo case: it loads, its mesh is what make_mesh.py writes, and caselint finds
+exactly the defects designed into it, with their analytic values [computed]:
+
+- growth ratio 1.5 (the floor-layer grading), on 6 x 200 faces above 1.3;
+- non-orthogonality 75 deg (the lean of the second floor layer), 170 faces above 70 deg;
+- skewness 0.6 t / sqrt(t^2 + 6.25), t = tan 75 deg, on the face above the leaning layer
+  (layer heights h and 1.5 h; see tests/test_rules_mesh_quality.py for the formula);
+- edge ratio 0.4 m / 0.02 m = 20 in the first floor layer;
+- the 96 faces of the loading door in a group with no role.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+import math
+
+import pytest
+
+from caselint.demo import demo_case_path
+from caselint.manifest.loader import load_case
+
+LEAN = math.tan(math.radians(75.0))
+
+
+def make_mesh_module():
+    path = demo_case_path().parent / "make_mesh.py"
+    spec = importlib.util.spec_from_file_location("ripening_room_make_mesh", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+def test_demo_case_is_shipped_and_loads():
+    path = demo_case_path()
+    assert path.name == "case.yaml" and path.parent.name == "ripening-room"
+    case = load_case(path)
+    assert case.mesh.file == path.parent / "room.msh"
+    assert case.mesh.boundaries == {"ceiling-supply": "inlet", "return-grille": "outlet",
+                                    "floor": "wall", "walls-ceiling": "wall"}
+    assert case.physics.fluid.nu == pytest.approx(1.78e-5 / 1.23)
+    assert (path.parent / "README.md").is_file()
+
+
+def test_committed_mesh_is_what_make_mesh_writes(tmp_path):
+    module = make_mesh_module()
+    assert module.FLOOR_GRADING == 1.5 and module.RAIL_LEAN_DEG == 75.0
+    fresh = tmp_path / "room.msh"
+    module.write_gmsh22(module.build(), fresh)
+    committed = demo_case_path().parent / "room.msh"
+    assert fresh.read_bytes() == committed.read_bytes()
+    assert committed.stat().st_size < 1_000_000
+
+
+@pytest.fixture(scope="module")
+def report():
+    from caselint.api import lint_case
+
+    return lint_case(demo_case_path())
+
+
+def test_demo_checks_measure_the_designed_values(report):
+    checks = {c.rule: c for c in report.checks}
+    assert checks["growth-ratio"].measured == pytest.approx(1.5, abs=1e-9)
+    assert checks["non-orthogonality"].measured == pytest.approx(75.0, abs=1e-9)
+    assert checks["skewness"].measured == pytest.approx(0.6 * LEAN / math.sqrt(LEAN**2 + 6.25),
+                                                        abs=1e-9)
+    assert checks["aspect-ratio"].measured == pytest.approx(20.0, abs=1e-9)
+    assert checks["inverted-cells"].measured == 0
+    assert checks["unassigned-boundary"].measured == 96
+    outcomes = {rule: (c.outcome, c.severity) for rule, c in checks.items()
+                if rule in ("growth-ratio", "non-orthogonality", "skewness", "aspect-ratio",
+                            "inverted-cells", "unassigned-boundary")}
+    assert outcomes == {
+        "growth-ratio": ("fail", "warning"), "non-orthogonality": ("fail", "warning"),
+        "skewness": ("pass", None), "aspect-ratio": ("pass", None),
+        "inverted-cells": ("pass", None), "unassigned-boundary": ("fail", "error"),
+    }
+
+
+def test_demo_findings_locate_the_defects(report):
+    findings = {f.rule: f for f in report.findings}
+    assert set(findings) == {"growth-ratio", "non-orthogonality", "unassigned-boundary"}
+    door = findings["unassigned-boundary"]
+    assert door.severity == "error" and door.where.boundary == "loading-door"
+    assert door.where.face_count == 96 and door.where.point[1] == 0.0   # on the west wall y = 0
+    growth = findings["growth-ratio"]
+    assert growth.where.face_count == 6 * 200                  # 6 steps x 20 x 10 faces
+    assert growth.where.point[2] < 0.42                        # in the floor layers
+    lean = findings["non-orthogonality"]
+    # 16 x 10 faces lean the full 75 deg (x <= 6 m); 10 more lean atan(0.8 t) = 71.5 deg
+    assert lean.where.face_count == 170
+    assert 0.02 < lean.where.point[2] < 0.05                   # in the second floor layer
+    assert "between cells" in lean.message
