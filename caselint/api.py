@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import difflib
+import hashlib
 from pathlib import Path
 from typing import TYPE_CHECKING, Iterable
 
@@ -93,8 +95,21 @@ def lint_case(
     selection = select_for_case(case, pm, rule_sets)
     needs_mesh = any("mesh" in a.rule.needs for a in selection.rules)
     mesh = load_case_mesh(case) if needs_mesh else None
-    return run_case(case, selection.rules, lambda: mesh if mesh is not None else load_case_mesh(case),
-                    label=str(path), rule_sets=selection.rule_sets, today=today)
+    report = run_case(case, selection.rules,
+                      lambda: mesh if mesh is not None else load_case_mesh(case),
+                      label=str(path), rule_sets=selection.rule_sets,
+                      checklist=selection.checklist, today=today)
+    return dataclasses.replace(report, case_sha256=file_sha256(case.path),
+                               mesh_sha256=file_sha256(case.mesh.file))
+
+
+def file_sha256(path: Path) -> str:
+    """SHA-256 of a file's bytes, read in blocks (meshes can be large)."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
 
 
 def lint(

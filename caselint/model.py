@@ -234,8 +234,45 @@ class Finding:
 
 
 @dataclass(frozen=True)
+class ChecklistItem:
+    """A manual check from a rule set that a reviewer ticks: what a tool cannot check."""
+
+    id: str
+    text: str
+    rule_set: str
+
+
+@dataclass(frozen=True)
+class WaiverStatus:
+    """A waiver of the case file as the run found it: in force or expired, used or not."""
+
+    rule: str
+    reason: str
+    approved_by: str
+    expires: str                 # ISO date
+    expired: bool
+    used: bool                   # it covered at least one finding of this run
+    boundary: str | None = None
+    region: str | None = None
+    line: int | None = None      # 1-based line of the waiver in the case file
+
+
+@dataclass(frozen=True)
+class ReviewInfo:
+    """Who prepares, reviews and approves the case (from the case file's ``review``)."""
+
+    prepared_by: str | None = None
+    reviewers: tuple[str, ...] = ()
+    approved_by: str | None = None
+
+
+@dataclass(frozen=True)
 class CaseReport:
-    """Everything found about one case file."""
+    """Everything found about one case file.
+
+    ``case_sha256`` and ``mesh_sha256`` fingerprint the inputs for a sign-off record;
+    ``checklist`` holds the manual checks of the rule sets used.
+    """
 
     case: str
     name: str
@@ -245,6 +282,12 @@ class CaseReport:
     safety_note: str = ""
     mesh: str = ""
     rule_sets: tuple[str, ...] = ()
+    description: str = ""
+    case_sha256: str = ""
+    mesh_sha256: str = ""
+    checklist: tuple[ChecklistItem, ...] = ()
+    waivers: tuple[WaiverStatus, ...] = ()
+    review: ReviewInfo = field(default_factory=ReviewInfo)
 
 
 @dataclass(frozen=True)

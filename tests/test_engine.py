@@ -252,3 +252,31 @@ def test_check_reports_the_worst_value_on_the_rule_scale_when_passing(tmp_path):
     report = run_case(_case(tmp_path), (_active(_flow_rule("x", [3.0, 7.5, 5.0])),), _no_mesh)
     (check,) = report.checks
     assert (check.outcome, check.measured, check.limit) == ("pass", 7.5, 10)
+
+
+def test_waiver_statuses_say_which_waivers_expired_and_which_were_used(tmp_path):
+    waivers = [
+        Waiver(rule="one", reason="accepted", approved_by="A", expires=dt.date(2027, 1, 1)),
+        Waiver(rule="one", reason="old", approved_by="B", expires=dt.date(2026, 1, 1)),
+        Waiver(rule="two", reason="spare", approved_by="C", expires=dt.date(2027, 1, 1)),
+    ]
+    report = run_case(_case(tmp_path, waivers), (_active(_flow_rule("one", [25.0])),), _no_mesh,
+                      today=dt.date(2026, 12, 1))
+    assert [(w.approved_by, w.expired, w.used) for w in report.waivers] == [
+        ("A", False, True), ("B", True, False), ("C", False, False)]
+    assert report.waivers[0].expires == "2027-01-01"
+
+
+def test_lint_case_fingerprints_inputs_and_carries_the_checklist():
+    import hashlib
+
+    from caselint.api import lint_case
+    from caselint.demo import demo_case_path
+
+    path = demo_case_path()
+    report = lint_case(path)
+    assert report.case_sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
+    mesh_bytes = (path.parent / report.mesh).read_bytes()
+    assert report.mesh_sha256 == hashlib.sha256(mesh_bytes).hexdigest()
+    assert [item.id for item in report.checklist] == ["fluid-data", "boundary-values", "mesh-units"]
+    assert report.review.prepared_by == "I. Marchetti"

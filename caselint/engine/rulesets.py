@@ -24,19 +24,10 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from caselint.errors import CaseFileError
-from caselint.model import SEVERITIES, Limits, Rule
+from caselint.model import SEVERITIES, ChecklistItem, Limits, Rule
 
 _ENTRY_KEYS = ("enabled", "warn", "error", "severity")
 _TOP_KEYS = ("description", "extends", "rules", "checklist")
-
-
-@dataclass(frozen=True)
-class ChecklistItem:
-    """A manual check a reviewer ticks: things a tool cannot check."""
-
-    id: str
-    text: str
-    rule_set: str
 
 
 @dataclass(frozen=True)

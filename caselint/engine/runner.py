@@ -18,7 +18,18 @@ from caselint.engine.context import RuleContext
 from caselint.engine.rulesets import ActiveRule
 from caselint.engine.safety import finding_caution, safety_note
 from caselint.errors import UsageError
-from caselint.model import SEVERITY_RANK, CaseReport, Check, Finding, Measurement, RuleResult, Where
+from caselint.model import (
+    SEVERITY_RANK,
+    CaseReport,
+    Check,
+    ChecklistItem,
+    Finding,
+    Measurement,
+    ReviewInfo,
+    RuleResult,
+    WaiverStatus,
+    Where,
+)
 
 if TYPE_CHECKING:
     from caselint.manifest.case import Case, Waiver
@@ -26,18 +37,35 @@ if TYPE_CHECKING:
 
 
 def _matching_waiver(
-    rule_id: str, where: Where, waivers: "tuple[Waiver, ...]", today: dt.date
+    rule_id: str, where: Where, waivers: "tuple[Waiver, ...]", today: dt.date,
+    used: set[int] | None = None,
 ) -> "Waiver | None":
-    """The first unexpired waiver of this rule whose scope (if any) covers ``where``."""
-    for waiver in waivers:
+    """The first unexpired waiver of this rule whose scope (if any) covers ``where``.
+
+    The index of the waiver found is added to ``used``.
+    """
+    for index, waiver in enumerate(waivers):
         if waiver.rule != rule_id or waiver.expires < today:
             continue
         if waiver.boundary is not None and waiver.boundary != where.boundary:
             continue
         if waiver.region is not None and waiver.region != where.region:
             continue
+        if used is not None:
+            used.add(index)
         return waiver
     return None
+
+
+def waiver_statuses(case: "Case", today: dt.date, used: set[int]) -> tuple[WaiverStatus, ...]:
+    """Every waiver of the case, in file order, with whether it expired or covered anything."""
+    return tuple(
+        WaiverStatus(rule=w.rule, reason=w.reason, approved_by=w.approved_by,
+                     expires=w.expires.isoformat(), expired=w.expires < today,
+                     used=i in used, boundary=w.boundary, region=w.region,
+                     line=case.line_of(f"checks.waivers[{i}]"))
+        for i, w in enumerate(case.checks.waivers)
+    )
 
 
 def _with_line(where: Where, case: "Case") -> Where:
@@ -66,7 +94,7 @@ def _crash(active: ActiveRule, exc: BaseException, case: "Case") -> tuple[Check,
 
 
 def _grade(
-    active: ActiveRule, result: RuleResult, case: "Case", today: dt.date
+    active: ActiveRule, result: RuleResult, case: "Case", today: dt.date, used: set[int]
 ) -> tuple[Check, list[Finding]]:
     rule, limits = active.rule, active.limits
     caution = finding_caution(case.info.safety)
@@ -91,7 +119,7 @@ def _grade(
             continue
         where = _with_line(m.where, case)
         limit = grading.limit_for(severity, m_limits)
-        waiver = _matching_waiver(rule.id, where, case.checks.waivers, today)
+        waiver = _matching_waiver(rule.id, where, case.checks.waivers, today, used)
         findings.append(Finding(
             rule=rule.id, severity=severity, message=grading.message(rule, m, severity, limit),
             measured=m.value, limit=limit, unit=m.unit if m.unit is not None else rule.unit,
@@ -148,6 +176,7 @@ def run_case(
     *,
     label: str | None = None,
     rule_sets: tuple[str, ...] = (),
+    checklist: "tuple[ChecklistItem, ...]" = (),
     today: dt.date | None = None,
 ) -> CaseReport:
     """Run every active rule on ``case`` and collect checks and findings, sorted.
@@ -158,6 +187,7 @@ def run_case(
     mesh_once = functools.lru_cache(maxsize=1)(load_mesh)
     checks: list[Check] = []
     findings: list[Finding] = []
+    used: set[int] = set()
     for active in sorted(active_rules, key=lambda a: a.rule.id):
         ctx = RuleContext(case=case, limits=active.limits, params=dict(active.params),
                           today=today, _load_mesh=mesh_once)
@@ -165,7 +195,7 @@ def run_case(
             result = active.rule.check(ctx)
             if not isinstance(result, RuleResult):
                 raise TypeError(f"rule returned {type(result).__name__}, not RuleResult")
-            check, found = _grade(active, result, case, today)
+            check, found = _grade(active, result, case, today, used)
         except UsageError:
             raise
         except Exception as exc:  # a rule's fault must not stop the other rules
@@ -182,4 +212,9 @@ def run_case(
         safety_note=safety_note(case.info.safety),
         mesh=os.path.relpath(case.mesh.file, case.path.parent),
         rule_sets=rule_sets,
+        description=case.info.description,
+        checklist=tuple(checklist),
+        waivers=waiver_statuses(case, today, used),
+        review=ReviewInfo(case.review.prepared_by, tuple(case.review.reviewers),
+                          case.review.approved_by),
     )
