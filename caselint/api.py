@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING, Iterable
 
 from caselint import __version__
 from caselint.engine.plugins import get_plugin_manager
-from caselint.engine.registry import collect_rule_set_files, collect_rules
+from caselint.engine.registry import collect_case_sections, collect_rule_set_files, collect_rules
 from caselint.engine.rulesets import Selection, select_rules
 from caselint.engine.runner import run_case
 from caselint.errors import CaseFileError, MeshReadError
@@ -24,11 +24,32 @@ if TYPE_CHECKING:
     from caselint.mesh.model import Mesh
 
 
-def load_case(path: str | Path) -> "Case":
-    """Read and validate a case file (units converted to SI)."""
+def load_case(path: str | Path, pm: "pluggy.PluginManager | None" = None) -> "Case":
+    """Read and validate a case file (units converted to SI), with plugins' sections."""
     from caselint.manifest.loader import load_case as _load
 
-    return _load(Path(path))
+    sections = collect_case_sections(pm) if pm is not None else None
+    return _load(Path(path), extensions=sections)
+
+
+def case_quantity(case: "Case", key: str, dimension: str) -> float | None:
+    """SI value of the quantity at dotted ``key`` of the case file, or None when absent.
+
+    For plugins reading their own case-file sections (quantities there are kept as
+    written): a wrong dimension or unreadable unit is a CaseFileError naming the case
+    file, line and key. ``dimension`` is a name from ``caselint.manifest.units.DIMENSIONS``.
+    """
+    from caselint.manifest.units import to_si
+
+    value: object = case.document
+    for part in key.split("."):
+        if not isinstance(value, dict) or part not in value:
+            return None
+        value = value[part]
+    try:
+        return to_si(value, dimension, key)
+    except CaseFileError as exc:
+        raise CaseFileError(str(case.path), exc.message, line=case.line_of(key), key=key) from None
 
 
 def load_case_mesh(case: "Case") -> "Mesh":
@@ -91,7 +112,7 @@ def lint_case(
     :raises UsageError: bad case file, rule set or mesh; the message names file, line and key.
     """
     pm = pm if pm is not None else get_plugin_manager()
-    case = load_case(path)
+    case = load_case(path, pm)
     selection = select_for_case(case, pm, rule_sets)
     needs_mesh = any("mesh" in a.rule.needs for a in selection.rules)
     mesh = load_case_mesh(case) if needs_mesh else None

@@ -101,6 +101,8 @@ class Measurement:
     ``worse`` direction and ``limits``; left unset they are the rule's. ``limits`` set
     here are final: rule-set overrides apply to the rule's own limits only, so a rule
     that sets them reads them from its parameters (``ctx.params``).
+    ``statement``, when given, is the finding's whole sentence (for yes/no conditions,
+    where "1 above the limit 0" would say nothing).
     """
 
     value: float
@@ -111,6 +113,7 @@ class Measurement:
     unit: str | None = None
     worse: Worse | None = None
     limits: Limits | None = None
+    statement: str = ""
 
     def __post_init__(self) -> None:
         if not math.isfinite(self.value):
@@ -133,12 +136,88 @@ class Note:
 
 
 @dataclass(frozen=True)
+class PlotSeries:
+    """One data series of a plot: a histogram's bin edges and counts, or a line's points.
+
+    For a histogram ``x`` holds the n+1 increasing bin edges and ``y`` the n counts;
+    ``below`` and ``above`` count the values outside the edges, so nothing is hidden.
+    For a line ``x`` and ``y`` are the points. ``label`` names the series (a boundary).
+    """
+
+    x: tuple[float, ...]
+    y: tuple[float, ...]
+    label: str = ""
+    below: int = 0
+    above: int = 0
+
+    def __post_init__(self) -> None:
+        if not all(math.isfinite(v) for v in (*self.x, *self.y)):
+            raise ValueError(f"plot series {self.label!r} holds a non-finite number")
+        if self.below < 0 or self.above < 0:
+            raise ValueError(f"plot series {self.label!r}: counts outside the edges are >= 0")
+
+    @classmethod
+    def histogram(cls, values: Any, edges: Any, label: str = "") -> "PlotSeries":
+        """Count finite ``values`` into bins between ``edges`` (numpy, no loop over values)."""
+        import numpy as np
+
+        values = np.asarray(values, dtype=np.float64).ravel()
+        values = values[np.isfinite(values)]
+        edges = np.asarray(edges, dtype=np.float64)
+        counts, _ = np.histogram(values, bins=edges)
+        return cls(x=tuple(float(e) for e in edges), y=tuple(float(c) for c in counts),
+                   label=label, below=int(np.count_nonzero(values < edges[0])),
+                   above=int(np.count_nonzero(values > edges[-1])))
+
+
+@dataclass(frozen=True)
+class PlotData:
+    """Data a rule attaches for the review reports to draw (reporters compute nothing).
+
+    ``kind`` is ``"histogram"`` (each series: bin edges and counts) or ``"line"``
+    (each series: points, e.g. layer height against layer number). ``limits`` (with
+    ``worse``), when given, are drawn as marks on the x axis of a histogram. ``rule`` is
+    filled in by the engine with the id of the rule that attached the plot.
+    """
+
+    title: str
+    x_label: str
+    y_label: str
+    series: tuple[PlotSeries, ...]
+    kind: Literal["histogram", "line"] = "histogram"
+    limits: Limits | None = None
+    worse: Worse = "higher"
+    x_log: bool = False
+    y_log: bool = False
+    rule: str = ""
+
+    def __post_init__(self) -> None:
+        if self.kind not in ("histogram", "line"):
+            raise ValueError(f"plot kind must be 'histogram' or 'line', got {self.kind!r}")
+        if not self.series:
+            raise ValueError(f"plot {self.title!r} has no series")
+        for s in self.series:
+            if self.kind == "line" and len(s.x) != len(s.y):
+                raise ValueError(f"plot {self.title!r}: series {s.label!r} has {len(s.x)} x "
+                                 f"and {len(s.y)} y values")
+            if self.kind == "histogram" and (len(s.x) != len(s.y) + 1 or len(s.y) < 1
+                                             or any(b <= a for a, b in zip(s.x, s.x[1:]))):
+                raise ValueError(f"plot {self.title!r}: series {s.label!r} needs n >= 1 counts "
+                                 f"and n + 1 increasing edges, got {len(s.y)} and {len(s.x)}")
+
+
+@dataclass(frozen=True)
 class RuleResult:
-    """What a rule returns: measurements to grade, or the reason it was skipped."""
+    """What a rule returns: measurements to grade, or the reason it was skipped.
+
+    ``plots`` are data for the review reports (``--format html``): distributions such as
+    a histogram of the measured metric, kept by the engine in :attr:`CaseReport.plots`.
+    """
 
     measurements: tuple[Measurement, ...] = ()
     skipped: str | None = None
     notes: tuple[Note, ...] = ()
+    plots: tuple[PlotData, ...] = ()
 
     def __post_init__(self) -> None:
         if self.skipped is None and not self.measurements:
@@ -234,6 +313,14 @@ class Finding:
 
 
 @dataclass(frozen=True)
+class CaseSection:
+    """A top-level case-file section that a plugin adds, with its JSON Schema (2020-12)."""
+
+    name: str
+    schema: dict[str, Any]
+
+
+@dataclass(frozen=True)
 class ChecklistItem:
     """A manual check from a rule set that a reviewer ticks: what a tool cannot check."""
 
@@ -271,7 +358,9 @@ class CaseReport:
     """Everything found about one case file.
 
     ``case_sha256`` and ``mesh_sha256`` fingerprint the inputs for a sign-off record;
-    ``checklist`` holds the manual checks of the rule sets used.
+    ``checklist`` holds the manual checks of the rule sets used. ``plots`` are the data
+    the rules attached for the review reports (ordered by rule id). ``baselined`` counts
+    findings left out because a baseline file (``--baseline``) records them as known.
     """
 
     case: str
@@ -288,12 +377,53 @@ class CaseReport:
     checklist: tuple[ChecklistItem, ...] = ()
     waivers: tuple[WaiverStatus, ...] = ()
     review: ReviewInfo = field(default_factory=ReviewInfo)
+    plots: tuple[PlotData, ...] = ()
+    baselined: int = 0
+
+
+@dataclass(frozen=True)
+class RuleInfo:
+    """What a report says about a rule it ran: for SARIF rule metadata and review records."""
+
+    id: str
+    title: str
+    rationale: str
+    source: str
+    hint: str
+    unit: str
+    limits: Limits               # the rule's default limits (before rule sets and case files)
+    worse: Worse = "higher"
+    measures: str = ""
+
+    @classmethod
+    def of(cls, rule: Rule) -> "RuleInfo":
+        """The description of ``rule`` without its check function."""
+        return cls(rule.id, rule.title, rule.rationale, rule.source, rule.hint, rule.unit,
+                   rule.limits, rule.worse, rule.measures)
+
+
+@dataclass(frozen=True)
+class RuleSetInfo:
+    """Which rule-set file a run used: its name, who provides it, and its content hash."""
+
+    name: str
+    provider: str                # distribution that registered it, e.g. "caselint"
+    version: str                 # that distribution's version
+    sha256: str                  # SHA-256 of the rule-set file's bytes
 
 
 @dataclass(frozen=True)
 class Report:
-    """The result of one run over one or more case files."""
+    """The result of one run over one or more case files.
+
+    ``rules`` and ``rule_set_info`` describe the rules and rule-set files the cases ran
+    under (sorted by id and name); ``baseline`` names the baseline file whose known
+    findings were left out, empty when none was used.
+    """
 
     cases: tuple[CaseReport, ...]
     caselint_version: str
     rule_sets: tuple[str, ...] = ()
+    rules: tuple[RuleInfo, ...] = ()
+    rule_set_info: tuple[RuleSetInfo, ...] = ()
+    baseline: str = ""

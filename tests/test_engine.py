@@ -280,3 +280,58 @@ def test_lint_case_fingerprints_inputs_and_carries_the_checklist():
     assert report.mesh_sha256 == hashlib.sha256(mesh_bytes).hexdigest()
     assert [item.id for item in report.checklist] == ["fluid-data", "boundary-values", "mesh-units"]
     assert report.review.prepared_by == "I. Marchetti"
+
+
+def test_declarative_condition_errors_name_file_and_line(tmp_path):
+    from caselint.engine.conditions import conditions_of
+
+    bad = _write(tmp_path / "bad.yaml", """\
+        rules: {}
+        conditions:
+          - id: needs-step
+            title: Transient cases give a step
+            severity: error
+            message: a transient case needs time.step
+            hint: give time.step
+            source: common practice
+            if: {properties: {time: {properties: {mode: {const: transient}}}}}
+            then: {required: 5}
+        """)
+    with pytest.raises(CaseFileError, match="not a valid JSON Schema") as err:
+        conditions_of(bad)
+    assert err.value.line == 10 and err.value.key == "conditions[0].then"
+    missing = _write(tmp_path / "missing.yaml", """\
+        conditions:
+          - {id: x-y, title: t, severity: error, message: m, hint: h, source: s, if: {}}
+        """)
+    with pytest.raises(CaseFileError, match="missing then") as err:
+        conditions_of(missing)
+    assert err.value.line == 2
+
+
+def test_a_declarative_condition_passes_when_it_does_not_apply(tmp_path):
+    from caselint.engine.conditions import conditions_of
+
+    path = _write(tmp_path / "set.yaml", """\
+        conditions:
+          - id: needs-step
+            title: Transient cases give a step
+            severity: warning
+            message: a transient case needs time.step
+            hint: give time.step
+            source: common practice
+            if: {required: [time], properties: {time: {properties: {mode: {const: transient}}}}}
+            then: {properties: {time: {required: [step]}}}
+        """)
+    rule = conditions_of(path)["needs-step"]
+    assert rule.limits == Limits(warn=0, error=None)
+    import dataclasses
+
+    for document, expected in [({"time": {"mode": "steady"}}, 0),
+                               ({"time": {"mode": "transient", "step": 0.1}}, 0),
+                               ({"time": {"mode": "transient"}}, 1)]:
+        case = dataclasses.replace(_case(tmp_path), document=document)
+        report = run_case(case, (_active(rule),), _no_mesh)
+        assert report.checks[0].measured == expected
+    assert report.findings[0].message.startswith("a transient case needs time.step")
+    assert report.findings[0].where.key == "time"

@@ -54,6 +54,8 @@ def with_unit(value: float, unit: str) -> str:
 
 def message(rule: Rule, m: Measurement, severity: str, limit: float | None) -> str:
     """The finding's sentence: what was measured, where, against which limit, and detail."""
+    if m.statement:
+        return m.statement
     what = m.label or rule.measures or rule.title
     unit = m.unit if m.unit is not None else rule.unit
     scope = ""

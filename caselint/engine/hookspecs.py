@@ -15,7 +15,7 @@ import pluggy
 if TYPE_CHECKING:
     from pathlib import Path
 
-    from caselint.model import Rule
+    from caselint.model import CaseSection, Rule
     from caselint.report.base import Reporter
 
 #: Marker for hook specifications (used only here).
@@ -42,6 +42,20 @@ def caselint_register_rule_sets() -> "list[Path]":
 
     :returns: A list of paths to rule-set YAML files. A set's name is its file stem;
         a set may ``extends:`` any other registered set. Duplicate names are an error.
+    """
+
+
+# -- case file -------------------------------------------------------------------------
+
+
+@hookspec
+def caselint_register_case_sections() -> "list[CaseSection]":
+    """Register top-level case-file sections of a plugin's own.
+
+    :returns: A list of :class:`caselint.model.CaseSection` (name and JSON Schema 2020-12
+        fragment). The section is validated with the rest of the case file, errors carry
+        file, line and key, and its data reaches rules as ``ctx.case.extensions[name]``.
+        A name that clashes with a built-in key or another plugin's section is an error.
     """
 
 

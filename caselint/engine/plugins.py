@@ -122,6 +122,7 @@ def plugin_listing(pm: CaselintPluginManager) -> list[dict[str, Any]]:
                 "distribution": dist,
                 "version": version,
                 "rules": sorted(added["rules"].get(name, [])),
+                "case_sections": sorted(added["case_sections"].get(name, [])),
                 "reporters": sorted(added["reporters"].get(name, [])),
                 "rule_sets": sorted(added["rule_sets"].get(name, [])),
             }

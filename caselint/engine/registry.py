@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any, Callable
 
 import pluggy
 
+from caselint.engine.conditions import conditions_of
 from caselint.errors import PluginLoadError
 from caselint.model import Rule
 
@@ -50,7 +51,16 @@ def _rule_id(rule: Any) -> str:
 
 
 def _rules_with_origin(pm: pluggy.PluginManager) -> dict[str, tuple[Rule, str]]:
-    return _collect(pm, "caselint_register_rules", "rule", _rule_id)
+    """Rules from plugins and the declarative rules (conditions) of registered rule sets."""
+    found = _collect(pm, "caselint_register_rules", "rule", _rule_id)
+    for set_name, path in collect_rule_set_files(pm).items():
+        for rule_id, rule in conditions_of(path).items():
+            origin = f"rule set {set_name} ({path})"
+            if rule_id in found:
+                raise PluginLoadError(f"rule {rule_id!r} is registered twice: by "
+                                      f"{found[rule_id][1]!r} and by {origin!r}")
+            found[rule_id] = (rule, origin)
+    return dict(sorted(found.items()))
 
 
 def collect_rules(pm: pluggy.PluginManager) -> dict[str, Rule]:
@@ -61,6 +71,13 @@ def collect_rules(pm: pluggy.PluginManager) -> dict[str, Rule]:
 def rule_origins(pm: pluggy.PluginManager) -> dict[str, str]:
     """The plugin name that registered each rule id."""
     return {rule_id: origin for rule_id, (_, origin) in _rules_with_origin(pm).items()}
+
+
+def collect_case_sections(pm: pluggy.PluginManager) -> dict[str, dict]:
+    """Every plugin case-file section: name -> JSON Schema fragment, sorted by name."""
+    found = _collect(pm, "caselint_register_case_sections", "case-file section",
+                     lambda section: section.name)
+    return {name: section.schema for name, (section, _) in found.items()}
 
 
 def collect_reporters(pm: pluggy.PluginManager) -> dict[str, "Reporter"]:
@@ -76,18 +93,25 @@ def collect_rule_set_files(pm: pluggy.PluginManager) -> dict[str, Path]:
 
 
 def contributions(pm: pluggy.PluginManager) -> dict[str, dict[str, list[str]]]:
-    """For each kind (rules, reporters, rule_sets), the ids each plugin adds."""
+    """For each kind (rules, case_sections, reporters, rule_sets), the ids each plugin adds.
+
+    Declarative rules are listed under the plugin that registers their rule set.
+    """
     kinds = {
         "rules": _collect(pm, "caselint_register_rules", "rule", _rule_id),
+        "case_sections": _collect(pm, "caselint_register_case_sections", "case-file section",
+                                  lambda section: section.name),
         "reporters": _collect(pm, "caselint_register_reporters", "output format", lambda r: r.name),
         "rule_sets": _collect(
             pm, "caselint_register_rule_sets", "rule set", lambda p: Path(p).stem
         ),
     }
     out: dict[str, dict[str, list[str]]] = {}
+    for set_name, (path, plugin_name) in kinds["rule_sets"].items():
+        for rule_id in conditions_of(Path(path)):
+            out.setdefault("rules", {}).setdefault(plugin_name, []).append(rule_id)
     for kind, found in kinds.items():
-        per_plugin: dict[str, list[str]] = {}
+        per_plugin = out.setdefault(kind, {})
         for item_id, (_, plugin_name) in found.items():
             per_plugin.setdefault(plugin_name, []).append(item_id)
-        out[kind] = per_plugin
     return out

@@ -4,6 +4,7 @@ A rule set is a YAML file registered by a plugin (the shipped ones live in ``rul
 
     description: General mesh-quality checks for any CFD case
     extends: other-set              # or a list; parents are applied first
+    conditions: [...]               # declarative rules, see caselint.engine.conditions
     rules:
       growth-ratio: {warn: 1.3, error: 2.0}
       aspect-ratio: {enabled: false}
@@ -27,7 +28,7 @@ from caselint.errors import CaseFileError
 from caselint.model import SEVERITIES, ChecklistItem, Limits, Rule
 
 _ENTRY_KEYS = ("enabled", "warn", "error", "severity")
-_TOP_KEYS = ("description", "extends", "rules", "checklist")
+_TOP_KEYS = ("description", "extends", "rules", "checklist", "conditions")
 
 
 @dataclass(frozen=True)
@@ -109,6 +110,10 @@ def load_rule_set(name: str, path: Path) -> RuleSet:
     description = data.get("description", "")
     if not isinstance(description, str):
         raise fail("description", "expected a string")
+    from caselint.engine.conditions import conditions_of
+
+    for rule_id in conditions_of(path):  # a set enables the conditions it declares
+        entries.setdefault(rule_id, {})
     return RuleSet(name, Path(path), description, tuple(extends), entries, tuple(checklist), lines)
 
 

@@ -3,10 +3,13 @@
 A rule that raises is reported as an ``error`` outcome with an internal-error finding for
 that rule; the other rules still run. Bad input found while a rule runs (a mesh that
 cannot be read) is not a rule fault: it propagates as a :class:`UsageError`.
+Plots a rule attaches to its result (``RuleResult.plots``) are kept in the case report,
+stamped with the rule's id, for the review reports to draw.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import functools
 import os
@@ -25,6 +28,7 @@ from caselint.model import (
     ChecklistItem,
     Finding,
     Measurement,
+    PlotData,
     ReviewInfo,
     RuleResult,
     WaiverStatus,
@@ -161,6 +165,16 @@ def _deciding(
     return own[pick]
 
 
+def _rule_plots(active: ActiveRule, result: RuleResult) -> list[PlotData]:
+    """The plots a rule attached, each stamped with the rule's id."""
+    out = []
+    for plot in result.plots:
+        if not isinstance(plot, PlotData):
+            raise TypeError(f"rule attached {type(plot).__name__} as a plot, not PlotData")
+        out.append(dataclasses.replace(plot, rule=active.rule.id))
+    return out
+
+
 def _more_severe(a: str | None, b: str) -> str:
     return b if a is None or SEVERITY_RANK[b] > SEVERITY_RANK[a] else a
 
@@ -187,6 +201,7 @@ def run_case(
     mesh_once = functools.lru_cache(maxsize=1)(load_mesh)
     checks: list[Check] = []
     findings: list[Finding] = []
+    plots: list[PlotData] = []
     used: set[int] = set()
     for active in sorted(active_rules, key=lambda a: a.rule.id):
         ctx = RuleContext(case=case, limits=active.limits, params=dict(active.params),
@@ -196,6 +211,7 @@ def run_case(
             if not isinstance(result, RuleResult):
                 raise TypeError(f"rule returned {type(result).__name__}, not RuleResult")
             check, found = _grade(active, result, case, today, used)
+            plots.extend(_rule_plots(active, result))
         except UsageError:
             raise
         except Exception as exc:  # a rule's fault must not stop the other rules
@@ -217,4 +233,5 @@ def run_case(
         waivers=waiver_statuses(case, today, used),
         review=ReviewInfo(case.review.prepared_by, tuple(case.review.reviewers),
                           case.review.approved_by),
+        plots=tuple(plots),
     )

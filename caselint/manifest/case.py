@@ -22,6 +22,11 @@ TURBULENCE_MODELS: tuple[str, ...] = (
     "laminar", "k-epsilon", "rng-k-epsilon", "realizable-k-epsilon", "k-omega", "k-omega-sst",
     "spalart-allmaras", "transition-sst", "reynolds-stress", "les", "des", "ddes", "iddes", "dns",
 )
+#: ``time.scheme`` values and the time integration (explicit or implicit) each belongs to.
+SCHEME_INTEGRATION: dict[str, str] = {
+    "forward-euler": "explicit", "rk2": "explicit", "rk3": "explicit", "rk4": "explicit",
+    "backward-euler": "implicit", "bdf2": "implicit", "crank-nicolson": "implicit",
+}
 #: ``physics.turbulence.wall_treatment`` values.
 WALL_TREATMENTS: tuple[str, ...] = ("resolved", "wall-function", "blended")
 
@@ -43,6 +48,7 @@ class MeshSpec:
     boundaries: dict[str, str] = field(default_factory=dict)   # group name -> role
     tag_array: str | None = None     # cell-data array with an integer tag per boundary face
     tags: dict[int, str] = field(default_factory=dict)         # tag -> group name
+    velocity_field: str | None = None  # point/cell-data array with the flow velocity (m/s)
 
 
 @dataclass(frozen=True)
@@ -70,6 +76,7 @@ class Flow:
     direction: tuple[float, float, float] | None = None   # unit vector
     length: float | None = None                  # m, flow length (plate length, hydraulic diameter)
     leading_edge: tuple[float, float, float] | None = None  # m, for local Re_x on external flows
+    strouhal: float | None = None                # St = f L / U of the expected vortex shedding
 
 
 @dataclass(frozen=True)
@@ -84,6 +91,7 @@ class Physics:
     fluid: Fluid = field(default_factory=Fluid)
     flow: Flow = field(default_factory=Flow)
     turbulence: Turbulence = field(default_factory=Turbulence)
+    compressible: bool = False                   # compressible flow (acoustic time-step limit)
 
 
 @dataclass(frozen=True)
@@ -94,6 +102,15 @@ class TimeSpec:
     integration: str | None = None              # implicit | explicit
     scheme: str | None = None
     output_interval: float | None = None         # s
+    frequency: float | None = None               # Hz, frequency of interest
+    advection_scheme: str | None = None          # upwind | central (None: not declared)
+
+    @property
+    def integration_or_implied(self) -> str | None:
+        """``integration``, else the one ``scheme`` belongs to; None when neither is given."""
+        if self.integration is not None:
+            return self.integration
+        return SCHEME_INTEGRATION.get(self.scheme) if self.scheme else None
 
 
 @dataclass(frozen=True)
@@ -137,6 +154,14 @@ class GridStudy:
 
 
 @dataclass(frozen=True)
+class Domain:
+    """The body of an external flow (boundary groups) and which way is up."""
+
+    body: tuple[str, ...] = ()                   # boundary group names forming the body
+    up: tuple[float, float, float] | None = None   # unit vector; None: +z in 3-D, +y in 2-D
+
+
+@dataclass(frozen=True)
 class Case:
     """A validated case file."""
 
@@ -150,7 +175,11 @@ class Case:
     grid_study: GridStudy = field(default_factory=GridStudy)
     checks: Checks = field(default_factory=Checks)
     review: Review = field(default_factory=Review)
+    domain: Domain = field(default_factory=Domain)
     extensions: dict[str, object] = field(default_factory=dict)   # plugin-declared top-level sections, as validated data
+    # the whole validated case file as JSON-like data (dates as ISO text, quantities as written),
+    # for conditions written as JSON Schema in rule sets
+    document: dict[str, object] = field(default_factory=dict, compare=False, repr=False)
     lines: dict[str, int] = field(default_factory=dict, compare=False, repr=False)
 
     def line_of(self, key: str) -> int | None:

@@ -17,8 +17,8 @@ from typing import Any
 
 from caselint.errors import CaseFileError
 from caselint.manifest.case import (
-    Case, CaseInfo, Checks, Flow, Fluid, GridStudy, MeshSpec, Physics, Region, Review,
-    TimeSpec, Turbulence, Waiver,
+    SCHEME_INTEGRATION, Case, CaseInfo, Checks, Flow, Fluid, GridStudy, MeshSpec, Physics,
+    Region, Review, TimeSpec, Turbulence, Waiver,
 )
 from caselint.manifest.messages import describe
 from caselint.manifest.schema import validate_case
@@ -132,7 +132,10 @@ class _CaseBuilder:
                 for i, m in enumerate(data.get("grid_study", {}).get("meshes", [])))),
             checks=self.checks(data.get("checks", {}), {r.name for r in regions}),
             review=self.review(data.get("review", {})),
+            domain=self.domain(data.get("domain", {}),
+                               data.get("physics", {}).get("flow", {}).get("direction")),
             extensions={name: data[name] for name in sorted(extensions) if name in data},
+            document=data,
             lines=dict(self.doc.lines),
         )
 
@@ -147,6 +150,7 @@ class _CaseBuilder:
             boundaries=boundaries,
             tag_array=spec.get("tag_array"),
             tags={int(tag): name for tag, name in spec.get("tags", {}).items()},
+            velocity_field=spec.get("velocity_field"),
         )
 
     def physics(self, spec: dict[str, Any]) -> Physics:
@@ -171,10 +175,11 @@ class _CaseBuilder:
             length=self.quantity(flow_spec, "length", "length", p),
             leading_edge=(self.point(flow_spec["leading_edge"], f"{p}.leading_edge")
                           if "leading_edge" in flow_spec else None),
+            strouhal=(float(flow_spec["strouhal"]) if "strouhal" in flow_spec else None),
         )
         turbulence = Turbulence(**spec["turbulence"]) if "turbulence" in spec else Turbulence()
         return Physics(method=spec.get("method", "finite-volume"), fluid=fluid, flow=flow,
-                       turbulence=turbulence)
+                       turbulence=turbulence, compressible=spec.get("compressible", False))
 
     def check_fluid(self, fluid: Fluid) -> None:
         """Viscosity, density and kinematic viscosity, when all given, must agree."""
@@ -195,13 +200,21 @@ class _CaseBuilder:
         if step is not None and end is not None and end < step:
             raise self.fail("time.end", f"the end time {end:g} s is shorter than one time step "
                                         f"({step:g} s)")
+        integration, scheme = spec.get("integration"), spec.get("scheme")
+        if integration is not None and scheme is not None \
+                and SCHEME_INTEGRATION[scheme] != integration:
+            raise self.fail("time.scheme", f"the scheme {scheme} is {SCHEME_INTEGRATION[scheme]}, "
+                                           f"but time.integration says {integration}; make them "
+                                           "agree or leave one out")
         return TimeSpec(
             mode=spec.get("mode", "steady"),
             step=step,
             end=end,
-            integration=spec.get("integration"),
-            scheme=spec.get("scheme"),
+            integration=integration,
+            scheme=scheme,
             output_interval=self.quantity(spec, "output_interval", "time", "time"),
+            frequency=self.quantity(spec, "frequency", "frequency", "time"),
+            advection_scheme=spec.get("advection_scheme"),
         )
 
     def regions(self, specs: list[dict[str, Any]]) -> tuple[Region, ...]:
@@ -264,6 +277,22 @@ class _CaseBuilder:
             rules={rule: dict(params) for rule, params in spec.get("rules", {}).items()},
             waivers=tuple(waivers),
         )
+
+    def domain(self, spec: dict[str, Any], flow_direction: list[float] | None):
+        """The body groups and the up direction, which must not lie along the flow."""
+        from caselint.manifest.case import Domain
+
+        up = self.direction(spec["up"], "domain.up") if "up" in spec else None
+        if up is not None and flow_direction is not None:
+            flow = self.direction(flow_direction, "physics.flow.direction")
+            cross = (up[1] * flow[2] - up[2] * flow[1], up[2] * flow[0] - up[0] * flow[2],
+                     up[0] * flow[1] - up[1] * flow[0])
+            # within about 0.6 deg of the flow direction there is no usable height axis
+            if math.sqrt(sum(c * c for c in cross)) < 0.01:
+                raise self.fail("domain.up", f"up {list(spec['up'])} lies along the flow "
+                                f"direction {list(flow_direction)}; give the vertical direction, "
+                                "e.g. [0, 0, 1]")
+        return Domain(body=tuple(spec.get("body", ())), up=up)
 
     def review(self, spec: dict[str, Any]) -> Review:
         return Review(

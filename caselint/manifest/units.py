@@ -50,6 +50,8 @@ DIMENSIONS: dict[str, Dimension] = {
         "a kinematic viscosity", "[length] ** 2 / [time]", "m^2/s", "1.5e-5 m^2/s"),
     "diffusivity": Dimension("a diffusivity", "[length] ** 2 / [time]", "m^2/s", "2.2e-5 m^2/s"),
     "time": Dimension("a time", "[time]", "s", "2e-4 s"),
+    "frequency": Dimension("a frequency", "1 / [time]", "Hz", "40 Hz"),
+    "volume_flow": Dimension("a volume flow rate", "[length] ** 3 / [time]", "m^3/s", "0.85 m^3/s"),
 }
 
 # Names for what a wrongly dimensioned value actually is, so the message can say "a mass".
