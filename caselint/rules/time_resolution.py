@@ -1,0 +1,214 @@
+"""The ``time-resolution`` rule: does a transient run resolve the physics in time?
+
+Three measurements, each with its own limits (minima): time steps per period of the
+frequency of interest, saved results per period (against the Nyquist limit of 2), and the
+simulated time in flow-throughs (domain length / velocity). The frequency is the declared
+one (``time.frequency``) or that of vortex shedding, St U / L. Registered by
+:mod:`caselint.rules.time_step`.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
+from caselint.physics import timestep
+from caselint.rules.time_step import merged, number_param, scale_resolving, steady_skip
+
+if TYPE_CHECKING:
+    from caselint.engine.context import RuleContext
+    from caselint.mesh.model import Mesh
+
+# Both from memory (see REFERENCES.md section 4); findings cite them without the tag.
+_WILLIAMSON = "Williamson, Annu. Rev. Fluid Mech. 28 (1996)"
+_ROSHKO = "Roshko, NACA Rep. 1191 (1954)"
+
+
+def _count(value: float) -> float:
+    """A ratio of case-file values, cut to 12 significant digits: 0.3 s / 0.1 s is 3, not
+    2.9999999999999996, so a count on its limit is graded as on it."""
+    return float(f"{value:.12g}")
+
+
+def _frequency(ctx: "RuleContext") -> tuple[float, str] | str:
+    """(frequency in Hz, how it was found), or why there is none."""
+    case = ctx.case
+    if case.time.frequency is not None:
+        return case.time.frequency, f"the frequency of interest {case.time.frequency:.4g} Hz"
+    flow = case.physics.flow
+    default = number_param(ctx, TIME_RESOLUTION.id, "bluff_body_strouhal", optional=True)
+    if flow.strouhal is None and (flow.kind != "external" or default is None):
+        return ("no frequency of interest: give time.frequency, or physics.flow.strouhal "
+                "(or physics.flow.kind: external for a bluff-body estimate)")
+    if flow.velocity is None or flow.length is None:
+        return ("a shedding frequency needs physics.flow.velocity and physics.flow.length "
+                "(or give time.frequency)")
+    U, L = flow.velocity, flow.length
+    if flow.strouhal is not None:
+        st, how = flow.strouhal, f"St {flow.strouhal:g} (physics.flow.strouhal)"
+    else:
+        nu = case.physics.fluid.nu
+        re = U * L / nu if nu else None
+        low, high = timestep.ROSHKO_RANGE
+        if re is not None and re < low:
+            return (f"Re = {re:.3g} is below about {low:g}: no periodic vortex shedding to "
+                    f"resolve (onset near Re 47, {_WILLIAMSON}); give time.frequency if the "
+                    "run has another frequency of interest")
+        if re is not None and re <= high:
+            st = timestep.roshko_strouhal(re)
+            how = f"St {st:.3g} at Re {re:.3g} ({_ROSHKO})"
+        else:
+            st = default
+            how = f"St {st:g}, a bluff-body estimate ({_WILLIAMSON})"
+    f = st * U / L
+    return f, f"vortex shedding at {f:.4g} Hz: {how}, U {U:.4g} m/s, L {L:.4g} m"
+
+
+def domain_length(mesh: "Mesh", direction) -> float:
+    """Extent (m) of the cells' points along ``direction``; the largest box side if None."""
+    if direction is None:
+        lo, hi = mesh.bounds
+        return float((hi - lo).max())
+
+    def compute() -> float:
+        used = np.zeros(mesh.n_points, dtype=bool)
+        for block in mesh.cell_blocks:
+            used[block.connectivity.ravel()] = True
+        along = mesh.points[used] @ np.asarray(direction, dtype=np.float64)
+        return float(along.max() - along.min())
+
+    return mesh.cached(f"time_resolution.length:{tuple(direction)}", compute)
+
+
+def _steps(ctx: "RuleContext", f: float, how: str) -> Measurement:
+    case = ctx.case
+    dt = case.time.step
+    if scale_resolving(case):
+        name, words = "min_steps_per_period_scale_resolving", case.physics.turbulence.model
+    else:
+        name, words = "min_steps_per_period", "URANS or laminar"
+    minimum = number_param(ctx, TIME_RESOLUTION.id, name)
+    limits = merged(ctx.limits, Limits(warn=minimum, error=None))
+    steps = _count(1.0 / (f * dt))
+    target = limits.warn if limits.warn is not None else limits.error
+    fix = (f"Use time.step <= {1.0 / (f * target):.3g} s for {target:g} steps per period "
+           f"(now {dt:.3g} s)." if target else "")
+    return Measurement(
+        value=steps, limits=limits, label="time steps per period", unit="",
+        detail=(f"period {1.0 / f:.4g} s of {how}; time step {dt:.3g} s; minimum for "
+                f"{words}: {minimum:g}"),
+        fix=fix, where=Where(key="time.step"))
+
+
+def _samples(ctx: "RuleContext", f: float, how: str) -> Measurement:
+    interval = ctx.case.time.output_interval
+    minimum = number_param(ctx, TIME_RESOLUTION.id, "min_samples_per_period")
+    nyquist = timestep.nyquist_interval(f)
+    return Measurement(
+        value=_count(1.0 / (f * interval)), limits=Limits(warn=minimum, error=None),
+        label="saved results per period", unit="",
+        detail=(f"output every {interval:.3g} s against the period {1.0 / f:.4g} s of {how}; "
+                f"the Nyquist limit is one result every {nyquist:.3g} s; monitors or probes "
+                "recording every step are not affected"),
+        fix=(f"Save results at least every {1.0 / (f * minimum):.3g} s "
+             "(time.output_interval), or record probes every step."),
+        where=Where(key="time.output_interval"))
+
+
+def _flow_throughs(ctx: "RuleContext") -> Measurement | str:
+    case = ctx.case
+    flow = case.physics.flow
+    length = domain_length(ctx.mesh, flow.direction)
+    if not length > 0.0:
+        return "flow-throughs: the mesh has no extent along the flow direction"
+    along = ("along physics.flow.direction" if flow.direction is not None
+             else "the largest side of the mesh's bounding box (no physics.flow.direction)")
+    t_ft = timestep.flow_through_time(length, flow.velocity)
+    minimum = number_param(ctx, TIME_RESOLUTION.id, "min_flow_throughs")
+    count = _count(case.time.end / t_ft)
+    return Measurement(
+        value=count, limits=Limits(warn=minimum, error=None), label="flow-throughs", unit="",
+        detail=(f"end time {case.time.end:.4g} s over a flow-through time of {t_ft:.4g} s "
+                f"(domain length {length:.4g} m {along} at {flow.velocity:.4g} m/s); "
+                f"statistics need at least {minimum:g} (after the start-up transient)"),
+        fix=f"Run to time.end >= {minimum * t_ft:.4g} s for {minimum:g} flow-throughs.",
+        where=Where(key="time.end"))
+
+
+def check_time_resolution(ctx: "RuleContext") -> RuleResult:
+    """Steps and saved results per period of interest, and flow-throughs of the run."""
+    case = ctx.case
+    if (skip := steady_skip(case)) is not None:
+        return skip
+    measurements: list[Measurement] = []
+    missing: list[str] = []
+    found = _frequency(ctx)
+    if isinstance(found, str):
+        missing.append(f"steps and saved results per period: {found}")
+    else:
+        f, how = found
+        if case.time.step is None:
+            missing.append("steps per period: time.step is not given")
+        else:
+            measurements.append(_steps(ctx, f, how))
+        if case.time.output_interval is None:
+            missing.append("saved results per period: time.output_interval is not given")
+        else:
+            measurements.append(_samples(ctx, f, how))
+    if case.time.end is None or case.physics.flow.velocity is None:
+        lacking = " and ".join(k for k, v in (("time.end", case.time.end),
+                                              ("physics.flow.velocity", case.physics.flow.velocity))
+                               if v is None)
+        missing.append(f"flow-throughs: {lacking} not given")
+    else:
+        found_ft = _flow_throughs(ctx)
+        if isinstance(found_ft, str):
+            missing.append(found_ft)
+        else:
+            measurements.append(found_ft)
+    if not measurements:
+        return RuleResult.skip("; ".join(missing))
+    notes = (Note("not checked: " + "; ".join(missing), Where(key="time")),) if missing else ()
+    return RuleResult(measurements=tuple(measurements), notes=notes)
+
+
+TIME_RESOLUTION = Rule(
+    id="time-resolution",
+    title="Time resolution of the physics",
+    rationale=(
+        "A transient run must resolve its frequency of interest: the declared one "
+        "(time.frequency) or vortex shedding at f = St U / L, with St from the case "
+        "(physics.flow.strouhal), Roshko's fit St = 0.212 (1 - 21.2/Re) for 50 <= Re <= 150 "
+        "(" + _ROSHKO + ") or 0.2 for a bluff body in external flow (circular cylinder, "
+        "300 < Re < 2e5, " + _WILLIAMSON + "). Three quantities, each a minimum: time steps "
+        "per period, at least 20 for URANS and 50 for scale-resolving models (common "
+        "practice); saved results per period, at least 2 (the Nyquist limit); and the "
+        "simulated time in flow-throughs (domain length along the flow / velocity), at least "
+        "3 for statistics (common practice). A warn or error set in a rule set or the case "
+        "file applies to the steps per period; the other two take their parameters."
+    ),
+    source=_WILLIAMSON + "; " + _ROSHKO + "; Nyquist sampling limit; minimum counts: "
+           "common practice",
+    unit="",
+    limits=Limits(warn=None, error=None),
+    hint=("Reduce time.step, save results more often, or run longer (the finding says by "
+          "how much)."),
+    check=check_time_resolution,
+    worse="lower",
+    needs=("mesh", "time", "physics.flow"),
+    parameters=(
+        Parameter("min_steps_per_period", 20.0, "", "warning below this many time steps per "
+                  "period, URANS and laminar runs (common practice)"),
+        Parameter("min_steps_per_period_scale_resolving", 50.0, "", "the same for LES, DES "
+                  "variants and DNS (common practice)"),
+        Parameter("min_samples_per_period", 2.0, "", "warning below this many saved results "
+                  "per period (Nyquist limit 2)"),
+        Parameter("min_flow_throughs", 3.0, "", "warning below this many flow-through times "
+                  "of simulated time (common practice)"),
+        Parameter("bluff_body_strouhal", 0.2, "", "Strouhal number assumed for external flow "
+                  "when the case gives none; null: no shedding estimate"),
+    ),
+    measures="time steps per period",
+)
