@@ -111,6 +111,11 @@ def build_parser() -> argparse.ArgumentParser:
     init.add_argument("--output", "-o", metavar="FILE",
                       help="case file to write (default: case.yaml beside the mesh); "
                            "an existing file is never overwritten")
+
+    from caselint import grid_study_command  # light: numpy loads only when the command runs
+
+    grid = command("grid-study", grid_study_command.cmd_grid_study, grid_study_command.HELP)
+    grid_study_command.add_arguments(grid)
     return parser
 
 
