@@ -270,7 +270,11 @@ def _limits_sentence(rule: Rule, limits: Limits) -> str:
     parts = [f"{grade} {word} {format_number(value)}{(' ' + rule.unit) if rule.unit else ''}"
              for grade, value in (("warning", limits.warn), ("error", limits.error))
              if value is not None]
-    return "; ".join(parts) if parts else "none (the rule only reports its measurement)"
+    if parts:
+        return "; ".join(parts)
+    if rule.parameters:
+        return "chosen per case from the parameters below"
+    return "none (the rule only reports its measurement)"
 
 
 def cmd_explain(args: argparse.Namespace) -> int:
@@ -323,14 +327,14 @@ def cmd_plugins(args: argparse.Namespace) -> int:
     from caselint.engine.plugins import plugin_listing
 
     pm = plugin_manager(args)
-    # A blocked plugin stays in pluggy's registry as a name without a plugin; leave it out.
-    rows = [row for row in plugin_listing(pm) if not pm.is_blocked(row["name"])]
+    rows = plugin_listing(pm)
 
     def draw(console: Console, plain: bool) -> None:
         table = _table(plain, "Plugin", "Distribution", "Registers")
         for row in rows:
             adds = [f"{kind.replace('_', ' ')}: {', '.join(row[kind])}"
-                    for kind in ("rules", "rule_sets", "reporters") if row[kind]]
+                    for kind in ("rules", "rule_sets", "case_sections", "reporters")
+                    if row.get(kind)]
             dist = f"{row['distribution']} {row['version']}".strip()
             table.add_row(row["name"], dist, "\n".join(adds) or "(no rules, rule sets or formats)")
         console.print(table)

@@ -66,6 +66,8 @@ def format_where(where: Where) -> str:
         parts.append(f"boundary '{where.boundary}'")
     if where.region is not None:
         parts.append(f"region '{where.region}'")
+    if where.key is not None:
+        parts.append(f"case file {where.key}" + (f" (line {where.line})" if where.line else ""))
     if where.cell_count is not None or where.cells:
         parts.append(_ids("cells", where.cells, where.cell_count))
     if where.face_count is not None or where.faces:
