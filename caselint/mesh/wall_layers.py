@@ -1,10 +1,11 @@
 """Wall layer stacks: the cells lined up above each wall face, walked layer by layer.
 
 From a wall face the walk enters the cell behind it, crosses to the cell's *opposite
-face* (the one face sharing no vertex with the face it came in through: the far side of
-a hexahedron, the other triangle of a wedge entered through a triangle, the far edge of
-a 2-D quadrilateral) and on to the neighbour across that face. All wall faces walk in
-lock-step: one vectorised numpy step per layer, never a Python loop over faces.
+face* (the far side of a hexahedron, the other triangle of a wedge entered through a
+triangle, the far edge of a 2-D quadrilateral; read from a per-cell table of face ids in
+template order, :func:`template_faces`) and on to the neighbour across that face. All
+wall faces walk in lock-step: one vectorised numpy step per layer, never a Python loop
+over faces.
 
 A cell *continues the stack* while
 
@@ -16,7 +17,10 @@ A cell *continues the stack* while
   direction does not turn, as it does round a corner);
 - it is thin: ``h < max_aspect * width``, width = the square root of the entry face
   area (in 2-D the entry edge length). A layer cell is flat; a cell as tall as it is
-  wide belongs to the core. The first wall cell is always measured, even when thick.
+  wide belongs to the core. The wall cell's height is measured even when it is too
+  thick to count as a layer (then the face has no stack).
+
+Defaults: ``max_aspect`` 1, ``turn_deg`` 45, ``max_cells`` 200 (caselint's choices).
 
 The stack ends at the first cell failing one of these, when an opposite face is on the
 boundary, or after ``max_cells`` cells. The walk itself goes on through cells that are
@@ -39,6 +43,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
+
+from caselint.mesh.celltypes import CELL_TYPES, FACES
 
 if TYPE_CHECKING:
     from caselint.mesh.model import Mesh
@@ -118,43 +124,88 @@ def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, turn_deg: float
     return mesh.cached(key, lambda: _walk(mesh, faces, max_aspect, turn_deg, int(max_cells)))
 
 
-def cell_faces(mesh: "Mesh") -> np.ndarray:
-    """(C, m) face ids of each cell, padded with -1 (m = most faces of any cell); cached."""
+#: Face template opposite each face template (-1: none), for the cell types that have one.
+OPPOSITE: dict[str, tuple[int, ...]] = {
+    "hexahedron": (1, 0, 4, 5, 2, 3),
+    "wedge": (1, 0, -1, -1, -1),        # only the triangles face each other
+    "quad": (2, 3, 0, 1),               # 2-D: opposite edges
+}
+
+
+def _key_vertices(template: tuple[int, ...]) -> tuple[int, ...]:
+    """Template vertices that single the face out among its cell's faces.
+
+    Two diagonal corners of a quadrilateral lie on no other face of a hexahedron or
+    wedge; a triangle needs all three (two of them also lie on a quadrilateral).
+    """
+    distinct = tuple(dict.fromkeys(template))
+    return (distinct[0], distinct[2]) if len(distinct) == 4 else distinct
+
+
+def template_faces(mesh: "Mesh") -> np.ndarray:
+    """(C, 6) int face id of each face template of the hexahedra, wedges and 2-D quadrilaterals
+    (``caselint.mesh.celltypes.FACES`` order), -1 elsewhere; cached on the mesh.
+
+    A face is a cell's template j when it holds the template's key vertices; each face is
+    matched once from its owner's side and once from its neighbour's.
+    """
 
     def compute() -> np.ndarray:
-        owner, neighbour = mesh.owner, mesh.neighbour
+        vertices, owner, neighbour = mesh.faces, mesh.owner, mesh.neighbour
+        dtype = np.int32 if len(owner) < 2**31 else np.int64     # halves the memory traffic
+        out = np.full((mesh.n_cells, 6), -1, dtype=dtype)
         inner = np.flatnonzero(neighbour >= 0)
-        cells = np.concatenate([owner, neighbour[inner]])
-        ids = np.concatenate([np.arange(len(owner), dtype=np.int64), inner])
-        order = np.argsort(cells, kind="stable")
-        cells, ids = cells[order], ids[order]
-        counts = np.bincount(cells, minlength=mesh.n_cells)
-        start = np.cumsum(counts) - counts
-        out = np.full((mesh.n_cells, int(counts.max(initial=1))), -1, dtype=np.int64)
-        out[cells, np.arange(len(cells)) - start[cells]] = ids
+        for block in mesh.cell_blocks:
+            if block.type not in OPPOSITE:
+                continue
+            for faces_of_side in (np.arange(len(owner)), inner):
+                side = owner if faces_of_side is not inner else neighbour
+                cells = side[faces_of_side]
+                keep = (cells >= block.start) & (cells < block.stop)
+                faces, cells = faces_of_side[keep], cells[keep]
+                conn = block.connectivity[cells - block.start]
+                cols = [vertices[faces, k].astype(conn.dtype) for k in range(vertices.shape[1])]
+                keys = [_key_vertices(t) for t in FACES[block.type]]
+                # Is the cell's local vertex v on the face? Once per v, shared by templates.
+                on_face = {}
+                scratch = np.empty(len(faces), dtype=bool)
+                for v in sorted({v for key in keys for v in key}):
+                    node = np.ascontiguousarray(conn[:, v])
+                    hit = np.equal(cols[0], node)
+                    for col in cols[1:]:
+                        np.logical_or(hit, np.equal(col, node, out=scratch), out=hit)
+                    on_face[v] = hit
+                slot = np.full(len(faces), -1, dtype=np.int8)
+                for j, key in enumerate(keys):
+                    slot[np.logical_and.reduce([on_face[v] for v in key])] = j
+                found = slot >= 0
+                out[cells[found], slot[found]] = faces[found]
         return out
 
-    return mesh.cached("cell_faces", compute)
+    return mesh.cached("wall_layers.template_faces", compute)
 
 
-def _opposite(vertices: np.ndarray, candidates: np.ndarray, entry: np.ndarray):
-    """Per row, the one candidate face sharing no vertex with ``entry``, and whether unique."""
-    ein = vertices[entry]
-    found = np.full(len(entry), -1, dtype=np.int64)
-    count = np.zeros(len(entry), dtype=np.int64)
-    width = vertices.shape[1]
-    for j in range(candidates.shape[1]):
-        fj = candidates[:, j]
-        valid = (fj >= 0) & (fj != entry)
-        vj = vertices[np.where(valid, fj, entry)]
-        share = np.zeros(len(entry), dtype=bool)
-        for a in range(width):
-            for b in range(width):
-                share |= vj[:, a] == ein[:, b]
-        disjoint = valid & ~share
-        count += disjoint
-        found = np.where(disjoint & (found < 0), fj, found)
-    return found, count == 1
+def _opposite_table() -> np.ndarray:
+    """(cell type index, template) -> opposite template, -1 for none."""
+    table = np.full((len(CELL_TYPES), 6), -1, dtype=np.int64)
+    for name, opposite in OPPOSITE.items():
+        table[CELL_TYPES.index(name), : len(opposite)] = opposite
+    return table
+
+
+_OPPOSITE_TABLE = _opposite_table()
+
+
+def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray):
+    """The face of each cell opposite its entry face, and whether it has one."""
+    slots = template_faces(mesh)[cells]
+    hit = slots == entry[:, None]
+    j = np.argmax(hit, axis=1)
+    oj = _OPPOSITE_TABLE[mesh.cell_type[cells], j]
+    rows = np.arange(len(cells))
+    opp = slots[rows, np.maximum(oj, 0)].astype(np.int64)
+    shaped = hit[rows, j] & (oj >= 0) & (opp >= 0)
+    return np.where(shaped, opp, entry), shaped
 
 
 def _extent(mesh: "Mesh", cells: np.ndarray, origin: np.ndarray, normal: np.ndarray) -> np.ndarray:
@@ -180,10 +231,8 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
           max_cells: int) -> WallLayers:
     """March every stack one cell per step (see the module docstring)."""
     n = len(faces)
-    owner, neighbour, vertices = mesh.owner, mesh.neighbour, mesh.faces
+    owner, neighbour = mesh.owner, mesh.neighbour
     xf, areas = mesh.face_centroids, mesh.face_areas
-    width = np.sqrt(areas) if mesh.dim == 3 else areas
-    by_cell = cell_faces(mesh)
     cos_turn = math.cos(math.radians(turn_deg))
 
     cells0 = owner[faces]
@@ -201,18 +250,24 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
     core_origin = np.zeros((n, 3))
     core_normal = np.zeros((n, 3))
 
+    # State of the active stacks; the entry face's centroid and width carry over a step.
     act, cell, entry, nin = np.arange(n), cells0.copy(), faces.copy(), n_wall.copy()
+    x_in = xf[faces]
+    a_in = areas[faces]
     for step in range(max_cells):
         if act.size == 0:
             break
-        opp, shaped = _opposite(vertices, by_cell[cell], entry)
-        opp = np.where(shaped, opp, entry)
+        opp, shaped = _opposite(mesh, cell, entry)
         mine = owner[opp] == cell
-        nout = _unit_normals(mesh, opp, np.where(mine, 1.0, -1.0))
-        h = np.einsum("ij,ij->i", xf[opp] - xf[entry], nin)
+        a_out = areas[opp]
+        x_out = xf[opp]
+        nout = mesh.face_area_vectors[opp] * (np.where(mine, 1.0, -1.0)
+                                              / np.where(a_out > 0, a_out, 1.0))[:, None]
+        h = np.einsum("ij,ij->i", x_out - x_in, nin)
         straight = np.einsum("ij,ij->i", nout, n_wall[act]) >= cos_turn
         ok = shaped & straight & (h > 0)
-        thin = ok & (h < max_aspect * width[entry])
+        width = np.sqrt(a_in) if mesh.dim == 3 else a_in
+        thin = ok & (h < max_aspect * width)
         if step == 0:
             first[ok] = h[ok]
             layered_first[ok] = True
@@ -231,7 +286,7 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
         end[act[stops]] = reason[stops]
         at_core = stops & (reason == END_CORE)
         core_cell[act[at_core]] = cell[at_core]
-        core_origin[act[at_core]] = xf[entry[at_core]]
+        core_origin[act[at_core]] = x_in[at_core]
         core_normal[act[at_core]] = nin[at_core]
         in_stack[act[stops]] = False
 
@@ -242,8 +297,10 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
         go = ok & ~on_boundary
         nxt = np.where(mine, neighbour[opp], owner[opp])
         act, cell, entry, nin = act[go], nxt[go], opp[go], nout[go]
+        x_in, a_in = x_out[go], a_out[go]
 
-    heights = np.column_stack(columns) if columns else np.zeros((n, 0))
+    walked = int(n_walked.max(initial=0))    # the last step may have walked no cell
+    heights = np.column_stack(columns[:walked]) if walked else np.zeros((n, 0))
     depth = np.arange(heights.shape[1])[None, :]
     in_layers = depth < n_layers[:, None]
     thickness = np.where(in_layers, heights, 0.0).sum(axis=1)

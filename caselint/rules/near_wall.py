@@ -1,0 +1,271 @@
+"""Near-wall resolution rules: first-layer uniformity, y+ against the wall treatment, cells
+across the boundary layer, and growth inside the wall layer stacks.
+
+All four read the layer stacks of :mod:`caselint.mesh.wall_layers` (walked once per mesh,
+shared through the mesh cache) over the faces of the boundaries whose role is ``wall``,
+and measure once per wall boundary so that a waiver can cover one wall. ``wall-yplus``
+lives in :mod:`caselint.rules.yplus`; this module registers all four.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.mesh.wall_layers import END_CORE, END_WORDS
+from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
+from caselint.rules import wall_flow
+from caselint.rules.mesh_quality import finite_point, plural
+from caselint.rules.wall_scope import at_face, locate, number, settled, walls
+from caselint.rules.yplus import WALL_YPLUS
+
+if TYPE_CHECKING:
+    from caselint.engine.context import RuleContext
+
+_DPW = "AIAA Drag Prediction Workshop gridding guidelines"
+
+
+def _threshold(limits: Limits) -> float | None:
+    return limits.warn if limits.warn is not None else limits.error
+
+
+# -- wall-spacing-uniformity ---------------------------------------------------------------
+
+
+def check_wall_spacing_uniformity(ctx: "RuleContext") -> RuleResult:
+    """Per wall boundary, the largest over the smallest first-layer height."""
+    found = walls(ctx)
+    if isinstance(found, str):
+        return RuleResult.skip(found)
+    mesh, layers = ctx.mesh, found.layers
+    measurements, notes = [], []
+    for name, rows in found.items():
+        heights = layers.first_height[rows]
+        good = rows[heights > 0]
+        if good.size < rows.size:
+            notes.append(Note(f"{plural(rows.size - good.size, 'face')} of '{name}' with a "
+                              "degenerate first cell left out (see inverted-cells)",
+                              Where(boundary=name)))
+        if good.size == 0:
+            continue
+        h = layers.first_height[good]
+        faces = layers.faces[good]
+        lo, hi = int(np.lexsort((faces, h))[0]), int(np.lexsort((faces, -h))[0])
+        ratio = settled(float(h[hi] / h[lo]))
+        tets = int(np.count_nonzero(~layers.layered_first[good]))
+        extra = (f"; {plural(tets, 'face')} without a prism or hexahedral wall cell, measured "
+                 "to the cell's farthest vertex") if tets else ""
+        detail = (f"first-layer height from {h[lo]:.3g} m at {at_face(mesh, int(faces[lo]))} "
+                  f"to {h[hi]:.3g} m at {at_face(mesh, int(faces[hi]))}{extra}")
+        listed = (int(faces[hi]), int(faces[lo])) if hi != lo else (int(faces[hi]),)
+        where = Where(boundary=name, faces=listed, face_count=len(listed),
+                      cells=tuple(dict.fromkeys(int(mesh.owner[f]) for f in listed)),
+                      cell_count=len(set(int(mesh.owner[f]) for f in listed)),
+                      point=finite_point(mesh.face_centroids[faces[hi]]))
+        fix = (f"Use one first-layer height along '{name}' (now {h[lo]:.3g} to {h[hi]:.3g} m): "
+               "set it as an absolute height rather than relative to the local surface "
+               "cell size, and check the layers where the largest and smallest heights sit.")
+        measurements.append(Measurement(ratio, where, detail, fix))
+    if not measurements:
+        return RuleResult(skipped="every wall face has a degenerate first cell (see "
+                                  "inverted-cells)", notes=tuple(notes))
+    return RuleResult(tuple(measurements), notes=tuple(notes))
+
+
+# -- boundary-layer-cells ------------------------------------------------------------------
+
+
+def check_boundary_layer_cells(ctx: "RuleContext") -> RuleResult:
+    """Cells within the estimated boundary-layer thickness, and the stack against it."""
+    found = walls(ctx)
+    if isinstance(found, str):
+        return RuleResult.skip(found)
+    flow = wall_flow.flow_data(ctx.case)
+    if isinstance(flow, str):
+        return RuleResult.skip(flow)
+    if not flow.length:
+        return RuleResult.skip("the case gives no physics.flow.length")
+    try:
+        cover_min = number(ctx.params, "stack_cover_min", allow_none=True)
+    except ValueError as exc:
+        return RuleResult.skip(str(exc))
+    delta, how = wall_flow.boundary_layer_thickness(flow)
+    mesh, layers = ctx.mesh, found.layers
+    count = layers.cells_within(delta).astype(np.float64)
+    cover = settled(layers.thickness / delta)
+    threshold = _threshold(ctx.limits)
+    measurements = []
+    notes = [Note(f"boundary-layer thickness {delta:.3g} m: {how}; cells are counted along "
+                  "the layer-shaped cells above each wall face (prisms, hexahedra), not into "
+                  "a tetrahedral core")]
+    for name, rows in found.items():
+        faces = layers.faces[rows]
+        where, worst, n_bad = locate(mesh, faces, count[rows], threshold, "lower", name)
+        r = rows[worst]
+        lead = (f"{n_bad} of {plural(len(faces), 'face')} with fewer than {threshold:g} cells "
+                if n_bad else "no face below the limit; ")
+        detail = (f"{lead}within delta = {delta:.3g} m; fewest {int(count[r])} at "
+                  f"{at_face(mesh, int(faces[worst]))}, under a stack of "
+                  f"{plural(int(layers.n_layers[r]), 'layer')} ({layers.thickness[r]:.3g} m)")
+        fix = ""
+        if threshold:
+            fix = (f"Refine normal to '{name}': {threshold:g} cells within delta = {delta:.3g} m "
+                   f"means cells of at most {delta / threshold:.3g} m on average there; add "
+                   "inflation layers or lower their growth ratio.")
+        measurements.append(Measurement(float(count[r]), where, detail, fix))
+        where, worst, n_bad = locate(mesh, faces, cover[rows], cover_min, "lower", name)
+        r = rows[worst]
+        layer_words = plural(int(layers.n_layers[r]), "layer")
+        measurements.append(Measurement(
+            float(cover[r]), where,
+            f"thinnest stack {layers.thickness[r]:.3g} m ({layer_words}) at "
+            f"{at_face(mesh, int(faces[worst]))}, delta = {delta:.3g} m",
+            f"Grow the inflation stack on '{name}' to at least delta = {delta:.3g} m: more "
+            "layers, or a larger total thickness.",
+            label="thinnest layer stack over the boundary-layer thickness", unit="",
+            worse="lower", limits=Limits(warn=cover_min, error=None)))
+    return RuleResult(tuple(measurements), notes=tuple(notes))
+
+
+# -- layer-growth --------------------------------------------------------------------------
+
+
+def check_layer_growth(ctx: "RuleContext") -> RuleResult:
+    """Largest layer-to-layer growth in the stacks, and the jump from the last layer to the core."""
+    found = walls(ctx)
+    if isinstance(found, str):
+        return RuleResult.skip(found)
+    try:
+        jump = Limits(warn=number(ctx.params, "core_jump_warn", allow_none=True),
+                      error=number(ctx.params, "core_jump_error", allow_none=True))
+    except ValueError as exc:
+        return RuleResult.skip(str(exc))
+    mesh, layers = ctx.mesh, found.layers
+    measurements, notes = [], []
+    for name, rows in found.items():
+        n = layers.n_layers[rows]
+        ends = ", ".join(f"{END_WORDS[code]} {np.count_nonzero(layers.end[rows] == code)}"
+                         for code in sorted(set(layers.end[rows].tolist())))
+        notes.append(Note(f"layer stacks on '{name}': {n.min()} to {n.max()} layers "
+                          f"(median {np.median(n):g}), thickness {layers.thickness[rows].min():.3g}"
+                          f" to {layers.thickness[rows].max():.3g} m; stacks end at: {ends}",
+                          Where(boundary=name)))
+        stacked = rows[n >= 2]
+        if stacked.size:
+            faces = layers.faces[stacked]
+            growth = settled(layers.max_growth[stacked])
+            where, worst, n_bad = locate(mesh, faces, growth, _threshold(ctx.limits), "higher",
+                                         name)
+            k = int(layers.growth_layer[stacked[worst]])
+            lead = (f"{n_bad} of {plural(len(faces), 'stack')} above {_threshold(ctx.limits):g}"
+                    if n_bad else "no stack above the limit")
+            measurements.append(Measurement(
+                float(growth[worst]), where,
+                f"{lead}; largest from layer {k - 1} to layer {k} above "
+                f"{at_face(mesh, int(faces[worst]))}"))
+        cored = rows[layers.end[rows] == END_CORE]
+        if cored.size:
+            faces = layers.faces[cored]
+            values = settled(layers.core_jump[cored])
+            where, worst, n_bad = locate(mesh, faces, values, _threshold(jump), "higher", name)
+            r = cored[worst]
+            measurements.append(Measurement(
+                float(values[worst]), where,
+                f"core cell {int(layers.core_cell[r])} is {values[worst]:.3g} times as tall as "
+                f"the last of {plural(int(layers.n_layers[r]), 'layer')} above "
+                f"{at_face(mesh, int(faces[worst]))}",
+                "Blend the stack into the core: make the last layer closer to the core cell "
+                "size (more layers or a larger growth up to the limit), or refine the core "
+                "next to the layers.",
+                label="largest height jump from the last layer to the core cell",
+                worse="higher", limits=jump))
+    if not measurements:
+        return RuleResult(skipped="no wall face has a layer stack of two or more cells, nor a "
+                                  "stack ending in core cells", notes=tuple(notes))
+    return RuleResult(tuple(measurements), notes=tuple(notes))
+
+
+# -- the rules -----------------------------------------------------------------------------
+
+WALL_SPACING_UNIFORMITY = Rule(
+    id="wall-spacing-uniformity",
+    title="Uniform first-layer height along each wall",
+    rationale=(
+        "The ratio of the largest to the smallest first-layer height over the faces of one "
+        "wall boundary (the height of the first prism or hexahedral layer; for a wall cell "
+        "without layers, the wall distance of its farthest vertex). Keeping the same wall "
+        "distance along a wall keeps y+ and the accuracy of the wall treatment from varying "
+        "along it (common practice). Warning above 1.5, error above 3 (common practice)."
+    ),
+    source="common practice",
+    unit="",
+    limits=Limits(warn=1.5, error=3.0),
+    hint="Set one absolute first-layer height for the whole wall in the mesher.",
+    check=check_wall_spacing_uniformity,
+    needs=("mesh", "mesh.boundaries"),
+    measures="ratio of the largest to the smallest first-layer height",
+)
+
+BOUNDARY_LAYER_CELLS = Rule(
+    id="boundary-layer-cells",
+    title="Cells across the boundary layer",
+    rationale=(
+        "The boundary-layer thickness is estimated at the flow length: turbulent "
+        "0.37 x Re_x^-1/5 (1/7-power law, Schlichting 1979, from memory), laminar "
+        "5.0 x / sqrt(Re_x) (Blasius); for internal flow half the hydraulic diameter (fully "
+        "developed flow). Counting the cells lined up above each wall face that lie wholly "
+        "within it, at least 10 are wanted (warning below 10, error below 5; common practice: "
+        "5-10 or more cells across a boundary layer). The inflation stack should also reach "
+        "the edge of the boundary layer (warning when thinner than stack_cover_min times "
+        "delta, common practice)."
+    ),
+    source="Schlichting 1979; Blasius 1908; cell counts: common practice",
+    unit="cells",
+    limits=Limits(warn=10.0, error=5.0),
+    hint="Add inflation layers or lower their growth so that more cells fall inside the "
+         "boundary layer.",
+    check=check_boundary_layer_cells,
+    worse="lower",
+    needs=("mesh", "mesh.boundaries", "physics.fluid", "physics.flow", "physics.turbulence"),
+    parameters=(
+        Parameter("stack_cover_min", 1.0, "", "warning when the layer stack is thinner than "
+                  "this multiple of the boundary-layer thickness (common practice)"),
+    ),
+    measures="fewest cells within the boundary-layer thickness",
+)
+
+LAYER_GROWTH = Rule(
+    id="layer-growth",
+    title="Growth inside the wall layer stacks",
+    rationale=(
+        "The largest ratio of a layer's height to the one below it inside the wall layer "
+        "stacks. The " + _DPW + " ask for growth below 1.25 in the viscous layer; caselint "
+        "warns above 1.2 and errs above 1.3 (common practice). The height of the first core cell "
+        "over the last layer's is graded separately (core_jump_warn, core_jump_error; "
+        "expansion at most about 1.3, a doubling is an error: common practice)."
+    ),
+    source=_DPW + "; limits: common practice",
+    unit="",
+    limits=Limits(warn=1.2, error=1.3),
+    hint="Lower the growth ratio of the inflation layers and add layers to keep the thickness.",
+    check=check_layer_growth,
+    needs=("mesh", "mesh.boundaries"),
+    parameters=(
+        Parameter("core_jump_warn", 1.3, "", "warning above this core-cell to last-layer "
+                  "height ratio (common practice)"),
+        Parameter("core_jump_error", 2.0, "", "error above this core-cell to last-layer "
+                  "height ratio (common practice)"),
+    ),
+    measures="largest layer-to-layer growth ratio",
+)
+
+RULES: tuple[Rule, ...] = (WALL_SPACING_UNIFORMITY, WALL_YPLUS, BOUNDARY_LAYER_CELLS,
+                           LAYER_GROWTH)
+
+
+@hookimpl
+def caselint_register_rules() -> list[Rule]:
+    """The built-in near-wall rules."""
+    return list(RULES)

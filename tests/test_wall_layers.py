@@ -1,0 +1,176 @@
+"""Wall layer stacks on meshes whose layers are known by construction.
+
+Every expected value below follows from the construction of the mesh [computed]: layer
+heights are laid out exactly (tests/near_wall_meshes.py), the centroid of a right prism
+sits at half its height, that of a tetrahedron at a quarter of its apex height, and that
+of a trapezoid at h (a + 2b) / (3 (a + b)) from its side a (standard plane geometry).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from caselint.mesh import mesh_from_meshio
+from caselint.mesh.blocks import shuffled, structured_hex, structured_quad, tetrahedralise
+from caselint.mesh.wall_layers import (
+    END_BOUNDARY, END_CORE, END_TURN, NO_STACK, template_faces, wall_layers,
+)
+from near_wall_meshes import geometric, layer_block, prism_block, stack
+
+
+def _stacks(meshio_mesh, group="zmin", **kw):
+    mesh = mesh_from_meshio(meshio_mesh)
+    return mesh, wall_layers(mesh, mesh.group_faces(group), **kw)
+
+
+def test_graded_hex_stack_heights_distances_and_growth():
+    heights = geometric(1e-3, 1.2, 12)          # all thinner than the 0.05 m cells are wide
+    mesh, layers = _stacks(layer_block(heights))
+    n = 4 * 3
+    assert len(layers.faces) == n
+    np.testing.assert_array_equal(layers.n_layers, 12)
+    np.testing.assert_array_equal(layers.n_walked, 12)
+    np.testing.assert_array_equal(layers.end, END_BOUNDARY)   # the top of the block
+    np.testing.assert_allclose(layers.heights, np.tile(heights, (n, 1)), rtol=1e-12)
+    np.testing.assert_allclose(layers.first_height, 1e-3, rtol=1e-12)
+    np.testing.assert_allclose(layers.centre_distance, 0.5e-3, rtol=1e-12)
+    np.testing.assert_allclose(layers.thickness, heights.sum(), rtol=1e-12)
+    np.testing.assert_allclose(layers.max_growth, 1.2, rtol=1e-12)
+    assert np.all((layers.growth_layer >= 2) & (layers.growth_layer <= 12))
+    np.testing.assert_array_equal(layers.core_cell, -1)
+    np.testing.assert_allclose(layers.normals, [[0, 0, 1]] * n, atol=1e-15)
+    assert layers.layered_first.all()
+
+
+def test_stack_ends_at_the_first_cell_as_tall_as_it_is_wide():
+    # 0.01 m wide cells, heights 1 mm x 1.3^k: 1e-3 * 1.3^9 = 0.0106 m is the first one
+    # not thinner than its width, so nine layers; the walk goes on to the top
+    heights = geometric(1e-3, 1.3, 14)
+    mesh, layers = _stacks(layer_block(heights, nx=2, ny=2, dx=0.01))
+    np.testing.assert_array_equal(layers.n_layers, 9)
+    np.testing.assert_array_equal(layers.n_walked, 14)
+    np.testing.assert_array_equal(layers.end, END_CORE)
+    np.testing.assert_allclose(layers.core_jump, 1.3, rtol=1e-12)
+    np.testing.assert_allclose(layers.thickness, heights[:9].sum(), rtol=1e-12)
+    # cells wholly within a distance: the tops are the cumulative heights
+    tops = np.cumsum(heights)
+    assert np.all(layers.cells_within(tops[5] * (1 + 1e-9)) == 6)
+    assert np.all(layers.cells_within(tops[5] * (1 - 1e-9)) == 5)
+    assert np.all(layers.cells_within(1.0) == 14)
+
+
+def test_wedge_layers_under_a_tetrahedral_core():
+    heights = geometric(2e-4, 1.25, 6)
+    mesh, layers = _stacks(prism_block(heights, [0.05, 0.05]))
+    assert mesh.cell_counts == {"wedge": 6 * 9 * 2, "tetra": 2 * 9 * 6}
+    n = 9 * 2                                   # two triangles per wall quad
+    assert len(layers.faces) == n
+    np.testing.assert_array_equal(layers.n_layers, 6)
+    np.testing.assert_array_equal(layers.n_walked, 6)
+    np.testing.assert_array_equal(layers.end, END_CORE)
+    np.testing.assert_allclose(layers.heights, np.tile(heights, (n, 1)), rtol=1e-10)
+    np.testing.assert_allclose(layers.centre_distance, 1e-4, rtol=1e-10)  # right prism
+    np.testing.assert_allclose(layers.max_growth, 1.25, rtol=1e-10)
+    # each core tetrahedron spans the whole 0.05 m hexahedron it was cut from
+    np.testing.assert_allclose(layers.core_jump, 0.05 / heights[-1], rtol=1e-10)
+    assert set(mesh.cell_type[layers.core_cell].tolist()) == {0}      # tetra
+
+
+def test_tetrahedral_wall_has_no_stack():
+    mesh = mesh_from_meshio(tetrahedralise(structured_hex(*(np.linspace(0, 0.2, 3),) * 2,
+                                                          [0.0, 0.04, 0.1])))
+    layers = wall_layers(mesh, mesh.group_faces("zmin"))
+    np.testing.assert_array_equal(layers.n_layers, 0)
+    np.testing.assert_array_equal(layers.end, NO_STACK)
+    assert not layers.layered_first.any()
+    # Kuhn tetrahedra on the wall have their apex on the top of the 0.04 m hexahedron
+    np.testing.assert_allclose(layers.first_height, 0.04, rtol=1e-12)
+    np.testing.assert_allclose(layers.centre_distance, 0.01, rtol=1e-12)
+    assert np.all(layers.max_growth == 0) and np.all(layers.thickness == 0)
+
+
+def test_layers_stop_where_the_direction_turns():
+    m = layer_block(geometric(1e-3, 1.1, 8), nx=3, ny=2, dx=0.05)
+    z4 = stack(geometric(1e-3, 1.1, 8))[4]
+    tilt = m.points[:, 2] >= z4 - 1e-12
+    m.points[tilt, 2] += math.tan(math.radians(60)) * m.points[tilt, 0]   # tops tilt 60 deg
+    mesh, layers = _stacks(m)
+    np.testing.assert_array_equal(layers.end, END_TURN)
+    np.testing.assert_array_equal(layers.n_layers, 3)
+    np.testing.assert_array_equal(layers.n_walked, 3)
+
+
+def test_curved_wall_layers_follow_the_local_normal():
+    # quarter annulus, wall on the inner radius R = 1 m; 8 sectors of 11.25 deg
+    radii = 1.0 + stack(geometric(1e-3, 1.2, 5))
+    m = structured_hex(radii, np.linspace(0, math.pi / 2, 9), [0.0, 0.02])
+    r, t = m.points[:, 0].copy(), m.points[:, 1].copy()
+    m.points[:, 0], m.points[:, 1] = r * np.cos(t), r * np.sin(t)
+    mesh, layers = _stacks(m, group="xmin")
+    half = math.pi / 32
+    dr = np.diff(radii)
+    np.testing.assert_allclose(layers.heights, np.tile(dr * math.cos(half), (8, 1)), rtol=1e-10)
+    r1, r2 = radii[0], radii[1]
+    h = dr[0] * math.cos(half)
+    np.testing.assert_allclose(layers.centre_distance, h * (r1 + 2 * r2) / (3 * (r1 + r2)),
+                               rtol=1e-9)
+    np.testing.assert_array_equal(layers.n_layers, 5)
+
+
+def test_two_dimensional_quadrilateral_layers():
+    heights = geometric(5e-4, 1.15, 6)
+    mesh = mesh_from_meshio(structured_quad(np.linspace(0, 0.3, 7), stack(heights)))
+    layers = wall_layers(mesh, mesh.group_faces("ymin"))
+    np.testing.assert_array_equal(layers.n_layers, 6)
+    np.testing.assert_allclose(layers.heights, np.tile(heights, (6, 1)), rtol=1e-12)
+    np.testing.assert_allclose(layers.centre_distance, 2.5e-4, rtol=1e-12)
+
+
+def test_stacks_do_not_depend_on_numbering():
+    heights = geometric(1e-3, 1.3, 10)
+    m = prism_block(heights[:4], [0.02, 0.03])
+    plain, a = _stacks(m)
+    mixed, b = _stacks(shuffled(m, seed=3))
+    # match the faces by centroid
+    ka = np.lexsort(plain.face_centroids[a.faces].T[::-1])
+    kb = np.lexsort(mixed.face_centroids[b.faces].T[::-1])
+    for name in ("n_layers", "first_height", "centre_distance", "thickness", "max_growth",
+                 "core_jump", "end"):
+        np.testing.assert_allclose(getattr(a, name)[ka], getattr(b, name)[kb], rtol=1e-12,
+                                   err_msg=name)
+
+
+def test_template_faces_hold_each_templates_vertices():
+    from caselint.mesh.celltypes import FACES
+
+    m = prism_block(geometric(1e-3, 1.2, 2), [0.02])
+    mesh = mesh_from_meshio(shuffled(m, seed=5))
+    table = template_faces(mesh)
+    for block in mesh.cell_blocks:
+        cells = np.arange(block.start, block.stop)
+        for j, template in enumerate(FACES[block.type]):
+            if block.type == "tetra":
+                assert np.all(table[cells, j] == -1)
+                continue
+            faces = table[cells, j]
+            assert np.all(faces >= 0)
+            want = np.sort(block.connectivity[:, list(template)], axis=1)
+            got = np.sort(mesh.faces[faces], axis=1)
+            # padded triangles repeat a vertex: compare the vertex sets
+            for k in range(len(cells)):
+                assert set(want[k]) == set(got[k])
+
+
+def test_cached_per_face_set_and_refuses_internal_faces():
+    mesh = mesh_from_meshio(layer_block(geometric(1e-3, 1.2, 4)))
+    faces = mesh.group_faces("zmin")
+    first = wall_layers(mesh, faces)
+    assert wall_layers(mesh, faces[::-1]) is first          # same set, same object
+    assert wall_layers(mesh, faces[:3]) is not first
+    with pytest.raises(ValueError, match="boundary faces"):
+        wall_layers(mesh, np.flatnonzero(mesh.neighbour >= 0)[:2])
+    sub = first.subset(first.rows_of(faces[:2]))
+    assert len(sub.faces) == 2 and sub.heights.shape == (2, 4)
