@@ -7,6 +7,11 @@ exactly the defects designed into it, with their analytic values [computed]:
   (layer heights h and 1.5 h; see tests/test_rules_mesh_quality.py for the formula);
 - edge ratio 0.4 m / 0.02 m = 20 in the first floor layer;
 - the 96 faces of the loading door in a group with no role.
+
+The near-wall rules judge the same coarse room mesh against the wall-function treatment
+the case declares [computed by hand below]: Colebrook, smooth, Re = 1.5 * 1.37 / nu with
+nu = 1.78e-5 / 1.23 gives f = 0.01674 and u_tau = U sqrt(f / 8) = 0.06862 m/s, so the
+0.4 m wall cells (first centre 0.2 m from the wall) sit at y+ = 0.2 u_tau / nu = 948.
 """
 
 from __future__ import annotations
@@ -77,9 +82,25 @@ def test_demo_checks_measure_the_designed_values(report):
     }
 
 
+def test_demo_near_wall_checks_follow_from_the_coarse_wall_cells(report):
+    checks = {c.rule: c for c in report.checks}
+    nu = 1.78e-5 / 1.23
+    f = 0.01674  # Colebrook, smooth, Re = 1.5 * 1.37 / nu = 1.42e5 (tests/test_physics_friction.py)
+    u_tau = 1.5 * math.sqrt(f / 8.0)
+    yplus = checks["wall-yplus"]
+    assert yplus.measured == pytest.approx(0.2 * u_tau / nu, rel=2e-4)  # 948.3
+    assert (yplus.outcome, yplus.severity, yplus.limit) == ("fail", "error", 500)
+    growth = checks["layer-growth"]  # the floor layers graded by 1.5, seen as a stack
+    assert growth.measured == pytest.approx(1.5, abs=1e-9) and growth.severity == "error"
+    assert checks["wall-spacing-uniformity"].outcome == "fail"
+    assert checks["boundary-layer-cells"].outcome == "fail"
+
+
 def test_demo_findings_locate_the_defects(report):
-    findings = {f.rule: f for f in report.findings}
-    assert set(findings) == {"growth-ratio", "non-orthogonality", "unassigned-boundary"}
+    findings = {f.rule: f for f in report.findings if f.severity != "note"}
+    assert set(findings) == {"growth-ratio", "non-orthogonality", "unassigned-boundary",
+                             "wall-yplus", "layer-growth", "wall-spacing-uniformity",
+                             "boundary-layer-cells"}
     door = findings["unassigned-boundary"]
     assert door.severity == "error" and door.where.boundary == "loading-door"
     assert door.where.face_count == 96 and door.where.point[1] == 0.0   # on the west wall y = 0

@@ -335,3 +335,22 @@ def test_a_declarative_condition_passes_when_it_does_not_apply(tmp_path):
         assert report.checks[0].measured == expected
     assert report.findings[0].message.startswith("a transient case needs time.step")
     assert report.findings[0].where.key == "time"
+
+
+def test_rule_parameters_are_type_checked_against_their_defaults(tmp_path):
+    from caselint.model import Parameter
+
+    rule = Rule(id="p", title="t", rationale="r", source="s", unit="", hint="h",
+                limits=Limits(warn=1), check=lambda ctx: RuleResult.skip("x"),
+                parameters=(Parameter("min_steps", 20, "steps"), Parameter("strict", False),
+                            Parameter("cap", None, "m")))
+    ok = _write(tmp_path / "ok.yaml", "rules:\n  p: {min_steps: 30, strict: true, cap: null}\n")
+    (active,) = select_rules(("ok",), {"ok": ok}, {"p": rule}).rules
+    assert active.params == {"min_steps": 30, "strict": True, "cap": None}
+    for text, expected in [("min_steps: many", "must be a finite number in steps"),
+                           ("strict: 1", "must be true or false"),
+                           ("min_steps: .nan", "must be a finite number")]:
+        bad = _write(tmp_path / "bad.yaml", f"rules:\n  p:\n    {text}\n")
+        with pytest.raises(CaseFileError, match=expected) as err:
+            select_rules(("bad",), {"bad": bad}, {"p": rule})
+        assert err.value.line == 3

@@ -28,6 +28,7 @@ BUILTIN_PLUGINS: tuple[str, ...] = (
     "caselint.rules.mesh_quality",
     "caselint.rules.boundaries",
     "caselint.rules.waivers",
+    "caselint.rules.near_wall",
     "caselint.rules.time_step",
     "caselint.rules.grid_refinement",
     "caselint.report.text",

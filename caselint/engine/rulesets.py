@@ -170,6 +170,34 @@ def _check_entry(
             raise CaseFileError(file, f"rule {rule.id!r} has no setting {key!r}"
                                 f"{_suggest(key, allowed)}; it takes {', '.join(allowed)}",
                                 line=_line(lines, where), key=where)
+        else:
+            _check_parameter(rule, next(p for p in rule.parameters if p.name == key), value,
+                             file, lines, where)
+
+
+def _check_parameter(
+    rule: Rule, param: Any, value: Any, file: str, lines: Mapping[str, int], where: str
+) -> None:
+    """A parameter value must have the kind of its default: a finite number, a flag, text.
+
+    A parameter whose default is None takes a number or null.
+    """
+    default = param.default
+    unit = f" in {param.unit}" if param.unit else ""
+    if isinstance(default, bool):
+        ok, expected = isinstance(value, bool), "true or false"
+    elif isinstance(default, (int, float)) or default is None:
+        ok = value is None and default is None or (
+            isinstance(value, (int, float)) and not isinstance(value, bool)
+            and math.isfinite(value))
+        expected = f"a finite number{unit}" + (" or null" if default is None else "")
+    elif isinstance(default, str):
+        ok, expected = isinstance(value, str), "text"
+    else:
+        ok, expected = True, ""
+    if not ok:
+        raise CaseFileError(file, f"parameter {param.name!r} of rule {rule.id!r} must be "
+                            f"{expected}, got {value!r}", line=_line(lines, where), key=where)
 
 
 def select_rules(
