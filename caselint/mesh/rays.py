@@ -41,7 +41,7 @@ LOST = 2
 
 #: Default limit on the cells one ray may cross.
 MAX_STEPS = 10_000
-# A face counts as an exit only if the ray is not parallel to it: d . S > this x |S|.
+# A face counts as an exit only if the ray is not parallel to it: d . n > this (n unit).
 _PARALLEL = 1e-9
 
 
@@ -72,7 +72,7 @@ class RayHits:
 
 
 def cell_faces_csr(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
-    """Cell-to-face incidence in CSR form: faces of cell c are ``faces[offsets[c]:offsets[c+1]]``."""
+    """Cell-to-face incidence in CSR form: cell c has faces[offsets[c]:offsets[c + 1]]."""
 
     def build() -> tuple[np.ndarray, np.ndarray]:
         owner, neighbour = mesh.owner, mesh.neighbour
@@ -149,10 +149,13 @@ class _FaceData:
         if self.wall.shape != self.owner.shape:
             raise ValueError(f"wall_face must have one entry per face ({self.owner.size}), "
                              f"got shape {self.wall.shape}")
-        self.s = coordinate_columns(mesh.face_area_vectors)
-        self.x = coordinate_columns(mesh.face_centroids)
+        # Each face's plane as n . x = c with n the unit normal out of the owner; a
+        # collapsed face gets n = 0 and is never an exit.
         s = mesh.face_area_vectors
-        self.s_norm = np.sqrt((s**2).sum(axis=1))
+        norm = np.sqrt((s**2).sum(axis=1))
+        unit = s / np.where(norm > 0, norm, 1.0)[:, None]
+        self.n = coordinate_columns(unit)
+        self.c = (unit * mesh.face_centroids).sum(axis=1)
 
 
 def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) -> None:
@@ -183,7 +186,7 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
         idx = idx[go]
         cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
         count[idx] += 1
-    out.cells[rays[idx]] = count[idx]   # still marching after max_steps: stays LOST
+    out.cells[rays[idx]] = count[idx] - 1   # cells fully crossed before the step limit; LOST
 
 
 def _exit_faces(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o, d):
@@ -195,17 +198,35 @@ def _exit_faces(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o, d):
         f = faces[:, k]
         present = (f >= 0) & (f != entry)
         fs = np.where(present, f, 0)
-        sign = np.where(fd.owner[fs] == cell, 1.0, -1.0)    # orient S out of this cell
-        s = [fd.s[j][fs] * sign for j in range(3)]
-        denom = s[0] * d[0] + s[1] * d[1] + s[2] * d[2]
-        num = ((fd.x[0][fs] - o[0]) * s[0] + (fd.x[1][fs] - o[1]) * s[1]
-               + (fd.x[2][fs] - o[2]) * s[2])
-        leaving = present & (denom > _PARALLEL * fd.s_norm[fs])
-        t = np.where(leaving, num / np.where(leaving, denom, 1.0), np.inf)
+        n = [fd.n[j][fs] for j in range(3)]
+        dn = n[0] * d[0] + n[1] * d[1] + n[2] * d[2]
+        # leaving this cell: along the normal if it owns the face, against it otherwise
+        out_of = np.where(fd.owner[fs] == cell, dn, -dn)
+        leaving = present & (out_of > _PARALLEL)
+        on = n[0] * o[0] + n[1] * o[1] + n[2] * o[2]
+        t = np.where(leaving, (fd.c[fs] - on) / np.where(leaving, dn, 1.0), np.inf)
         better = t < best_t
         best_t = np.where(better, t, best_t)
         best_f = np.where(better, f, best_f)
     return best_t, best_f
+
+
+def hit_angles_deg(mesh: "Mesh", hits: RayHits) -> np.ndarray:
+    """(R,) angle (deg) between each ray and the normal of the face it ended on; 90 if lost.
+
+    0 is a head-on hit, as across a channel; near 90 the ray grazes the far wall, as in a
+    corner whose walls meet at an acute angle.
+    """
+    out = np.full(hits.n_rays, 90.0)
+    ended = np.flatnonzero(hits.hit_face >= 0)
+    s = mesh.face_area_vectors[hits.hit_face[ended]]
+    d = hits.direction[ended]
+    # S of a boundary face points out of the mesh, so an arriving ray has d . S > 0;
+    # atan2 keeps small angles precise (see the design notes)
+    dot = (s * d).sum(axis=1)
+    cross = np.sqrt((np.cross(d, s) ** 2).sum(axis=1))
+    out[ended] = np.minimum(np.degrees(np.arctan2(cross, dot)), 90.0)
+    return out
 
 
 def wall_rays(mesh: "Mesh", wall_groups: tuple[str, ...], max_steps: int = MAX_STEPS) -> RayHits:
