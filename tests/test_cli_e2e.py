@@ -79,7 +79,10 @@ def write_case(folder: Path, mesh: Path, name: str = "Invented test duct",
 
 @pytest.fixture
 def uniform_case(tmp_path):
-    mesh = write_block_mesh(tmp_path / "uniform.msh", xs=[0.0, 0.1, 0.2, 0.3])
+    # 12 cells of 0.1 m between the duct walls: gap-cells passes as well
+    across = np.linspace(0.0, 1.2, 13)
+    mesh = write_block_mesh(tmp_path / "uniform.msh", xs=[0.0, 0.1, 0.2, 0.3], ys=across,
+                            zs=across)
     return write_case(tmp_path, mesh)
 
 
@@ -104,6 +107,7 @@ def test_uniform_mesh_passes_every_mesh_check(uniform_case):
     assert checks["growth-ratio"]["measured"] == pytest.approx(1.0, abs=1e-12)
     assert checks["non-orthogonality"]["measured"] == pytest.approx(0.0, abs=1e-9)
     assert checks["unassigned-boundary"]["outcome"] == "pass"
+    assert checks["gap-cells"]["measured"] == 12
     assert document["cases"][0]["mesh"] == "uniform.msh"
 
 
@@ -149,7 +153,9 @@ def test_unknown_rule_set_is_a_usage_error(uniform_case):
 
 
 def test_init_writes_a_starter_that_checks(tmp_path):
-    mesh = write_block_mesh(tmp_path / "room.msh", xs=[0.0, 0.1, 0.2])
+    # 12 cells across the duct between its walls, so gap-cells passes too
+    mesh = write_block_mesh(tmp_path / "room.msh", xs=[0.0, 0.1, 0.2],
+                            ys=np.linspace(0.0, 0.2, 13), zs=np.linspace(0.0, 0.2, 13))
     target = tmp_path / "starter.yaml"
     code, out, err = run_cli("init", str(mesh), "--output", str(target))
     assert (code, out) == (0, "")

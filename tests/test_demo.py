@@ -100,7 +100,13 @@ def test_demo_findings_locate_the_defects(report):
     findings = {f.rule: f for f in report.findings if f.severity != "note"}
     assert set(findings) == {"growth-ratio", "non-orthogonality", "unassigned-boundary",
                              "wall-yplus", "layer-growth", "wall-spacing-uniformity",
-                             "boundary-layer-cells"}
+                             "boundary-layer-cells", "gap-cells"}
+    # the wedge the morph leaves between the floor and the rail on the north wall (x = 0):
+    # rays from the floor meet the leaning wall after crossing the first two floor layers
+    gap = findings["gap-cells"]
+    assert (gap.severity, gap.measured) == ("error", 2)
+    assert "between 'floor' and 'walls-ceiling'" in gap.message
+    assert gap.where.point[0] < 0.2 and gap.where.point[2] < 0.02 + 0.03
     door = findings["unassigned-boundary"]
     assert door.severity == "error" and door.where.boundary == "loading-door"
     assert door.where.face_count == 96 and door.where.point[1] == 0.0   # on the west wall y = 0
