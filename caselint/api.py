@@ -11,11 +11,16 @@ from typing import TYPE_CHECKING, Iterable
 
 from caselint import __version__
 from caselint.engine.plugins import get_plugin_manager
-from caselint.engine.registry import collect_case_sections, collect_rule_set_files, collect_rules
+from caselint.engine.registry import (
+    collect_case_sections,
+    collect_rule_set_files,
+    collect_rules,
+    contributions,
+)
 from caselint.engine.rulesets import Selection, select_rules
 from caselint.engine.runner import run_case
 from caselint.errors import CaseFileError, MeshReadError
-from caselint.model import CaseReport, Report
+from caselint.model import CaseReport, Report, RuleInfo, RuleSetInfo
 
 if TYPE_CHECKING:
     import pluggy
@@ -144,4 +149,29 @@ def lint(
     pm = pm if pm is not None else get_plugin_manager()
     rule_sets = tuple(rule_sets) if rule_sets else None
     cases = tuple(lint_case(p, rule_sets=rule_sets, pm=pm, today=today) for p in paths)
-    return Report(cases=cases, caselint_version=__version__, rule_sets=rule_sets or ())
+    return build_report(cases, pm, rule_sets or ())
+
+
+def build_report(
+    cases: Iterable[CaseReport], pm: "pluggy.PluginManager", rule_sets: Iterable[str] = ()
+) -> Report:
+    """A run's report: the cases, plus what describes the rules and rule-set files they used.
+
+    ``Report.rules`` (for SARIF rule metadata) holds every rule a case has a check of;
+    ``Report.rule_set_info`` every rule-set file a case ran under, with its provider and hash.
+    """
+    cases = tuple(cases)
+    rules = collect_rules(pm)
+    used_rules = sorted({c.rule for case in cases for c in case.checks} & set(rules))
+    files = collect_rule_set_files(pm)
+    providers = {name: plugin for plugin, names in contributions(pm)["rule_sets"].items()
+                 for name in names}
+    distributions = getattr(pm, "distributions", {})
+    set_info = []
+    for name in sorted({n for case in cases for n in case.rule_sets} & set(files)):
+        plugin = providers.get(name, "")
+        dist, version = distributions.get(plugin, (plugin, ""))
+        set_info.append(RuleSetInfo(name, dist, version, file_sha256(files[name])))
+    return Report(cases=cases, caselint_version=__version__, rule_sets=tuple(rule_sets),
+                  rules=tuple(RuleInfo.of(rules[r]) for r in used_rules),
+                  rule_set_info=tuple(set_info))

@@ -46,11 +46,24 @@ def _blocked_name(value: str) -> str:
 
 
 def _report_options(parser: argparse.ArgumentParser, *, demo: bool = False) -> None:
-    """Options shared by ``check`` and ``demo``: format, output file and fail level."""
-    parser.add_argument("--format", default="text", metavar="NAME",
-                        help="output format: text (default), json, or one a plugin adds")
-    parser.add_argument("--output", "-o", metavar="FILE",
-                        help="write the report to FILE (replaced atomically) instead of stdout")
+    """Options shared by ``check`` and ``demo``: formats, output files, fail level, baseline."""
+    parser.add_argument("--format", action="append", metavar="NAME",
+                        help="output format: text (default), json, sarif, junit, markdown, html, "
+                             "or one a plugin adds; repeatable, each paired in order with an "
+                             "--output")
+    parser.add_argument("--output", "-o", action="append", metavar="FILE",
+                        help="write the report in the matching --format to FILE (replaced "
+                             "atomically); '-' is stdout; without --output one format goes to "
+                             "stdout")
+    parser.add_argument("--stamp", action="store_true",
+                        help="print today's date in the markdown and html sign-off checklists "
+                             "(left out otherwise, so reports stay reproducible)")
+    parser.add_argument("--baseline", metavar="FILE",
+                        help="leave out the findings recorded in this baseline file (report "
+                             "only new ones, or ones that got more severe)")
+    parser.add_argument("--write-baseline", metavar="FILE",
+                        help="record this run's open findings in FILE (JSON, sorted; replaced "
+                             "atomically) for later --baseline runs")
     parser.add_argument("--fail-on", choices=("error", "warning"),
                         default=None if demo else "error",
                         help=("exit 1 when an unwaived finding is at or above this severity "
@@ -78,7 +91,9 @@ def build_parser() -> argparse.ArgumentParser:
         return p
 
     check = command("check", commands.cmd_check, "check case files and report the findings")
-    check.add_argument("cases", nargs="+", metavar="CASE", help="case file (YAML)")
+    check.add_argument("cases", nargs="+", metavar="CASE",
+                       help="case file (YAML), or a folder: every case.yaml, case.yml and "
+                            "*.caselint.yaml below it (hidden folders skipped)")
     _report_options(check)
     check.add_argument("--rule-set", action="append", metavar="NAME",
                        help="use rule set NAME instead of those the case files name "

@@ -24,7 +24,6 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from caselint import __version__
 from caselint.errors import ExitCode, UsageError
 from caselint.model import SEVERITY_RANK, Limits, Report, Rule
 from caselint.report.base import RenderOptions, Reporter
@@ -172,16 +171,36 @@ def _same_file(a: Path, b: Path) -> bool:
     return a.resolve() == b.resolve()
 
 
+def _protect_inputs(path: Path, what: str, inputs: list[Path], kind: str) -> None:
+    """Refuse to write a report or baseline over an input file."""
+    if any(_same_file(path, p) for p in inputs):
+        raise UsageError(f"{what} {path} is {kind}; caselint never overwrites its inputs")
+
+
 def run_check(args: argparse.Namespace, paths: list[str]) -> int:
-    """Lint each case file, report the ones that could be read, and pick the exit code."""
-    from caselint.api import lint_case
+    """Lint each case file, report the ones that could be read, and pick the exit code.
+
+    Folders expand to the case files below them; each ``--format`` is rendered and written
+    to its ``--output``; ``--baseline`` leaves out known findings, ``--write-baseline``
+    records this run's.
+    """
+    import datetime as dt
+
+    from caselint.api import build_report, lint_case
+    from caselint.baseline import apply_baseline, baseline_text, load_baseline
+    from caselint.manifest.discovery import expand_case_paths
+    from caselint.report.outputs import pair_outputs
 
     pm = plugin_manager(args)
-    reporter = pick_reporter(pm, args.format)
-    output = Path(args.output) if args.output else None
-    if output is not None and any(_same_file(output, Path(p)) for p in paths):
-        raise UsageError(f"--output {output} is one of the case files; caselint never "
-                         "overwrites its inputs")
+    targets = [(pick_reporter(pm, d.format), d.path)
+               for d in pair_outputs(args.format, args.output)]
+    paths = expand_case_paths(paths)
+    written = [(p, "--output") for _, p in targets if p is not None]
+    if args.write_baseline:
+        written.append((Path(args.write_baseline), "--write-baseline"))
+    for path, option in written:
+        _protect_inputs(path, option, [Path(p) for p in paths], "one of the case files")
+    baseline = load_baseline(args.baseline) if args.baseline else None
     rule_sets = tuple(args.rule_set or ())
     checked, bad_input = [], False
     for path in paths:
@@ -192,20 +211,43 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
             message(f"error: {exc}")
             bad_input = True
     cases = tuple(case for _, case in checked)
-    report = Report(cases=cases, caselint_version=__version__, rule_sets=rule_sets)
-    if cases or not bad_input:
-        if output is None:
-            options = RenderOptions(color=use_color(sys.stdout), width=output_width(sys.stdout),
-                                    fail_on=args.fail_on)
-            emit(sys.stdout, reporter.render(report, options))
+    # CaseReport.mesh is relative to the case file's folder.
+    meshes = [Path(path).parent / case.mesh for path, case in checked if case.mesh]
+    for path, option in written:
+        _protect_inputs(path, option, meshes, "a mesh file of a case")
+    report = build_report(cases, pm, rule_sets)
+    if args.write_baseline:
+        if bad_input:
+            message(f"baseline {args.write_baseline} not written: a case file could not be "
+                    "checked, so the baseline would miss its findings")
         else:
-            # CaseReport.mesh is relative to the case file's folder.
-            meshes = [Path(path).parent / case.mesh for path, case in checked if case.mesh]
-            if any(_same_file(output, m) for m in meshes):
-                raise UsageError(f"--output {output} is a mesh file of a case; caselint never "
-                                 "overwrites its inputs")
-            options = RenderOptions(color=False, width=DEFAULT_WIDTH, fail_on=args.fail_on)
-            write_atomically(output, reporter.render(report, options))
+            text = baseline_text(report)
+            write_atomically(Path(args.write_baseline), text)
+            count = len(json.loads(text)["findings"])
+            message(f"wrote baseline {args.write_baseline} ({count} open finding"
+                    f"{'' if count == 1 else 's'})")
+    if baseline is not None:
+        report = apply_baseline(report, baseline)
+        hidden = sum(case.baselined for case in report.cases)
+        message(f"{hidden} known finding{'' if hidden == 1 else 's'} left out (recorded in "
+                f"baseline {baseline.path})")
+    if cases or not bad_input:
+        stamp = dt.date.today().isoformat() if args.stamp else ""
+        rendered = []
+        for reporter, path in targets:  # render every format before writing any
+            if path is None:
+                options = RenderOptions(color=use_color(sys.stdout),
+                                        width=output_width(sys.stdout), fail_on=args.fail_on,
+                                        stamp=stamp)
+            else:
+                options = RenderOptions(color=False, width=DEFAULT_WIDTH, fail_on=args.fail_on,
+                                        stamp=stamp)
+            rendered.append((path, reporter.render(report, options)))
+        for path, text in rendered:
+            if path is None:
+                emit(sys.stdout, text)
+            else:
+                write_atomically(path, text)
     if bad_input:
         return ExitCode.USAGE
     return ExitCode.FINDINGS if fails(report, args.fail_on) else ExitCode.OK

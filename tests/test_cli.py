@@ -219,7 +219,7 @@ def test_unknown_format_is_a_usage_error_with_a_suggestion(fake_lint):
     code, out, err = run_cli("check", "a.yaml", "--format", "jsno")
     assert (code, out) == (2, "")
     assert err == ("caselint: error: unknown output format 'jsno' (did you mean 'json'?); "
-                   "available: json, text\n")
+                   "available: html, json, junit, markdown, sarif, text\n")
 
 
 def test_blocking_a_plugin_removes_what_it_registers(fake_lint):

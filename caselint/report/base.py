@@ -10,11 +10,16 @@ from caselint.model import Report
 
 @dataclass(frozen=True)
 class RenderOptions:
-    """How a reporter should render: colour, terminal width, and the fail level."""
+    """How a reporter should render: colour, terminal width, the fail level, and a date.
+
+    ``stamp`` is the date (ISO 8601) the sign-off checklists print when asked with
+    ``--stamp``; empty otherwise, so the same inputs give the same document.
+    """
 
     color: bool = False
     width: int = 100
     fail_on: str = "error"
+    stamp: str = ""
 
 
 @dataclass(frozen=True)

@@ -3,7 +3,10 @@
 The layout is fixed by ``caselint/report/schema/report-v1.schema.json`` (JSON Schema
 draft 2020-12), shipped with the package. The same report always gives the same bytes:
 keys are sorted, checks are ordered by rule id, findings by severity (most severe first),
-rule id and message, and nothing depends on the clock or the machine.
+rule id and message, and nothing depends on the clock or the machine. Besides checks and
+findings, each case carries what a sign-off record needs (purpose, SHA-256 of the case
+file and mesh, manual checklist, waivers, review names) and the plot data its rules
+attached; the report describes the rules and rule-set files used and any baseline.
 """
 
 from __future__ import annotations
@@ -14,7 +17,18 @@ from importlib import resources
 from typing import Any
 
 from caselint.engine.hookspecs import hookimpl
-from caselint.model import SEVERITY_RANK, CaseReport, Check, Finding, Report, Where
+from caselint.model import (
+    SEVERITY_RANK,
+    CaseReport,
+    Check,
+    Finding,
+    Limits,
+    PlotData,
+    Report,
+    RuleInfo,
+    WaiverStatus,
+    Where,
+)
 from caselint.report.base import RenderOptions, Reporter
 
 #: Value of the top-level ``format`` field.
@@ -121,6 +135,59 @@ def case_to_dict(case: CaseReport) -> dict[str, Any]:
         "rule_sets": list(case.rule_sets),
         "checks": checks,
         "findings": findings,
+        "description": case.description,
+        "case_sha256": case.case_sha256,
+        "mesh_sha256": case.mesh_sha256,
+        "checklist": [{"id": i.id, "text": i.text, "rule_set": i.rule_set}
+                      for i in case.checklist],
+        "waivers": [waiver_to_dict(w) for w in case.waivers],
+        "review": {"prepared_by": case.review.prepared_by,
+                   "reviewers": list(case.review.reviewers),
+                   "approved_by": case.review.approved_by},
+        "plots": [plot_to_dict(p) for p in sorted(case.plots, key=lambda p: (p.rule, p.title))],
+        "baselined": int(case.baselined),
+    }
+
+
+def waiver_to_dict(waiver: WaiverStatus) -> dict[str, Any]:
+    """Plain-data form of a waiver's status, as the schema's ``waiver`` record."""
+    out: dict[str, Any] = {
+        "rule": waiver.rule, "reason": waiver.reason, "approved_by": waiver.approved_by,
+        "expires": waiver.expires, "expired": bool(waiver.expired), "used": bool(waiver.used),
+    }
+    for key in ("boundary", "region", "line"):
+        if getattr(waiver, key) is not None:
+            out[key] = getattr(waiver, key)
+    return out
+
+
+def _limits_dict(limits: Limits | None, what: str) -> dict[str, Any] | None:
+    if limits is None:
+        return None
+    return {"warning": _number(limits.warn, f"{what} warning limit"),
+            "error": _number(limits.error, f"{what} error limit")}
+
+
+def plot_to_dict(plot: PlotData) -> dict[str, Any]:
+    """Plain-data form of a rule's plot data, as the schema's ``plot`` record."""
+    what = f"plot {plot.title!r} of rule {plot.rule!r}"
+    return {
+        "rule": plot.rule, "title": plot.title, "kind": plot.kind,
+        "x_label": plot.x_label, "y_label": plot.y_label,
+        "x_log": bool(plot.x_log), "y_log": bool(plot.y_log),
+        "limits": _limits_dict(plot.limits, what), "worse": plot.worse,
+        "series": [{"label": s.label, "x": [_number(v, what) for v in s.x],
+                    "y": [_number(v, what) for v in s.y],
+                    "below": int(s.below), "above": int(s.above)} for s in plot.series],
+    }
+
+
+def rule_info_to_dict(rule: RuleInfo) -> dict[str, Any]:
+    """Plain-data form of a rule's description, as the schema's ``rule_info`` record."""
+    return {
+        "id": rule.id, "title": rule.title, "rationale": rule.rationale, "source": rule.source,
+        "hint": rule.hint, "unit": rule.unit, "worse": rule.worse, "measures": rule.measures,
+        "default_limits": _limits_dict(rule.limits, f"rule {rule.id!r}"),
     }
 
 
@@ -132,6 +199,12 @@ def report_to_dict(report: Report) -> dict[str, Any]:
         "caselint_version": report.caselint_version,
         "rule_sets": list(report.rule_sets),
         "cases": [case_to_dict(c) for c in report.cases],
+        "rules": [rule_info_to_dict(r) for r in sorted(report.rules, key=lambda r: r.id)],
+        "rule_set_files": [
+            {"name": i.name, "provider": i.provider, "version": i.version, "sha256": i.sha256}
+            for i in sorted(report.rule_set_info, key=lambda i: i.name)
+        ],
+        "baseline": report.baseline,
     }
 
 

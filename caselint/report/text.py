@@ -2,7 +2,9 @@
 
 Per case: a header (name, case file, mesh, safety class and caution), a table of checks,
 what was not checked and why, then the findings grouped by severity with where, fix and
-source. The last line counts the outcomes and names the worst severity. Without colour
+source. Several cases get a table of their outcome counts; a run with ``--baseline`` says
+how many known findings it left out. The last line counts the outcomes and names the
+worst severity. Without colour
 (not a TTY, or ``NO_COLOR``) the output is plain text with ASCII rules and table borders,
 so it stays readable in CI logs and when piped.
 """
@@ -185,6 +187,23 @@ def _findings(console: Console, findings: list[Finding], plain: bool) -> None:
             _finding_block(console, finding, plain)
 
 
+def _cases_table(console: Console, report: Report, plain: bool) -> None:
+    """Several cases: one row each with its outcome counts and worst open severity."""
+    table = Table(box=box.ASCII2 if plain else box.SIMPLE_HEAD, header_style="bold",
+                  title="Cases", title_justify="left")
+    table.add_column("Case file", overflow="fold")
+    for outcome in OUTCOMES:
+        table.add_column(outcome.capitalize(), justify="right", no_wrap=True)
+    table.add_column("Worst", no_wrap=True)
+    for case in report.cases:
+        counts = Counter(c.outcome for c in case.checks)
+        worst = max((f.severity for f in case.findings if not f.waived),
+                    key=SEVERITY_RANK.__getitem__, default="none")
+        table.add_row(case.case, *(str(counts.get(o, 0)) for o in OUTCOMES),
+                      Text(worst, style=_SEVERITY_STYLE.get(worst, "green")))
+    console.print(table)
+
+
 def summary_line(report: Report, fail_on: str = "error") -> str:
     """The last line: outcome counts over all cases and the worst unwaived severity."""
     counts = Counter(c.outcome for case in report.cases for c in case.checks)
@@ -216,6 +235,14 @@ def render_text(report: Report, options: RenderOptions) -> str:
         _checks_table(console, sorted(case.checks, key=check_sort_key), plain)
         console.print()
         _findings(console, sorted(case.findings, key=finding_sort_key), plain)
+    if len(report.cases) > 1:
+        console.print()
+        _cases_table(console, report, plain)
+    if report.baseline:
+        hidden = sum(case.baselined for case in report.cases)
+        console.print()
+        console.print(Text(f"{hidden} known finding{'' if hidden == 1 else 's'} left out: "
+                           f"recorded in the baseline {report.baseline}", style="dim"))
     console.print()
     # soft_wrap keeps the result on one line however narrow the terminal is, for grep.
     console.print(Text(summary_line(report, options.fail_on), style="bold"), soft_wrap=True)

@@ -4,18 +4,29 @@ Each rule reads one metric of :mod:`caselint.mesh.quality` (vectorised, cached o
 and reports its extreme value, how many cells or faces are past the warning limit, the
 worst few ids (worst first) and a point at the worst one. Cell ids are those of the mesh
 file (volume cells in file order); face ids are caselint's own numbering, so each finding
-also names the cells on either side of its worst faces.
+also names the cells on either side of its worst faces. Non-orthogonality and growth
+ratio attach a histogram of the metric (``RuleResult.plots``) for the review reports.
 """
 
 from __future__ import annotations
 
+import dataclasses
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.mesh import quality
-from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
+from caselint.model import (
+    MAX_LISTED_IDS,
+    Limits,
+    Measurement,
+    PlotData,
+    PlotSeries,
+    Rule,
+    RuleResult,
+    Where,
+)
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -142,6 +153,16 @@ def _face_rule_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray,
     ))
 
 
+def _with_histogram(result: RuleResult, ctx: "RuleContext", values: np.ndarray,
+                    edges: np.ndarray, title: str, x_label: str, y_label: str) -> RuleResult:
+    """``result`` with a histogram of ``values`` attached for the review reports."""
+    if result.skipped is not None:
+        return result
+    plot = PlotData(title=title, x_label=x_label, y_label=y_label,
+                    series=(PlotSeries.histogram(values, edges),), limits=ctx.limits)
+    return dataclasses.replace(result, plots=(plot,))
+
+
 def _no_cells(mesh: "Mesh") -> RuleResult | None:
     if mesh.n_cells == 0:
         return RuleResult.skip("the mesh has no volume cells")
@@ -183,8 +204,12 @@ def check_non_orthogonality(ctx: "RuleContext") -> RuleResult:
     if (skip := _no_cells(mesh)) is not None:
         return skip
     values = quality.non_orthogonality_deg(mesh)
-    return _face_rule_result(ctx, values, np.arange(mesh.n_faces), "non-orthogonality", " deg",
-                             ".1f")
+    result = _face_rule_result(ctx, values, np.arange(mesh.n_faces), "non-orthogonality", " deg",
+                               ".1f")
+    # 5 deg bins over 0-90 deg; the plot counts faces beyond 90 deg (flipped) separately.
+    edges = np.linspace(0.0, 90.0, 19)
+    return _with_histogram(result, ctx, values, edges, "Face non-orthogonality",
+                           "non-orthogonality (deg)", "faces (internal and boundary)")
 
 
 def check_skewness(ctx: "RuleContext") -> RuleResult:
@@ -210,7 +235,13 @@ def check_growth_ratio(ctx: "RuleContext") -> RuleResult:
         return RuleResult.skip("the mesh has no internal faces (a single cell): "
                                "no neighbours to compare")
     values = quality.growth_ratio(mesh)
-    return _face_rule_result(ctx, values, internal, "growth ratio", "", ".4g")
+    result = _face_rule_result(ctx, values, internal, "growth ratio", "", ".4g")
+    # Bins of 0.05 from 1 to 1.5x the highest limit (at least 2); the plot counts the rest.
+    top_limit = max(v for v in (ctx.limits.error, ctx.limits.warn, 2.0 / 1.5) if v is not None)
+    n_bins = int(np.ceil(round((1.5 * top_limit - 1.0) / 0.05, 6)))
+    edges = np.round(1.0 + 0.05 * np.arange(n_bins + 1), 9)
+    return _with_histogram(result, ctx, values[internal], edges, "Volume growth ratio",
+                           "growth ratio (larger / smaller cell volume)", "internal faces")
 
 
 def check_aspect_ratio(ctx: "RuleContext") -> RuleResult:

@@ -1,0 +1,179 @@
+"""The ``html`` output format: the sign-off checklist as one self-contained web page.
+
+The same content as the ``markdown`` format (see :mod:`caselint.report.signoff`), plus
+the distributions the rules attached (histograms of non-orthogonality and growth ratio,
+y+ per wall boundary, layer heights, Courant numbers: whichever the case's rules gave),
+drawn by matplotlib as inline SVG. Styles are inline too: the file needs nothing else,
+prints cleanly, and the same report gives the same bytes.
+"""
+
+from __future__ import annotations
+
+from html import escape
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.model import CaseReport, Report
+from caselint.report import signoff
+from caselint.report.base import RenderOptions, Reporter
+
+_STYLE = """
+body { font-family: system-ui, sans-serif; max-width: 60rem; margin: 1.5rem auto;
+       padding: 0 1rem; color: #1d1d1f; line-height: 1.4; }
+h1 { font-size: 1.5rem; } h2 { font-size: 1.25rem; margin-top: 2rem; }
+h3 { font-size: 1.05rem; margin-top: 1.5rem; }
+table { border-collapse: collapse; width: 100%; margin: 0.5rem 0; font-size: 0.9rem; }
+th, td { border: 1px solid #c8c8cc; padding: 0.25rem 0.45rem; text-align: left;
+         vertical-align: top; }
+th { background: #f0f0f3; } td.num { text-align: right; white-space: nowrap; }
+code { font-size: 0.85rem; word-break: break-all; }
+.pass { color: #1e7b34; } .fail, .error { color: #b02a1e; font-weight: bold; }
+.skipped { color: #8a6d00; } .waived { color: #7b2f87; }
+.caution { border: 2px solid #b02a1e; background: #fff4f2; padding: 0.6rem 0.8rem; }
+.sign td { height: 2.2rem; }
+ul.checklist { list-style: none; padding-left: 0.3rem; }
+figure { margin: 1rem 0; } figure svg { max-width: 100%; height: auto; }
+figcaption { font-size: 0.85rem; color: #555; }
+footer { margin-top: 2rem; font-size: 0.85rem; color: #555; }
+@media print { body { max-width: none; } h2 { page-break-before: always; } }
+"""
+
+
+def _e(text: object) -> str:
+    return escape(str(text), quote=True)
+
+
+def _table(head: tuple[str, ...], rows: list[list[str]], css: str = "") -> list[str]:
+    """A table whose cells are given as ready HTML (escape before passing)."""
+    out = [f'<table class="{css}">' if css else "<table>",
+           "<tr>" + "".join(f"<th>{_e(h)}</th>" for h in head) + "</tr>"]
+    out += ["<tr>" + "".join(cell if cell.startswith("<td") else f"<td>{cell}</td>"
+                             for cell in row) + "</tr>" for row in rows]
+    return out + ["</table>"]
+
+
+def _plots(case: CaseReport, case_index: int) -> list[str]:
+    """The distributions the rules attached, as inline SVG figures."""
+    if not case.plots:
+        return []
+    from caselint.report.plots import matplotlib_available, plot_svg
+
+    out = ["<h3>Distributions</h3>"]
+    if not matplotlib_available():
+        return out + ["<p>The rules attached plot data, but the plots were not drawn: "
+                      "matplotlib is not installed (pip install matplotlib).</p>"]
+    for index, plot in enumerate(sorted(case.plots, key=lambda p: (p.rule, p.title))):
+        svg = plot_svg(plot, salt=f"caselint-{case_index}-{index}")
+        out += [f'<figure id="plot-{case_index}-{index}">', svg,
+                f"<figcaption>{_e(plot.title)} (rule {_e(plot.rule)})</figcaption>",
+                "</figure>"]
+    return out
+
+
+def _case(report: Report, case: CaseReport, index: int, stamp: str, tag: str) -> list[str]:
+    sub = "h3" if tag == "h2" else "h2"
+    out = [f'<section id="case-{index}">',
+           f"<{tag}>Sign-off checklist: {_e(case.name or case.case)}</{tag}>"]
+    rows = []
+    for label, value in signoff.header_rows(report, case, stamp):
+        cell = f"<code>{_e(value)}</code>" if "SHA-256" in label and "(" not in value \
+            else _e(value)
+        rows.append([_e(label), cell])
+    out += _table(("Item", "Value"), rows)
+    if signoff.relevant(case):
+        out.append(f'<p class="caution"><strong>Safety-relevant case ({_e(case.safety)}).'
+                   f"</strong> {_e(case.safety_note or signoff.SCOPE_NOTE)}</p>")
+    out.append(f"<{sub}>Automated checks</{sub}>")
+    checks = signoff.check_rows(report, case)
+    if checks:
+        out += _table(("Rule", "Outcome", "Measured", "Limit", "Unit", "Hint or reason"), [
+            [f"<strong>{_e(r.rule)}</strong><br>{_e(r.title)}",
+             f'<td class="{_e(r.outcome)}">{_e(r.label)}</td>',
+             f'<td class="num">{_e(r.measured)}</td>', f'<td class="num">{_e(r.limit)}</td>',
+             _e(r.unit), _e(r.hint)] for r in checks])
+    else:
+        out.append("<p>No rules were selected for this case.</p>")
+    out.append(f"<{sub}>Findings</{sub}>")
+    findings = signoff.finding_lines(case)
+    if findings:
+        out.append("<ul>")
+        for finding, where in findings:
+            tag_text = ("waived " if finding.waived else "") + finding.severity
+            waiver = f"; {_e(finding.waiver)}" if finding.waived and finding.waiver else ""
+            css = "waived" if finding.waived else ("fail" if finding.severity != "note" else "")
+            out.append(f'<li><span class="{css}">{_e(tag_text)}</span> '
+                       f"<strong>{_e(finding.rule)}</strong>: {_e(finding.message)} "
+                       f"({_e(where)}){waiver}</li>")
+        out.append("</ul>")
+    else:
+        out.append("<p>No findings.</p>")
+    out += _plots(case, index)
+    out.append(f"<{sub}>Waivers</{sub}>")
+    if case.waivers:
+        out += _table(("Rule", "Scope", "Reason", "Approved by", "Expires", "Status"), [
+            [_e(w.rule), _e(signoff.waiver_scope(w)), _e(w.reason), _e(w.approved_by),
+             _e(w.expires), f'<td class="{"fail" if w.expired else "pass"}">'
+                            f"{_e(signoff.waiver_status(w))}</td>"] for w in case.waivers])
+    else:
+        out.append("<p>The case file has no waivers.</p>")
+    out.append(f"<{sub}>Manual checks</{sub}>")
+    if case.checklist:
+        out.append('<ul class="checklist">')
+        for item in case.checklist:
+            box_id = f"check-{index}-{_e(item.id)}"
+            out.append(f'<li><input type="checkbox" id="{box_id}"> <label for="{box_id}">'
+                       f"{_e(item.text)} ({_e(item.id)}, rule set {_e(item.rule_set)})"
+                       "</label></li>")
+        out.append("</ul>")
+    else:
+        out.append("<p>The rule sets used list no manual checks.</p>")
+    out.append(f"<{sub}>Sign-off</{sub}>")
+    out += _table(("Role", "Name", "Signature", "Date"),
+                  [[_e(line.role), _e(line.name), "", ""]
+                   for line in signoff.sign_off_lines(case)], css="sign")
+    return out + ["</section>"]
+
+
+def _summary(report: Report) -> list[str]:
+    rows = []
+    for index, case in enumerate(report.cases):
+        counts = signoff.outcome_counts(case)
+        rows.append([f'<a href="#case-{index}">{_e(case.name or case.case)}</a>',
+                     f"<code>{_e(case.case)}</code>",
+                     *(f'<td class="num">{counts[o]}</td>'
+                       for o in ("pass", "fail", "skipped", "waived", "error")),
+                     _e(signoff.worst_open(case))])
+    return ["<h2>Summary</h2>", *_table(("Case", "File", "Pass", "Fail", "Not checked",
+                                         "Waived", "Error", "Worst open finding"), rows)]
+
+
+def render_html(report: Report, options: RenderOptions) -> str:
+    """The sign-off checklist of every case in the report, as one self-contained page."""
+    several = len(report.cases) > 1
+    title = ("caselint sign-off checklists" if several or not report.cases
+             else f"caselint sign-off checklist: {report.cases[0].name or report.cases[0].case}")
+    out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
+           f"<title>{_e(title)}</title>", f"<style>{_STYLE}</style>", "</head>", "<body>"]
+    if several or not report.cases:
+        out.append(f"<h1>{_e(title)}</h1>")
+    if several:
+        out += _summary(report)
+    if not report.cases:
+        out.append("<p>No case files were checked.</p>")
+    for index, case in enumerate(report.cases):
+        out += _case(report, case, index, options.stamp, "h2" if several else "h1")
+    out += [f"<footer><p>{_e(signoff.SCOPE_NOTE)}</p>",
+            f"<p>caselint {_e(report.caselint_version)}</p></footer>", "</body>", "</html>"]
+    return "\n".join(out) + "\n"
+
+
+@hookimpl
+def caselint_register_reporters() -> list[Reporter]:
+    """Register the ``html`` output format."""
+    return [
+        Reporter(
+            name="html",
+            description="Sign-off checklist with plots, one self-contained HTML file",
+            render=render_html,
+            suffix=".html",
+        )
+    ]

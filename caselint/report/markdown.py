@@ -1,0 +1,129 @@
+"""The ``markdown`` output format: the sign-off checklist of a design review, as Markdown.
+
+Per case: a header table (case, purpose, safety class, SHA-256 of the case file and the
+mesh, caselint and rule-set versions, and the date only when asked with ``--stamp``), the
+safety caution for a safety-relevant case, one table row per check (outcome, measured
+value, limit, unit, hint), the findings, the waivers with reason, approver, expiry and
+status, the rule sets' manual checks as tick boxes, and lines to sign. Several cases get
+a summary table first. Plain GitHub-flavoured Markdown; the same report gives the same
+text.
+"""
+
+from __future__ import annotations
+
+import re
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.model import CaseReport, Report
+from caselint.report import signoff
+from caselint.report.base import RenderOptions, Reporter
+
+_SPECIAL = re.compile(r"([\\`*_\[\]<>|#])")
+
+
+def md(text: str) -> str:
+    """Text made safe for a Markdown table cell or line: specials escaped, one line."""
+    return _SPECIAL.sub(r"\\\1", " ".join(str(text).split()))
+
+
+def _code(text: str) -> str:
+    """Inline code (paths, hashes); backticks inside are replaced, never break out."""
+    return "`" + str(text).replace("`", "'") + "`" if text else ""
+
+
+def _table(head: tuple[str, ...], rows: list[tuple[str, ...]]) -> list[str]:
+    lines = ["| " + " | ".join(head) + " |", "|" + "|".join("---" for _ in head) + "|"]
+    lines += ["| " + " | ".join(row) + " |" for row in rows]
+    return lines
+
+
+def _summary(report: Report) -> list[str]:
+    """A table of the cases with their outcome counts and worst open severity."""
+    rows = []
+    for case in report.cases:
+        counts = signoff.outcome_counts(case)
+        rows.append((md(case.name or case.case), _code(case.case),
+                     *(str(counts[o]) for o in ("pass", "fail", "skipped", "waived", "error")),
+                     signoff.worst_open(case)))
+    return ["## Summary", "", *_table(("Case", "File", "Pass", "Fail", "Not checked",
+                                       "Waived", "Error", "Worst open finding"), rows), ""]
+
+
+def _case(report: Report, case: CaseReport, stamp: str, level: str) -> list[str]:
+    out = [f"{level} Sign-off checklist: {md(case.name or case.case)}", ""]
+    rows = []
+    for label, value in signoff.header_rows(report, case, stamp):
+        text = _code(value) if label in ("Case file", "Mesh", "Case file SHA-256",
+                                         "Mesh SHA-256") and "(" not in value else md(value)
+        rows.append((label, text))
+    out += _table(("Item", "Value"), rows) + [""]
+    if signoff.relevant(case):
+        caution = case.safety_note or signoff.SCOPE_NOTE
+        out += [f"> **Safety-relevant case ({md(case.safety)}).** {md(caution)}", ""]
+    sub = level + "#"
+    out += [f"{sub} Automated checks", ""]
+    check_rows = signoff.check_rows(report, case)
+    if check_rows:
+        out += _table(("Rule", "Outcome", "Measured", "Limit", "Unit", "Hint or reason"),
+                      [(f"{md(r.rule)}: {md(r.title)}", f"**{md(r.label)}**" if r.outcome in
+                        ("fail", "error") else md(r.label), r.measured, r.limit, md(r.unit),
+                        md(r.hint)) for r in check_rows])
+    else:
+        out.append("No rules were selected for this case.")
+    out += ["", f"{sub} Findings", ""]
+    findings = signoff.finding_lines(case)
+    if not findings:
+        out.append("No findings.")
+    for finding, where in findings:
+        tag = "waived " + finding.severity if finding.waived else finding.severity
+        line = f"- **{tag}** {md(finding.rule)}: {md(finding.message)} ({md(where)})"
+        if finding.waived and finding.waiver:
+            line += f"; {md(finding.waiver)}"
+        out.append(line)
+    out += ["", f"{sub} Waivers", ""]
+    if case.waivers:
+        out += _table(("Rule", "Scope", "Reason", "Approved by", "Expires", "Status"),
+                      [(md(w.rule), md(signoff.waiver_scope(w)), md(w.reason),
+                        md(w.approved_by), w.expires,
+                        f"**{md(signoff.waiver_status(w))}**" if w.expired
+                        else md(signoff.waiver_status(w))) for w in case.waivers])
+    else:
+        out.append("The case file has no waivers.")
+    out += ["", f"{sub} Manual checks", ""]
+    if case.checklist:
+        out += [f"- [ ] {md(item.text)} ({md(item.id)}, rule set {md(item.rule_set)})"
+                for item in case.checklist]
+    else:
+        out.append("The rule sets used list no manual checks.")
+    out += ["", f"{sub} Sign-off", ""]
+    out += _table(("Role", "Name", "Signature", "Date"),
+                  [(line.role, md(line.name) or " ", " ", " ")
+                   for line in signoff.sign_off_lines(case)])
+    return out + [""]
+
+
+def render_markdown(report: Report, options: RenderOptions) -> str:
+    """The sign-off checklist of every case in the report, as Markdown."""
+    out: list[str] = []
+    several = len(report.cases) > 1
+    if several:
+        out += ["# caselint sign-off checklists", "", *_summary(report)]
+    if not report.cases:
+        out += ["# caselint sign-off checklist", "", "No case files were checked.", ""]
+    for case in report.cases:
+        out += _case(report, case, options.stamp, "##" if several else "#")
+    out += ["---", "", md(signoff.SCOPE_NOTE)]
+    return "\n".join(out) + "\n"
+
+
+@hookimpl
+def caselint_register_reporters() -> list[Reporter]:
+    """Register the ``markdown`` output format."""
+    return [
+        Reporter(
+            name="markdown",
+            description="Sign-off checklist for a design review (Markdown)",
+            render=render_markdown,
+            suffix=".md",
+        )
+    ]
