@@ -37,6 +37,10 @@ BUILTIN_PLUGINS: tuple[str, ...] = (
     "caselint.rules.grid_refinement",
     "caselint.report.text",
     "caselint.report.json_report",
+    "caselint.report.markdown",
+    "caselint.report.html",
+    "caselint.report.sarif",
+    "caselint.report.junit",
 )
 
 
