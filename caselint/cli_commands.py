@@ -292,13 +292,19 @@ def cmd_rules(args: argparse.Namespace) -> int:
     rules = collect_rules(plugin_manager(args))
 
     def draw(console: Console, plain: bool) -> None:
-        table = _table(plain, "Rule", "Title", "Warning", "Error", "Unit", "Source")
+        table = _table(plain, "Rule", "Warning", "Error", "Unit", "Title")
+        table.columns[0].no_wrap = True
         for rule in rules.values():
-            table.add_row(rule.id, rule.title, _limit_text(rule, rule.limits.warn),
-                          _limit_text(rule, rule.limits.error), rule.unit, rule.source)
+            per_case = (rule.limits.warn is None and rule.limits.error is None
+                        and bool(rule.parameters))
+            warn, error = (("per case", "per case") if per_case else
+                           (_limit_text(rule, rule.limits.warn),
+                            _limit_text(rule, rule.limits.error)))
+            table.add_row(rule.id, warn, error, rule.unit, rule.title)
         console.print(table)
         count = f"{len(rules)} rule{'' if len(rules) == 1 else 's'}"
-        console.print(f"{count}; `caselint explain RULE` tells more about one.")
+        console.print(f"{count}; `caselint explain RULE` gives the rationale, source and "
+                      "parameters of one.")
 
     emit(sys.stdout, render_rich(draw))
     return ExitCode.OK

@@ -282,7 +282,7 @@ def test_rules_lists_limits_with_their_direction(probe_pack):
     code, out, err = run_cli("rules")
     assert (code, err) == (0, "")
     row = next(line for line in out.splitlines() if "probe-spacing" in line)
-    assert re.search(r"\|\s*< 3\s*\|\s*< 1\s*\|\s*cells\s*\|\s*common practice", row)
+    assert re.search(r"\|\s*< 3\s*\|\s*< 1\s*\|\s*cells\s*\|\s*Probe spacing", row)
 
 
 def test_explain_shows_everything_about_a_rule(probe_pack):

@@ -60,3 +60,16 @@ def test_the_rule_pack_guide_shows_the_example_pack_code_verbatim():
     assert len(blocks) >= 5
     for block in blocks:
         assert block.strip() in sources, f"guide block not in the pack:\n{block}"
+
+
+def test_the_readme_case_file_example_is_valid(tmp_path):
+    from caselint.manifest.loader import load_case
+
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    (example,) = [b for b in _blocks("yaml", readme) if b.startswith("caselint: 1")]
+    (tmp_path / "tray.msh").write_bytes(b"")  # the loader checks the mesh exists, not reads it
+    case_file = tmp_path / "case.yaml"
+    case_file.write_text(example, encoding="utf-8")
+    case = load_case(case_file)
+    assert case.mesh.scale_to_m == 1e-3 and case.physics.flow.length == pytest.approx(0.04)
+    assert case.checks.rules == {"growth-ratio": {"warn": 1.25}}
