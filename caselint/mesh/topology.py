@@ -1,8 +1,8 @@
 """Unique faces with owner and neighbour, and the boundary groups of the exposed faces.
 
 Every cell contributes one *half-face* per face template, in cell order. Half-faces with
-the same vertex set are paired by sorting one packed ``int64`` key per half-face with a
-stable ``argsort`` (far faster than ``np.unique(axis=0)``, see the design notes):
+the same vertex set are paired by sorting one packed ``int64`` key per half-face with
+``argsort`` (far faster than ``np.unique(axis=0)``, see the design notes):
 
 - triangles: the three sorted vertex ids, 21 bits each (below 2**21 points), else two keys;
 - quadrilaterals: the diagonal through the smallest vertex (``a * P + c``), then the other
@@ -197,8 +197,13 @@ def _tri_keys(a, b, c, p: np.int64) -> tuple[np.ndarray, np.ndarray | None]:
 
 
 def _sort_keys(k1: np.ndarray, k2: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
-    """Stable order of the keys and whether each sorted entry equals the next."""
-    order = np.argsort(k1, kind="stable")
+    """Order of the keys and whether each sorted entry equals the next.
+
+    The order among equal keys does not matter (owner and neighbour are decided by cell
+    id, clashes symmetrically), so numpy's default introsort is used: on the shuffled
+    1M-hex benchmark it sorts the 6M keys 2-3x faster than ``kind="stable"``.
+    """
+    order = np.argsort(k1)
     s1 = k1[order]
     same = s1[1:] == s1[:-1]
     if k2 is not None:
