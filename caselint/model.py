@@ -231,12 +231,17 @@ class RuleResult:
 
 @dataclass(frozen=True)
 class Parameter:
-    """A rule parameter beyond its limits, with its default and unit."""
+    """A rule parameter beyond its limits, with its default and unit.
+
+    A rule set may set it to a value of the default's kind (a number, a flag, text), or
+    to null where ``nullable`` (always so when the default itself is None).
+    """
 
     name: str
     default: Any
     unit: str = ""
     description: str = ""
+    nullable: bool = False
 
 
 @dataclass(frozen=True)

@@ -343,11 +343,13 @@ def test_rule_parameters_are_type_checked_against_their_defaults(tmp_path):
     rule = Rule(id="p", title="t", rationale="r", source="s", unit="", hint="h",
                 limits=Limits(warn=1), check=lambda ctx: RuleResult.skip("x"),
                 parameters=(Parameter("min_steps", 20, "steps"), Parameter("strict", False),
-                            Parameter("cap", None, "m")))
-    ok = _write(tmp_path / "ok.yaml", "rules:\n  p: {min_steps: 30, strict: true, cap: null}\n")
+                            Parameter("cap", None, "m"), Parameter("st", 0.2, nullable=True)))
+    ok = _write(tmp_path / "ok.yaml",
+                "rules:\n  p: {min_steps: 30, strict: true, cap: null, st: null}\n")
     (active,) = select_rules(("ok",), {"ok": ok}, {"p": rule}).rules
-    assert active.params == {"min_steps": 30, "strict": True, "cap": None}
+    assert active.params == {"min_steps": 30, "strict": True, "cap": None, "st": None}
     for text, expected in [("min_steps: many", "must be a finite number in steps"),
+                           ("min_steps: null", "must be a finite number in steps"),
                            ("strict: 1", "must be true or false"),
                            ("min_steps: .nan", "must be a finite number")]:
         bad = _write(tmp_path / "bad.yaml", f"rules:\n  p:\n    {text}\n")

@@ -178,18 +178,17 @@ def _check_entry(
 def _check_parameter(
     rule: Rule, param: Any, value: Any, file: str, lines: Mapping[str, int], where: str
 ) -> None:
-    """A parameter value must have the kind of its default: a finite number, a flag, text.
-
-    A parameter whose default is None takes a number or null.
-    """
+    """A parameter value must have the kind of its default: a finite number, a flag, text;
+    null only where the parameter allows it (see :class:`caselint.model.Parameter`)."""
     default = param.default
     unit = f" in {param.unit}" if param.unit else ""
+    if value is None and (param.nullable or default is None):
+        return
     if isinstance(default, bool):
         ok, expected = isinstance(value, bool), "true or false"
     elif isinstance(default, (int, float)) or default is None:
-        ok = value is None and default is None or (
-            isinstance(value, (int, float)) and not isinstance(value, bool)
-            and math.isfinite(value))
+        ok = (isinstance(value, (int, float)) and not isinstance(value, bool)
+              and math.isfinite(value))
         expected = f"a finite number{unit}" + (" or null" if default is None else "")
     elif isinstance(default, str):
         ok, expected = isinstance(value, str), "text"

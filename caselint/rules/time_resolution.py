@@ -208,7 +208,7 @@ TIME_RESOLUTION = Rule(
         Parameter("min_flow_throughs", 3.0, "", "warning below this many flow-through times "
                   "of simulated time (common practice)"),
         Parameter("bluff_body_strouhal", 0.2, "", "Strouhal number assumed for external flow "
-                  "when the case gives none; null: no shedding estimate"),
+                  "when the case gives none; null: no shedding estimate", nullable=True),
     ),
     measures="time steps per period",
 )
