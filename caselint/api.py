@@ -60,15 +60,21 @@ def case_quantity(case: "Case", key: str, dimension: str) -> float | None:
 def load_case_mesh(case: "Case") -> "Mesh":
     """Read the case's mesh in metres and check that its named boundary groups exist.
 
+    Inside a batch (:mod:`caselint.batch`) the mesh comes from the batch's mesh store,
+    which reads each mesh once or takes it from the mesh cache.
+
     :raises CaseFileError: the mesh cannot be read, or a boundary named in the case file is
         not in the mesh; the message points at the case-file key.
     """
+    from caselint.cache import active_store
     from caselint.mesh import read_mesh
 
     spec = case.mesh
+    store = active_store()
+    read = store.read if store is not None else read_mesh
     try:
-        mesh = read_mesh(spec.file, scale_to_m=spec.scale_to_m, tag_array=spec.tag_array,
-                         tags=dict(spec.tags) or None)
+        mesh = read(spec.file, scale_to_m=spec.scale_to_m, tag_array=spec.tag_array,
+                    tags=dict(spec.tags) or None)
     except MeshReadError as exc:
         raise CaseFileError(str(case.path), f"cannot read the mesh: {exc}",
                             line=case.line_of("mesh.file"), key="mesh.file") from exc

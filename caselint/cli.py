@@ -98,6 +98,20 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--rule-set", action="append", metavar="NAME",
                        help="use rule set NAME instead of those the case files name "
                             "(repeatable)")
+    check.add_argument("--jobs", "-j", type=int, default=1, metavar="N",
+                       help="check N case files at once, in parallel processes (default 1); "
+                            "cases sharing a mesh go to one process, which reads it once")
+    check.add_argument("--scheduler", metavar="ADDRESS",
+                       help="check the case files on the Dask distributed scheduler at "
+                            "ADDRESS (e.g. tcp://10.0.0.5:8786); needs dask[distributed]")
+    check.add_argument("--no-cache", action="store_true",
+                       help="neither read nor write the mesh cache (analysed meshes of 100k "
+                            "cells or more, kept by file hash in $CASELINT_CACHE_DIR, default "
+                            "~/.cache/caselint)")
+    check.add_argument("--memory-limit", metavar="SIZE",
+                       help="refuse a mesh whose check would need more memory than SIZE "
+                            "(e.g. 8GB, 512MiB; 'off' for no limit; default: "
+                            "$CASELINT_MEMORY_LIMIT, else 75%% of the available memory)")
 
     demo = command("demo", commands.cmd_demo, "check the example case shipped with caselint")
     _report_options(demo, demo=True)

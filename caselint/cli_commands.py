@@ -72,8 +72,10 @@ def emit(stream: TextIO, text: str) -> None:
 
 
 def message(text: str) -> None:
-    """A one-line message for the user, on stderr."""
-    emit(sys.stderr, f"caselint: {text}")
+    """A one-line message for the user, on stderr (control characters from inputs escaped)."""
+    from caselint.errors import printable
+
+    emit(sys.stderr, f"caselint: {printable(text, keep=chr(10))}")
 
 
 def render_rich(draw: Callable[[Console, bool], None]) -> str:
@@ -119,10 +121,14 @@ def write_atomically(path: Path, text: str) -> None:
             os.fsync(handle.fileno())
         os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; a report is an ordinary file
         os.replace(tmp, path)
-    except OSError as exc:
+    except BaseException as exc:
+        # Whatever stopped the write (a full disk, Ctrl-C, text that cannot be encoded),
+        # no temporary file is left beside the report.
         with contextlib.suppress(OSError):
             os.unlink(tmp)
-        raise UsageError(f"cannot write {path}: {exc.strerror or exc}") from exc
+        if isinstance(exc, OSError):
+            raise UsageError(f"cannot write {path}: {exc.strerror or exc}") from exc
+        raise
 
 
 # -- plugins and formats ---------------------------------------------------------------
@@ -186,7 +192,7 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
     """
     import datetime as dt
 
-    from caselint.api import build_report, lint_case
+    from caselint.api import build_report
     from caselint.baseline import apply_baseline, baseline_text, load_baseline
     from caselint.manifest.discovery import expand_case_paths
     from caselint.report.outputs import pair_outputs
@@ -203,13 +209,13 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
     baseline = load_baseline(args.baseline) if args.baseline else None
     rule_sets = tuple(args.rule_set or ())
     checked, bad_input = [], False
-    for path in paths:
-        try:
-            checked.append((path, lint_case(path, rule_sets=rule_sets or None, pm=pm)))
-        except UsageError as exc:
+    for outcome in _lint_all(args, paths, rule_sets, pm):
+        if outcome.error is not None:
             # One bad case file must not hide the findings of the others.
-            message(f"error: {exc}")
+            message(f"error: {outcome.error}")
             bad_input = True
+        else:
+            checked.append((outcome.path, outcome.report))
     cases = tuple(case for _, case in checked)
     # CaseReport.mesh is relative to the case file's folder.
     meshes = [Path(path).parent / case.mesh for path, case in checked if case.mesh]
@@ -253,9 +259,39 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
     return ExitCode.FINDINGS if fails(report, args.fail_on) else ExitCode.OK
 
 
+def _lint_all(args: argparse.Namespace, paths: list[str], rule_sets: tuple[str, ...],
+              pm: "pluggy.PluginManager") -> list:
+    """Check the case files (``--jobs``, ``--scheduler``, mesh cache), in the order given.
+
+    A progress bar goes to stderr when it is a terminal and there is more than one case.
+    """
+    from caselint.batch import lint_batch
+    from caselint.cache import MeshCache, default_cache_dir
+
+    jobs, scheduler = getattr(args, "jobs", 1), getattr(args, "scheduler", None)
+    if scheduler is not None and jobs != 1:
+        raise UsageError("give either --jobs or --scheduler, not both (the scheduler's "
+                         "workers decide how many cases run at once)")
+    cache = None if getattr(args, "no_cache", True) else MeshCache(default_cache_dir())
+    options = dict(rule_sets=rule_sets or None, pm=pm, blocked=tuple(args.blocked), jobs=jobs,
+                   scheduler=scheduler, cache=cache)
+    if len(paths) < 2 or not _is_terminal(sys.stderr):
+        return lint_batch(paths, **options)
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeElapsedColumn
+
+    console = Console(file=sys.stderr, no_color=not use_color(sys.stderr))
+    with Progress("checking", BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+                  console=console, transient=True) as bar:
+        task = bar.add_task("cases", total=len(paths))
+        return lint_batch(paths, progress=lambda n: bar.advance(task, n), **options)
+
+
 def cmd_check(args: argparse.Namespace) -> int:
     """``caselint check``: lint the case files given."""
-    return run_check(args, list(args.cases))
+    from caselint.mesh.limits import limit_option
+
+    with limit_option(getattr(args, "memory_limit", None)):
+        return run_check(args, list(args.cases))
 
 
 def cmd_demo(args: argparse.Namespace) -> int:

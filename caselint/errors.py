@@ -6,7 +6,26 @@ Library code raises; only :mod:`caselint.cli` prints and picks an exit code.
 from __future__ import annotations
 
 import enum
+import unicodedata
 from dataclasses import dataclass
+
+
+def printable(text: str, keep: str = "") -> str:
+    """``text`` with control, format and line-separator characters escaped (``\\x1b``).
+
+    Keys and values from an input file reach the terminal in messages: an escape sequence
+    or a bidi override there must show as text, not act. Characters in ``keep`` stay.
+    """
+    if text.isprintable() and not keep:
+        return text
+    out = []
+    for char in text:
+        if char in keep or char.isprintable() or \
+                unicodedata.category(char) not in ("Cc", "Cf", "Zl", "Zp", "Cs", "Co", "Cn"):
+            out.append(char)
+        else:
+            out.append(char.encode("unicode_escape").decode("ascii"))
+    return "".join(out)
 
 
 class ExitCode(enum.IntEnum):
@@ -53,7 +72,7 @@ class CaseFileError(UsageError):
             where += f":{self.line}"
             if self.column is not None:
                 where += f":{self.column}"
-        key = f" [{self.key}]" if self.key else ""
+        key = f" [{printable(self.key)}]" if self.key else ""
         return f"{where}:{key} {self.message}"
 
 

@@ -27,6 +27,7 @@ BUILTIN_PLUGINS: tuple[str, ...] = (
     "caselint.engine.builtin_sets",
     "caselint.rules.mesh_quality",
     "caselint.rules.boundaries",
+    "caselint.rules.mesh_integrity",
     "caselint.rules.waivers",
     "caselint.rules.near_wall",
     "caselint.rules.gaps",

@@ -117,6 +117,16 @@ def load_rule_set(name: str, path: Path) -> RuleSet:
     return RuleSet(name, Path(path), description, tuple(extends), entries, tuple(checklist), lines)
 
 
+def _finite_number(value: Any) -> bool:
+    """A number (not true/false) that a float holds finitely; huge whole numbers are not."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    try:
+        return math.isfinite(value)
+    except OverflowError:             # an int beyond the float range
+        return False
+
+
 def _line(lines: Mapping[str, int], key: str) -> int | None:
     while key:
         if key in lines:
@@ -152,8 +162,7 @@ def _check_entry(
     for key, value in entry.items():
         where = f"{prefix}.{key}"
         if key in ("warn", "error"):
-            ok = value is None or (isinstance(value, (int, float)) and not isinstance(value, bool)
-                                   and math.isfinite(value))
+            ok = value is None or _finite_number(value)
             if not ok:
                 raise CaseFileError(file, f"{key} must be a finite number in {rule.unit or 'the rule unit'}"
                                     f" or null, got {value!r}", line=_line(lines, where), key=where)
@@ -187,8 +196,7 @@ def _check_parameter(
     if isinstance(default, bool):
         ok, expected = isinstance(value, bool), "true or false"
     elif isinstance(default, (int, float)) or default is None:
-        ok = (isinstance(value, (int, float)) and not isinstance(value, bool)
-              and math.isfinite(value))
+        ok = _finite_number(value)
         expected = f"a finite number{unit}" + (" or null" if default is None else "")
     elif isinstance(default, str):
         ok, expected = isinstance(value, str), "text"

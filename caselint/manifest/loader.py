@@ -29,6 +29,12 @@ from caselint.manifest.yamlnodes import YamlDoc, load_yaml
 FORMAT_VERSION = 1
 #: Largest relative disagreement allowed between kinematic_viscosity and viscosity/density.
 FLUID_CONSISTENCY = 0.01
+#: Smallest and largest magnitude (SI) of a quantity, a coordinate (largest only) or a
+#: plain number such as the Strouhal number. Far outside any CFD case, so a value beyond
+#: is a typo or a wrong unit; within, the products and quotients of a few quantities that
+#: rules form (Reynolds numbers, Courant numbers, y+) stay well inside the float range.
+MIN_MAGNITUDE = 1e-12
+MAX_MAGNITUDE = 1e12
 
 
 def load_case(path: str | Path, *, extensions: Mapping[str, dict] | None = None) -> Case:
@@ -57,6 +63,17 @@ def _check_version(doc: YamlDoc) -> None:
                         column=doc.column_of("caselint"), key="caselint")
 
 
+def _floats(values: list[Any]) -> list[float]:
+    """Numbers as floats; a whole number too large for a float becomes infinity."""
+    out = []
+    for v in values:
+        try:
+            out.append(float(v))
+        except OverflowError:
+            out.append(math.inf)
+    return out
+
+
 class _CaseBuilder:
     """Turns validated case-file data into a Case, pointing any error at its line."""
 
@@ -82,9 +99,31 @@ class _CaseBuilder:
             value = to_si(raw, dimension, key)
         except CaseFileError as exc:
             raise self.fail(key, exc.message) from None
+        shown = f"'{raw}'" if isinstance(raw, str) else f"{raw} {DIMENSIONS[dimension].si_unit}"
         if positive and not value > 0:
-            shown = f"'{raw}'" if isinstance(raw, str) else f"{raw} {DIMENSIONS[dimension].si_unit}"
             raise self.fail(key, f"must be greater than zero, got {shown}")
+        self.check_magnitude(key, value, shown, DIMENSIONS[dimension].si_unit)
+        return value
+
+    def check_magnitude(self, key: str, value: float, shown: str, si_unit: str) -> None:
+        """Refuse a non-zero value outside MIN_MAGNITUDE..MAX_MAGNITUDE (SI)."""
+        if value != 0.0 and not MIN_MAGNITUDE <= abs(value) <= MAX_MAGNITUDE:
+            unit = f" {si_unit}" if si_unit else ""
+            raise self.fail(key, f"{shown} is outside the range caselint accepts "
+                                 f"({MIN_MAGNITUDE:g} to {MAX_MAGNITUDE:g}{unit}, either "
+                                 "sign); check the number and its unit")
+
+    def finite(self, section: dict[str, Any], name: str, path: str) -> float | None:
+        """A plain finite number (None when absent); the schema has checked its type."""
+        if name not in section:
+            return None
+        try:
+            value = float(section[name])
+        except OverflowError:         # a whole number with hundreds of digits
+            value = math.inf
+        if not math.isfinite(value):
+            raise self.fail(f"{path}.{name}", f"expected a finite number, got {section[name]!r}")
+        self.check_magnitude(f"{path}.{name}", value, repr(section[name]), "")
         return value
 
     def point(self, values: list[Any], path: str) -> tuple[float, float, float]:
@@ -95,24 +134,34 @@ class _CaseBuilder:
                 out.append(to_si(value, "length", f"{path}[{i}]"))
             except CaseFileError as exc:
                 raise self.fail(exc.key, exc.message) from None
+            if abs(out[-1]) > MAX_MAGNITUDE:   # tiny coordinates are as good as zero
+                shown = f"'{value}'" if isinstance(value, str) else f"{value} m"
+                self.check_magnitude(f"{path}[{i}]", out[-1], shown, "m")
         return (out[0], out[1], out[2])
 
     def direction(self, values: list[float], path: str) -> tuple[float, float, float]:
         """A unit vector from three finite numbers, not all zero."""
-        if not all(math.isfinite(v) for v in values):
+        if not all(math.isfinite(v) for v in _floats(values)):
             raise self.fail(path, f"expected three finite numbers, got {values}")
-        norm = math.sqrt(sum(v * v for v in values))
+        values = _floats(values)
+        norm = math.hypot(*values)    # no overflow for components near 1e308
         if norm == 0.0:
             raise self.fail(path, "the direction [0, 0, 0] has no direction; give e.g. [1, 0, 0]")
         return (values[0] / norm, values[1] / norm, values[2] / norm)
 
     def mesh_file(self, text: str, key: str) -> Path:
         """Absolute path of a mesh file named in the case file, which must exist."""
-        path = (self.folder / text).resolve()
-        if path.is_dir():
-            raise self.fail(key, f"mesh file is a folder, not a file: {path}")
-        if not path.is_file():
-            raise self.fail(key, f"mesh file not found: {path}")
+        if "\0" in text:
+            raise self.fail(key, "a file name cannot contain a NUL character")
+        try:
+            path = (self.folder / text).resolve()
+            if path.is_dir():
+                raise self.fail(key, f"mesh file is a folder, not a file: {path}")
+            if not path.is_file():
+                raise self.fail(key, f"mesh file not found: {path}")
+        except OSError as exc:        # a name too long, a loop of links, no permission
+            raise self.fail(key, f"cannot use {text!r} as a mesh file: "
+                                 f"{exc.strerror or exc}") from None
         return path
 
     # -- sections ----------------------------------------------------------------------
@@ -175,7 +224,7 @@ class _CaseBuilder:
             length=self.quantity(flow_spec, "length", "length", p),
             leading_edge=(self.point(flow_spec["leading_edge"], f"{p}.leading_edge")
                           if "leading_edge" in flow_spec else None),
-            strouhal=(float(flow_spec["strouhal"]) if "strouhal" in flow_spec else None),
+            strouhal=self.finite(flow_spec, "strouhal", p),
         )
         turbulence = Turbulence(**spec["turbulence"]) if "turbulence" in spec else Turbulence()
         return Physics(method=spec.get("method", "finite-volume"), fluid=fluid, flow=flow,

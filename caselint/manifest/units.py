@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import functools
 import math
+import re
 from dataclasses import dataclass
 from typing import Any
 
@@ -98,7 +99,10 @@ def to_si(value: Any, dimension: str, key_path: str) -> float:
     if isinstance(value, str):
         result = _parse_text(value, dim, key_path, expected)
     else:
-        result = float(value)
+        try:
+            result = float(value)
+        except OverflowError:         # a whole number with hundreds of digits
+            result = math.inf
     if not math.isfinite(result):
         raise _error(key_path, f"{expected}; got {value!r}, which is not a finite number")
     return result
@@ -109,16 +113,20 @@ def _parse_text(text: str, dim: Dimension, key_path: str, expected: str) -> floa
         return float(text)            # text without a unit is a plain SI number
     except ValueError:
         pass
+    _refuse_runaway(text, dim, key_path, expected)
     ureg = unit_registry()
     try:
         quantity = ureg.parse_expression(text)
     except Exception as exc:  # pint raises many kinds (undefined unit, tokenizer, syntax)
         raise _error(key_path, f"cannot read {text!r} as {dim.noun}: {_pint_reason(exc)}; "
                                f"{expected}") from None
-    if not isinstance(quantity, ureg.Quantity):
-        return float(quantity)        # a bare expression such as "3*2"
-    if quantity.dimensionless:
-        return float(quantity.to("dimensionless").magnitude)
+    try:
+        if not isinstance(quantity, ureg.Quantity):
+            return float(quantity)        # a bare expression such as "3*2"
+        if quantity.dimensionless:
+            return float(quantity.to("dimensionless").magnitude)
+    except (OverflowError, TypeError, ValueError):
+        return math.inf                   # too large for a float: to_si reports it
     wanted = ureg.get_dimensionality(dim.dimensionality)
     if quantity.dimensionality != wanted:
         found = str(quantity.dimensionality)
@@ -128,6 +136,42 @@ def _parse_text(text: str, dim: Dimension, key_path: str, expected: str) -> floa
         return float(quantity.to_base_units().magnitude)
     except Exception as exc:  # offset units (degC) cannot be multiplied out
         raise _error(key_path, f"cannot convert {text!r} to {dim.si_unit}: {exc}") from None
+
+
+#: Longest quantity text read; "1.81e-5 kg/(m*s)" needs 16 characters.
+MAX_TEXT = 100
+_POWER = re.compile(r"\*\*|\^")
+_EXPONENT = re.compile(r"\s*(?:\(\s*[-+]?\d{1,2}(?:\.\d+)?\s*\)|[-+]?\d{1,2}(?:\.\d+)?)")
+
+
+def _refuse_runaway(text: str, dim: Dimension, key_path: str, expected: str) -> None:
+    """Refuse text whose arithmetic would run away before pint returns.
+
+    pint evaluates numbers exactly, so ``10**10**10`` or ``((9**99)**99)**99`` would
+    compute integers of billions of digits (a hang). A power may only raise a unit name
+    or a group without digits (``m^2``, ``(m/s)**2``) to a short number.
+    """
+    def fail(why: str) -> CaseFileError:
+        shown = text if len(text) <= 40 else text[:40] + "..."
+        return _error(key_path, f"cannot read {shown!r} as {dim.noun}: {why}; {expected}")
+
+    if len(text) > MAX_TEXT:
+        raise fail(f"longer than {MAX_TEXT} characters")
+    for match in _POWER.finditer(text):
+        base = text[: match.start()].rstrip()
+        if base.endswith(")"):
+            depth, i = 0, len(base) - 1
+            while i >= 0:
+                depth += {")": 1, "(": -1}.get(base[i], 0)
+                if depth == 0:
+                    break
+                i -= 1
+            group_ok = i >= 0 and not any(c.isdigit() for c in base[i:])
+        else:
+            group_ok = bool(base) and base[-1].isalpha()
+        exponent = _EXPONENT.match(text, match.end())
+        if not group_ok or exponent is None or _POWER.match(text[exponent.end():].lstrip()):
+            raise fail("a power (** or ^) may only raise a unit to a short number, as in 'm^2'")
 
 
 def _pint_reason(exc: Exception) -> str:

@@ -28,6 +28,11 @@ from caselint.errors import CaseFileError
 
 #: Most values (scalars, lists, mappings; every alias use counted again) a document may hold.
 MAX_VALUES = 100_000
+#: Deepest nesting of lists and mappings; a case file needs about 5 levels.
+MAX_DEPTH = 100
+#: Largest file read (bytes); case files and rule sets are a few KiB. Pure-Python YAML
+#: parsing takes about 1 s per 256 KiB, so this bounds time and memory.
+MAX_FILE_BYTES = 512 * 1024
 
 _MAP_TAGS = {"tag:yaml.org,2002:map"}
 _SEQ_TAGS = {"tag:yaml.org,2002:seq"}
@@ -61,8 +66,27 @@ def _nearest(table: dict[str, int], key: str) -> int | None:
     return table.get("")
 
 
+class _TooDeep(yaml.MarkedYAMLError):
+    """Nesting deeper than :data:`MAX_DEPTH`, found while composing."""
+
+
 class _SafeLoader(yaml.SafeLoader):
     """PyYAML's safe loader, reading exponent numbers without a dot as floats."""
+
+    _depth = 0
+
+    def compose_node(self, parent, index):  # type: ignore[no-untyped-def]
+        # PyYAML composes recursively: refuse deep nesting at its line, before Python's
+        # recursion limit is hit somewhere without one.
+        if self._depth >= MAX_DEPTH:
+            raise _TooDeep(problem=f"the document is nested too deeply (more than {MAX_DEPTH} "
+                                   "levels of lists and mappings)",
+                           problem_mark=self.peek_event().start_mark)
+        self._depth += 1
+        try:
+            return super().compose_node(parent, index)
+        finally:
+            self._depth -= 1
 
 
 # YAML 1.1 (PyYAML) needs a dot and a signed exponent ("1.0e-4"); engineers write "2e-4".
@@ -82,13 +106,17 @@ def load_yaml(path: str | Path) -> YamlDoc:
     """Read a YAML file whose top level is a mapping; raise CaseFileError on any problem."""
     file = str(path)
     try:
-        raw = Path(path).read_bytes()
+        with open(path, "rb") as handle:
+            raw = handle.read(MAX_FILE_BYTES + 1)    # bounded, even for /dev/zero
     except FileNotFoundError:
         raise CaseFileError(file, "file not found") from None
     except IsADirectoryError:
         raise CaseFileError(file, "is a folder, not a file") from None
     except OSError as exc:
         raise CaseFileError(file, f"cannot read the file: {exc.strerror or exc}") from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise CaseFileError(file, f"the file is larger than {MAX_FILE_BYTES // 1024} KiB; a case "
+                                  "file or rule set is a few KiB (is this the right file?)")
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
@@ -116,6 +144,10 @@ def parse_yaml(text: str, file: str = "<string>") -> YamlDoc:
             )
         data = builder.build(root, "")
         return YamlDoc(data, builder.lines, builder.columns, file)
+    except _TooDeep as exc:
+        mark = exc.problem_mark
+        raise CaseFileError(file, exc.problem, line=mark.line + 1,
+                            column=mark.column + 1) from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         problem = exc.problem or exc.context or "invalid YAML"

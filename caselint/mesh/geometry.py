@@ -34,7 +34,9 @@ if TYPE_CHECKING:
     from caselint.mesh.model import Mesh
 
 #: Faces or cells per vectorised chunk: keeps temporaries small (see the design notes).
-CHUNK = 262_144
+#: 16,384 keeps a chunk's temporaries (128 kB per array) in the L2 cache: on the 1M-cell
+#: benchmark mesh geometry and metrics ran 20-30 % faster than with 262,144.
+CHUNK = 16_384
 
 
 @dataclass(frozen=True)
@@ -48,8 +50,10 @@ class Geometry:
     vertex_means: np.ndarray
 
 
-def chunks(n: int, size: int = CHUNK):
-    """Slices covering ``range(n)`` in pieces of at most ``size``."""
+def chunks(n: int, size: int | None = None):
+    """Slices covering ``range(n)`` in pieces of at most ``size`` (default :data:`CHUNK`,
+    read at each call so that tests can shrink it)."""
+    size = CHUNK if size is None else size
     for lo in range(0, n, size):
         yield slice(lo, min(lo + size, n))
 
@@ -157,15 +161,22 @@ def compute_geometry(mesh: "Mesh") -> Geometry:
 
 def _accumulate(acc: np.ndarray, cells: np.ndarray, terms, sign: float, magnitude: bool) -> None:
     """Add ``sign`` x the signed per-face terms to their cells (and |volume| if asked)."""
-    # Faces come sorted by owner, so a chunk's cells usually span a short id range.
+    # Faces come sorted by owner, so a chunk's owners span a short id range: one bincount
+    # over that range. Neighbours are scattered over all cells; a bincount as long as the
+    # mesh per chunk would make the pass quadratic (5M cells: seconds), so they are added
+    # one by one (np.add.at, linear).
     lo, hi = int(cells.min()), int(cells.max()) + 1
+    compact = hi - lo <= 4 * len(cells)
     local = cells - lo
     for j, term in enumerate(terms):
-        weight = np.bincount(local, weights=term, minlength=hi - lo)
-        if j < 4:
-            acc[j, lo:hi] += sign * weight
-        elif magnitude:
-            acc[j, lo:hi] += weight
+        if j == 4 and not magnitude:
+            continue
+        factor = sign if j < 4 else 1.0
+        if compact:
+            weight = np.bincount(local, weights=term, minlength=hi - lo)
+            acc[j, lo:hi] += factor * weight if factor != 1.0 else weight
+        else:
+            np.add.at(acc[j], cells, factor * term if factor != 1.0 else term)
 
 
 def _pyramid_terms(S, xf, m, x0, dim):

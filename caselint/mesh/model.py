@@ -196,6 +196,14 @@ class Mesh:
         return self._topology.clashing
 
     @property
+    def cell_faces(self) -> np.ndarray:
+        """(C, K) face ids of each cell in template order (``celltypes.FACES``), -1 padding.
+
+        K is the most faces of any cell type present; int32 below 2**31 faces.
+        """
+        return self._topology.cell_faces
+
+    @property
     def face_group(self) -> np.ndarray:
         """(F,) int32 index into ``group_names``; -1 for internal faces and ungrouped ones."""
         return self._topology.face_group
@@ -262,6 +270,20 @@ class Mesh:
     def cell_vertex_means(self) -> np.ndarray:
         """(C, 3) mean of each cell's vertices (m)."""
         return self._geometry.vertex_means
+
+    # -- plain arrays (the mesh cache) ----------------------------------------
+    def to_arrays(self) -> dict[str, np.ndarray]:
+        """The mesh, and its topology and geometry when computed, as plain numpy arrays."""
+        from caselint.mesh.arrays import mesh_to_arrays
+
+        return mesh_to_arrays(self)
+
+    @classmethod
+    def from_arrays(cls, arrays, *, path: str | None = None) -> "Mesh":
+        """The mesh of :meth:`to_arrays` (a dict or an open ``.npz``); ValueError if unusable."""
+        from caselint.mesh.arrays import mesh_from_arrays
+
+        return mesh_from_arrays(arrays, path=path)
 
     # -- memo ----------------------------------------------------------------
     def cached(self, key: str, compute: Callable[[], T]) -> T:

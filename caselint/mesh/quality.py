@@ -109,12 +109,15 @@ def growth_ratio(mesh: "Mesh") -> np.ndarray:
 
     def compute() -> np.ndarray:
         out = np.ones(mesh.n_faces)
-        inner = np.flatnonzero(mesh.neighbour >= 0)
-        vp = mesh.cell_volumes[mesh.owner[inner]]
-        vn = mesh.cell_volumes[mesh.neighbour[inner]]
-        ok = (vp > 0) & (vn > 0)
-        big, small = np.maximum(vp, vn), np.minimum(vp, vn)
-        out[inner[ok]] = big[ok] / small[ok]
+        volumes, owner, neighbour = mesh.cell_volumes, mesh.owner, mesh.neighbour
+        for sl in chunks(mesh.n_faces):    # small temporaries (see geometry.CHUNK)
+            nbr = neighbour[sl]
+            inner = nbr >= 0
+            vp = volumes[owner[sl]]
+            vn = np.where(inner, volumes[np.maximum(nbr, 0)], 0.0)
+            ok = inner & (vp > 0) & (vn > 0)
+            big, small = np.maximum(vp, vn), np.minimum(vp, vn)
+            out[sl] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
         return out
 
     return mesh.cached("quality.growth_ratio", compute)
@@ -144,41 +147,79 @@ def _cell_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
             conn = block.connectivity
             for sl in chunks(len(conn)):
                 rows = conn[sl]
-                p = [[c[rows[:, i]] for c in cols] for i in range(rows.shape[1])]
+                g = _Edges([[c[rows[:, i]] for c in cols] for i in range(rows.shape[1])])
                 out = slice(block.start + sl.start, block.start + sl.stop)
-                sj[out], mj[out] = _JACOBIANS[block.type](p)
-                er[out] = _edge_ratio(p, EDGES[block.type])
+                sj[out], mj[out] = _JACOBIANS[block.type](g)
+                er[out] = _edge_ratio(g, EDGES[block.type])
         return np.clip(sj, -1.0, 1.0), mj, er
 
     return mesh.cached("quality.cell_metrics", compute)
 
 
-def _edge_ratio(p, edges) -> np.ndarray:
-    lengths = np.stack([_norm(_sub(p[b], p[a])) for a, b in edges])
+class _Edges:
+    """The nodes of a chunk of cells (``p[i]`` = [x, y, z] arrays of node i) and their
+    edge vectors and lengths, each computed once: every corner vector of a hexahedron,
+    wedge or tetrahedron is an edge, shared by two corners and the edge ratio.
+
+    ``vec(a, b)`` is ``x_b - x_a`` as stored for the edge's lower node first, with the
+    sign to apply (+1 or -1); flipping signs is exact, so the results are those of
+    computing every difference afresh, to the bit.
+    """
+
+    def __init__(self, p) -> None:
+        self.p = p
+        self._vec: dict[tuple[int, int], list] = {}
+        self._len: dict[tuple[int, int], np.ndarray] = {}
+
+    def vec(self, a: int, b: int):
+        key = (min(a, b), max(a, b))
+        if key not in self._vec:
+            self._vec[key] = _sub(self.p[key[1]], self.p[key[0]])
+        return self._vec[key], (1 if a < b else -1)
+
+    def length(self, a: int, b: int) -> np.ndarray:
+        key = (min(a, b), max(a, b))
+        if key not in self._len:
+            self._len[key] = _norm(self.vec(*key)[0])
+        return self._len[key]
+
+
+def _edge_ratio(g: _Edges, edges) -> np.ndarray:
+    lengths = np.stack([g.length(a, b) for a, b in edges])
     longest, shortest = lengths.max(axis=0), lengths.min(axis=0)
     ok = shortest > 0
     return np.where(ok, np.minimum(longest / np.where(ok, shortest, 1.0), DEGENERATE), DEGENERATE)
 
 
-def _normalised_det(u, v, w):
-    """det(u, v, w) and det / (|u||v||w|) (0 where a vector has zero length)."""
+def _det(u, v, w, sign: int = 1):
+    """sign x det(u, v, w), sign being +1 or -1."""
     det = _dot(u, _cross(v, w))
-    scale = _norm(u) * _norm(v) * _norm(w)
+    return det if sign > 0 else -det
+
+
+def _normalised_det(u, v, w, norms=None, sign: int = 1):
+    """sign x det(u, v, w) and that over |u||v||w| (0 where a vector has zero length)."""
+    det = _det(u, v, w, sign)
+    nu, nv, nw = norms if norms is not None else (_norm(u), _norm(v), _norm(w))
+    scale = nu * nv * nw
     return det, np.where(scale > 0, det / np.where(scale > 0, scale, 1.0), 0.0)
 
 
-def _corner_min(p, corners):
+def _corner_min(g: _Edges, corners):
     dets, norms = [], []
     for o, a, b, c in corners:
-        det, nrm = _normalised_det(_sub(p[a], p[o]), _sub(p[b], p[o]), _sub(p[c], p[o]))
+        (u, su), (v, sv), (w, sw) = g.vec(o, a), g.vec(o, b), g.vec(o, c)
+        lengths = (g.length(o, a), g.length(o, b), g.length(o, c))
+        det, nrm = _normalised_det(u, v, w, lengths, su * sv * sw)
         dets.append(det)
         norms.append(nrm)
     return np.min(norms, axis=0), np.min(dets, axis=0)
 
 
-def _hex(p):
-    nrm, det = _corner_min(p, CORNERS["hexahedron"])
+def _hex(g: _Edges):
+    nrm, det = _corner_min(g, CORNERS["hexahedron"])
     # Verdict also samples the centre, on the principal axes of the trilinear map.
+    p = g.p
     axes = [
         _sub(_sum(p, (1, 2, 5, 6)), _sum(p, (0, 3, 4, 7))),
         _sub(_sum(p, (2, 3, 6, 7)), _sum(p, (0, 1, 4, 5))),
@@ -188,22 +229,23 @@ def _hex(p):
     return np.minimum(nrm, centre), det
 
 
-def _wedge(p):
-    nrm, det = _corner_min(p, CORNERS["wedge"])
+def _wedge(g: _Edges):
+    nrm, det = _corner_min(g, CORNERS["wedge"])
     return nrm * _TWO_BY_SQRT3, det
 
 
-def _tet(p):
-    e = [_norm(_sub(p[b], p[a])) for a, b in EDGES["tetra"]]
-    det = _dot(_sub(p[1], p[0]), _cross(_sub(p[2], p[0]), _sub(p[3], p[0])))
+def _tet(g: _Edges, nodes=(0, 1, 2, 3)):
+    e = [g.length(nodes[a], nodes[b]) for a, b in EDGES["tetra"]]
+    (u, su), (v, sv), (w, sw) = (g.vec(nodes[0], nodes[k]) for k in (1, 2, 3))
+    det = _det(u, v, w, su * sv * sw)
     product = np.max([e[i] * e[j] * e[k] for i, j, k in _TET_NODE_EDGES], axis=0)
     product = np.maximum(product, np.abs(det))
     ok = product > 0
     return np.where(ok, _SQRT2 * det / np.where(ok, product, 1.0), 0.0), det
 
 
-def _pyramid(p):
-    sub = [_tet([p[i] for i in tet]) for tet in PYRAMID_TETS]
+def _pyramid(g: _Edges):
+    sub = [_tet(g, tet) for tet in PYRAMID_TETS]
     low = np.min([s[0] for s in sub], axis=0) * _SQRT2
     det = np.min([s[1] for s in sub], axis=0)
     return np.where(low > 1.0, 2.0 - low, low), det
@@ -231,8 +273,8 @@ _JACOBIANS = {
     "tetra": _tet,
     "wedge": _wedge,
     "pyramid": _pyramid,
-    "triangle": lambda p: _planar(p, CORNERS_2D["triangle"], _TWO_BY_SQRT3),
-    "quad": lambda p: _planar(p, CORNERS_2D["quad"], None),
+    "triangle": lambda g: _planar(g.p, CORNERS_2D["triangle"], _TWO_BY_SQRT3),
+    "quad": lambda g: _planar(g.p, CORNERS_2D["quad"], None),
 }
 
 

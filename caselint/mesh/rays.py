@@ -27,7 +27,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh.geometry import CHUNK, chunks, coordinate_columns
+from caselint.mesh.geometry import chunks
 
 if TYPE_CHECKING:
     from caselint.mesh.model import Mesh
@@ -41,6 +41,9 @@ LOST = 2
 
 #: Default limit on the cells one ray may cross.
 MAX_STEPS = 10_000
+#: Rays marched together: one numpy step serves them all, so the more the better, up to
+#: the memory of their per-step temporaries (about 250 bytes a ray).
+RAY_CHUNK = 262_144
 # A face counts as an exit only if the ray is not parallel to it: d . n > this (n unit).
 _PARALLEL = 1e-9
 
@@ -75,33 +78,22 @@ def cell_faces_csr(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
     """Cell-to-face incidence in CSR form: cell c has faces[offsets[c]:offsets[c + 1]]."""
 
     def build() -> tuple[np.ndarray, np.ndarray]:
-        owner, neighbour = mesh.owner, mesh.neighbour
-        inner = np.flatnonzero(neighbour >= 0)
-        cell = np.concatenate([owner, neighbour[inner]])
-        face = np.concatenate([np.arange(owner.size, dtype=np.int64), inner])
-        order = np.argsort(cell, kind="stable")
-        counts = np.bincount(cell, minlength=mesh.n_cells)
+        table = cell_face_table(mesh)
+        present = table >= 0
         offsets = np.zeros(mesh.n_cells + 1, dtype=np.int64)
-        np.cumsum(counts, out=offsets[1:])
-        return offsets, face[order]
+        np.cumsum(np.count_nonzero(present, axis=1), out=offsets[1:])
+        return offsets, table[present].astype(np.int64)
 
     return mesh.cached("rays.cell_faces_csr", build)
 
 
 def cell_face_table(mesh: "Mesh") -> np.ndarray:
-    """(C, K) face ids of each cell, K the most faces of any cell, padded with -1."""
+    """(C, K) face ids of each cell, K the most faces of any cell, padded with -1.
 
-    def build() -> np.ndarray:
-        offsets, faces = cell_faces_csr(mesh)
-        counts = np.diff(offsets)
-        width = int(counts.max()) if counts.size else 0
-        table = np.full((mesh.n_cells, width), -1, dtype=np.int64)
-        cell = np.repeat(np.arange(mesh.n_cells), counts)
-        slot = np.arange(faces.size) - offsets[cell]
-        table[cell, slot] = faces
-        return table
-
-    return mesh.cached("rays.cell_face_table", build)
+    The topology's table (:attr:`Mesh.cell_faces`, template order, int32 on meshes below
+    2**31 faces).
+    """
+    return mesh.cell_faces
 
 
 def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
@@ -133,35 +125,62 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     ok = norm > 0                      # a collapsed face has no normal: its ray is lost
     out.direction[ok] = -area[ok] / norm[ok, None]
     faces = _FaceData(mesh, wall_face)
-    for sl in chunks(n, CHUNK):
+    for sl in chunks(n, RAY_CHUNK):
         _march_chunk(faces, out, np.arange(sl.start, sl.stop)[ok[sl]], max_steps)
     return out
 
 
 class _FaceData:
-    """Face columns gathered once for the marching loop."""
+    """What the marching loop reads, laid out so that one step touches few cache lines.
+
+    The loop visits cells in no particular memory order, so every gather is a cache miss:
+    each face's plane is one row ``(nx, ny, nz, c)`` and each cell's row of the per-slot
+    tables (face, sign, cell across) is contiguous.
+    """
 
     def __init__(self, mesh: "Mesh", wall_face: np.ndarray) -> None:
         self.table = cell_face_table(mesh)
         self.owner = mesh.owner
-        self.neighbour = mesh.neighbour
         self.wall = np.asarray(wall_face, dtype=bool)
         if self.wall.shape != self.owner.shape:
             raise ValueError(f"wall_face must have one entry per face ({self.owner.size}), "
                              f"got shape {self.wall.shape}")
-        # Each face's plane as n . x = c with n the unit normal out of the owner; a
-        # collapsed face gets n = 0 and is never an exit.
-        s = mesh.face_area_vectors
-        norm = np.sqrt((s**2).sum(axis=1))
-        unit = s / np.where(norm > 0, norm, 1.0)[:, None]
-        self.n = coordinate_columns(unit)
-        self.c = (unit * mesh.face_centroids).sum(axis=1)
+        self.plane, self.sign, self.across = _march_tables(mesh, self.table)
+
+
+def _march_tables(mesh: "Mesh", table: np.ndarray):
+    """Face planes, and per cell slot the face's orientation sign and the cell across it.
+
+    A plane is ``n . x = c`` with n the unit normal out of the owner; a collapsed face
+    gets n = 0 and is never an exit. The sign is +1 where the cell owns the face (its
+    normal points out of the cell), -1 where it is the neighbour, 0 on padding; the cell
+    across is -1 on boundary faces.
+    """
+    s, xf = mesh.face_area_vectors, mesh.face_centroids
+    owner, neighbour = mesh.owner, mesh.neighbour
+    plane = np.empty((len(owner), 4))
+    for sl in chunks(len(owner)):
+        sv = s[sl]
+        norm = np.sqrt(sv[:, 0] ** 2 + sv[:, 1] ** 2 + sv[:, 2] ** 2)
+        unit = sv / np.where(norm > 0, norm, 1.0)[:, None]
+        plane[sl, :3] = unit
+        plane[sl, 3] = unit[:, 0] * xf[sl, 0] + unit[:, 1] * xf[sl, 1] + unit[:, 2] * xf[sl, 2]
+    sign = np.zeros(table.shape, dtype=np.int8)
+    across = np.full(table.shape, -1, dtype=table.dtype)
+    for sl in chunks(len(table)):
+        f = table[sl]
+        valid = f >= 0
+        fs = np.where(valid, f, 0)
+        own = owner[fs] == np.arange(sl.start, sl.stop)[:, None]
+        sign[sl] = np.where(valid, np.where(own, 1, -1), 0)
+        across[sl] = np.where(valid, np.where(own, neighbour[fs], owner[fs]), -1)
+    return plane, sign, across
 
 
 def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) -> None:
     """March the rays ``rays`` (indices into ``out``) in lock step until they all stop."""
-    o = [out.origin[rays, k] for k in range(3)]
-    d = [out.direction[rays, k] for k in range(3)]
+    o = out.origin[rays]
+    d = out.direction[rays]
     entry = out.start_face[rays]
     cell = fd.owner[entry]
     t_now = np.zeros(rays.size)
@@ -170,11 +189,9 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
     for _ in range(max_steps):
         if idx.size == 0:
             return
-        t_exit, f_exit = _exit_faces(fd, cell, entry, [c[idx] for c in o], [c[idx] for c in d])
+        t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
         lost = f_exit < 0
         t_exit = np.maximum(t_exit, t_now)   # a ray never goes back
-        nxt = np.where(fd.owner[np.maximum(f_exit, 0)] == cell,
-                       fd.neighbour[np.maximum(f_exit, 0)], fd.owner[np.maximum(f_exit, 0)])
         ends = ~lost & (nxt < 0)
         ray = rays[idx]
         out.status[ray[ends]] = np.where(fd.wall[f_exit[ends]], WALL, OPEN)
@@ -190,25 +207,24 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
 
 
 def _exit_faces(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o, d):
-    """Parameter and id of the face each ray leaves its cell through; id -1 if none."""
-    faces = fd.table[cell]
-    best_t = np.full(cell.size, np.inf)
-    best_f = np.full(cell.size, -1, dtype=np.int64)
-    for k in range(faces.shape[1]):            # at most six face slots
-        f = faces[:, k]
-        present = (f >= 0) & (f != entry)
-        fs = np.where(present, f, 0)
-        n = [fd.n[j][fs] for j in range(3)]
-        dn = n[0] * d[0] + n[1] * d[1] + n[2] * d[2]
-        # leaving this cell: along the normal if it owns the face, against it otherwise
-        out_of = np.where(fd.owner[fs] == cell, dn, -dn)
-        leaving = present & (out_of > _PARALLEL)
-        on = n[0] * o[0] + n[1] * o[1] + n[2] * o[2]
-        t = np.where(leaving, (fd.c[fs] - on) / np.where(leaving, dn, 1.0), np.inf)
-        better = t < best_t
-        best_t = np.where(better, t, best_t)
-        best_f = np.where(better, f, best_f)
-    return best_t, best_f
+    """Parameter and id of the face each ray leaves its cell through (id -1 if none), and
+    the cell beyond it (-1 on the boundary); all face slots of a cell at once."""
+    # np.take gathers rows several times faster than fancy indexing (numpy 1.2x-2.x)
+    faces = np.take(fd.table, cell, axis=0)                  # (m, K)
+    present = (faces >= 0) & (faces != entry[:, None])
+    p = np.take(fd.plane, np.where(present, faces, 0).ravel(), axis=0).reshape(*faces.shape, 4)
+    dn = p[..., 0] * d[:, 0:1] + p[..., 1] * d[:, 1:2] + p[..., 2] * d[:, 2:3]
+    # leaving this cell: along the normal if it owns the face, against it otherwise
+    leaving = present & (dn * np.take(fd.sign, cell, axis=0) > _PARALLEL)
+    on = p[..., 0] * o[:, 0:1] + p[..., 1] * o[:, 1:2] + p[..., 2] * o[:, 2:3]
+    t = np.where(leaving, (p[..., 3] - on) / np.where(leaving, dn, 1.0), np.inf)
+    k = np.argmin(t, axis=1)           # the first slot among equals, as a strict < scan
+    rows = np.arange(cell.size)
+    best_t = t[rows, k]
+    found = best_t < np.inf
+    best_f = np.where(found, faces[rows, k], -1).astype(np.int64)
+    nxt = np.where(found, np.take(fd.across, cell * fd.across.shape[1] + k), -1).astype(np.int64)
+    return best_t, best_f, nxt
 
 
 def hit_angles_deg(mesh: "Mesh", hits: RayHits) -> np.ndarray:

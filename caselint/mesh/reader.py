@@ -27,6 +27,7 @@ import io
 import math
 import os
 import re
+import threading
 import warnings
 from pathlib import Path
 from typing import Any
@@ -38,6 +39,11 @@ from caselint.mesh.celltypes import SURFACE_TYPES, VOLUME_TYPES, linear_type
 from caselint.mesh.model import BoundaryElements, CellBlock, Mesh
 
 _PAD = {"triangle": [0, 1, 2, 2], "quad": [0, 1, 2, 3], "line": [0, 1]}
+#: Largest coordinate magnitude read (m); the case file's own limit for lengths, too.
+MAX_COORDINATE_M = 1e12
+# redirect_stdout/stderr swap the process-wide streams: two threads reading at once (a
+# Dask worker's threads) would restore each other's sinks and silence the process.
+_READ_LOCK = threading.Lock()
 
 
 def read_mesh(
@@ -65,9 +71,14 @@ def read_mesh(
             f"unknown mesh format {file.suffix or '(no extension)'!r}; expected one of "
             f"{', '.join(sorted(known))}",
         )
+    from caselint.mesh.limits import check_memory, header_cell_count
+
+    declared = header_cell_count(name)
+    if declared is not None:           # refuse before meshio fills the memory
+        check_memory(name, {"element": declared}, "the file header")
     sink = io.StringIO()
     try:
-        with contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink), \
+        with _READ_LOCK, contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink), \
                 warnings.catch_warnings():
             warnings.simplefilter("ignore")
             raw = meshio.read(name)
@@ -78,6 +89,10 @@ def read_mesh(
             name, "meshio could not read the file (damaged, truncated, or not the format its "
             f"extension says): {detail or type(exc).__name__}",
         ) from None
+    counts: dict[str, int] = {}
+    for block in raw.cells:
+        counts[block.type] = counts.get(block.type, 0) + len(block.data)
+    check_memory(name, counts, "the cells read")       # before topology is built
     return mesh_from_meshio(raw, path=name, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags)
 
 
@@ -153,6 +168,12 @@ def mesh_from_meshio(
         points[:, 2] = 0.0
     if scale_to_m != 1.0:
         points = points * float(scale_to_m)
+    reach = float(np.abs(points).max())
+    if reach > MAX_COORDINATE_M:
+        # Beyond this, squares and cubes of lengths (areas, volumes, Jacobians) lose range.
+        raise MeshReadError(path, f"coordinates reach {reach:.3g} m (after scaling to metres); "
+                                  f"caselint reads meshes within {MAX_COORDINATE_M:g} m of the "
+                                  "origin: check the mesh units or the file")
     face_blocks = [(i, base, _corners(path, t, base, d, n_points, np.int64, notes))
                    for i, t, base, d in blocks if base in face_types and len(d)]
     names, boundary = _groups(path, m, face_blocks, dim, tag_array, tags)

@@ -46,6 +46,8 @@ class Topology:
     unmatched: dict[str, int]
     internal: dict[str, int]
     multi_group: int
+    #: (C, K) face ids of each cell in template order (``celltypes.FACES``), -1 padding.
+    cell_faces: np.ndarray
 
 
 def build_topology(mesh: "Mesh") -> Topology:
@@ -54,25 +56,51 @@ def build_topology(mesh: "Mesh") -> Topology:
     half, hcell, tri_mask = _half_faces(mesh)
     n_half = half.shape[1]
     rep = np.zeros(n_half, dtype=bool)
-    other = np.full(n_half, -1, dtype=hcell.dtype)
+    # The neighbour's half of each owner's half-face: gives the neighbour cell and, for
+    # the per-cell face table, the face id of the neighbour's side.
+    mate = np.full(n_half, -1, dtype=np.int32 if n_half < 2**31 else np.int64)
     odd = np.zeros(n_half, dtype=bool)
     clash = np.zeros(n_half, dtype=bool)
     for order, same, hidx, bit in _kind_sorts(half, tri_mask, n_points):
-        _pair_runs(order, same, hidx, bit, hcell, (rep, other, odd, clash))
+        _pair_runs(order, same, hidx, bit, hcell, (rep, mate, odd, clash))
     fidx = np.flatnonzero(rep)
     del rep
     faces = np.empty((len(fidx), half.shape[0]), dtype=np.int64)
     for k in range(half.shape[0]):
         faces[:, k] = half[k, fidx]
     owner = hcell[fidx].astype(np.int64)
-    neighbour = other[fidx].astype(np.int64)
+    mates = mate[fidx]
+    paired = mates >= 0
+    neighbour = np.where(paired, hcell[np.where(paired, mates, 0)], -1).astype(np.int64)
+    cell_faces = _cell_face_table(mesh, fidx, mates, paired, n_half)
+    del mate, mates, paired
     nonmanifold = np.flatnonzero(odd[fidx])
     clashing = np.flatnonzero(clash[fidx])
     face_group, unmatched, internal, multi = match_groups(
         faces, neighbour, mesh.boundary, mesh.group_names, n_points
     )
     return Topology(faces, owner, neighbour, nonmanifold, clashing, face_group, unmatched,
-                    internal, multi)
+                    internal, multi, cell_faces)
+
+
+def _cell_face_table(mesh: "Mesh", fidx, mates, paired, n_half: int) -> np.ndarray:
+    """(C, K) face id of every half-face, laid out per cell in template order.
+
+    Half-faces are cell-major per block, so the face id of each half-face, reshaped, is
+    the table; K is the most face templates of any cell type present (-1 pads).
+    """
+    dtype = np.int32 if len(fidx) < 2**31 else np.int64
+    face_of = np.full(n_half, -1, dtype=dtype)
+    face_of[fidx] = np.arange(len(fidx), dtype=dtype)
+    face_of[mates[paired]] = np.flatnonzero(paired).astype(dtype)
+    width = max((len(FACES[b.type]) for b in mesh.cell_blocks), default=0)
+    table = np.full((mesh.n_cells, width), -1, dtype=dtype)
+    offset = 0
+    for block in mesh.cell_blocks:
+        n, nf = len(block.connectivity), len(FACES[block.type])
+        table[block.start : block.stop, :nf] = face_of[offset : offset + n * nf].reshape(n, nf)
+        offset += n * nf
+    return table
 
 
 def _half_faces(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
@@ -220,7 +248,7 @@ def _sort_keys(k1: np.ndarray, k2: np.ndarray | None) -> tuple[np.ndarray, np.nd
 
 def _pair_runs(order, same, hidx, bit, hcell, marks) -> None:
     """Mark representatives, neighbours, non-manifold and clashing half-faces from runs."""
-    rep, other, odd, clash = marks
+    rep, mate, odd, clash = marks
     n = len(order)
     if n == 0:
         return
@@ -243,7 +271,7 @@ def _pair_runs(order, same, hidx, bit, hcell, marks) -> None:
     keep = ~selfish
     own = own[keep]
     rep[own] = True
-    other[own] = np.maximum(c1, c2)[keep]
+    mate[own] = np.where(swap, first, second)[keep]
     clash[own] = clashing[keep]
     crowd = order[np.repeat(lengths > 2, lengths)]
     bad = np.concatenate([crowd if hidx is None else hidx[crowd], first[selfish], second[selfish]])

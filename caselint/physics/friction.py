@@ -123,7 +123,9 @@ def darcy_colebrook(re, relative_roughness=0.0, *, tol=1e-13, max_iter=100):
         g = x + 2.0 * np.log10(arg)
         dg = 1.0 + 2.0 * (2.51 / re) / (arg * ln10)
         step = g / dg
-        x = x - step
+        # Far below the turbulent range (Re of order 1) a Newton step from Haaland's start
+        # can overshoot below zero, where the log is undefined: halve x there instead.
+        x = np.where(x - step > 0.0, x - step, 0.5 * x)
         if np.all(np.abs(step) <= tol * np.abs(x)):
             break
     return _out(x ** -2.0)

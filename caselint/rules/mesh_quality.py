@@ -33,6 +33,8 @@ if TYPE_CHECKING:
     from caselint.mesh.model import Mesh
 
 _VERDICT = "Verdict geometric quality library (Stimpson et al., SAND2007-1751, 2007)"
+#: Most bins of a histogram a rule attaches (growth ratio: 0.05 wide up to 1.5x the limit).
+MAX_BINS = 200
 _FV_BOOKS = (
     "Jasak 1996 (PhD thesis, Imperial College); Ferziger & Peric 2002; Moukalled et al. 2016"
 )
@@ -60,11 +62,15 @@ def worst_ids(values: np.ndarray, threshold: float | None,
     if candidates.size == 0:
         return np.empty(0, dtype=np.int64), 0
     keep = MAX_LISTED_IDS if count else 1
-    cand_bad = badness[candidates]
+    cand_bad = badness if candidates.size == values.size else badness[candidates]
     if candidates.size > keep:
-        # every candidate at least as bad as the keep-th worst, so ties are resolved by id
+        # the candidates worse than the keep-th worst, then the lowest ids of those tied
+        # with it (candidates are in id order); a structured mesh can tie millions of
+        # values, which must not all be sorted
         kth = np.partition(cand_bad, candidates.size - keep)[candidates.size - keep]
-        sel = cand_bad >= kth
+        worse_than = np.flatnonzero(cand_bad > kth)
+        tied = np.flatnonzero(cand_bad == kth)[: keep - worse_than.size]
+        sel = np.sort(np.concatenate([worse_than, tied]))
         candidates, cand_bad = candidates[sel], cand_bad[sel]
     order = np.lexsort((candidates, -cand_bad))
     return candidates[order][:keep].astype(np.int64), count
@@ -237,9 +243,13 @@ def check_growth_ratio(ctx: "RuleContext") -> RuleResult:
     values = quality.growth_ratio(mesh)
     result = _face_rule_result(ctx, values, internal, "growth ratio", "", ".4g")
     # Bins of 0.05 from 1 to 1.5x the highest limit (at least 2); the plot counts the rest.
+    # A rule set may raise the limits to any value: past MAX_BINS bins of 0.05 the bins
+    # widen, so a plot never holds millions of bins.
     top_limit = max(v for v in (ctx.limits.error, ctx.limits.warn, 2.0 / 1.5) if v is not None)
-    n_bins = int(np.ceil(round((1.5 * top_limit - 1.0) / 0.05, 6)))
-    edges = np.round(1.0 + 0.05 * np.arange(n_bins + 1), 9)
+    top_limit = min(top_limit, 1e6)   # beyond, the plot range would overflow; counted above
+    width = max(0.05, (1.5 * top_limit - 1.0) / MAX_BINS)
+    n_bins = int(np.ceil(round((1.5 * top_limit - 1.0) / width, 6)))
+    edges = np.round(1.0 + width * np.arange(n_bins + 1), 9)
     return _with_histogram(result, ctx, values[internal], edges, "Volume growth ratio",
                            "growth ratio (larger / smaller cell volume)", "internal faces")
 

@@ -206,6 +206,13 @@ def correlation_friction(flow: FlowData, centroids: np.ndarray,
     re_x = fr.reynolds(flow.velocity, x, flow.nu)
     re_x = np.atleast_1d(np.asarray(re_x, dtype=np.float64))
     if flow.turbulent:
+        if np.any(2.0 * np.log10(re_x) - 0.65 <= 0.0):
+            # (2 log10 Re_x - 0.65)^-2.3 is undefined there (a negative base) and infinite at
+            # Re_x = 10^0.325 = 2.11: no friction estimate, rather than NaN.
+            return (f"Re_x = {fmt(float(re_x.min()))} is below 2.11, where Schlichting's "
+                    "turbulent flat-plate formula is undefined; check physics.flow.velocity, "
+                    "length and the fluid's viscosity (a turbulent model at such a low "
+                    "Reynolds number is unusual)")
         cf = np.atleast_1d(fr.cf_schlichting(re_x))
         name = "Schlichting's turbulent flat-plate formula"
         if np.any(re_x < fr.PLATE_TRANSITION_RE):

@@ -1,0 +1,196 @@
+"""The mesh cache: analysed meshes (topology and geometry included) kept on disk by file hash.
+
+A parameter sweep checks hundreds of case files that share a few meshes. Each mesh is read
+and analysed once: the arrays of the analysed :class:`~caselint.mesh.model.Mesh` are
+written as an ``.npz`` file (:mod:`caselint.mesh.arrays`; read back without pickle) named
+by a key of the mesh file's SHA-256, the read settings (scale, tag array, tag names) and
+caselint's version. A later run, or another process of the same batch, reads that file
+instead of the mesh.
+
+- Folder: ``CASELINT_CACHE_DIR``, else ``~/.cache/caselint`` (``XDG_CACHE_HOME`` honoured).
+- Entries are written to a temporary file in the folder and renamed into place, so a
+  process never sees half an entry; an unreadable entry is ignored and rebuilt.
+- Meshes below :data:`MIN_CELLS` cells are not cached (reading them is quicker than the
+  cache's disk traffic), and the folder is trimmed to ``CASELINT_CACHE_MAX_GB`` (default
+  :data:`MAX_GB`), oldest entries first.
+- Only caselint's own files (``mesh-*.npz``) are ever read or removed; failures to write
+  (a full disk, a read-only folder) leave the run as it would be without a cache.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import contextvars
+import hashlib
+import json
+import os
+import tempfile
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from caselint import __version__
+
+if TYPE_CHECKING:
+    from caselint.mesh.model import Mesh
+
+#: Environment variable naming the cache folder.
+ENV_DIR = "CASELINT_CACHE_DIR"
+#: Environment variable with the most the folder may hold, in GB.
+ENV_MAX_GB = "CASELINT_CACHE_MAX_GB"
+#: Smallest mesh (cells) worth caching.
+MIN_CELLS = 100_000
+#: Default size limit of the cache folder (GB).
+MAX_GB = 10.0
+
+
+def default_cache_dir() -> Path:
+    """``CASELINT_CACHE_DIR``, else ``$XDG_CACHE_HOME/caselint`` or ``~/.cache/caselint``."""
+    if os.environ.get(ENV_DIR):
+        return Path(os.environ[ENV_DIR]).expanduser()
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    return Path(base) / "caselint"
+
+
+def mesh_key(mesh_sha256: str, scale_to_m: float, tag_array: str | None,
+             tags: dict[int, str] | None) -> str:
+    """Cache key of a mesh file read with these settings by this caselint version."""
+    from caselint.mesh.arrays import FORMAT
+
+    settings = {"sha256": mesh_sha256, "scale_to_m": repr(float(scale_to_m)),
+                "tag_array": tag_array, "tags": sorted((int(k), str(v)) for k, v in
+                                                       (tags or {}).items()),
+                "caselint": __version__, "format": FORMAT}
+    return hashlib.sha256(json.dumps(settings, sort_keys=True).encode()).hexdigest()
+
+
+@dataclass
+class MeshCache:
+    """Analysed meshes in ``folder`` (see the module docstring)."""
+
+    folder: Path
+    min_cells: int = field(default_factory=lambda: MIN_CELLS)
+    max_bytes: int = field(default_factory=lambda: int(
+        float(os.environ.get(ENV_MAX_GB) or MAX_GB) * 1e9))
+
+    def entry(self, key: str) -> Path:
+        """The file of ``key``."""
+        return self.folder / f"mesh-{key}.npz"
+
+    def load(self, key: str, path: str) -> "Mesh | None":
+        """The cached mesh of ``key`` (named ``path``), or None when absent or unreadable."""
+        import numpy as np
+
+        from caselint.mesh.model import Mesh
+
+        file = self.entry(key)
+        try:
+            with np.load(file, allow_pickle=False) as arrays:
+                mesh = Mesh.from_arrays(arrays, path=path)
+            os.utime(file)          # recently used: trimmed last
+            return mesh
+        except FileNotFoundError:
+            return None
+        except Exception:  # noqa: BLE001 - a damaged or partial entry is rebuilt
+            with contextlib.suppress(OSError):
+                file.unlink()
+            return None
+
+    def store(self, key: str, mesh: "Mesh") -> bool:
+        """Write ``mesh`` under ``key`` (atomically); False when it was not written."""
+        import numpy as np
+
+        if mesh.n_cells < self.min_cells:
+            return False
+        try:
+            self.folder.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(prefix=".mesh-", suffix=".npz.tmp", dir=self.folder)
+        except OSError:
+            return False
+        try:
+            with os.fdopen(fd, "wb") as handle:
+                np.savez(handle, **mesh.to_arrays())
+            os.replace(tmp, self.entry(key))
+        except OSError:
+            with contextlib.suppress(OSError):
+                os.unlink(tmp)
+            return False
+        self.trim()
+        return True
+
+    def trim(self) -> None:
+        """Remove the least recently used entries until the folder is within its limit."""
+        entries = []
+        for file in self.folder.glob("mesh-*.npz"):
+            with contextlib.suppress(OSError):
+                st = file.stat()
+                entries.append((st.st_mtime, st.st_size, file))
+        total = sum(size for _, size, _ in entries)
+        for _, size, file in sorted(entries, key=lambda e: (e[0], e[2].name)):
+            if total <= self.max_bytes:
+                break
+            with contextlib.suppress(OSError):
+                file.unlink()
+                total -= size
+
+
+_ACTIVE: contextvars.ContextVar["MeshStore | None"] = contextvars.ContextVar(
+    "caselint_mesh_store", default=None)
+
+
+def active_store() -> "MeshStore | None":
+    """The mesh store of the batch running in this thread, if any (see :func:`using_store`)."""
+    return _ACTIVE.get()
+
+
+@contextlib.contextmanager
+def using_store(store: "MeshStore"):
+    """Within the block, :func:`caselint.api.load_case_mesh` reads meshes through ``store``."""
+    token = _ACTIVE.set(store)
+    try:
+        yield store
+    finally:
+        _ACTIVE.reset(token)
+
+
+class MeshStore:
+    """The meshes of one batch worker: each read (or taken from the cache) once.
+
+    :meth:`read` has the signature of :func:`caselint.mesh.read_mesh`; :meth:`save` writes
+    the meshes this store read from their files to the cache, once their cases have run
+    (so that their topology and geometry are in the entry).
+    """
+
+    def __init__(self, cache: MeshCache | None = None) -> None:
+        self.cache = cache
+        self._meshes: dict[tuple, Mesh] = {}
+        self._fresh: dict[tuple, str] = {}      # read from file: settings -> cache key
+
+    def read(self, path, *, scale_to_m: float = 1.0, tag_array: str | None = None,
+             tags: dict[int, str] | None = None) -> "Mesh":
+        """The mesh of ``path`` read with these settings; raises MeshReadError like read_mesh."""
+        from caselint.mesh import read_mesh
+
+        settings = (os.path.abspath(path), repr(float(scale_to_m)), tag_array,
+                    tuple(sorted((tags or {}).items())))
+        if settings in self._meshes:
+            return self._meshes[settings]
+        key = mesh = None
+        if self.cache is not None and os.path.isfile(path):
+            from caselint.api import file_sha256
+
+            key = mesh_key(file_sha256(Path(path)), scale_to_m, tag_array, tags)
+            mesh = self.cache.load(key, str(path))
+        if mesh is None:
+            mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags)
+            if key is not None:
+                self._fresh[settings] = key
+        self._meshes[settings] = mesh
+        return mesh
+
+    def save(self) -> None:
+        """Write the meshes read from files to the cache (no-op without a cache)."""
+        if self.cache is not None:
+            for settings, key in self._fresh.items():
+                self.cache.store(key, self._meshes[settings])
+        self._fresh.clear()

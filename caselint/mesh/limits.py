@@ -1,0 +1,261 @@
+"""Memory needed to check a mesh, estimated before the work starts, and the refusal.
+
+Building topology, geometry and the rules' metrics takes far more memory than the mesh
+file. Rather than be killed by the operating system part-way, :func:`read_mesh
+<caselint.mesh.reader.read_mesh>` estimates the peak twice: from the counts in the file's
+header before meshio reads it (gmsh 2.2 and 4.1, VTU; files above
+:data:`HEADER_CHECK_MIN_BYTES`), and from the exact cell counts once read, before the
+:class:`~caselint.mesh.model.Mesh` and its topology are built. Over the limit, it raises
+:class:`~caselint.errors.MeshReadError` with the estimate, the limit and how to raise it.
+
+The limit, first found wins: ``check --memory-limit SIZE`` (:func:`limit_option`), the
+environment variable ``CASELINT_MEMORY_LIMIT``, else :data:`DEFAULT_FRACTION` of the
+memory available now (``MemAvailable`` of /proc/meminfo, capped by a cgroup limit).
+``off`` (or ``0``) switches the check off. Sizes are bytes unless they carry a unit:
+``8GB`` = 8e9 bytes, ``8GiB`` = 8 x 2^30 bytes.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import re
+import struct
+from pathlib import Path
+from typing import Iterator
+
+from caselint.errors import MeshReadError, UsageError
+
+#: Environment variable with the memory limit (e.g. ``8GB``; ``off`` disables the check).
+ENV_LIMIT = "CASELINT_MEMORY_LIMIT"
+#: Share of the available memory used as the limit when none is given.
+DEFAULT_FRACTION = 0.75
+
+#: Peak memory (bytes) of ``caselint check`` per volume cell, its points included, over the
+#: fixed cost of the interpreter. Measured with benchmarks/memory_per_cell.py on this
+#: project's 2-CPU build machine (Python 3.11, numpy 2, meshio 5.3.5): peak resident memory
+#: (VmHWM) of a fresh process running lint_case with the general rule set (near-wall and
+#: time-step rules included) on binary gmsh 2.2 blocks of about 50k and 200k cells, the
+#: difference over the difference in cells: hexahedra 898 (1.04 points per cell), tetrahedra
+#: 600 (0.18), wedges 786 (0.53), pyramids 752 (0.35). Rounded up by about 10 %, because
+#: other rule packs and numbering that scatters memory access add to it. Linear further
+#: up: from 200k to 800k cells the same script gave 884 (hexahedra) and 591 (tetrahedra),
+#: and the estimate for 804k hexahedra (914 MB) was 19 % above the measured peak (767 MB).
+BYTES_PER_CELL: dict[str, int] = {
+    "hexahedron": 1000,
+    "tetra": 660,
+    "wedge": 870,
+    "pyramid": 830,
+}
+#: Cells of other kinds: 2-D cells (not measured; charged as hexahedra, an upper bound with
+#: four edges against six faces) and, in a header count, every element of the file.
+OTHER_CELL_BYTES = BYTES_PER_CELL["hexahedron"]
+#: Boundary elements (triangles, quads, lines) of a volume mesh: their group arrays (guess
+#: from the arrays kept per element, about 20 numbers; not measured, they are few).
+BOUNDARY_ELEMENT_BYTES = 200
+#: Interpreter, numpy, meshio, pint and the rules: the measured fixed part was 54 MB.
+FIXED_BYTES = 100_000_000
+#: Files below this size are read without a header estimate (meshio's arrays for such a
+#: file stay well under 1 GB); the estimate from the cell counts still applies.
+HEADER_CHECK_MIN_BYTES = 32 * 2**20
+
+_UNITS = {"": 1, "b": 1, "k": 10**3, "kb": 10**3, "m": 10**6, "mb": 10**6, "g": 10**9,
+          "gb": 10**9, "t": 10**12, "tb": 10**12, "kib": 2**10, "mib": 2**20, "gib": 2**30,
+          "tib": 2**40}
+_OFF = ("off", "none", "unlimited", "0")
+
+
+def parse_size(text: str, what: str = "memory limit") -> int | None:
+    """Bytes of a size such as ``8GB``, ``512 MiB`` or ``2e9``; None for ``off``.
+
+    :raises UsageError: the text is not a size; the message names ``what``.
+    """
+    cleaned = text.strip().lower()
+    if cleaned in _OFF:
+        return None
+    match = re.fullmatch(r"(\d+(?:\.\d*)?(?:e\d+)?)\s*([a-z]*)", cleaned)
+    if match is None or match.group(2) not in _UNITS:
+        raise UsageError(f"{what}: expected a size such as 8GB, 512MiB or 'off', got {text!r}")
+    size = float(match.group(1)) * _UNITS[match.group(2)]
+    if not size >= 1 or size > 2**62:
+        raise UsageError(f"{what}: expected a size of at least 1 byte, got {text!r}")
+    return int(size)
+
+
+def format_size(size: float, digits: int = 3) -> str:
+    """``9.1 GB``, ``640 MB``: decimal units, as ``free -h --si`` shows them."""
+    for unit, scale in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6)):
+        if size >= scale:
+            return f"{size / scale:.{digits}g} {unit}"
+    return f"{size / 1e3:.{digits}g} kB"
+
+
+def available_memory() -> int | None:
+    """Bytes the process may still use: ``MemAvailable``, capped by a cgroup limit."""
+    found = []
+    try:
+        with open("/proc/meminfo", encoding="ascii") as handle:
+            for line in handle:
+                if line.startswith("MemAvailable:"):
+                    found.append(int(line.split()[1]) * 1024)
+                    break
+    except (OSError, ValueError, IndexError):
+        with contextlib.suppress(OSError, ValueError, AttributeError):
+            found.append(os.sysconf("SC_AVPHYS_PAGES") * os.sysconf("SC_PAGE_SIZE"))
+    for limit_file, usage_file in (("/sys/fs/cgroup/memory.max", "/sys/fs/cgroup/memory.current"),
+                                   ("/sys/fs/cgroup/memory/memory.limit_in_bytes",
+                                    "/sys/fs/cgroup/memory/memory.usage_in_bytes")):
+        with contextlib.suppress(OSError, ValueError):
+            limit = Path(limit_file).read_text().strip()
+            if limit != "max" and int(limit) < 2**60:
+                found.append(max(int(limit) - int(Path(usage_file).read_text()), 0))
+    return min(found) if found else None
+
+
+@contextlib.contextmanager
+def limit_option(text: str | None) -> Iterator[None]:
+    """Within the block the limit is ``text`` (``--memory-limit``); None leaves it as it is.
+
+    It is passed on as :data:`ENV_LIMIT`, so processes started for ``--jobs`` inherit it;
+    the variable's old value is restored afterwards.
+    """
+    if text is None:
+        yield
+        return
+    parse_size(text, "--memory-limit")            # a bad size is a usage error now
+    old = os.environ.get(ENV_LIMIT)
+    os.environ[ENV_LIMIT] = text
+    try:
+        yield
+    finally:
+        if old is None:
+            os.environ.pop(ENV_LIMIT, None)
+        else:
+            os.environ[ENV_LIMIT] = old
+
+
+def memory_limit() -> tuple[int | None, str]:
+    """The limit in bytes (None: no check) and where it comes from, for the message."""
+    env = os.environ.get(ENV_LIMIT, "").strip()
+    if env:
+        return (parse_size(env, f"{ENV_LIMIT} (or --memory-limit)"),
+                f"set by --memory-limit or {ENV_LIMIT}")
+    available = available_memory()
+    if available is None:
+        return None, "unknown"
+    return (int(DEFAULT_FRACTION * available),
+            f"{DEFAULT_FRACTION:.0%} of the {format_size(available)} available")
+
+
+def estimate_bytes(cell_counts: dict[str, int], volume: bool = True) -> int:
+    """Estimated peak bytes of checking a mesh with these cells (meshio type names).
+
+    ``volume`` says whether the mesh has volume cells (then 2-D cells are its boundary
+    elements); higher-order types count as their linear base type.
+    """
+    from caselint.mesh.celltypes import linear_type
+
+    total = FIXED_BYTES
+    for meshio_type, count in cell_counts.items():
+        base = linear_type(meshio_type) or meshio_type
+        if base in BYTES_PER_CELL:
+            total += count * BYTES_PER_CELL[base]
+        elif volume and base in ("triangle", "quad", "line", "vertex"):
+            total += count * BOUNDARY_ELEMENT_BYTES
+        else:
+            total += count * OTHER_CELL_BYTES
+    return total
+
+
+def check_memory(path: str, cell_counts: dict[str, int], source: str) -> None:
+    """Refuse (MeshReadError) when checking these cells would pass the memory limit.
+
+    ``source`` says where the counts come from ("the file header", "the cells read").
+    """
+    limit, origin = memory_limit()
+    if limit is None:
+        return
+    volume = any((_linear(t) in BYTES_PER_CELL) for t in cell_counts)
+    need = estimate_bytes(cell_counts, volume)
+    if need <= limit:
+        return
+    cells = sum(cell_counts.values())
+    suggestion = format_size(1.2 * need).replace(" ", "")
+    digits = 3 if format_size(need) != format_size(limit) else 6     # 100.018 MB > 100 MB
+    raise MeshReadError(
+        path,
+        f"checking this mesh needs about {format_size(need, digits)} of memory ({cells:,} "
+        f"cells, counted from {source}); the limit is {format_size(limit)} ({origin}). Raise it "
+        f"with --memory-limit {suggestion} or {ENV_LIMIT}={suggestion} ('off' turns the "
+        "check off), or check the case on a machine with more memory")
+
+
+def _linear(meshio_type: str) -> str:
+    from caselint.mesh.celltypes import linear_type
+
+    return linear_type(meshio_type) or meshio_type
+
+
+# -- counts from file headers -----------------------------------------------------------
+
+
+def header_cell_count(path: str) -> int | None:
+    """Elements (gmsh) or cells (VTU) a mesh file declares, read without reading the mesh.
+
+    None for other formats, for files below :data:`HEADER_CHECK_MIN_BYTES` and for
+    headers that cannot be read (meshio then reports the damage).
+    """
+    file = Path(path)
+    try:
+        if file.stat().st_size < HEADER_CHECK_MIN_BYTES:
+            return None
+        suffix = file.suffix.lower()
+        if suffix == ".msh":
+            return _gmsh_elements(file)
+        if suffix == ".vtu":
+            head = file.open("rb").read(2**20).decode("latin-1")
+            counts = re.findall(r'NumberOfCells="(\d+)"', head)
+            return sum(int(c) for c in counts) if counts else None
+    except (OSError, ValueError, struct.error):
+        return None
+    return None
+
+
+def _gmsh_elements(file: Path) -> int | None:
+    """The element count after ``$Elements`` (gmsh 2.2 and 4.1, ASCII or binary)."""
+    with file.open("rb") as handle:
+        head = handle.read(256)
+        match = re.search(rb"\$MeshFormat\s+(\d+)(?:\.\d+)?\s+(\d)\s+(\d+)", head)
+        if match is None:
+            return None
+        major, binary, size_t = int(match.group(1)), match.group(2) == b"1", int(match.group(3))
+        handle.seek(0)
+        offset = _find(handle, b"$Elements")
+        if offset is None:
+            return None
+        handle.seek(offset + len(b"$Elements"))
+        handle.readline()                       # the rest of the marker line
+        if major >= 4 and binary:
+            fmt = {4: "<4I", 8: "<4Q"}.get(size_t)
+            if fmt is None:
+                return None
+            return struct.unpack(fmt, handle.read(struct.calcsize(fmt)))[1]
+        fields = handle.readline().split()
+        return int(fields[1] if major >= 4 else fields[0])
+
+
+def _find(handle, marker: bytes, block: int = 2**22) -> int | None:
+    """Offset of the first ``marker`` at the start of a line, scanning in blocks."""
+    needle = b"\n" + marker
+    tail = b""
+    position = 0
+    while True:
+        chunk = handle.read(block)
+        if not chunk:
+            return None
+        data = tail + chunk
+        found = data.find(needle)
+        if found >= 0:
+            return position - len(tail) + found + 1
+        tail = data[-len(needle):]
+        position += len(chunk)

@@ -1,0 +1,281 @@
+"""Built-in mesh-integrity rules: damage that a mesh file can carry without being unreadable.
+
+- ``duplicate-points``: points at the same place used by different cells. Cells on either
+  side of a "seam" of duplicated points share no face, so the solver sees two walls there
+  (a crack) unless the seam is a deliberate baffle.
+- ``non-manifold-faces``: faces shared by more than two cells (overlapping or duplicated
+  cells); a finite-volume face has exactly one cell on each side.
+- ``disconnected-pieces``: the cells form several pieces with no face between them; no flow
+  passes from one to another.
+- ``unmatched-boundary-elements``: boundary elements of the file (triangles, quads or edges
+  in a named group) that lie on no face of any volume cell: they are ignored, so the
+  boundary condition meant for them is applied nowhere.
+
+Inverted and zero-volume cells are the business of ``inverted-cells`` (mesh_quality).
+Everything is vectorised: grouping by sorted keys, and connected pieces by hooking and
+pointer jumping over the owner-neighbour pairs (no loop over cells or faces).
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.engine.hookspecs import hookimpl
+from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
+from caselint.rules.mesh_quality import finite_point, plural
+
+if TYPE_CHECKING:
+    from caselint.engine.context import RuleContext
+    from caselint.mesh.model import Mesh
+
+#: Points closer than this fraction of the mesh's largest extent count as coincident: far
+#: below any cell size, only round-off of the same coordinates.
+COINCIDENCE = 1e-12
+_DEFINITION = "definition of a finite-volume face (one owner and one neighbour cell)"
+
+
+# -- measurements --------------------------------------------------------------------------
+
+
+def used_points(mesh: "Mesh") -> np.ndarray:
+    """(P,) bool: which points at least one volume cell uses."""
+    used = np.zeros(mesh.n_points, dtype=bool)
+    for block in mesh.cell_blocks:
+        used[block.connectivity.ravel()] = True
+    return used
+
+
+def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
+    """Ids of used points sharing their place with another used point, and the number of
+    extra copies (a point present three times gives three ids and two copies)."""
+    ids = np.flatnonzero(used_points(mesh))
+    if ids.size < 2:
+        return np.empty(0, dtype=np.int64), 0
+    pts = mesh.points[ids]
+    lo = pts.min(axis=0)
+    span = float(np.max(pts.max(axis=0) - lo))
+    if span == 0.0:
+        return ids, int(ids.size - 1)          # every point at one place
+    # Relative to the lower corner, rounded to COINCIDENCE * span: at most 1e12, fits int64.
+    q = np.floor((pts - lo) / (COINCIDENCE * span) + 0.5).astype(np.int64)
+    order = np.lexsort((q[:, 2], q[:, 1], q[:, 0]))
+    sq = q[order]
+    same = np.all(sq[1:] == sq[:-1], axis=1)
+    flagged = np.zeros(ids.size, dtype=bool)
+    flagged[order[1:][same]] = True
+    flagged[order[:-1][same]] = True
+    return np.sort(ids[flagged]), int(np.count_nonzero(same))
+
+
+def cells_using(mesh: "Mesh", point_ids: np.ndarray) -> np.ndarray:
+    """Sorted ids of the volume cells using any of ``point_ids``."""
+    marked = np.zeros(mesh.n_points, dtype=bool)
+    marked[point_ids] = True
+    hits = [block.start + np.flatnonzero(marked[block.connectivity].any(axis=1))
+            for block in mesh.cell_blocks]
+    return np.concatenate(hits) if hits else np.empty(0, dtype=np.int64)
+
+
+def cell_pieces(mesh: "Mesh") -> np.ndarray:
+    """(C,) label of each cell's connected piece (the lowest cell id in it), joined through
+    internal faces: hook each root onto the smaller root across a face, then pointer-jump."""
+    label = np.arange(mesh.n_cells, dtype=np.int64)
+    internal = mesh.neighbour >= 0
+    a_cells, b_cells = mesh.owner[internal], mesh.neighbour[internal]
+    while True:
+        a, b = label[a_cells], label[b_cells]
+        differ = a != b
+        if not differ.any():
+            return label
+        low, high = np.minimum(a, b)[differ], np.maximum(a, b)[differ]
+        np.minimum.at(label, high, low)        # high is a root: roots point at themselves
+        while True:                            # compress every path to its root
+            jumped = label[label]
+            if np.array_equal(jumped, label):
+                break
+            label = jumped
+
+
+# -- checks --------------------------------------------------------------------------------
+
+
+def check_duplicate_points(ctx: "RuleContext") -> RuleResult:
+    """Count extra copies of points at one place among the points the cells use."""
+    mesh = ctx.mesh
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    points, copies = coincident_points(mesh)
+    unused = int(mesh.n_points - np.count_nonzero(used_points(mesh)))
+    notes = ()
+    if unused:
+        notes = (Note(f"{plural(unused, 'point')} of the file belong to no volume cell "
+                      "(harmless; they are not checked)"),)
+    if not copies:
+        return RuleResult(measurements=(Measurement(
+            0.0, detail=f"no two of the {mesh.n_points - unused} points in use coincide"),),
+            notes=notes)
+    cells = cells_using(mesh, points)
+    where = Where(cells=tuple(int(c) for c in cells[:MAX_LISTED_IDS]), cell_count=int(cells.size),
+                  point=finite_point(mesh.points[points[0]]))
+    copy_word = "copy" if copies == 1 else "copies"
+    detail = (f"{copies} extra {copy_word} of points at the same place, used by "
+              f"{plural(int(cells.size), 'cell')}; first at point {int(points[0])}")
+    return RuleResult(measurements=(Measurement(float(copies), where=where, detail=detail),),
+                      notes=notes)
+
+
+def check_non_manifold_faces(ctx: "RuleContext") -> RuleResult:
+    """Count the faces (vertex sets) shared by more than two cells, or twice by one cell."""
+    mesh = ctx.mesh
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    occurrences = np.asarray(mesh.nonmanifold_faces, dtype=np.int64)
+    if occurrences.size == 0:
+        return RuleResult(measurements=(Measurement(
+            0.0, detail=f"every one of the {mesh.n_faces} faces has at most two cells"),))
+    keys = np.sort(mesh.faces[occurrences], axis=1)
+    _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
+    count = int(first.size)
+    cells = np.unique(mesh.owner[occurrences])
+    worst = int(occurrences[np.min(first)])
+    shared_by = np.bincount(inverse.ravel())
+    where = Where(faces=tuple(int(f) for f in np.sort(occurrences[first])[:MAX_LISTED_IDS]),
+                  face_count=count, cells=tuple(int(c) for c in cells[:MAX_LISTED_IDS]),
+                  cell_count=int(cells.size), point=finite_point(mesh.face_centroids[worst]))
+    detail = (f"{plural(count, 'face')} shared by up to {int(shared_by.max())} cells, "
+              f"{plural(int(cells.size), 'cell')} involved; first at cell {int(cells[0])}")
+    return RuleResult(measurements=(Measurement(float(count), where=where, detail=detail),))
+
+
+def check_disconnected_pieces(ctx: "RuleContext") -> RuleResult:
+    """Count the pieces of cells joined through faces; list the cells outside the largest."""
+    mesh = ctx.mesh
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    label = mesh.cached("mesh_integrity.pieces", lambda: cell_pieces(mesh))
+    roots, inverse, sizes = np.unique(label, return_inverse=True, return_counts=True)
+    n = int(roots.size)
+    if n == 1:
+        return RuleResult(measurements=(Measurement(
+            1.0, detail=f"all {mesh.n_cells} cells form one piece"),))
+    main = int(np.argmax(sizes))                # the first of equal largest: lowest cell id
+    outside = np.flatnonzero(inverse.ravel() != main)
+    order = np.argsort(-sizes, kind="stable")
+    shown = ", ".join(str(int(s)) for s in sizes[order[:5]]) + (", ..." if n > 5 else "")
+    smallest = int(roots[order[-1]])
+    where = Where(cells=tuple(int(c) for c in outside[:MAX_LISTED_IDS]),
+                  cell_count=int(outside.size),
+                  point=finite_point(mesh.cell_centroids[smallest]))
+    detail = (f"{n} pieces with no face between them ({shown} cells); "
+              f"{plural(int(outside.size), 'cell')} outside the largest piece, the smallest "
+              f"piece starts at cell {smallest}")
+    return RuleResult(measurements=(Measurement(float(n), where=where, detail=detail),))
+
+
+def check_unmatched_boundary_elements(ctx: "RuleContext") -> RuleResult:
+    """Boundary elements of each group that lie on no face of a volume cell."""
+    mesh = ctx.mesh
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    if not mesh.group_names:
+        return RuleResult.skip("the mesh file names no boundary groups")
+    unmatched = mesh.unmatched_group_elements
+    if not any(unmatched.values()):
+        return RuleResult(measurements=(Measurement(
+            0.0, detail=f"every boundary element of the {plural(len(mesh.group_names), 'group')}"
+                        " lies on a cell face"),))
+    measurements = tuple(
+        Measurement(float(count), where=Where(boundary=name),
+                    detail=f"{plural(count, 'element')} of group '{name}' lie on no face of a "
+                           "volume cell and are ignored")
+        for name, count in sorted(unmatched.items()) if count
+    )
+    return RuleResult(measurements=measurements)
+
+
+# -- the rules -------------------------------------------------------------------------------
+
+DUPLICATE_POINTS = Rule(
+    id="duplicate-points",
+    title="Duplicate points",
+    rationale=(
+        "Two points at the same place, used by different cells, mean the cells around them "
+        "share no face: the solver sees a seam of boundary faces (an internal wall) where the "
+        "fluid should pass. It usually comes from merging parts or exporting zones without "
+        "merging their nodes. A deliberate baffle looks the same, so this is a warning. Points "
+        "count as coincident within 1e-12 of the mesh's largest extent (common practice)."
+    ),
+    source="common practice",
+    unit="points",
+    limits=Limits(warn=0, error=None),
+    hint=("Merge coincident nodes in the mesher or at export (a 'merge nodes' or 'equivalence' "
+          "step), unless the seam is a baffle, which then needs a named wall group."),
+    check=check_duplicate_points,
+    measures="number of extra copies of points at the same place",
+)
+
+NON_MANIFOLD_FACES = Rule(
+    id="non-manifold-faces",
+    title="Faces shared by more than two cells",
+    rationale=(
+        "In a finite-volume mesh every internal face lies between exactly two cells, its "
+        "owner and its neighbour. A face with three or more cells, or listed twice by one "
+        "cell, means overlapping or duplicated cells: fluxes through it are undefined and the "
+        "cells' volumes are counted twice. caselint keeps each occurrence as a separate "
+        "face. A single such face is an error (common practice)."
+    ),
+    source=_DEFINITION + "; limit: common practice",
+    unit="faces",
+    limits=Limits(warn=None, error=0),
+    hint=("Remove duplicated or overlapping cells in the mesher (often left by merging "
+          "meshes twice, or by a failed boolean); check the listed cells."),
+    check=check_non_manifold_faces,
+    measures="number of faces shared by more than two cells",
+)
+
+DISCONNECTED_PIECES = Rule(
+    id="disconnected-pieces",
+    title="Mesh in disconnected pieces",
+    rationale=(
+        "Cells joined through shared faces form a piece; flow cannot pass between pieces. "
+        "More than one piece is usually a stray fragment left in the export, a gap at an "
+        "interface meant to be conformal, or regions of a multi-region case exported into "
+        "one file. A warning, because coupled regions can be intended (common practice)."
+    ),
+    source="common practice",
+    unit="pieces",
+    limits=Limits(warn=1, error=None),
+    hint=("Delete stray fragments; make interfaces conformal (or declare them as interfaces "
+          "in the solver); check the listed cells outside the largest piece."),
+    check=check_disconnected_pieces,
+    measures="number of connected pieces of cells",
+)
+
+UNMATCHED_BOUNDARY_ELEMENTS = Rule(
+    id="unmatched-boundary-elements",
+    title="Boundary elements on no cell face",
+    rationale=(
+        "A boundary element of a named group (a triangle or quad of a volume mesh, an edge "
+        "of a 2-D mesh) should cover a face of a volume cell. One that matches no cell face "
+        "is ignored, so the condition meant for it is applied nowhere: the export lost the "
+        "link between the surface and the volume mesh (common practice)."
+    ),
+    source="common practice",
+    unit="elements",
+    limits=Limits(warn=0, error=None),
+    hint=("Re-export the mesh with the boundary elements taken from the volume cells' faces "
+          "(not from the CAD surface), and check the group for elements of other parts."),
+    check=check_unmatched_boundary_elements,
+    measures="number of boundary elements matching no face of a volume cell",
+)
+
+RULES: tuple[Rule, ...] = (DUPLICATE_POINTS, NON_MANIFOLD_FACES, DISCONNECTED_PIECES,
+                           UNMATCHED_BOUNDARY_ELEMENTS)
+
+
+@hookimpl
+def caselint_register_rules() -> list[Rule]:
+    """The built-in mesh-integrity rules."""
+    return list(RULES)

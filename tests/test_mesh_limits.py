@@ -1,0 +1,180 @@
+"""Resource limits: the memory a check needs is estimated before the work, and a mesh over
+the limit is refused with a clear message (exit 2) instead of being killed by the system.
+
+The per-cell constants come from benchmarks/memory_per_cell.py (see caselint/mesh/limits.py);
+these tests check the arithmetic, the sources of the limit, the header counts of each
+format against the files' real contents, and that the refusal comes before meshio reads
+the file (header) or before topology is built (cell counts).
+"""
+
+from __future__ import annotations
+
+import os
+
+import meshio
+import numpy as np
+import pytest
+
+import caselint.mesh.limits as limits
+from caselint.errors import MeshReadError, UsageError
+from caselint.mesh import read_mesh
+from caselint.mesh.blocks import structured_hex, write_gmsh22
+from test_cli import run_cli
+from test_cli_e2e import write_block_mesh, write_case
+from test_mesh_reader import GMSH_BOX_41
+
+
+@pytest.fixture(autouse=True)
+def _no_limit_from_outside(monkeypatch):
+    monkeypatch.delenv(limits.ENV_LIMIT, raising=False)
+
+
+@pytest.mark.parametrize("text, size", [
+    ("8GB", 8_000_000_000), ("8 gb", 8_000_000_000), ("8GiB", 8 * 2**30),
+    ("512MiB", 512 * 2**20), ("1.5G", 1_500_000_000), ("2e9", 2_000_000_000),
+    ("100000", 100_000), ("64 kB", 64_000), ("off", None), ("0", None), ("none", None),
+    (" Unlimited ", None),
+])
+def test_sizes(text, size):
+    assert limits.parse_size(text) == size
+
+
+@pytest.mark.parametrize("text", ["lots", "-1GB", "8 XB", "", "1e400", "0.1"])
+def test_bad_sizes_are_usage_errors_naming_the_setting(text):
+    with pytest.raises(UsageError, match="--memory-limit: expected a size"):
+        limits.parse_size(text, "--memory-limit")
+
+
+def test_estimate_is_the_measured_cost_per_cell_plus_the_fixed_part():
+    per_hex, per_tet = limits.BYTES_PER_CELL["hexahedron"], limits.BYTES_PER_CELL["tetra"]
+    fixed = limits.FIXED_BYTES
+    assert limits.estimate_bytes({"hexahedron": 1_000_000}) == fixed + 1_000_000 * per_hex
+    # higher-order cells count as their corners' type; boundary quads of a volume mesh are few
+    assert limits.estimate_bytes({"tetra10": 10, "quad": 4}) == \
+        fixed + 10 * per_tet + 4 * limits.BOUNDARY_ELEMENT_BYTES
+    # a 2-D mesh's quads are its cells: charged as hexahedra (upper bound)
+    assert limits.estimate_bytes({"quad": 4, "line": 2}, volume=False) == \
+        fixed + 6 * limits.OTHER_CELL_BYTES
+    # the measured 898 B per hexahedron, rounded up about 10 %
+    assert 898 < per_hex <= 1.15 * 898 and 600 < per_tet <= 1.15 * 600
+
+
+def test_limit_comes_from_the_environment_else_a_share_of_the_available_memory(monkeypatch):
+    monkeypatch.setattr(limits, "available_memory", lambda: 8_000_000_000)
+    assert limits.memory_limit() == (6_000_000_000, "75% of the 8 GB available")
+    monkeypatch.setenv(limits.ENV_LIMIT, "2GB")
+    assert limits.memory_limit()[0] == 2_000_000_000
+    monkeypatch.setenv(limits.ENV_LIMIT, "off")
+    assert limits.memory_limit()[0] is None
+    monkeypatch.delenv(limits.ENV_LIMIT)
+    monkeypatch.setattr(limits, "available_memory", lambda: None)
+    assert limits.memory_limit() == (None, "unknown")
+
+
+def test_available_memory_is_read_from_the_system():
+    available = limits.available_memory()
+    if not os.path.exists("/proc/meminfo"):
+        pytest.skip("no /proc/meminfo")
+    total = next(int(line.split()[1]) * 1024 for line in open("/proc/meminfo")
+                 if line.startswith("MemTotal:"))
+    assert 0 < available <= total
+
+
+def test_limit_option_is_passed_on_and_restored():
+    with limits.limit_option("3GB"):
+        assert os.environ[limits.ENV_LIMIT] == "3GB"         # processes of --jobs see it
+        assert limits.memory_limit()[0] == 3_000_000_000
+    assert limits.ENV_LIMIT not in os.environ
+    with pytest.raises(UsageError, match="--memory-limit"):
+        with limits.limit_option("many"):
+            pass
+
+
+@pytest.fixture
+def case(tmp_path):
+    mesh = write_block_mesh(tmp_path / "duct.msh", xs=[0.0, 0.1, 0.2, 0.3])   # 12 hexahedra
+    return write_case(tmp_path, mesh)
+
+
+def test_check_refuses_a_mesh_over_the_limit_with_a_clear_message(case, monkeypatch):
+    import caselint.mesh.topology as topology
+
+    def never(*args, **kwargs):
+        raise AssertionError("topology was built before the memory check")
+
+    monkeypatch.setattr(topology, "build_topology", never)
+    code, out, err = run_cli("check", str(case), "--memory-limit", "100MB")
+    assert (code, out) == (2, "")
+    # 12 hexahedra and 32 boundary quads: 100 MB fixed + 12 x 1000 B + 32 x 200 B
+    need = limits.FIXED_BYTES + 12 * 1000 + 32 * 200
+    assert need == 100_018_400
+    assert err.startswith(f"caselint: error: {case}:4: [mesh.file] cannot read the mesh: ")
+    assert "checking this mesh needs about 100.018 MB of memory (44 cells, counted from the " \
+           "cells read); the limit is 100 MB (set by --memory-limit" in err
+    assert "Raise it with --memory-limit 120MB" in err
+    assert limits.ENV_LIMIT not in os.environ
+
+
+def test_environment_limit_and_off(case, monkeypatch):
+    monkeypatch.setenv(limits.ENV_LIMIT, "50MB")
+    code, _, err = run_cli("check", str(case))
+    assert code == 2 and "the limit is 50 MB" in err
+    code, _, err = run_cli("check", str(case), "--memory-limit", "off")
+    assert code in (0, 1) and err == ""                     # the option wins over the variable
+    assert os.environ[limits.ENV_LIMIT] == "50MB"
+
+
+def test_bad_option_is_a_usage_error(case):
+    code, _, err = run_cli("check", str(case), "--memory-limit", "plenty")
+    assert code == 2
+    assert err == "caselint: error: --memory-limit: expected a size such as 8GB, 512MiB or " \
+                  "'off', got 'plenty'\n"
+
+
+def _files(tmp_path):
+    """The same 2-hexahedron block in each format with a header count, and its true count."""
+    m = structured_hex([0.0, 1.0, 2.0], [0.0, 1.0], [0.0, 1.0])     # 2 hexahedra, 10 quads
+    out = {}
+    for name, binary in (("ascii22.msh", False), ("binary22.msh", True)):
+        write_gmsh22(m, tmp_path / name, binary=binary)
+        out[name] = 12
+    meshio.write(tmp_path / "block.vtu", meshio.Mesh(m.points, m.cells))
+    out["block.vtu"] = 12
+    for name, binary in (("ascii41.msh", False), ("binary41.msh", True)):
+        meshio.write(tmp_path / name, meshio.Mesh(m.points, [m.cells[0]]), file_format="gmsh",
+                     binary=binary)
+        out[name] = 2
+    (tmp_path / "gmsh41.msh").write_text(GMSH_BOX_41)       # written by gmsh itself
+    out["gmsh41.msh"] = 20                                  # its "$Elements" says 7 blocks, 20
+    return out
+
+
+def test_header_counts_match_the_files(tmp_path, monkeypatch):
+    monkeypatch.setattr(limits, "HEADER_CHECK_MIN_BYTES", 0)
+    for name, count in _files(tmp_path).items():
+        assert limits.header_cell_count(str(tmp_path / name)) == count, name
+    # cross-check with what meshio reads
+    m = meshio.read(tmp_path / "binary22.msh")
+    assert sum(len(b.data) for b in m.cells) == 12
+    (tmp_path / "other.xdmf").write_text("<Xdmf/>")
+    assert limits.header_cell_count(str(tmp_path / "other.xdmf")) is None
+
+
+def test_header_refusal_comes_before_meshio_reads(tmp_path, monkeypatch):
+    monkeypatch.setattr(limits, "HEADER_CHECK_MIN_BYTES", 0)
+
+    def never(*args, **kwargs):
+        raise AssertionError("meshio read a file the header said was too large")
+
+    monkeypatch.setattr(meshio, "read", never)
+    monkeypatch.setenv(limits.ENV_LIMIT, str(limits.FIXED_BYTES + 100))
+    for name, count in _files(tmp_path).items():
+        with pytest.raises(MeshReadError) as info:
+            read_mesh(tmp_path / name)
+        assert f"({count} cells, counted from the file header)" in str(info.value), name
+
+
+def test_small_files_skip_the_header_scan(tmp_path):
+    write_gmsh22(structured_hex([0.0, 1.0], [0.0, 1.0], [0.0, 1.0]), tmp_path / "small.msh")
+    assert limits.header_cell_count(str(tmp_path / "small.msh")) is None
+    assert np.isclose(read_mesh(tmp_path / "small.msh").cell_volumes.sum(), 1.0)
