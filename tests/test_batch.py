@@ -82,7 +82,7 @@ def test_parallel_processes_write_byte_identical_json(sweep):
 
 
 def test_dask_cluster_writes_byte_identical_json(sweep):
-    distributed = pytest.importorskip("distributed")
+    import distributed  # a test dependency: the cluster path must really run
     folder, paths = sweep
     serial = _json_run(folder, paths)
     with distributed.LocalCluster(processes=False, n_workers=2, threads_per_worker=2,
