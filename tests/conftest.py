@@ -1,12 +1,19 @@
-"""Shared test set-up: installed rule packs never leak into the tests."""
+"""Shared test set-up: installed rule packs never leak into the tests, and the tests never
+read or write the user's mesh cache."""
 
 from __future__ import annotations
 
 import pytest
 
+from caselint.cache import ENV_DIR as CACHE_DIR_ENV
 from caselint.engine.plugins import DISABLE_AUTOLOAD_ENV
 
 
 @pytest.fixture(autouse=True)
 def _no_installed_packs(monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setenv(DISABLE_AUTOLOAD_ENV, "1")
+
+
+@pytest.fixture(autouse=True)
+def _private_cache(monkeypatch: pytest.MonkeyPatch, tmp_path_factory: pytest.TempPathFactory) -> None:
+    monkeypatch.setenv(CACHE_DIR_ENV, str(tmp_path_factory.getbasetemp() / "mesh-cache"))
