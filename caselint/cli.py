@@ -111,7 +111,7 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--memory-limit", metavar="SIZE",
                        help="refuse a mesh whose check would need more memory than SIZE "
                             "(e.g. 8GB, 512MiB; 'off' for no limit; default: "
-                            "$CASELINT_MEMORY_LIMIT, else 75%% of the available memory)")
+                            "$CASELINT_MEMORY_LIMIT, else 85%% of the available memory)")
 
     demo = command("demo", commands.cmd_demo, "check the example case shipped with caselint")
     _report_options(demo, demo=True)

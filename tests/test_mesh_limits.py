@@ -61,7 +61,7 @@ def test_estimate_is_the_measured_cost_per_cell_plus_the_fixed_part():
 
 def test_limit_comes_from_the_environment_else_a_share_of_the_available_memory(monkeypatch):
     monkeypatch.setattr(limits, "available_memory", lambda: 8_000_000_000)
-    assert limits.memory_limit() == (6_000_000_000, "75% of the 8 GB available")
+    assert limits.memory_limit() == (6_800_000_000, "85% of the 8 GB available")
     monkeypatch.setenv(limits.ENV_LIMIT, "2GB")
     assert limits.memory_limit()[0] == 2_000_000_000
     monkeypatch.setenv(limits.ENV_LIMIT, "off")
@@ -105,11 +105,11 @@ def test_check_refuses_a_mesh_over_the_limit_with_a_clear_message(case, monkeypa
     monkeypatch.setattr(topology, "build_topology", never)
     code, out, err = run_cli("check", str(case), "--memory-limit", "100MB")
     assert (code, out) == (2, "")
-    # 12 hexahedra and 32 boundary quads: 100 MB fixed + 12 x 1000 B + 32 x 200 B
-    need = limits.FIXED_BYTES + 12 * 1000 + 32 * 200
-    assert need == 100_018_400
+    # 12 hexahedra and 32 boundary quads: 100 MB fixed + 12 x 900 B + 32 x 200 B
+    need = limits.FIXED_BYTES + 12 * 900 + 32 * 200
+    assert need == 100_017_200
     assert err.startswith(f"caselint: error: {case}:4: [mesh.file] cannot read the mesh: ")
-    assert "checking this mesh needs about 100.018 MB of memory (44 cells, counted from the " \
+    assert "checking this mesh needs about 100.017 MB of memory (44 cells, counted from the " \
            "cells read); the limit is 100 MB (set by --memory-limit" in err
     assert "Raise it with --memory-limit 120MB" in err
     assert limits.ENV_LIMIT not in os.environ
