@@ -118,3 +118,20 @@ def test_demo_findings_locate_the_defects(report):
     assert lean.where.face_count == 170
     assert 0.02 < lean.where.point[2] < 0.05                   # in the second floor layer
     assert "between cells" in lean.message
+
+
+def test_demo_carries_a_yplus_histogram_per_wall_boundary(report):
+    (plot,) = [p for p in report.plots if p.rule == "wall-yplus"]
+    counts = {s.label: sum(s.y) + s.below + s.above for s in plot.series}
+    assert counts == {"floor": 200, "walls-ceiling": 1216}  # every wall face, once
+    edges = plot.series[0].x
+    assert plot.x_log and edges[1] / edges[0] == pytest.approx(10 ** 0.25)  # 4 bins a decade
+    assert (plot.limits.warn, plot.limits.error) == (300, 500)  # the wall-function band's top
+
+
+def test_demo_layer_profile_shows_the_floor_grading(report):
+    (plot,) = [p for p in report.plots if p.rule == "layer-growth"]
+    floor = {s.label: s for s in plot.series}["floor"]
+    # the six floor layers: 20 mm growing by 1.5 per layer (make_mesh.py)
+    assert floor.y[:6] == pytest.approx([0.02 * 1.5**k for k in range(6)], rel=1e-9)
+    assert plot.kind == "line" and floor.x[:3] == (1.0, 2.0, 3.0)

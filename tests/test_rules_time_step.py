@@ -108,6 +108,17 @@ def test_courant_on_uniform_hexes_is_u_dt_over_dx(box):
     assert "the reference velocity 10 m/s along (1, 0, 0)" in m.detail
 
 
+def test_courant_attaches_its_distribution_for_the_review_reports(box):
+    result = run(COURANT, box, make_case(time={"step": 2e-3}))
+    (plot,) = result.plots
+    (series,) = plot.series
+    assert sum(series.y) == box.n_cells and series.below == series.above == 0
+    # every cell sits at Co = 0.16, in the quarter-decade bin 10^-0.75 .. 10^-0.5
+    (full,) = [i for i, count in enumerate(series.y) if count]
+    assert series.x[full] <= 0.16 < series.x[full + 1]
+    assert plot.x_log and plot.limits == Limits(warn=5.0, error=None)
+
+
 def test_courant_with_a_skewed_velocity(box):
     u = np.array([3.0, -4.0, 12.0])
     case = make_case(flow={"velocity": float(np.linalg.norm(u)),

@@ -15,7 +15,17 @@ import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.mesh.wall_layers import END_CORE, END_WORDS
-from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
+from caselint.model import (
+    Limits,
+    Measurement,
+    Note,
+    Parameter,
+    PlotData,
+    PlotSeries,
+    Rule,
+    RuleResult,
+    Where,
+)
 from caselint.rules import wall_flow
 from caselint.rules.mesh_quality import finite_point, plural
 from caselint.rules.wall_scope import at_face, locate, number, settled, walls
@@ -143,9 +153,12 @@ def check_layer_growth(ctx: "RuleContext") -> RuleResult:
     except ValueError as exc:
         return RuleResult.skip(str(exc))
     mesh, layers = ctx.mesh, found.layers
-    measurements, notes = [], []
+    measurements, notes, profiles = [], [], []
     for name, rows in found.items():
         n = layers.n_layers[rows]
+        profile = _median_profile(layers.heights[rows], n, name)
+        if profile is not None:
+            profiles.append(profile)
         ends = ", ".join(f"{END_WORDS[code]} {np.count_nonzero(layers.end[rows] == code)}"
                          for code in sorted(set(layers.end[rows].tolist())))
         notes.append(Note(f"layer stacks on '{name}': {n.min()} to {n.max()} layers "
@@ -184,7 +197,22 @@ def check_layer_growth(ctx: "RuleContext") -> RuleResult:
     if not measurements:
         return RuleResult(skipped="no wall face has a layer stack of two or more cells, nor a "
                                   "stack ending in core cells", notes=tuple(notes))
-    return RuleResult(tuple(measurements), notes=tuple(notes))
+    plots = (PlotData(title="Layer height through the wall stacks (median over each wall's "
+                            "faces)", x_label="layer", y_label="height (m)",
+                      series=tuple(profiles), kind="line", y_log=True),) if profiles else ()
+    return RuleResult(tuple(measurements), notes=tuple(notes), plots=plots)
+
+
+def _median_profile(heights: np.ndarray, n_layers: np.ndarray, name: str) -> PlotSeries | None:
+    """Median height of layer 1, 2, ... over the faces whose stack has that layer."""
+    depth = min(int(n_layers.max(initial=0)), heights.shape[1], 200)
+    if depth == 0:
+        return None
+    inside = np.arange(depth)[None, :] < n_layers[:, None]
+    masked = np.where(inside, heights[:, :depth], np.nan)
+    medians = np.nanmedian(masked, axis=0)  # every column has at least one face inside
+    return PlotSeries(x=tuple(float(k) for k in range(1, depth + 1)),
+                      y=tuple(float(h) for h in medians), label=name)
 
 
 # -- the rules -----------------------------------------------------------------------------

@@ -18,7 +18,18 @@ import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.errors import CaseFileError
-from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
+from caselint.model import (
+    Limits,
+    Measurement,
+    Note,
+    Parameter,
+    PlotData,
+    PlotSeries,
+    Rule,
+    RuleResult,
+    Where,
+    log_bin_edges,
+)
 from caselint.physics import timestep
 from caselint.rules.flow_velocity import flow_velocity
 from caselint.rules.mesh_quality import finite_point, plural, worst_ids
@@ -115,7 +126,11 @@ def _cell_number_result(ctx: "RuleContext", values: np.ndarray, limits: Limits, 
                   point=finite_point(mesh.cell_centroids[worst]), key="time.step")
     measurement = Measurement(value=peak, where=where, detail="; ".join(parts), fix=fix,
                               limits=limits)
-    return RuleResult(measurements=(measurement,), notes=notes)
+    cells = values[valid]
+    plot = PlotData(title=f"{what[0].upper()}{what[1:]} per cell", x_label=what,
+                    y_label="cells", series=(PlotSeries.histogram(cells, log_bin_edges(cells)),),
+                    limits=limits, x_log=True)
+    return RuleResult(measurements=(measurement,), notes=notes, plots=(plot,))
 
 
 def _wall_cell_count(ctx: "RuleContext", cells: np.ndarray) -> int | None:

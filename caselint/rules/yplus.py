@@ -13,7 +13,18 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
+from caselint.model import (
+    Limits,
+    Measurement,
+    Note,
+    Parameter,
+    PlotData,
+    PlotSeries,
+    Rule,
+    RuleResult,
+    Where,
+    log_bin_edges,
+)
 from caselint.rules import wall_flow
 from caselint.rules.mesh_quality import finite_point, plural
 from caselint.rules.wall_scope import (
@@ -174,6 +185,7 @@ def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
                         "distance of the first cell's " + ("centroid" if fv else "farthest vertex"))
     measurements: list[Measurement] = []
     by_area: list[Note] = []
+    per_wall: list[tuple[str, np.ndarray]] = []
     les = ctx.case.physics.turbulence.model == "les" and mode == "resolved"
     for name, rows in found.items():
         good = rows[distance[rows] > 0]
@@ -183,6 +195,7 @@ def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
         if good.size == 0:
             continue
         faces, yp, u_tau = layers.faces[good], y_plus[good], friction.u_tau[good]
+        per_wall.append((name, yp))
         areas = mesh.face_areas[faces]
         lo, hi = number(ctx.params, "buffer_min"), number(ctx.params, "buffer_max")
         by_area.append(Note(
@@ -213,7 +226,29 @@ def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
     if not measurements:
         return RuleResult(skipped="every wall face has a degenerate first cell (see "
                                   "inverted-cells)", notes=result_notes)
-    return RuleResult(tuple(measurements), notes=result_notes)
+    drawn = _drawn_limits(ctx, mode)
+    return RuleResult(tuple(measurements), notes=result_notes,
+                      plots=(_yplus_histogram(per_wall, band.label, drawn),))
+
+
+def _drawn_limits(ctx: "RuleContext", mode: str) -> Limits | None:
+    """The upper limits drawn on the y+ histogram: the band's top for the declared treatment."""
+    if mode == "resolved":
+        return ctx.limits
+    if mode == "wall-function":
+        return Limits(warn=number(ctx.params, "wall_function_max", allow_none=True),
+                      error=number(ctx.params, "wall_function_max_error", allow_none=True))
+    return None
+
+
+def _yplus_histogram(per_wall: list[tuple[str, np.ndarray]], label: str,
+                     limits: Limits | None) -> PlotData:
+    """Face counts of y+ per wall boundary on log-spaced bins (four per decade)."""
+    edges = log_bin_edges(np.concatenate([yp for _, yp in per_wall]))
+    return PlotData(title=f"{label} per wall boundary", x_label=label, y_label="wall faces",
+                    series=tuple(PlotSeries.histogram(yp, edges, label=name)
+                                 for name, yp in per_wall),
+                    limits=limits, x_log=True)
 
 
 WALL_YPLUS = Rule(
