@@ -210,8 +210,8 @@ DUPLICATE_POINTS = Rule(
     source="common practice",
     unit="points",
     limits=Limits(warn=0, error=None),
-    hint=("Merge coincident nodes in the mesher or at export (a 'merge nodes' or 'equivalence' "
-          "step), unless the seam is a baffle, which then needs a named wall group."),
+    hint=("Merge coincident nodes in the mesher or at export (its step that merges coincident "
+          "nodes), unless the seam is a baffle, which then needs a named wall group."),
     check=check_duplicate_points,
     measures="number of extra copies of points at the same place",
 )
