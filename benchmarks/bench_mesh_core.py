@@ -27,7 +27,6 @@ import io
 import json
 import os
 import platform
-import resource
 import statistics
 import subprocess
 import sys
@@ -37,6 +36,9 @@ import tracemalloc
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+
+from bench_workers import hwm_mb  # noqa: E402  (benchmarks/ is not a package)
 START, END = "<!-- results:start -->", "<!-- results:end -->"
 
 
@@ -91,25 +93,10 @@ def worker(mode: str, path: str, traced: bool) -> dict:
         stages["check"] = float(mesh.cell_volumes.sum())
     stages["total"] = time.perf_counter() - t0
     stages["cpu"] = time.process_time() - cpu0
-    out = {"stages": stages, "rss_mb": peak_rss_mb()}
+    out = {"stages": stages, "rss_mb": hwm_mb()}
     if traced:
         out["traced_mb"] = tracemalloc.get_traced_memory()[1] / 2**20
     return out
-
-
-def peak_rss_mb() -> float:
-    """Peak resident set of this process (MB).
-
-    Linux keeps ``ru_maxrss`` across ``exec``, so a worker started by a big parent would
-    report the parent's peak; ``VmHWM`` belongs to the new address space.
-    """
-    try:
-        for line in Path("/proc/self/status").read_text().splitlines():
-            if line.startswith("VmHWM:"):
-                return int(line.split()[1]) / 1024
-    except OSError:
-        pass
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
 def run_worker(mode: str, path: Path, traced: bool = False) -> dict:

@@ -23,6 +23,7 @@ import contextlib
 import dataclasses
 import io
 import json
+import resource
 import sys
 import time
 import tracemalloc
@@ -30,11 +31,19 @@ from pathlib import Path
 
 
 def hwm_mb() -> float:
-    """Peak resident set of this process so far (MB)."""
-    for line in Path("/proc/self/status").read_text().splitlines():
-        if line.startswith("VmHWM:"):
-            return int(line.split()[1]) / 1024
-    return float("nan")
+    """Peak resident set of this process so far (MB).
+
+    Linux keeps ``ru_maxrss`` across ``exec``, so a worker started by a big parent would
+    report the parent's peak; ``VmHWM`` of /proc/self/status belongs to the new address
+    space. ``ru_maxrss`` is the fallback where /proc is missing. Shared by every script here.
+    """
+    try:
+        for line in Path("/proc/self/status").read_text().splitlines():
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1]) / 1024
+    except OSError:
+        pass
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
 class Stages:

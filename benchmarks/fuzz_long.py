@@ -30,6 +30,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+
+from bench_workers import hwm_mb  # noqa: E402  (benchmarks/ is not a package)
+
 TESTS = HERE.parent / "tests"
 RESULT = HERE / "fuzz-latest.md"
 #: Distinct failures written down per property (all are counted).
@@ -63,17 +67,6 @@ class Tally:
         head = head[:300]
         if head not in self.distinct and len(self.distinct) < MAX_RECORDED:
             self.distinct[head] = text
-
-
-def _peak_rss_mb() -> float:
-    """Peak resident memory of this process (VmHWM), in MB; 0 where /proc is missing."""
-    try:
-        for line in Path("/proc/self/status").read_text().splitlines():
-            if line.startswith("VmHWM:"):
-                return int(line.split()[1]) / 1024
-    except OSError:
-        pass
-    return 0.0
 
 
 def run(examples: int, seed: int, only: str | None = None) -> tuple[list[Tally], float]:
@@ -142,7 +135,7 @@ def markdown(tallies: list[Tally], seconds: float, seed: int) -> str:
         f"Python {sys.version.split()[0]}, {os.cpu_count()} CPUs",
         f"- seed: {seed}",
         f"- examples: {total} in total; failures: {failures}",
-        f"- duration: {seconds:.0f} s; peak memory (VmHWM): {_peak_rss_mb():.0f} MB",
+        f"- duration: {seconds:.0f} s; peak memory (VmHWM): {hwm_mb():.0f} MB",
         "",
         "| property | examples | failures | outcomes | seconds | slowest example (s) |",
         "|---|---:|---:|---|---:|---:|",
