@@ -408,7 +408,7 @@ def test_coincident_points_match_a_kd_tree():
     mesh = mesh_from_meshio(meshio.Mesh(points, [("hexahedron", hexes)]))
     ids, extra = integrity.coincident_points(mesh)
     used = np.flatnonzero(integrity.used_points(mesh))
-    pairs = cKDTree(points[used]).query_pairs(r=1e-9, output_type="ndarray")
+    pairs = cKDTree(mesh.points[used]).query_pairs(r=1e-9, output_type="ndarray")
     assert extra == len(pairs)                       # no triple: one pair per copy
     assert set(ids.tolist()) == set(used[pairs.ravel()].tolist())
 

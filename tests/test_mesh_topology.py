@@ -138,7 +138,7 @@ def test_collapsed_hex_pairs_with_a_real_wedge():
     mesh = mesh_from_meshio(meshio.Mesh(pts, cells))
     assert np.allclose(mesh.cell_volumes, [0.5, 0.5], rtol=1e-14)
     inner = np.flatnonzero(mesh.neighbour >= 0)
-    assert len(inner) == 1 and set(mesh.faces[inner[0]]) == {0, 1, 2}
+    assert len(inner) == 1 and set(mesh.file_point_ids(mesh.faces[inner[0]])) == {0, 1, 2}
     assert len(mesh.clashing_faces) == 0
     zero = mesh.face_areas == 0                       # the collapsed side (2, 2, 5, 5)
     assert zero.sum() == 1

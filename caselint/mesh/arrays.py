@@ -18,7 +18,7 @@ if TYPE_CHECKING:
     from caselint.mesh.model import Mesh
 
 #: Layout version of the arrays; a mismatch makes :func:`mesh_from_arrays` refuse them.
-FORMAT = 1
+FORMAT = 2
 _TOPOLOGY = ("faces", "owner", "neighbour", "nonmanifold", "clashing", "face_group",
              "cell_faces")
 _GEOMETRY = ("area_vectors", "face_centroids", "volumes", "cell_centroids", "vertex_means")
@@ -44,6 +44,9 @@ def mesh_to_arrays(mesh: "Mesh") -> dict[str, np.ndarray]:
     }
     for i, block in enumerate(mesh.cell_blocks):
         out[f"block_{i}"] = block.connectivity
+    for kind, ids in mesh._file_ids.items():
+        if ids is not None:
+            out[f"file_{kind}_ids"] = ids
     for kind, data in (("point_data", mesh.point_data), ("cell_data", mesh.cell_data)):
         for i, values in enumerate(data.values()):
             out[f"{kind}_{i}"] = np.asarray(values)
@@ -90,7 +93,10 @@ def mesh_from_arrays(arrays, *, path: str | None = None) -> "Mesh":
                     points=arrays["points"], dim=int(arrays["dim"]), cell_blocks=blocks,
                     group_names=names, boundary=boundary,
                     notes=tuple(str(n) for n in arrays["notes"]),
-                    point_data=fields["point_data"], cell_data=fields["cell_data"])
+                    point_data=fields["point_data"], cell_data=fields["cell_data"],
+                    file_cell_ids=arrays["file_cell_ids"] if "file_cell_ids" in keys else None,
+                    file_point_ids=(arrays["file_point_ids"] if "file_point_ids" in keys
+                                    else None))
         if "topology_faces" in keys:
             def counts(name: str) -> dict[str, int]:
                 return {n: int(c) for n, c in zip(names, arrays[name]) if c}

@@ -78,6 +78,8 @@ class Mesh:
         notes: tuple[str, ...] = (),
         point_data: dict[str, np.ndarray] | None = None,
         cell_data: dict[str, np.ndarray] | None = None,
+        file_cell_ids: np.ndarray | None = None,
+        file_point_ids: np.ndarray | None = None,
     ) -> None:
         if dim not in (2, 3):
             raise ValueError(f"mesh dimension must be 2 or 3, got {dim}")
@@ -114,6 +116,13 @@ class Mesh:
                 if len(values) != n:
                     raise ValueError(f"{kind} data {name!r} has {len(values)} rows for "
                                      f"{n} {kind}s")
+        # The file's id of each cell and point when they were renumbered
+        # (:mod:`caselint.mesh.ordering`); None when the ids are the file's own.
+        self._file_ids = {"cell": file_cell_ids, "point": file_point_ids}
+        for kind, ids, n in (("cell", file_cell_ids, self.n_cells),
+                             ("point", file_point_ids, self.n_points)):
+            if ids is not None and ids.shape != (n,):
+                raise ValueError(f"file {kind} ids have shape {ids.shape} for {n} {kind}s")
         self._memo: dict[str, Any] = {}
 
     def __repr__(self) -> str:
@@ -128,6 +137,40 @@ class Mesh:
         for block in self.cell_blocks:
             out[block.start : block.stop] = TYPE_INDEX[block.type]
         return out
+
+    def file_cell_ids(self, ids: np.ndarray | int | None = None) -> np.ndarray:
+        """The ids the mesh file gives the cells ``ids`` (int64, same shape and order);
+        all cells' when ``ids`` is None.
+
+        Rules name cells to the user through this: caselint may renumber cells for speed.
+        """
+        return self._file_id("cell", ids, self.n_cells)
+
+    def file_point_ids(self, ids: np.ndarray | int | None = None) -> np.ndarray:
+        """The ids the mesh file gives the points ``ids`` (int64, same shape and order)."""
+        return self._file_id("point", ids, self.n_points)
+
+    def _file_id(self, kind: str, ids, n: int) -> np.ndarray:
+        order = self._file_ids[kind]
+        if ids is None:
+            return np.arange(n, dtype=np.int64) if order is None else order
+        ids = np.asarray(ids, dtype=np.int64)
+        return ids.copy() if order is None else np.take(order, ids)
+
+    def in_file_order(self, values: np.ndarray, kind: str = "cell") -> np.ndarray:
+        """Per-cell (``kind="cell"``) or per-point ``values`` rearranged so that row ``i``
+        belongs to the file's cell (point) ``i``: for comparing with other tools."""
+        order = self._file_ids[kind]
+        if order is None:
+            return values
+        out = np.empty_like(values)
+        out[order] = values
+        return out
+
+    @property
+    def renumbered(self) -> bool:
+        """Whether cell or point ids differ from the file's (see :meth:`file_cell_ids`)."""
+        return any(v is not None for v in self._file_ids.values())
 
     @property
     def cell_counts(self) -> dict[str, int]:

@@ -37,6 +37,7 @@ import numpy as np
 from caselint.errors import MeshReadError
 from caselint.mesh.celltypes import SURFACE_TYPES, VOLUME_TYPES, linear_type
 from caselint.mesh.model import BoundaryElements, CellBlock, Mesh
+from caselint.mesh.ordering import spatial_order
 
 _PAD = {"triangle": [0, 1, 2, 2], "quad": [0, 1, 2, 3], "line": [0, 1]}
 #: Largest coordinate magnitude read (m); the case file's own limit for lengths, too.
@@ -178,9 +179,10 @@ def mesh_from_meshio(
                    for i, t, base, d in blocks if base in face_types and len(d)]
     names, boundary = _groups(path, m, face_blocks, dim, tag_array, tags)
     point_data, cell_data = _fields(m, volume_block_ids, cell_blocks, n_points)
-    return Mesh(path=path, points=points, dim=dim, cell_blocks=tuple(cell_blocks),
+    mesh = Mesh(path=path, points=points, dim=dim, cell_blocks=tuple(cell_blocks),
                 group_names=names, boundary=boundary, notes=tuple(notes),
                 point_data=point_data, cell_data=cell_data)
+    return spatial_order(mesh)          # locality for every later gather; ids map back
 
 
 def _fields(m, volume_block_ids, cell_blocks, n_points):

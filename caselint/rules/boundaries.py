@@ -14,7 +14,7 @@ import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import finite_point, plural
+from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -31,7 +31,7 @@ def _faces_where(mesh: "Mesh", faces: np.ndarray, boundary: str | None = None) -
         boundary=boundary,
         faces=tuple(int(f) for f in listed),
         face_count=int(faces.size),
-        cells=tuple(int(c) for c in cells[:MAX_LISTED_IDS]),
+        cells=first_cells(mesh, cells),
         cell_count=int(cells.size),
         point=point,
     )
@@ -49,7 +49,7 @@ def check_unassigned_boundary(ctx: "RuleContext") -> RuleResult:
 
     if ungrouped.size:
         detail = (f"{ungrouped.size} of {plural(n_exposed, 'exposed face')} in no boundary group; "
-                  f"first at cell {int(mesh.owner[np.min(ungrouped)])}")
+                  f"first at cell {int(mesh.file_cell_ids(mesh.owner[np.min(ungrouped)]))}")
         fix = ("Name these faces in the mesher (a physical group, zone or patch) and give the "
                "group a role under mesh.boundaries in the case file.")
     else:

@@ -119,9 +119,10 @@ def flow_velocity(ctx: "RuleContext") -> FlowVelocity | str:
         name, kind, vectors = usual
     bad = ~np.isfinite(vectors).all(axis=1)
     if bad.any():
+        file_ids = mesh.file_point_ids if kind == "point" else mesh.file_cell_ids
         return (f"the velocity field {name!r} ({kind} data) has "
                 f"{plural(int(bad.sum()), 'non-finite value')} (first at {kind} "
-                f"{int(np.argmax(bad))})")
+                f"{int(file_ids(np.flatnonzero(bad)).min())})")
 
     def faces() -> np.ndarray:
         if kind == "point":

@@ -24,7 +24,7 @@ from caselint.mesh.rays import LOST, MAX_STEPS, WALL, RayHits, hit_angles_deg, w
 from caselint.model import (
     MAX_LISTED_IDS, Limits, Measurement, Note, Parameter, Rule, RuleResult, Where,
 )
-from caselint.rules.mesh_quality import finite_point, plural
+from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -102,7 +102,7 @@ def _pair_measurement(mesh: "Mesh", hits: RayHits, rays: np.ndarray, pair: tuple
         boundary=first,
         faces=tuple(int(f) for f in start_faces),
         face_count=int(below.size),
-        cells=tuple(int(c) for c in mesh.owner[start_faces]),
+        cells=cell_names(mesh, mesh.owner[start_faces]),
         cell_count=int(np.unique(mesh.owner[hits.start_face[below]]).size),
         point=point,
     )

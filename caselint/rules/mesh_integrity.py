@@ -24,7 +24,7 @@ import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import finite_point, plural
+from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -117,11 +117,13 @@ def check_duplicate_points(ctx: "RuleContext") -> RuleResult:
             0.0, detail=f"no two of the {mesh.n_points - unused} points in use coincide"),),
             notes=notes)
     cells = cells_using(mesh, points)
-    where = Where(cells=tuple(int(c) for c in cells[:MAX_LISTED_IDS]), cell_count=int(cells.size),
-                  point=finite_point(mesh.points[points[0]]))
+    named = mesh.file_point_ids(points)
+    first = int(np.argmin(named))
+    where = Where(cells=first_cells(mesh, cells), cell_count=int(cells.size),
+                  point=finite_point(mesh.points[points[first]]))
     copy_word = "copy" if copies == 1 else "copies"
     detail = (f"{copies} extra {copy_word} of points at the same place, used by "
-              f"{plural(int(cells.size), 'cell')}; first at point {int(points[0])}")
+              f"{plural(int(cells.size), 'cell')}; first at point {int(named[first])}")
     return RuleResult(measurements=(Measurement(float(copies), where=where, detail=detail),),
                       notes=notes)
 
@@ -141,11 +143,12 @@ def check_non_manifold_faces(ctx: "RuleContext") -> RuleResult:
     cells = np.unique(mesh.owner[occurrences])
     worst = int(occurrences[np.min(first)])
     shared_by = np.bincount(inverse.ravel())
+    listed = first_cells(mesh, cells)
     where = Where(faces=tuple(int(f) for f in np.sort(occurrences[first])[:MAX_LISTED_IDS]),
-                  face_count=count, cells=tuple(int(c) for c in cells[:MAX_LISTED_IDS]),
+                  face_count=count, cells=listed,
                   cell_count=int(cells.size), point=finite_point(mesh.face_centroids[worst]))
     detail = (f"{plural(count, 'face')} shared by up to {int(shared_by.max())} cells, "
-              f"{plural(int(cells.size), 'cell')} involved; first at cell {int(cells[0])}")
+              f"{plural(int(cells.size), 'cell')} involved; first at cell {listed[0]}")
     return RuleResult(measurements=(Measurement(float(count), where=where, detail=detail),))
 
 
@@ -160,14 +163,19 @@ def check_disconnected_pieces(ctx: "RuleContext") -> RuleResult:
     if n == 1:
         return RuleResult(measurements=(Measurement(
             1.0, detail=f"all {mesh.n_cells} cells form one piece"),))
-    main = int(np.argmax(sizes))                # the first of equal largest: lowest cell id
+    # each piece is named by its lowest cell id in the file; equal sizes go by that name
+    names = mesh.file_cell_ids()
+    first = np.full(n, np.iinfo(np.int64).max)
+    np.minimum.at(first, inverse.ravel(), names)
+    order = np.lexsort((first, -sizes))
+    main = int(order[0])
     outside = np.flatnonzero(inverse.ravel() != main)
-    order = np.argsort(-sizes, kind="stable")
     shown = ", ".join(str(int(s)) for s in sizes[order[:5]]) + (", ..." if n > 5 else "")
-    smallest = int(roots[order[-1]])
-    where = Where(cells=tuple(int(c) for c in outside[:MAX_LISTED_IDS]),
+    smallest = int(first[order[-1]])
+    at = int(np.flatnonzero(names == smallest)[0])
+    where = Where(cells=first_cells(mesh, outside),
                   cell_count=int(outside.size),
-                  point=finite_point(mesh.cell_centroids[smallest]))
+                  point=finite_point(mesh.cell_centroids[at]))
     detail = (f"{n} pieces with no face between them ({shown} cells); "
               f"{plural(int(outside.size), 'cell')} outside the largest piece, the smallest "
               f"piece starts at cell {smallest}")

@@ -43,11 +43,13 @@ _FV_BOOKS = (
 # -- locating the worst entities (shared with caselint.rules.boundaries) -----------------
 
 
-def worst_ids(values: np.ndarray, threshold: float | None,
-              worse: str = "higher") -> tuple[np.ndarray, int]:
-    """Ids past ``threshold`` (worst first, ties by id, at most 10) and how many there are.
+def worst_ids(values: np.ndarray, threshold: float | None, worse: str = "higher",
+              names: np.ndarray | None = None) -> tuple[np.ndarray, int]:
+    """Ids past ``threshold`` (worst first, at most 10) and how many there are.
 
-    ``threshold`` None counts nothing but still lists the single worst id.
+    Ties go to the lowest id, or to the lowest of ``names`` (the file's ids of the
+    entities, :meth:`Mesh.file_cell_ids`) when given. ``threshold`` None counts nothing
+    but still lists the single worst id.
     """
     sign = 1.0 if worse == "higher" else -1.0
     badness = sign * values
@@ -69,11 +71,29 @@ def worst_ids(values: np.ndarray, threshold: float | None,
         # values, which must not all be sorted
         kth = np.partition(cand_bad, candidates.size - keep)[candidates.size - keep]
         worse_than = np.flatnonzero(cand_bad > kth)
-        tied = np.flatnonzero(cand_bad == kth)[: keep - worse_than.size]
-        sel = np.sort(np.concatenate([worse_than, tied]))
+        tied = np.flatnonzero(cand_bad == kth)
+        need = keep - worse_than.size
+        if names is not None and tied.size > need:
+            tie_names = names[candidates[tied]]
+            tied = tied[np.argpartition(tie_names, need - 1)[:need]]
+        sel = np.sort(np.concatenate([worse_than, tied[:need]]))
         candidates, cand_bad = candidates[sel], cand_bad[sel]
-    order = np.lexsort((candidates, -cand_bad))
+    tie = candidates if names is None else names[candidates]
+    order = np.lexsort((tie, -cand_bad))
     return candidates[order][:keep].astype(np.int64), count
+
+
+def cell_names(mesh: "Mesh", cells: np.ndarray) -> tuple[int, ...]:
+    """The file's ids of ``cells`` (caselint's own ids), in the same order, for a Where."""
+    return tuple(int(c) for c in mesh.file_cell_ids(cells))
+
+
+def first_cells(mesh: "Mesh", cells: np.ndarray) -> tuple[int, ...]:
+    """The lowest file ids among the set ``cells``, sorted, at most ten, for a Where."""
+    named = mesh.file_cell_ids(cells)
+    if named.size > MAX_LISTED_IDS:
+        named = np.partition(named, MAX_LISTED_IDS - 1)[:MAX_LISTED_IDS]
+    return tuple(int(c) for c in np.sort(named))
 
 
 def plural(count: int, noun: str) -> str:
@@ -116,7 +136,7 @@ def _face_where(mesh: "Mesh", values: np.ndarray, limits: Limits, faces_consider
     where = Where(
         faces=tuple(int(f) for f in listed) if count else (),
         face_count=count,
-        cells=tuple(int(c) for c in cells) if count else (),
+        cells=cell_names(mesh, cells) if count else (),
         cell_count=cell_count,
         point=finite_point(mesh.face_centroids[worst]),
     )
@@ -125,8 +145,10 @@ def _face_where(mesh: "Mesh", values: np.ndarray, limits: Limits, faces_consider
 
 def _face_place(mesh: "Mesh", face: int) -> str:
     """Plain words for where a face is: between two cells, or on a boundary."""
-    owner, neighbour = int(mesh.owner[face]), int(mesh.neighbour[face])
+    owner = int(mesh.file_cell_ids(mesh.owner[face]))
+    neighbour = int(mesh.neighbour[face])
     if neighbour >= 0:
+        neighbour = int(mesh.file_cell_ids(neighbour))
         return f"between cells {owner} and {neighbour}"
     group = int(mesh.face_group[face])
     name = f" '{mesh.group_names[group]}'" if group >= 0 else ""
@@ -194,16 +216,18 @@ def check_inverted_cells(ctx: "RuleContext") -> RuleResult:
     bad_ids = np.flatnonzero(bad)
     count = int(bad_ids.size)
     # worst first: the most negative scaled Jacobian, then the smallest volume
-    order = np.lexsort((bad_ids, volumes[bad_ids], scaled[bad_ids]))
+    names = mesh.file_cell_ids()
+    order = np.lexsort((names[bad_ids], volumes[bad_ids], scaled[bad_ids]))
     listed = bad_ids[order][:MAX_LISTED_IDS]
     if count:
         worst = int(listed[0])
-        detail = (f"{plural(count, 'cell')} inverted or folded, worst cell {worst} "
+        detail = (f"{plural(count, 'cell')} inverted or folded, worst cell {names[worst]} "
                   f"(volume {volumes[worst]:.3g} m^3, scaled Jacobian {scaled[worst]:.3g})")
     else:
-        worst = int(np.argmin(scaled))  # first of equal minima: the lowest id
-        detail = f"no inverted cells; lowest scaled Jacobian {scaled[worst]:.3g} in cell {worst}"
-    where = Where(cells=tuple(int(c) for c in listed), cell_count=count,
+        worst = int(worst_ids(scaled, None, "lower", names)[0][0])  # ties: lowest file id
+        detail = (f"no inverted cells; lowest scaled Jacobian {scaled[worst]:.3g} in cell "
+                  f"{names[worst]}")
+    where = Where(cells=cell_names(mesh, listed), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
     return RuleResult(measurements=(Measurement(value=float(count), where=where, detail=detail),))
 
@@ -267,14 +291,15 @@ def check_aspect_ratio(ctx: "RuleContext") -> RuleResult:
     if (skip := _nonfinite_skip(values, "edge ratio")) is not None:
         return skip
     threshold = ctx.limits.warn if ctx.limits.warn is not None else ctx.limits.error
-    listed, count = worst_ids(values, threshold)
+    listed, count = worst_ids(values, threshold, names=mesh.file_cell_ids())
     worst = int(listed[0])
+    name = int(mesh.file_cell_ids(worst))
     if count:
         detail = (f"{plural(count, 'cell')} above {threshold:g}, "
-                  f"worst cell {worst} ({values[worst]:.4g})")
+                  f"worst cell {name} ({values[worst]:.4g})")
     else:
-        detail = f"no cell above the limit; largest {values[worst]:.4g} in cell {worst}"
-    where = Where(cells=tuple(int(c) for c in listed) if count else (), cell_count=count,
+        detail = f"no cell above the limit; largest {values[worst]:.4g} in cell {name}"
+    where = Where(cells=cell_names(mesh, listed) if count else (), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
     measurement = Measurement(value=float(values[worst]), where=where, detail=detail)
     return RuleResult(measurements=(measurement,))

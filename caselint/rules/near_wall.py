@@ -27,7 +27,7 @@ from caselint.model import (
     Where,
 )
 from caselint.rules import wall_flow
-from caselint.rules.mesh_quality import finite_point, plural
+from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
 from caselint.rules.wall_scope import at_face, locate, number, settled, walls
 from caselint.rules.yplus import WALL_YPLUS
 
@@ -71,7 +71,7 @@ def check_wall_spacing_uniformity(ctx: "RuleContext") -> RuleResult:
                   f"to {h[hi]:.3g} m at {at_face(mesh, int(faces[hi]))}{extra}")
         listed = (int(faces[hi]), int(faces[lo])) if hi != lo else (int(faces[hi]),)
         where = Where(boundary=name, faces=listed, face_count=len(listed),
-                      cells=tuple(dict.fromkeys(int(mesh.owner[f]) for f in listed)),
+                      cells=tuple(dict.fromkeys(cell_names(mesh, mesh.owner[list(listed)]))),
                       cell_count=len(set(int(mesh.owner[f]) for f in listed)),
                       point=finite_point(mesh.face_centroids[faces[hi]]))
         fix = (f"Use one first-layer height along '{name}' (now {h[lo]:.3g} to {h[hi]:.3g} m): "
@@ -186,7 +186,8 @@ def check_layer_growth(ctx: "RuleContext") -> RuleResult:
             r = cored[worst]
             measurements.append(Measurement(
                 float(values[worst]), where,
-                f"core cell {int(layers.core_cell[r])} is {values[worst]:.3g} times as tall as "
+                f"core cell {int(mesh.file_cell_ids(layers.core_cell[r]))} is "
+                f"{values[worst]:.3g} times as tall as "
                 f"the last of {plural(int(layers.n_layers[r]), 'layer')} above "
                 f"{at_face(mesh, int(faces[worst]))}",
                 "Blend the stack into the core: make the last layer closer to the core cell "

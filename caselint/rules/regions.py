@@ -20,7 +20,7 @@ import numpy as np
 from caselint.engine.hookspecs import hookimpl
 from caselint.manifest.case import Region
 from caselint.model import Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import finite_point, plural, worst_ids
+from caselint.rules.mesh_quality import cell_names, finite_point, plural, worst_ids
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -95,19 +95,20 @@ def _region_measurement(mesh: "Mesh", index: int, region: Region, sizes: np.ndar
         cells = np.array([int(np.argmin((diff**2).sum(axis=1)))])
         nearest = "no cell centroid lies inside the region; the cell nearest its centre "
     threshold = m_limits.warn if m_limits.warn is not None else m_limits.error
-    local, count = worst_ids(sizes[cells], threshold)
+    local, count = worst_ids(sizes[cells], threshold, names=mesh.file_cell_ids(cells))
     listed = cells[local]
     worst = int(listed[0])
     largest = float(sizes[worst])
+    name = int(mesh.file_cell_ids(worst))
     if nearest:
-        detail = f"{nearest}(cell {worst}) is {largest:.4g} m"
+        detail = f"{nearest}(cell {name}) is {largest:.4g} m"
     elif count:
         detail = (f"{count} of {plural(cells.size, 'cell')} in the region are larger than "
-                  f"{threshold:.4g} m; largest cell {worst}")
+                  f"{threshold:.4g} m; largest cell {name}")
     else:
         detail = f"all {plural(cells.size, 'cell')} in the region are at most {threshold:.4g} m"
     detail += f" (max_cell_size {target:.4g} m)"
-    where = Where(region=region.name, cells=tuple(int(c) for c in listed) if count else (),
+    where = Where(region=region.name, cells=cell_names(mesh, listed) if count else (),
                   cell_count=count, point=finite_point(mesh.cell_centroids[worst]), key=key)
     fix = ""
     if count:

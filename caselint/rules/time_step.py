@@ -32,7 +32,7 @@ from caselint.model import (
 )
 from caselint.physics import timestep
 from caselint.rules.flow_velocity import flow_velocity
-from caselint.rules.mesh_quality import finite_point, plural, worst_ids
+from caselint.rules.mesh_quality import cell_names, finite_point, plural, worst_ids
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -94,9 +94,10 @@ def _cell_number_result(ctx: "RuleContext", values: np.ndarray, limits: Limits, 
         return RuleResult.skip("no cell has a positive volume (see inverted-cells)")
     threshold = _lowest(limits)
     checked = np.where(valid, values, 0.0)
-    listed, count = worst_ids(checked, threshold)
+    listed, count = worst_ids(checked, threshold, names=mesh.file_cell_ids())
     worst = int(listed[0])
     peak = float(values[worst])
+    name = int(mesh.file_cell_ids(worst))
     p99 = float(np.percentile(values[valid], 99))
     n_valid = int(valid.sum())
     parts = [f"99th percentile {p99:.3g}"]
@@ -106,9 +107,9 @@ def _cell_number_result(ctx: "RuleContext", values: np.ndarray, limits: Limits, 
         walls = _wall_cell_count(ctx, over)
         at_walls = f", {walls} of them next to walls" if walls is not None else ""
         parts.append(f"{plural(count, 'cell')} of {n_valid} ({share:.3g} %) above "
-                     f"{threshold:g}{at_walls}, worst cell {worst}")
+                     f"{threshold:g}{at_walls}, worst cell {name}")
     else:
-        parts.append(f"largest in cell {worst}")
+        parts.append(f"largest in cell {name}")
     if n_valid < mesh.n_cells:
         parts.append(f"{plural(mesh.n_cells - n_valid, 'cell')} of non-positive volume left "
                      "out (see inverted-cells)")
@@ -122,7 +123,7 @@ def _cell_number_result(ctx: "RuleContext", values: np.ndarray, limits: Limits, 
     elif threshold == 0:
         fix = ("This scheme combination is unstable at any time step: use upwind advection "
                "or an rk3/rk4 scheme (time.scheme, time.advection_scheme).")
-    where = Where(cells=tuple(int(c) for c in listed) if count else (), cell_count=count,
+    where = Where(cells=cell_names(mesh, listed) if count else (), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]), key="time.step")
     measurement = Measurement(value=peak, where=where, detail="; ".join(parts), fix=fix,
                               limits=limits)

@@ -11,7 +11,7 @@ import numpy as np
 
 from caselint.mesh.wall_layers import WallLayers, wall_layers
 from caselint.model import MAX_LISTED_IDS, Where
-from caselint.rules.mesh_quality import finite_point, worst_ids
+from caselint.rules.mesh_quality import cell_names, finite_point, worst_ids
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -63,7 +63,7 @@ def locate(mesh: "Mesh", faces: np.ndarray, values: np.ndarray, threshold: float
         boundary=boundary,
         faces=tuple(int(f) for f in faces[local]) if count else (),
         face_count=count,
-        cells=tuple(int(c) for c in listed_cells),
+        cells=cell_names(mesh, listed_cells),
         cell_count=int(cells.size),
         point=finite_point(mesh.face_centroids[faces[worst]]),
     )

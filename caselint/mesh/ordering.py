@@ -1,0 +1,81 @@
+"""Renumbering cells and points along a Morton (Z-order) curve, for memory locality.
+
+An unstructured export often numbers cells and points in an order unrelated to where they
+lie; every later gather (a cell's corners, a face's cells, a cell's faces) then jumps
+across memory, and on a million cells the cache misses cost about a third of a check.
+Sorting points by their Morton code, and each block's cells by the new number of their
+first corner, puts neighbours next to each other in memory.
+
+Reports must still speak in the file's numbering: :class:`~caselint.mesh.model.Mesh` keeps
+the file's id of every renumbered cell and point (``Mesh.file_cell_ids``,
+``Mesh.file_point_ids``), and rules name cells and points through them. Cells stay in their
+blocks (cell types keep their id ranges); boundary elements keep their file order.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from caselint.mesh.model import Mesh
+
+#: Bits per axis of the Morton code (three axes fit in 63 bits).
+BITS = 21
+
+
+def _spread(q: np.ndarray) -> np.ndarray:
+    """Spread the low 21 bits of ``q`` so that two zero bits follow each bit."""
+    v = q & np.uint64(0x1FFFFF)
+    for shift, mask in ((32, 0x1F00000000FFFF), (16, 0x1F0000FF0000FF),
+                        (8, 0x100F00F00F00F00F), (4, 0x10C30C30C30C30C3),
+                        (2, 0x1249249249249249)):
+        v = (v | (v << np.uint64(shift))) & np.uint64(mask)
+    return v
+
+
+def morton_codes(points: np.ndarray) -> np.ndarray:
+    """(P,) uint64 Morton code of each point in the points' bounding box (21 bits an axis)."""
+    lo = points.min(axis=0)
+    span = points.max(axis=0) - lo
+    scale = np.where(span > 0, (2**BITS - 1) / np.where(span > 0, span, 1.0), 0.0)
+    code = np.zeros(len(points), dtype=np.uint64)
+    for axis in range(3):
+        q = ((points[:, axis] - lo[axis]) * scale[axis]).astype(np.uint64)
+        code |= _spread(q) << np.uint64(axis)
+    return code
+
+
+def spatial_order(mesh: "Mesh") -> "Mesh":
+    """The same mesh with points and cells renumbered along a Morton curve.
+
+    Geometry is unchanged; ``file_cell_ids`` / ``file_point_ids`` of the result map its ids
+    back to those of ``mesh``. A mesh that was already renumbered maps to the original file.
+    """
+    from caselint.mesh.model import BoundaryElements, CellBlock, Mesh
+
+    if mesh.n_points == 0 or mesh.n_cells == 0:
+        return mesh
+    point_order = np.argsort(morton_codes(mesh.points), kind="stable")
+    new_point = np.empty(mesh.n_points, dtype=np.int64)
+    new_point[point_order] = np.arange(mesh.n_points)
+    blocks, cell_order = [], []
+    for block in mesh.cell_blocks:
+        conn = np.take(new_point, block.connectivity).astype(block.connectivity.dtype)
+        order = np.argsort(conn[:, 0], kind="stable")
+        blocks.append(CellBlock(block.type, np.take(conn, order, axis=0), block.start))
+        cell_order.append(order + block.start)
+    cells = np.concatenate(cell_order)
+    boundary = mesh.boundary
+    return Mesh(
+        path=mesh.path, points=np.take(mesh.points, point_order, axis=0), dim=mesh.dim,
+        cell_blocks=tuple(blocks), group_names=mesh.group_names,
+        boundary=BoundaryElements(np.take(new_point, boundary.vertices), boundary.element,
+                                  boundary.group),
+        notes=mesh.notes,
+        point_data={k: np.take(v, point_order, axis=0) for k, v in mesh.point_data.items()},
+        cell_data={k: np.take(v, cells, axis=0) for k, v in mesh.cell_data.items()},
+        file_cell_ids=mesh.file_cell_ids(cells),
+        file_point_ids=mesh.file_point_ids(point_order),
+    )
