@@ -143,7 +143,10 @@ def lint_batch(
         # spawn: fresh interpreters, never a fork of a process running threads (the
         # progress bar's, a host application's)
         context = multiprocessing.get_context("spawn")
-        with ProcessPoolExecutor(max_workers=min(jobs, len(tasks)), mp_context=context) as pool:
+        from caselint.allocator import tune_allocator
+
+        with ProcessPoolExecutor(max_workers=min(jobs, len(tasks)), mp_context=context,
+                                 initializer=tune_allocator) as pool:
             futures = [pool.submit(_run_task, task) for task in tasks]
             for future in as_completed(futures):
                 collect(future.result())

@@ -19,6 +19,7 @@ from typing import Sequence
 
 from caselint import __version__
 from caselint import cli_commands as commands
+from caselint.allocator import tune_allocator
 from caselint.errors import ExitCode, UsageError
 
 #: Set to 1 to print the traceback of an internal error.
@@ -173,6 +174,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except SystemExit as exc:
         return _exit_status(exc.code)
     args.blocked = list(args.blocked_global) + list(getattr(args, "blocked_local", []))
+    tune_allocator()      # this process is ours: allocator settings for big meshes
     try:
         return int(args.func(args))
     except UsageError as exc:

@@ -1,0 +1,74 @@
+"""Memory-allocator settings for a caselint process: big arrays without slow first touches.
+
+A check allocates and frees arrays of tens of megabytes many times (keys, orders and
+gathers over millions of faces). Two defaults make each fresh allocation cost more than
+the arithmetic done in it on Linux:
+
+- numpy asks the kernel for transparent huge pages on large arrays (``madvise``); where the
+  kernel compacts memory to find them on first touch (``defrag`` = ``madvise``, a common
+  default), touching new memory runs at about 1 GB/s instead of 3 GB/s;
+- glibc gives freed blocks back to the kernel (and serves each block above its adaptive
+  threshold by a fresh ``mmap``), so the next array of the same size faults its pages
+  in again.
+
+:func:`tune_allocator` turns numpy's huge-page advice off (the setting the documented
+``NUMPY_MADVISE_HUGEPAGE=0`` makes) and asks glibc, through ``mallopt``, to serve blocks
+up to 32 MiB from its heap and keep up to 1 GiB of freed memory for reuse. Measured on
+the 1M shuffled-hexahedra benchmark (three alternating pairs of fresh processes): a check
+8.1-8.7 s without, 6.7-7.0 s with; the peak resident set about the same (0.87-0.93 GB). Only the command line and its worker processes call it: a library must
+not change the process of the program that imports it. ``CASELINT_ALLOCATOR=default``
+leaves both settings alone.
+"""
+
+from __future__ import annotations
+
+import ctypes
+import os
+
+#: mallopt parameters (glibc's malloc.h).
+_M_TRIM_THRESHOLD, _M_TOP_PAD, _M_MMAP_THRESHOLD = -1, -2, -3
+#: Largest block glibc serves from its heap (its own upper limit on 64-bit systems).
+MMAP_THRESHOLD = 32 * 2**20
+#: Freed memory kept for reuse before glibc trims its heap, and the step it grows by.
+TRIM_THRESHOLD = 2**30
+TOP_PAD = 64 * 2**20
+
+_done: dict[str, bool] = {}
+
+
+def tune_allocator() -> dict[str, bool]:
+    """Apply the settings above once per process; return which of them took effect."""
+    if _done or os.environ.get("CASELINT_ALLOCATOR", "").strip().lower() == "default":
+        return dict(_done)
+    _done["numpy_hugepage_off"] = _numpy_hugepage_off()
+    _done["glibc_heap"] = _glibc_heap()
+    return dict(_done)
+
+
+def _numpy_hugepage_off() -> bool:
+    try:
+        from numpy._core import multiarray           # numpy 2
+    except ImportError:                                # numpy 1.x
+        from numpy.core import multiarray              # type: ignore[no-redef]
+    setter = getattr(multiarray, "_set_madvise_hugepage", None)
+    if setter is None:
+        return False
+    setter(False)
+    return True
+
+
+def _glibc_heap() -> bool:
+    try:
+        if not (os.confstr("CS_GNU_LIBC_VERSION") or "").startswith("glibc"):
+            return False
+    except (AttributeError, ValueError, OSError):     # not glibc (macOS, Windows, musl)
+        return False
+    try:
+        libc = ctypes.CDLL(None)
+        mallopt = libc.mallopt
+    except (OSError, AttributeError):
+        return False
+    mallopt.argtypes, mallopt.restype = [ctypes.c_int, ctypes.c_int], ctypes.c_int
+    return all(mallopt(param, value) == 1 for param, value in (
+        (_M_MMAP_THRESHOLD, MMAP_THRESHOLD), (_M_TRIM_THRESHOLD, TRIM_THRESHOLD),
+        (_M_TOP_PAD, TOP_PAD)))
