@@ -57,13 +57,19 @@ def spatial_order(mesh: "Mesh") -> "Mesh":
 
     if mesh.n_points == 0 or mesh.n_cells == 0:
         return mesh
+    # Stable: coincident points keep their file order on every machine.
     point_order = np.argsort(morton_codes(mesh.points), kind="stable")
-    new_point = np.empty(mesh.n_points, dtype=np.int64)
-    new_point[point_order] = np.arange(mesh.n_points)
+    index_type = np.result_type(*[b.connectivity.dtype for b in mesh.cell_blocks])
+    new_point = np.empty(mesh.n_points, dtype=index_type)
+    new_point[point_order] = np.arange(mesh.n_points, dtype=index_type)
     blocks, cell_order = [], []
     for block in mesh.cell_blocks:
-        conn = np.take(new_point, block.connectivity).astype(block.connectivity.dtype)
-        order = np.argsort(conn[:, 0], kind="stable")
+        conn = np.take(new_point, block.connectivity)
+        # Unique keys (first corner, then file order), so that numpy's fastest sort,
+        # which is not stable and differs between processors, gives one order everywhere.
+        n = len(conn)
+        key = conn[:, 0].astype(np.int64) * n + np.arange(n)
+        order = np.argsort(key)
         blocks.append(CellBlock(block.type, np.take(conn, order, axis=0), block.start))
         cell_order.append(order + block.start)
     cells = np.concatenate(cell_order)
