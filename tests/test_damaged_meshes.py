@@ -370,7 +370,7 @@ def test_cell_pieces_match_scipy_connected_components():
     from caselint.mesh.blocks import shuffled
 
     rng = np.random.default_rng(7)
-    parts, offset, points, hexes = [], 0, [], []
+    offset, points, hexes = 0, [], []
     for i in range(5):
         n = rng.integers(1, 5, size=3)
         b = structured_hex(*(np.arange(k + 1) + 10.0 * i for k in n))

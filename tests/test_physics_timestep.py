@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import math
 
-import meshio
 import numpy as np
 import pytest
 from scipy.spatial import ConvexHull

@@ -19,7 +19,7 @@ from review_samples import (  # noqa: F401
     write_review_case,
 )
 from test_cli import run_cli
-from test_cli_e2e import write_block_mesh, write_case
+from test_cli_e2e import write_block_mesh
 
 from caselint.baseline import finding_fingerprint
 from caselint.model import CaseReport, Report

@@ -20,7 +20,6 @@ from caselint.errors import CaseFileError
 from caselint.manifest.case import Case, CaseInfo, GridStudy, MeshSpec, Physics, Turbulence
 from caselint.mesh import read_mesh
 from caselint.mesh.blocks import structured_hex, structured_quad, write_gmsh22
-from caselint.rules import grid_refinement
 from caselint.rules.grid_refinement import GRID_REFINEMENT_RATIO, check_grid_refinement
 
 RULE = GRID_REFINEMENT_RATIO

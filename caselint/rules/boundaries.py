@@ -13,8 +13,8 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
-from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
+from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
+from caselint.rules.mesh_quality import finite_point, first_cells, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -73,14 +73,8 @@ def check_unassigned_boundary(ctx: "RuleContext") -> RuleResult:
                  "inlet, outlet, symmetry, periodic, opening, interface), or remove the group "
                  "from the mesh if it is not a boundary."),
         ))
-
-    notes = tuple(
-        Note(message=(f"group '{name}' has {count} boundary element{'s' if count != 1 else ''} "
-                      "matching no face of a volume cell, ignored (check the mesh export)"),
-             where=Where(boundary=name))
-        for name, count in sorted(mesh.unmatched_group_elements.items()) if count
-    )
-    return RuleResult(measurements=tuple(measurements), notes=notes)
+    # Boundary elements lying on no cell face are unmatched-boundary-elements' finding.
+    return RuleResult(measurements=tuple(measurements))
 
 
 UNASSIGNED_BOUNDARY = Rule(

@@ -24,7 +24,7 @@ from caselint.mesh.rays import LOST, MAX_STEPS, WALL, RayHits, hit_angles_deg, w
 from caselint.model import (
     MAX_LISTED_IDS, Limits, Measurement, Note, Parameter, Rule, RuleResult, Where,
 )
-from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
+from caselint.rules.mesh_quality import cell_names, finite_point, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext

@@ -24,7 +24,7 @@ import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
+from caselint.rules.mesh_quality import finite_point, first_cells, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext

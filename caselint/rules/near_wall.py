@@ -27,7 +27,7 @@ from caselint.model import (
     Where,
 )
 from caselint.rules import wall_flow
-from caselint.rules.mesh_quality import cell_names, finite_point, first_cells, plural
+from caselint.rules.mesh_quality import cell_names, finite_point, plural
 from caselint.rules.wall_scope import at_face, locate, number, settled, walls
 from caselint.rules.yplus import WALL_YPLUS
 
