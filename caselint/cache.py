@@ -7,7 +7,9 @@ by a key of the mesh file's SHA-256, the read settings (scale, tag array, tag na
 caselint's version. A later run, or another process of the same batch, reads that file
 instead of the mesh.
 
-- Folder: ``CASELINT_CACHE_DIR``, else ``~/.cache/caselint`` (``XDG_CACHE_HOME`` honoured).
+- Folder: ``CASELINT_CACHE_DIR``, else ``~/.cache/caselint`` (``XDG_CACHE_HOME`` honoured);
+  ``CASELINT_CACHE_DIR=off`` turns every on-disk cache of caselint off (this one and the
+  parsed unit definitions of :mod:`caselint.manifest.units`).
 - Entries are written to a temporary file in the folder and renamed into place, so a
   process never sees half an entry; an unreadable entry is ignored and rebuilt.
 - Meshes below :data:`MIN_CELLS` cells are not cached (reading them is quicker than the
@@ -36,6 +38,8 @@ if TYPE_CHECKING:
 
 #: Environment variable naming the cache folder.
 ENV_DIR = "CASELINT_CACHE_DIR"
+#: Value of ``CASELINT_CACHE_DIR`` (any case) that turns caselint's on-disk caches off.
+OFF = "off"
 #: Environment variable with the most the folder may hold, in GB.
 ENV_MAX_GB = "CASELINT_CACHE_MAX_GB"
 #: Smallest mesh (cells) worth caching.
@@ -50,6 +54,13 @@ def default_cache_dir() -> Path:
         return Path(os.environ[ENV_DIR]).expanduser()
     base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
     return Path(base) / "caselint"
+
+
+def cache_dir() -> Path | None:
+    """The folder of caselint's on-disk caches, or None when ``CASELINT_CACHE_DIR`` is ``off``."""
+    if os.environ.get(ENV_DIR, "").strip().lower() == OFF:
+        return None
+    return default_cache_dir()
 
 
 def mesh_key(mesh_sha256: str, scale_to_m: float, tag_array: str | None,

@@ -108,7 +108,8 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--no-cache", action="store_true",
                        help="neither read nor write the mesh cache (analysed meshes of 100k "
                             "cells or more, kept by file hash in $CASELINT_CACHE_DIR, default "
-                            "~/.cache/caselint)")
+                            "~/.cache/caselint); CASELINT_CACHE_DIR=off turns every cache "
+                            "off")
     check.add_argument("--memory-limit", metavar="SIZE",
                        help="refuse a mesh whose check would need more memory than SIZE "
                             "(e.g. 8GB, 512MiB; 'off' for no limit; default: "

@@ -266,13 +266,14 @@ def _lint_all(args: argparse.Namespace, paths: list[str], rule_sets: tuple[str, 
     A progress bar goes to stderr when it is a terminal and there is more than one case.
     """
     from caselint.batch import lint_batch
-    from caselint.cache import MeshCache, default_cache_dir
+    from caselint.cache import MeshCache, cache_dir
 
     jobs, scheduler = getattr(args, "jobs", 1), getattr(args, "scheduler", None)
     if scheduler is not None and jobs != 1:
         raise UsageError("give either --jobs or --scheduler, not both (the scheduler's "
                          "workers decide how many cases run at once)")
-    cache = None if getattr(args, "no_cache", True) else MeshCache(default_cache_dir())
+    folder = None if getattr(args, "no_cache", True) else cache_dir()
+    cache = None if folder is None else MeshCache(folder)
     options = dict(rule_sets=rule_sets or None, pm=pm, blocked=tuple(args.blocked), jobs=jobs,
                    scheduler=scheduler, cache=cache)
     if len(paths) < 2 or not _is_terminal(sys.stderr):

@@ -3,15 +3,27 @@
 A quantity is written either as a plain number, which is taken to be in SI units
 (m, s, kg/m^3, Pa*s, m^2/s, m/s), or as text with a unit (``"2.5 m/s"``, ``"30 km/h"``,
 ``"1.81e-5 Pa*s"``, ``"5 mm"``). Text without a unit (``"2e-4"``) is a plain SI number.
-The pint registry is built once, on first use, because building it takes ~0.1 s.
+
+Text is read by pint, whose registry is built once, on first use. Parsing pint's unit
+definitions takes ~0.1 s, so the parsed definitions are kept in caselint's cache folder
+(:func:`caselint.cache.cache_dir`) by pint's own disk cache; a cache that cannot be used
+(``CASELINT_CACHE_DIR=off``, a read-only, damaged or shared folder) gives a registry
+built from the definitions as if there were no cache.
 """
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import math
+import os
 import re
+import shutil
+import stat
+import sys
+import tempfile
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 from caselint.errors import CaseFileError
@@ -75,10 +87,91 @@ _WHAT_IT_IS: dict[str, str] = {
 
 @functools.cache
 def unit_registry() -> Any:
-    """The one pint UnitRegistry of caselint, built on first use."""
+    """The one pint UnitRegistry of caselint, built on first use (see the module docstring)."""
+    from caselint.cache import cache_dir
+
+    return build_registry(cache_dir())
+
+
+def build_registry(cache_folder: Path | None) -> Any:
+    """A new pint UnitRegistry, its parsed definitions kept under ``cache_folder`` if usable.
+
+    None, or any trouble with the folder, gives a registry built without a disk cache.
+    """
     import pint
 
-    return pint.UnitRegistry()
+    if cache_folder is not None:
+        try:
+            registry = _cached_registry(pint, Path(cache_folder))
+        except Exception:  # noqa: BLE001 - the cache is an optimisation; pint parses instead
+            registry = None
+        if registry is not None:
+            return registry
+    return pint.UnitRegistry(cache_folder=None)
+
+
+def registry_folder_name() -> str | None:
+    """Name of the cache sub-folder for the running pint, flexparser and Python; None if unknown.
+
+    pint keys its cache files by its own version and the definition files' content; the
+    files are pickles of flexparser objects, so flexparser's version and Python's belong
+    in the key as well.
+    """
+    import flexparser
+    import pint
+
+    versions = (pint.__version__, flexparser.__version__)
+    if any(not v or v == "unknown" for v in versions):
+        return None
+    py = f"{sys.version_info[0]}.{sys.version_info[1]}"
+    return f"units-pint-{versions[0]}-flexparser-{versions[1]}-py{py}"
+
+
+def _cached_registry(pint: Any, cache_folder: Path) -> Any:
+    """The registry read through the versioned sub-folder of ``cache_folder``, or None.
+
+    A missing sub-folder is filled in a private temporary folder and renamed into place,
+    so concurrent runs never read half-written entries. pint's entries are pickles, so
+    they are read only from a folder owned by this user and writable by no one else.
+    """
+    name = registry_folder_name()
+    if name is None:
+        return None
+    folder = cache_folder / name
+    if not folder.is_dir():
+        _fill(pint, cache_folder, folder)
+    if not folder.is_dir() or not _private(folder):
+        return None
+    try:
+        return pint.UnitRegistry(cache_folder=folder)
+    except Exception:  # noqa: BLE001 - a damaged entry: remove it, so the next run rebuilds it
+        shutil.rmtree(folder, ignore_errors=True)
+        return None
+
+
+def _fill(pint: Any, cache_folder: Path, folder: Path) -> None:
+    """Write pint's parsed definitions to ``folder`` (atomically); failures leave it absent."""
+    try:
+        cache_folder.mkdir(parents=True, exist_ok=True)
+        tmp = tempfile.mkdtemp(prefix=".units-", dir=cache_folder)   # mode 0700
+    except OSError:
+        return
+    # Failures (a full disk, a read-only folder, another process renaming its folder into
+    # place first) leave no cache, or theirs.
+    try:
+        with contextlib.suppress(Exception):
+            pint.UnitRegistry(cache_folder=tmp)
+            os.rename(tmp, folder)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _private(folder: Path) -> bool:
+    """True when ``folder`` belongs to this user and no one else may write to it (POSIX)."""
+    info = folder.stat()
+    if hasattr(os, "getuid") and info.st_uid != os.getuid():
+        return False
+    return not info.st_mode & (stat.S_IWGRP | stat.S_IWOTH)
 
 
 def _error(key_path: str, message: str) -> CaseFileError:
