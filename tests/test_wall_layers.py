@@ -174,3 +174,38 @@ def test_cached_per_face_set_and_refuses_internal_faces():
         wall_layers(mesh, np.flatnonzero(mesh.neighbour >= 0)[:2])
     sub = first.subset(first.rows_of(faces[:2]))
     assert len(sub.faces) == 2 and sub.heights.shape == (2, 4)
+
+
+def test_walk_past_the_stack_stops_at_its_reach():
+    # Same block as above: nine layers, then core cells 1e-3 * 1.3^k thick up to k = 13.
+    heights = geometric(1e-3, 1.3, 14)
+    mesh = mesh_from_meshio(layer_block(heights, nx=2, ny=2, dx=0.01))
+    wall = mesh.group_faces("zmin")
+    tops = np.cumsum(heights)
+    # shortest first: a walk that reached further would serve the shorter requests
+    short = wall_layers(mesh, wall, reach_m=0.0)        # the stack and the core cell only
+    mid = wall_layers(mesh, wall, reach_m=float(tops[11]))
+    full = wall_layers(mesh, wall)                     # no reach given: walks to the top
+    np.testing.assert_array_equal(full.n_walked, 14)
+    np.testing.assert_array_equal(short.n_walked, 10)
+    np.testing.assert_array_equal(mid.n_walked, 12)    # the walk stops once a cell reaches it
+    for walk in (short, mid):                           # the stack itself is the same
+        for name in ("n_layers", "first_height", "thickness", "max_growth", "end", "core_jump"):
+            np.testing.assert_array_equal(getattr(walk, name), getattr(full, name))
+    np.testing.assert_array_equal(mid.cells_within(tops[10] * (1 + 1e-9)), 11)
+    np.testing.assert_array_equal(mid.cells_within(tops[11]), full.cells_within(tops[11]))
+    with pytest.raises(ValueError, match="reached"):
+        mid.cells_within(tops[12])
+
+
+def test_a_walk_that_reached_further_serves_a_shorter_request():
+    heights = geometric(1e-3, 1.3, 14)
+    mesh = mesh_from_meshio(layer_block(heights, nx=2, ny=2, dx=0.01))
+    wall = mesh.group_faces("zmin")
+    far = wall_layers(mesh, wall, reach_m=0.05)
+    assert wall_layers(mesh, wall, reach_m=0.0) is far
+    assert wall_layers(mesh, wall, reach_m=0.05) is far
+    further = wall_layers(mesh, wall, reach_m=0.06)
+    assert further is not far and further.reach == 0.06
+    with pytest.raises(ValueError, match="reach_m"):
+        wall_layers(mesh, wall, reach_m=-1.0)

@@ -23,9 +23,11 @@ A cell *continues the stack* while
 Defaults: ``max_aspect`` 1, ``turn_deg`` 45, ``max_cells`` 200 (caselint's choices).
 
 The stack ends at the first cell failing one of these, when an opposite face is on the
-boundary, or after ``max_cells`` cells. The walk itself goes on through cells that are
+boundary, or after ``max_cells`` cells. The walk itself may go on through cells that are
 layer-shaped but thick (a structured hexahedral core), so that the cells across a
-boundary layer can be counted beyond the inflation stack.
+boundary layer can be counted beyond the inflation stack: it goes on while the walked
+cells reach less than ``reach_m`` from the wall (the boundary-layer thickness), and no
+further, since nothing asks about cells beyond it.
 
 Distances: the first cell centre's wall distance is its centroid's distance from the
 wall face centroid along the wall normal (half the first-layer height on a prism or
@@ -68,7 +70,7 @@ class WallLayers:
 
     Lengths in metres. ``heights[i, k]`` is the height of the k-th cell walked from face
     ``faces[i]`` (0 beyond ``n_walked[i]``); the first ``n_layers[i]`` of them form the
-    stack. ``max_growth`` is the largest ``h[k+1] / h[k]`` inside the stack (0 with fewer
+    stack. The walk went on past the stack up to ``reach`` m from the wall. ``max_growth`` is the largest ``h[k+1] / h[k]`` inside the stack (0 with fewer
     than two layers), at layer ``growth_layer`` (1-based number of the larger layer).
     ``core_jump`` is the core cell's height over the last layer's where ``end`` is
     ``END_CORE`` (0 elsewhere).
@@ -89,10 +91,12 @@ class WallLayers:
     end: np.ndarray
     core_cell: np.ndarray
     core_jump: np.ndarray
+    reach: float = math.inf
 
     def subset(self, rows: np.ndarray) -> "WallLayers":
         """The stacks of the given rows only (e.g. one boundary's faces)."""
-        return WallLayers(*(getattr(self, f)[rows] for f in self.__dataclass_fields__))
+        return WallLayers(*(getattr(self, f)[rows] for f in self.__dataclass_fields__
+                            if f != "reach"), reach=self.reach)
 
     def rows_of(self, faces: np.ndarray) -> np.ndarray:
         """Row index of each face id in ``faces`` (all must be among ``self.faces``)."""
@@ -103,7 +107,13 @@ class WallLayers:
         return rows
 
     def cells_within(self, distance_m) -> np.ndarray:
-        """Per face, how many walked cells lie wholly within ``distance_m`` of the wall."""
+        """Per face, how many walked cells lie wholly within ``distance_m`` of the wall.
+
+        :raises ValueError: ``distance_m`` is beyond the reach of the walk.
+        """
+        if np.any(np.asarray(distance_m) > self.reach):
+            raise ValueError(f"cells within {np.max(distance_m):g} m asked of a walk that "
+                             f"reached {self.reach:g} m from the wall")
         if self.heights.shape[1] == 0:
             return np.zeros(len(self.faces), dtype=np.int64)
         tops = np.cumsum(self.heights, axis=1)
@@ -113,15 +123,24 @@ class WallLayers:
 
 
 def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, turn_deg: float = 45.0,
-                max_cells: int = 200) -> WallLayers:
-    """The layer stacks above boundary ``faces`` (ids), cached on the mesh per face set."""
+                max_cells: int = 200, reach_m: float = math.inf) -> WallLayers:
+    """The layer stacks above boundary ``faces`` (ids), walked up to ``reach_m`` from the
+    wall; cached on the mesh per face set (a walk that reached further serves too)."""
     faces = np.unique(np.asarray(faces, dtype=np.int64))
     if faces.size and (faces.min() < 0 or faces.max() >= mesh.n_faces
                        or np.any(mesh.neighbour[faces] >= 0)):
         raise ValueError("wall_layers() needs ids of boundary faces (faces with no neighbour)")
+    if not reach_m >= 0:
+        raise ValueError(f"reach_m must be at least 0, got {reach_m!r}")
     digest = hashlib.sha1(faces.tobytes()).hexdigest()
     key = f"wall_layers:{digest}:{max_aspect!r}:{turn_deg!r}:{int(max_cells)}"
-    return mesh.cached(key, lambda: _walk(mesh, faces, max_aspect, turn_deg, int(max_cells)))
+    walks: dict[float, WallLayers] = mesh.cached(key, dict)
+    for reach, layers in walks.items():
+        if reach >= reach_m:
+            return layers
+    layers = _walk(mesh, faces, max_aspect, turn_deg, int(max_cells), float(reach_m))
+    walks[float(reach_m)] = layers
+    return layers
 
 
 #: Face template opposite each face template (-1: none), for the cell types that have one.
@@ -206,7 +225,7 @@ def _unit_normals(mesh: "Mesh", faces: np.ndarray, sign: np.ndarray) -> np.ndarr
 
 
 def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
-          max_cells: int) -> WallLayers:
+          max_cells: int, reach_m: float = math.inf) -> WallLayers:
     """March every stack one cell per step (see the module docstring)."""
     n = len(faces)
     owner, neighbour = mesh.owner, mesh.neighbour
@@ -232,6 +251,7 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
     act, cell, entry, nin = np.arange(n), cells0.copy(), faces.copy(), n_wall.copy()
     x_in = xf[faces]
     a_in = areas[faces]
+    top = np.zeros(n)                        # distance from the wall walked so far, per stack
     for step in range(max_cells):
         if act.size == 0:
             break
@@ -272,7 +292,9 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
         closing = stacking & thin & on_boundary
         end[act[closing]] = END_BOUNDARY
         in_stack[act[closing]] = False
-        go = ok & ~on_boundary
+        top[act[ok]] += h[ok]
+        # past its stack, a walk goes on only while it is within reach of the wall
+        go = ok & ~on_boundary & (in_stack[act] | (top[act] < reach_m))
         nxt = np.where(mine, neighbour[opp], owner[opp])
         act, cell, entry, nin = act[go], nxt[go], opp[go], np.compress(go, nout, axis=0)
         x_in, a_in = np.compress(go, x_out, axis=0), a_out[go]
@@ -297,4 +319,5 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
         last = heights[has_core, n_layers[has_core] - 1]
         core_jump[has_core] = core_h / last
     return WallLayers(faces, cells0, n_wall, centre, first, layered_first, n_layers, n_walked,
-                      heights, thickness, max_growth, growth_layer, end, core_cell, core_jump)
+                      heights, thickness, max_growth, growth_layer, end, core_cell, core_jump,
+                      reach=reach_m)

@@ -89,10 +89,12 @@ def check_wall_spacing_uniformity(ctx: "RuleContext") -> RuleResult:
 
 def check_boundary_layer_cells(ctx: "RuleContext") -> RuleResult:
     """Cells within the estimated boundary-layer thickness, and the stack against it."""
-    found = walls(ctx)
+    flow = wall_flow.flow_data(ctx.case)
+    known = not isinstance(flow, str) and flow.length
+    delta, how = wall_flow.boundary_layer_thickness(flow) if known else (0.0, "")
+    found = walls(ctx, reach_m=delta)            # cells are counted up to delta only
     if isinstance(found, str):
         return RuleResult.skip(found)
-    flow = wall_flow.flow_data(ctx.case)
     if isinstance(flow, str):
         return RuleResult.skip(flow)
     if not flow.length:
@@ -101,7 +103,6 @@ def check_boundary_layer_cells(ctx: "RuleContext") -> RuleResult:
         cover_min = number(ctx.params, "stack_cover_min", allow_none=True)
     except ValueError as exc:
         return RuleResult.skip(str(exc))
-    delta, how = wall_flow.boundary_layer_thickness(flow)
     mesh, layers = ctx.mesh, found.layers
     count = layers.cells_within(delta).astype(np.float64)
     cover = settled(layers.thickness / delta)

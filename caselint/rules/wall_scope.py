@@ -31,8 +31,11 @@ class Walls:
         return zip(self.names, self.rows)
 
 
-def walls(ctx: "RuleContext") -> Walls | str:
-    """The wall boundaries with faces in the mesh and their stacks, or a skip reason."""
+def walls(ctx: "RuleContext", reach_m: float = 0.0) -> Walls | str:
+    """The wall boundaries with faces in the mesh and their stacks, or a skip reason.
+
+    The walks go past each stack up to ``reach_m`` from the wall (none further by default).
+    """
     named = sorted(n for n, role in ctx.case.mesh.boundaries.items() if role == "wall")
     if not named:
         return "no boundary has role wall in mesh.boundaries"
@@ -41,7 +44,7 @@ def walls(ctx: "RuleContext") -> Walls | str:
     groups = [(n, f) for n, f in groups if f.size]
     if not groups:
         return f"the wall boundaries ({', '.join(named)}) have no faces in the mesh"
-    layers = wall_layers(mesh, np.concatenate([f for _, f in groups]))
+    layers = wall_layers(mesh, np.concatenate([f for _, f in groups]), reach_m=reach_m)
     rows = tuple(layers.rows_of(np.sort(f)) for _, f in groups)
     return Walls(tuple(n for n, _ in groups), rows, layers)
 
