@@ -109,3 +109,14 @@ def test_a_single_cell_mesh_is_left_alone():
     mesh = mesh_from_meshio(meshio.Mesh(pts, [("tetra", np.array([[0, 1, 2, 3]]))]))
     assert mesh.file_cell_ids().tolist() == [0]
     assert mesh.in_file_order(mesh.cell_volumes) == mesh.cell_volumes
+
+
+def test_point_order_is_the_stable_sort_of_the_codes():
+    # Reference: numpy's stable argsort; coincident points (equal codes) keep file order.
+    from caselint.mesh.ordering import _sorted_order
+
+    rng = np.random.default_rng(11)
+    codes = rng.integers(0, 50, size=5000).astype(np.uint64)       # many ties
+    np.testing.assert_array_equal(_sorted_order(codes), np.argsort(codes, kind="stable"))
+    unique = rng.permutation(10_000).astype(np.uint64)
+    np.testing.assert_array_equal(_sorted_order(unique), np.argsort(unique, kind="stable"))
