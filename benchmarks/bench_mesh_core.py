@@ -65,6 +65,9 @@ def make_files(n: int, folder: Path) -> dict[str, Path]:
 
 def worker(mode: str, path: str, traced: bool) -> dict:
     """One measurement in this process: returns seconds per stage and memory in MB."""
+    from caselint.allocator import tune_allocator
+
+    tune_allocator()          # as `caselint check` does for its own process, in both modes
     if traced:
         tracemalloc.start()
     stages: dict[str, float] = {}
