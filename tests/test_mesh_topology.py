@@ -169,3 +169,40 @@ def test_2d_edges_owner_neighbour_and_groups():
     assert len(flipped.clashing_faces) == 1
     assert {g: len(mesh.group_faces(g)) for g in mesh.group_names} == {
         "xmin": 3, "xmax": 3, "ymin": 4, "ymax": 4}
+
+
+def test_cell_of_each_half_face_matches_a_table_on_mixed_blocks():
+    # Reference: the table of cells repeated once per face template, block by block.
+    from caselint.mesh.celltypes import FACES
+    from caselint.mesh.topology import HalfFaceCells
+    from near_wall_meshes import geometric, prism_block
+
+    mesh = mesh_from_meshio(prism_block(geometric(1e-3, 1.2, 3), [0.05]))
+    assert len(mesh.cell_blocks) == 2
+    table = np.concatenate([np.repeat(np.arange(b.start, b.stop), len(FACES[b.type]))
+                            for b in mesh.cell_blocks])
+    cells = HalfFaceCells(mesh)
+    every = np.arange(table.size)
+    np.testing.assert_array_equal(cells[every], table)
+    np.testing.assert_array_equal(cells[every[::-7]], table[::-7])
+
+
+def test_faces_sharing_a_diagonal_are_told_apart_by_the_other_one():
+    # Quadrilateral (0, 1, 2, 3) of cell A and (0, 8, 2, 9) of cell B share the diagonal
+    # 0-2, the key the pairing sorts on; the other diagonal (1-3 against 8-9) tells them
+    # apart, so neither is paired. Cell C sits on A's top face (4, 5, 6, 7): one real pair.
+    rng = np.random.default_rng(5)
+    pts = rng.uniform(0.0, 1.0, (18, 3))
+    cells = np.array([[0, 1, 2, 3, 4, 5, 6, 7],
+                      [0, 8, 2, 9, 10, 11, 12, 13],
+                      [4, 5, 6, 7, 14, 15, 16, 17]])
+    mesh = mesh_from_meshio(meshio.Mesh(pts, [("hexahedron", cells)]))
+    assert mesh.n_faces == 3 * 6 - 1
+    inner = np.flatnonzero(mesh.neighbour >= 0)
+    assert len(inner) == 1
+    assert set(mesh.file_point_ids(mesh.faces[inner[0]]).tolist()) == {4, 5, 6, 7}
+    pair = {int(mesh.file_cell_ids(mesh.owner[inner[0]])),
+            int(mesh.file_cell_ids(mesh.neighbour[inner[0]]))}
+    assert pair == {0, 2}
+    diagonal = [f for f in mesh.file_point_ids(mesh.faces).tolist() if {0, 2} <= set(f)]
+    assert sorted(map(sorted, diagonal)) == [[0, 1, 2, 3], [0, 2, 8, 9]]

@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
+from caselint.mesh.geometry import chunks
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
 from caselint.rules.mesh_quality import finite_point, first_cells, plural
 
@@ -81,11 +82,23 @@ def cells_using(mesh: "Mesh", point_ids: np.ndarray) -> np.ndarray:
 def cell_pieces(mesh: "Mesh") -> np.ndarray:
     """(C,) label of each cell's connected piece (the lowest cell id in it), joined through
     internal faces: hook each root onto the smaller root across a face, then pointer-jump."""
-    label = np.arange(mesh.n_cells, dtype=np.int64)
-    internal = mesh.neighbour >= 0
-    a_cells, b_cells = mesh.owner[internal], mesh.neighbour[internal]
+    # int32 ids where they fit: half the memory, and on a large mesh first touches of new
+    # memory cost as much as the arithmetic (benchmarks/README.md)
+    dtype = np.int32 if mesh.n_cells < 2**31 else np.int64
+    label = np.arange(mesh.n_cells, dtype=dtype)
+    owner, neighbour = mesh.owner, mesh.neighbour
+    inner = neighbour >= 0
+    a_cells = np.empty(int(np.count_nonzero(inner)), dtype=dtype)
+    b_cells = np.empty_like(a_cells)
+    at = 0
+    for sl in chunks(len(owner), 1 << 20):      # no face-long int64 temporaries
+        keep = inner[sl]
+        k = int(np.count_nonzero(keep))
+        a_cells[at : at + k] = np.compress(keep, owner[sl])
+        b_cells[at : at + k] = np.compress(keep, neighbour[sl])
+        at += k
     while True:
-        a, b = label[a_cells], label[b_cells]
+        a, b = np.take(label, a_cells), np.take(label, b_cells)
         differ = a != b
         if not differ.any():
             return label
