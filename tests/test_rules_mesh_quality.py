@@ -240,6 +240,17 @@ def test_worst_ids_lists_worst_first_ties_by_id_and_counts_all():
     many = np.concatenate([np.full(20, 7.0), np.full(10, 6.0)])[::-1].copy()
     ids, count = worst_ids(many, 1.0)
     assert count == 30 and ids.tolist() == list(range(10, 20))
+    # with names (the file's ids), ties go to the lowest name, listed or single
+    names = np.arange(30)[::-1].copy()
+    ids, count = worst_ids(many, 1.0, names=names)
+    assert count == 30 and sorted(names[ids].tolist()) == list(range(10))
+    ids, count = worst_ids(values, None, names=np.array([9, 8, 7, 6, 5]))
+    assert ids.tolist() == [3] and count == 0          # 5.0 at ids 1 and 3: name 6 < 8
+    ids, count = worst_ids(values, 9.0, worse="higher")  # nothing past: the worst, uncounted
+    assert ids.tolist() == [1] and count == 0
+    ids, count = worst_ids(np.array([1.0, np.nan, 3.0]), None)   # NaN is the worst
+    assert ids.tolist() == [1]
+    assert worst_ids(np.array([]), None)[0].size == 0
 
 
 def test_rules_are_registered_and_documented():

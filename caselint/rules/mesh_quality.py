@@ -53,18 +53,14 @@ def worst_ids(values: np.ndarray, threshold: float | None, worse: str = "higher"
     """
     sign = 1.0 if worse == "higher" else -1.0
     badness = sign * values
-    if threshold is None:
-        count = 0
-        candidates = np.arange(values.size)
-    else:
+    count = 0
+    if threshold is not None:
         candidates = np.flatnonzero(badness > sign * threshold)
         count = int(candidates.size)
-        if count == 0:
-            candidates = np.arange(values.size)
-    if candidates.size == 0:
-        return np.empty(0, dtype=np.int64), 0
-    keep = MAX_LISTED_IDS if count else 1
-    cand_bad = badness if candidates.size == values.size else badness[candidates]
+    if count == 0:
+        return _single_worst(badness, names), 0
+    keep = MAX_LISTED_IDS
+    cand_bad = badness[candidates]
     if candidates.size > keep:
         # the candidates worse than the keep-th worst, then the lowest ids of those tied
         # with it (candidates are in id order); a structured mesh can tie millions of
@@ -81,6 +77,19 @@ def worst_ids(values: np.ndarray, threshold: float | None, worse: str = "higher"
     tie = candidates if names is None else names[candidates]
     order = np.lexsort((tie, -cand_bad))
     return candidates[order][:keep].astype(np.int64), count
+
+
+def _single_worst(badness: np.ndarray, names: np.ndarray | None) -> np.ndarray:
+    """The one worst id (ties: the lowest id or name; a NaN counts as worst), or none.
+
+    One pass over the values: no sort, no id array as long as the mesh.
+    """
+    if badness.size == 0:
+        return np.empty(0, dtype=np.int64)
+    top = np.max(badness)
+    tied = np.flatnonzero(np.isnan(badness) if np.isnan(top) else badness == top)
+    pick = tied[np.argmin(names[tied])] if names is not None and tied.size > 1 else tied[0]
+    return np.array([pick], dtype=np.int64)
 
 
 def cell_names(mesh: "Mesh", cells: np.ndarray) -> tuple[int, ...]:
@@ -116,14 +125,19 @@ def _cells_of_faces(mesh: "Mesh", faces: np.ndarray) -> np.ndarray:
     return pairs[np.sort(first)]
 
 
-def _face_where(mesh: "Mesh", values: np.ndarray, limits: Limits, faces_considered: np.ndarray):
-    """Where of a face metric over ``faces_considered``, plus (worst face, offender count)."""
+def _face_where(mesh: "Mesh", values: np.ndarray, limits: Limits,
+                faces_considered: np.ndarray | None):
+    """Where of a face metric over ``faces_considered`` (None: all faces), plus (worst face,
+    offender count)."""
     threshold = limits.warn if limits.warn is not None else limits.error
-    local, count = worst_ids(values[faces_considered], threshold)
-    listed = faces_considered[local]
+    considered = values if faces_considered is None else values[faces_considered]
+    local, count = worst_ids(considered, threshold)
+    listed = local if faces_considered is None else faces_considered[local]
     worst = int(listed[0])
     if count:
-        offenders = faces_considered[values[faces_considered] > threshold]
+        offenders = np.flatnonzero(considered > threshold)
+        if faces_considered is not None:
+            offenders = faces_considered[offenders]
         # distinct cells by marking (linear; np.unique sorts millions of offenders)
         touched = np.zeros(mesh.n_cells, dtype=bool)
         touched[mesh.owner[offenders]] = True
@@ -166,11 +180,12 @@ def _nonfinite_skip(values: np.ndarray, what: str) -> RuleResult | None:
     )
 
 
-def _face_rule_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray, what: str,
-                      unit_words: str, fmt: str) -> RuleResult:
-    """Measurement of the maximum of a face metric, with the offending faces located."""
+def _face_rule_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None,
+                      what: str, unit_words: str, fmt: str) -> RuleResult:
+    """Measurement of the maximum of a face metric over ``faces`` (None: all), with the
+    offending faces located."""
     mesh = ctx.mesh
-    skip = _nonfinite_skip(values[faces], what)
+    skip = _nonfinite_skip(values if faces is None else values[faces], what)
     if skip is not None:
         return skip
     where, worst, count = _face_where(mesh, values, ctx.limits, faces)
@@ -238,8 +253,7 @@ def check_non_orthogonality(ctx: "RuleContext") -> RuleResult:
     if (skip := _no_cells(mesh)) is not None:
         return skip
     values = quality.non_orthogonality_deg(mesh)
-    result = _face_rule_result(ctx, values, np.arange(mesh.n_faces), "non-orthogonality", " deg",
-                               ".1f")
+    result = _face_rule_result(ctx, values, None, "non-orthogonality", " deg", ".1f")
     # 5 deg bins over 0-90 deg; the plot counts faces beyond 90 deg (flipped) separately.
     edges = np.linspace(0.0, 90.0, 19)
     return _with_histogram(result, ctx, values, edges, "Face non-orthogonality",
