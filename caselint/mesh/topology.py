@@ -26,6 +26,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from caselint.mesh.celltypes import FACES, TRIANGLE_FACES, face_index
+from caselint.mesh.geometry import chunks
 
 if TYPE_CHECKING:
     from caselint.mesh.model import BoundaryElements, Mesh
@@ -207,8 +208,7 @@ def _chunked(func, columns: list[np.ndarray], dtypes: tuple) -> tuple[np.ndarray
     """``func`` applied to slices of ``columns``, results joined into preallocated arrays."""
     n = len(columns[0])
     outs = tuple(np.empty(n, dtype=dt) for dt in dtypes)
-    for lo in range(0, n, PASS):
-        sl = slice(lo, min(lo + PASS, n))
+    for sl in chunks(n, PASS):
         parts = func([col[sl] for col in columns])
         for out, part in zip(outs, parts if isinstance(parts, tuple) else (parts,)):
             out[sl] = part
@@ -284,9 +284,8 @@ def _sort_keys(k1: np.ndarray, k2: np.ndarray | None) -> tuple[np.ndarray, np.nd
     order = np.argsort(k1)
     n = len(order)
     same = np.empty(max(n - 1, 0), dtype=bool)
-    step = 16 * PASS
-    for lo in range(0, n - 1, step):              # cache-sized gathers of the sorted keys
-        o = order[lo : min(lo + step, n - 1) + 1]
+    for sl in chunks(n - 1, 16 * PASS):           # cache-sized gathers of the sorted keys
+        o = order[sl.start : sl.stop + 1]
         s1 = k1[o]
         run = s1[1:] == s1[:-1]
         if k2 is not None:
@@ -295,7 +294,7 @@ def _sort_keys(k1: np.ndarray, k2: np.ndarray | None) -> tuple[np.ndarray, np.nd
             if np.any(run & differ):              # two faces share a first key: sort both
                 return _sort_both(k1, k2)
             run &= ~differ
-        same[lo : lo + len(run)] = run
+        same[sl] = run
     return order, same
 
 
@@ -322,8 +321,8 @@ def _pair_runs(order, same, hidx, bit, hcell, marks) -> None:
     bad = [crowd if hidx is None else hidx[crowd]]
     pairs = starts[lengths == 2]
     del starts, lengths
-    for lo in range(0, len(pairs), 16 * PASS):     # cache-sized temporaries
-        pair = pairs[lo : lo + 16 * PASS]
+    for sl in chunks(len(pairs), 16 * PASS):     # cache-sized temporaries
+        pair = pairs[sl]
         first, second = order[pair], order[pair + 1]
         # Both cells list a consistently oriented face in opposite directions.
         clashing = bit[first] == bit[second]
