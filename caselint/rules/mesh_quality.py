@@ -125,12 +125,11 @@ def _cells_of_faces(mesh: "Mesh", faces: np.ndarray) -> np.ndarray:
     return pairs[np.sort(first)]
 
 
-def _face_where(mesh: "Mesh", values: np.ndarray, limits: Limits,
+def _face_where(mesh: "Mesh", considered: np.ndarray, limits: Limits,
                 faces_considered: np.ndarray | None):
-    """Where of a face metric over ``faces_considered`` (None: all faces), plus (worst face,
-    offender count)."""
+    """Where of a face metric, given its ``considered`` values on ``faces_considered``
+    (None: all faces), plus (worst face, offender count)."""
     threshold = limits.warn if limits.warn is not None else limits.error
-    considered = values if faces_considered is None else values[faces_considered]
     local, count = worst_ids(considered, threshold)
     listed = local if faces_considered is None else faces_considered[local]
     worst = int(listed[0])
@@ -185,10 +184,11 @@ def _face_rule_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray 
     """Measurement of the maximum of a face metric over ``faces`` (None: all), with the
     offending faces located."""
     mesh = ctx.mesh
-    skip = _nonfinite_skip(values if faces is None else values[faces], what)
+    considered = values if faces is None else values[faces]
+    skip = _nonfinite_skip(considered, what)
     if skip is not None:
         return skip
-    where, worst, count = _face_where(mesh, values, ctx.limits, faces)
+    where, worst, count = _face_where(mesh, considered, ctx.limits, faces)
     value = float(values[worst])
     threshold = ctx.limits.warn if ctx.limits.warn is not None else ctx.limits.error
     if count:
