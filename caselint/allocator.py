@@ -15,9 +15,10 @@ the arithmetic done in it on Linux:
 ``NUMPY_MADVISE_HUGEPAGE=0`` makes) and asks glibc, through ``mallopt``, to serve blocks
 up to 32 MiB from its heap and keep up to 1 GiB of freed memory for reuse. Measured on
 the 1M shuffled-hexahedra benchmark (three alternating pairs of fresh processes): a check
-8.1-8.7 s without, 6.7-7.0 s with; the peak resident set about the same (0.87-0.93 GB). Only the command line and its worker processes call it: a library must
-not change the process of the program that imports it. ``CASELINT_ALLOCATOR=default``
-leaves both settings alone.
+8.1-8.7 s without, 6.7-7.0 s with; the peak resident set about the same (0.87-0.93 GB).
+Only the command line and its worker processes call it: a library must not change the
+process of the program that imports it. ``CASELINT_ALLOCATOR=default`` leaves both
+settings alone.
 """
 
 from __future__ import annotations

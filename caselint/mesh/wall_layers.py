@@ -70,8 +70,9 @@ class WallLayers:
 
     Lengths in metres. ``heights[i, k]`` is the height of the k-th cell walked from face
     ``faces[i]`` (0 beyond ``n_walked[i]``); the first ``n_layers[i]`` of them form the
-    stack. The walk went on past the stack up to ``reach`` m from the wall. ``max_growth`` is the largest ``h[k+1] / h[k]`` inside the stack (0 with fewer
-    than two layers), at layer ``growth_layer`` (1-based number of the larger layer).
+    stack; the walk went on past the stack up to ``reach`` m from the wall.
+    ``max_growth`` is the largest ``h[k+1] / h[k]`` inside the stack (0 with fewer than
+    two layers), at layer ``growth_layer`` (1-based number of the larger layer).
     ``core_jump`` is the core cell's height over the last layer's where ``end`` is
     ``END_CORE`` (0 elsewhere).
     """
