@@ -26,7 +26,7 @@ if TYPE_CHECKING:
     import pluggy
 
     from caselint.manifest.case import Case
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 
 def load_case(path: str | Path, pm: "pluggy.PluginManager | None" = None) -> "Case":

@@ -34,7 +34,7 @@ from typing import TYPE_CHECKING
 from caselint import __version__
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Environment variable naming the cache folder.
 ENV_DIR = "CASELINT_CACHE_DIR"
@@ -92,12 +92,12 @@ class MeshCache:
         """The cached mesh of ``key`` (named ``path``), or None when absent or unreadable."""
         import numpy as np
 
-        from caselint.mesh.model import Mesh
+        from caselint.mesh.arrays import mesh_from_arrays
 
         file = self.entry(key)
         try:
             with np.load(file, allow_pickle=False) as arrays:
-                mesh = Mesh.from_arrays(arrays, path=path)
+                mesh = mesh_from_arrays(arrays, path=path)
             os.utime(file)          # recently used: trimmed last
             return mesh
         except FileNotFoundError:
@@ -111,6 +111,8 @@ class MeshCache:
         """Write ``mesh`` under ``key`` (atomically); False when it was not written."""
         import numpy as np
 
+        from caselint.mesh.arrays import mesh_to_arrays
+
         if mesh.n_cells < self.min_cells:
             return False
         try:
@@ -120,7 +122,7 @@ class MeshCache:
             return False
         try:
             with os.fdopen(fd, "wb") as handle:
-                np.savez(handle, **mesh.to_arrays())
+                np.savez(handle, **mesh_to_arrays(mesh))
             os.replace(tmp, self.entry(key))
         except OSError:
             with contextlib.suppress(OSError):

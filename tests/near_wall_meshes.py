@@ -42,7 +42,7 @@ def with_sides(points: np.ndarray, blocks: list[tuple[str, np.ndarray]],
     """``points`` and volume ``blocks`` plus boundary faces grouped by bounding-box side."""
     bare = mesh_from_meshio(meshio.Mesh(points, blocks))
     exposed = bare.boundary_faces
-    verts, cent = bare.file_point_ids(bare.faces[exposed]), bare.face_centroids[exposed]
+    verts, cent = bare.file_point_ids(bare.face_point_table(exposed)), bare.face_centroids[exposed]
     lo, hi = points.min(axis=0), points.max(axis=0)
     tol = 1e-9 * float(np.max(hi - lo))
     side = np.full(len(exposed), -1)

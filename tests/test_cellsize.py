@@ -1,5 +1,6 @@
-"""Cell volumes without topology (caselint.mesh.cellsize) against caselint's geometry,
-analytic volumes and VTK's vtkCellSizeFilter; first-layer heights on graded blocks.
+"""Cell volumes of mixed and tetrahedral meshes against analytic volumes and VTK's
+vtkCellSizeFilter; mesh sizes and first-layer heights (caselint.mesh.cellsize) on graded
+blocks.
 """
 
 from __future__ import annotations
@@ -13,7 +14,7 @@ from vtk.util.numpy_support import numpy_to_vtk, numpy_to_vtkIdTypeArray, vtk_to
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import graded, shuffled, structured_hex, structured_quad, tetrahedralise
 from caselint.mesh.celltypes import FACES
-from caselint.mesh.cellsize import first_layer_heights, local_cell_volumes, mesh_size
+from caselint.mesh.cellsize import first_layer_heights, mesh_size
 
 SEED = 20260612
 
@@ -47,27 +48,25 @@ def mixed_block(amplitude: float) -> meshio.Mesh:
     return meshio.Mesh(points, [("wedge", wedges), ("pyramid", pyramids), ("hexahedron", rest)])
 
 
-def test_local_volumes_equal_the_geometry_of_a_mixed_mesh():
+def test_volumes_of_a_mixed_mesh():
     mesh = mesh_from_meshio(mixed_block(0.03))
-    local = local_cell_volumes(mesh)
-    np.testing.assert_allclose(local, mesh.cell_volumes, rtol=1e-12, atol=1e-15)
-    assert np.all(local > 0)
+    assert np.all(mesh.cell_volumes > 0)
     # the box is 0.8 x 0.9 x 0.5 m = 0.36 m^3 [computed]
-    box = local_cell_volumes(mesh_from_meshio(mixed_block(0.0)))
+    box = mesh_from_meshio(mixed_block(0.0)).cell_volumes
     assert box.sum() == pytest.approx(0.36, rel=1e-12)
 
 
-def test_local_volumes_of_shuffled_tets_match_vtk():
+def test_volumes_of_shuffled_tets_match_vtk():
     block = structured_hex(graded(0, 2, 6, 1.2), graded(0, 1, 4, 0.9), np.linspace(0, 0.5, 4))
     m = shuffled(tetrahedralise(perturbed(block, 0.02)), 5)
     mesh = mesh_from_meshio(m)
-    local = local_cell_volumes(mesh)
+    local = mesh.cell_volumes
     # Reference: VTK 9.7 vtkCellSizeFilter (exact tetrahedron volumes)
     grid = vtk.vtkUnstructuredGrid()
     pts = vtk.vtkPoints()
     pts.SetData(numpy_to_vtk(np.ascontiguousarray(mesh.points), deep=True))
     grid.SetPoints(pts)
-    conn = mesh.cell_blocks[0].connectivity
+    conn = mesh.data.shapes[0].connectivity
     cells = vtk.vtkCellArray()
     offsets = np.arange(0, 4 * len(conn) + 1, 4, dtype=np.int64)
     cells.SetData(numpy_to_vtkIdTypeArray(offsets, deep=True),

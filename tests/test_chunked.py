@@ -46,7 +46,7 @@ def _analyse(raw, walls, chunk, monkeypatch):
     out = {
         "area_vectors": mesh.face_area_vectors, "face_centroids": mesh.face_centroids,
         "volumes": mesh.cell_volumes, "cell_centroids": mesh.cell_centroids,
-        "vertex_means": mesh.cell_vertex_means,
+        "apex": mesh.geometry.apex, "face_warp": quality.face_warp_deg(mesh),
         "non_orthogonality": quality.non_orthogonality_deg(mesh),
         "skewness": quality.skewness(mesh), "growth": quality.growth_ratio(mesh),
         "scaled_jacobian": quality.scaled_jacobian(mesh),

@@ -407,7 +407,7 @@ def test_coincident_points_match_a_kd_tree():
     hexes[swap] = remap[hexes[swap]]                 # some cells use the copies
     mesh = mesh_from_meshio(meshio.Mesh(points, [("hexahedron", hexes)]))
     ids, extra = integrity.coincident_points(mesh)
-    used = np.flatnonzero(integrity.used_points(mesh))
+    used = np.flatnonzero(mesh.used_points())
     pairs = cKDTree(mesh.points[used]).query_pairs(r=1e-9, output_type="ndarray")
     assert extra == len(pairs)                       # no triple: one pair per copy
     assert set(ids.tolist()) == set(used[pairs.ravel()].tolist())

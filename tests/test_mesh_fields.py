@@ -39,10 +39,10 @@ def test_cell_data_is_joined_over_volume_blocks_in_cell_order():
     mesh = mesh_from_meshio(m, scale_to_m=1e-3)
     assert set(mesh.cell_data) == {"U"} and set(mesh.point_data) == {"T"}
     assert mesh.cell_data["U"].shape == (mesh.n_cells, 3) == (n_hex + n_tet, 3)
-    hex_block = next(b for b in mesh.cell_blocks if b.type == "hexahedron")
-    tet_block = next(b for b in mesh.cell_blocks if b.type == "tetra")
-    assert np.array_equal(mesh.cell_data["U"][hex_block.start:hex_block.stop], u_hex)
-    assert np.array_equal(mesh.cell_data["U"][tet_block.start:tet_block.stop], u_tet)
+    hex_block = next(b for b in mesh.data.shapes if b.type == "hexahedron")
+    tet_block = next(b for b in mesh.data.shapes if b.type == "tetra")
+    assert np.array_equal(mesh.cell_data["U"][hex_block.cells], u_hex)
+    assert np.array_equal(mesh.cell_data["U"][tet_block.cells], u_tet)
     # caselint renumbers points for locality; each keeps its own value, not scaled
     assert np.array_equal(mesh.point_data["T"], mesh.file_point_ids())
     assert np.array_equal(mesh.in_file_order(mesh.point_data["T"], "point"),
@@ -67,9 +67,8 @@ def test_meshes_without_fields_have_empty_mappings():
 
 
 def test_field_rows_must_match_the_mesh():
-    from caselint.mesh.model import Mesh
+    import dataclasses
 
     good = mesh_from_meshio(structured_hex([0, 1], [0, 1], [0, 1]))
     with pytest.raises(ValueError, match="point data 'U' has 3 rows for 8 points"):
-        Mesh(path="x", points=good.points, dim=3, cell_blocks=good.cell_blocks,
-             point_data={"U": np.zeros((3, 3))})
+        dataclasses.replace(good.data, point_data={"U": np.zeros((3, 3))})

@@ -97,12 +97,12 @@ def case(tmp_path):
 
 
 def test_check_refuses_a_mesh_over_the_limit_with_a_clear_message(case, monkeypatch):
-    import caselint.mesh.topology as topology
+    import caselint.mesh.build as build
 
     def never(*args, **kwargs):
-        raise AssertionError("topology was built before the memory check")
+        raise AssertionError("faces were built before the memory check")
 
-    monkeypatch.setattr(topology, "build_topology", never)
+    monkeypatch.setattr(build, "pair_faces", never)
     code, out, err = run_cli("check", str(case), "--memory-limit", "100MB")
     assert (code, out) == (2, "")
     # 12 hexahedra and 32 boundary quads: 100 MB fixed + 12 x 900 B + 32 x 200 B

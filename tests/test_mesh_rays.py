@@ -20,7 +20,7 @@ from caselint.mesh.blocks import (
 )
 from caselint.mesh.obstacles import carved_hex
 from caselint.mesh.rays import (
-    LOST, OPEN, WALL, cell_face_table, cell_faces_csr, hit_angles_deg, march, wall_rays,
+    LOST, OPEN, WALL, cell_face_table, hit_angles_deg, march, wall_rays,
 )
 
 CHANNEL_SIDES = ("inlet", "outlet", "floor", "ceiling", "front", "back")
@@ -94,10 +94,12 @@ def test_step_limit_stops_rays_as_lost_without_nan():
 
 def test_cell_face_incidence_lists_each_cells_faces():
     mesh = mesh_from_meshio(tetrahedralise(structured_hex(*(np.linspace(0, 1, 3),) * 3)))
-    offsets, faces = cell_faces_csr(mesh)
+    incidence = mesh.cell_faces
+    offsets, faces = incidence.offsets, incidence.faces
     assert np.all(np.diff(offsets) == 4)            # every tetrahedron has four faces
     cell = np.repeat(np.arange(mesh.n_cells), 4)
     assert np.all((mesh.owner[faces] == cell) | (mesh.neighbour[faces] == cell))
+    assert np.array_equal(incidence.owned, mesh.owner[faces] == cell)
     assert faces.size == mesh.n_faces + np.count_nonzero(mesh.neighbour >= 0)
     table = cell_face_table(mesh)
     assert table.shape == (mesh.n_cells, 4)
@@ -119,7 +121,7 @@ def test_slot_between_two_blocks_is_a_gap_between_their_groups():
 
 def _vtk_cells_along(mesh, hits, samples: int) -> np.ndarray:
     """Per ray, how many distinct cells VTK's probe finds along it (sampled)."""
-    conn = mesh.cell_blocks[0].connectivity.astype(np.int64)
+    conn = mesh.data.shapes[0].connectivity.astype(np.int64)
     n, k = conn.shape
     grid = vtk.vtkUnstructuredGrid()
     pts = vtk.vtkPoints()

@@ -11,7 +11,10 @@ import numpy as np
 
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import shuffled, structured_hex, tetrahedralise
-from caselint.mesh.model import CellBlock, Mesh
+from caselint.mesh.analysis import Mesh
+from caselint.mesh.arrays import mesh_from_arrays, mesh_to_arrays
+from caselint.mesh.build import mesh_from_elements
+from caselint.mesh.pairing import ElementBlock
 from caselint.mesh.ordering import _spread, morton_codes, spatial_order
 
 
@@ -52,8 +55,9 @@ def test_shuffled_block_gets_neighbours_close_in_memory():
     ordered = mesh_from_meshio(mixed)
     # the file's own numbering, not renumbered: a Mesh built directly
     conn = np.asarray(mixed.cells[0].data, dtype=np.int32)
-    as_read = Mesh(path="mixed", points=np.asarray(mixed.points, float), dim=3,
-                   cell_blocks=(CellBlock("hexahedron", conn, 0),))
+    as_read = Mesh(mesh_from_elements(path="mixed", points=np.asarray(mixed.points, float),
+                                      dim=3, blocks=(ElementBlock("hexahedron", conn, 0),),
+                                      renumber=False))
     # a random numbering puts a cell's neighbours a third of the mesh away on average;
     # the Morton order brings them within a few hundred ids (a 20^3 block: one layer is 400)
     assert _mean_id_jump(as_read) > 2000
@@ -69,7 +73,7 @@ def test_file_ids_name_the_same_cells_and_points():
     assert sorted(cells.tolist()) == list(range(mesh.n_cells))        # a permutation
     assert sorted(points.tolist()) == list(range(mesh.n_points))
     # caselint's cell i is the file's cell cells[i]: same corners, renamed
-    conn = mesh.cell_blocks[0].connectivity
+    conn = mesh.data.shapes[0].connectivity
     assert np.array_equal(points[conn], m.cells[0].data[cells])
     assert np.array_equal(mesh.points, m.points[points])
     # per-cell values back in the file's order
@@ -80,12 +84,13 @@ def test_file_ids_name_the_same_cells_and_points():
     assert np.allclose(np.abs(volumes), expected, rtol=1e-12)
 
 
-def test_renumbering_twice_still_maps_to_the_file():
+def test_renumbering_an_ordered_block_keeps_its_order():
     m = shuffled(structured_hex(*(np.linspace(0.0, 1.0, 4),) * 3), seed=1)
     once = mesh_from_meshio(m)
-    twice = spatial_order(once)
-    assert np.array_equal(twice.file_cell_ids(), once.file_cell_ids())   # already in order
-    assert np.array_equal(m.points[twice.file_point_ids()], twice.points)
+    conn = once.data.shapes[0].connectivity
+    again = spatial_order(once.points, [ElementBlock("hexahedron", conn, 0)])
+    assert np.array_equal(again.cell_order, np.arange(once.n_cells))      # already in order
+    assert np.array_equal(again.point_order, np.arange(once.n_points))
 
 
 def test_fields_move_with_their_cells_and_points():
@@ -99,7 +104,7 @@ def test_fields_move_with_their_cells_and_points():
 
 def test_file_ids_survive_the_plain_array_form():
     mesh = mesh_from_meshio(shuffled(structured_hex(*(np.linspace(0.0, 1.0, 4),) * 3), seed=8))
-    back = Mesh.from_arrays(mesh.to_arrays())
+    back = mesh_from_arrays(mesh_to_arrays(mesh))
     assert np.array_equal(back.file_cell_ids(), mesh.file_cell_ids())
     assert np.array_equal(back.file_point_ids(), mesh.file_point_ids())
 

@@ -92,7 +92,7 @@ def test_courant_of_convex_cells_matches_the_shadow_area(seed):
     e1 = np.cross(n, [0.0, 0.0, 1.0])
     e1 /= np.linalg.norm(e1)
     e2 = np.cross(n, e1)
-    tets = mesh.cell_blocks[0].connectivity
+    tets = mesh.data.shapes[0].connectivity
     for cell in (0, 7, len(tets) - 1):
         xyz = mesh.points[tets[cell]]
         volume = ConvexHull(xyz).volume
@@ -249,7 +249,7 @@ def test_face_velocity_from_points_and_cells():
     a = np.array([[1.0, 0.5, 0.0], [0.0, 2.0, 0.3], [0.1, 0.0, -1.0]])
     point_u = mesh.points @ a.T                  # a linear field: face mean = value at mean
     faces = timestep.face_velocity_from_points(mesh, point_u)
-    tri_mean = mesh.points[mesh.faces[:, :3]].mean(axis=1)
+    tri_mean = mesh.points[mesh.face_point_table()[:, :3]].mean(axis=1)
     assert faces == pytest.approx(tri_mean @ a.T, abs=1e-12)
     cell_u = np.arange(mesh.n_cells * 3, dtype=float).reshape(-1, 3)
     faces = timestep.face_velocity_from_cells(mesh, cell_u)

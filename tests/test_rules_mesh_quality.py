@@ -17,7 +17,7 @@ import pytest
 
 from caselint.engine.context import RuleContext
 from caselint.manifest.case import Case, CaseInfo, MeshSpec
-from caselint.mesh import Mesh, mesh_from_meshio
+from caselint.mesh import Mesh, MeshData, mesh_from_meshio
 from caselint.mesh.blocks import graded, structured_hex, tetrahedralise
 from caselint.model import Limits, Rule, RuleResult
 from caselint.rules import mesh_quality
@@ -165,7 +165,11 @@ def test_flattened_single_cell_counts_and_skips_neighbour_rules():
 
 
 def test_mesh_without_cells_is_skipped_not_passed():
-    empty = Mesh(path="empty", points=np.zeros((1, 3)), dim=3, cell_blocks=())
+    empty = Mesh(MeshData(path="empty", points=np.zeros((1, 3)), dim=3,
+                          face_offsets=np.zeros(1, dtype=np.int64),
+                          face_points=np.zeros(0, dtype=np.int32), owner=np.zeros(0, np.int32),
+                          neighbour=np.zeros(0, np.int32), n_cells=0,
+                          face_group=np.zeros(0, np.int32)))
     for rule in mesh_quality.RULES:
         assert run(rule, empty).skipped == "the mesh has no volume cells"
 

@@ -118,7 +118,7 @@ def test_tetrahedral_cell_sizes_match_vtk_cell_size_filter():
     inner = np.all((m.points > 1e-9) & (m.points < np.array([1, 2, 0.6]) - 1e-9), axis=1)
     m.points[inner] += rng.uniform(-0.05, 0.05, (inner.sum(), 3))
     mesh = mesh_from_meshio(m)
-    conn = mesh.cell_blocks[0].connectivity.astype(np.int64)
+    conn = mesh.data.shapes[0].connectivity.astype(np.int64)
     grid = vtk.vtkUnstructuredGrid()
     pts = vtk.vtkPoints()
     pts.SetData(numpy_to_vtk(np.ascontiguousarray(mesh.points), deep=True))

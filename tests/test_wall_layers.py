@@ -16,7 +16,7 @@ import pytest
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import shuffled, structured_hex, structured_quad, tetrahedralise
 from caselint.mesh.wall_layers import (
-    END_BOUNDARY, END_CORE, END_TURN, NO_STACK, template_faces, wall_layers,
+    END_BOUNDARY, END_CORE, END_TURN, NO_STACK, wall_layers,
 )
 from near_wall_meshes import geometric, layer_block, prism_block, stack
 
@@ -76,7 +76,7 @@ def test_wedge_layers_under_a_tetrahedral_core():
     np.testing.assert_allclose(layers.max_growth, 1.25, rtol=1e-10)
     # each core tetrahedron spans the whole 0.05 m hexahedron it was cut from
     np.testing.assert_allclose(layers.core_jump, 0.05 / heights[-1], rtol=1e-10)
-    assert set(mesh.cell_type[layers.core_cell].tolist()) == {0}      # tetra
+    assert set(mesh.cell_shape[layers.core_cell].tolist()) == {0}      # tetra
 
 
 def test_tetrahedral_wall_has_no_stack():
@@ -143,25 +143,19 @@ def test_stacks_do_not_depend_on_numbering():
                                    err_msg=name)
 
 
-def test_template_faces_hold_each_templates_vertices():
+def test_cell_faces_hold_each_templates_vertices():
     from caselint.mesh.celltypes import FACES
 
     m = prism_block(geometric(1e-3, 1.2, 2), [0.02])
     mesh = mesh_from_meshio(shuffled(m, seed=5))
-    table = template_faces(mesh)
-    for block in mesh.cell_blocks:
-        cells = np.arange(block.start, block.stop)
-        for j, template in enumerate(FACES[block.type]):
-            if block.type == "tetra":
-                assert np.all(table[cells, j] == -1)
-                continue
-            faces = table[cells, j]
-            assert np.all(faces >= 0)
-            want = np.sort(block.connectivity[:, list(template)], axis=1)
-            got = np.sort(mesh.faces[faces], axis=1)
-            # padded triangles repeat a vertex: compare the vertex sets
-            for k in range(len(cells)):
-                assert set(want[k]) == set(got[k])
+    table = mesh.cell_face_table()
+    for block in mesh.data.shapes:
+        faces = table[block.cells]
+        assert np.all((faces >= 0).sum(axis=1) == len(FACES[block.type]))
+        for k, cell in enumerate(block.cells[:50]):
+            got = {frozenset(mesh.face_point_table([f])[0].tolist()) for f in faces[k] if f >= 0}
+            want = {frozenset(block.connectivity[k, list(t)].tolist()) for t in FACES[block.type]}
+            assert got == want
 
 
 def test_cached_per_face_set_and_refuses_internal_faces():
@@ -184,7 +178,7 @@ def test_walk_past_the_stack_stops_at_its_reach():
     tops = np.cumsum(heights)
     # shortest first: a walk that reached further would serve the shorter requests
     short = wall_layers(mesh, wall, reach_m=0.0)        # the stack and the core cell only
-    mid = wall_layers(mesh, wall, reach_m=float(tops[11]))
+    mid = wall_layers(mesh, wall, reach_m=float(tops[11]) * (1 - 1e-9))
     full = wall_layers(mesh, wall)                     # no reach given: walks to the top
     np.testing.assert_array_equal(full.n_walked, 14)
     np.testing.assert_array_equal(short.n_walked, 10)
@@ -193,7 +187,7 @@ def test_walk_past_the_stack_stops_at_its_reach():
         for name in ("n_layers", "first_height", "thickness", "max_growth", "end", "core_jump"):
             np.testing.assert_array_equal(getattr(walk, name), getattr(full, name))
     np.testing.assert_array_equal(mid.cells_within(tops[10] * (1 + 1e-9)), 11)
-    np.testing.assert_array_equal(mid.cells_within(tops[11]), full.cells_within(tops[11]))
+    np.testing.assert_array_equal(mid.cells_within(mid.reach), full.cells_within(mid.reach))
     with pytest.raises(ValueError, match="reached"):
         mid.cells_within(tops[12])
 

@@ -10,7 +10,7 @@ from caselint.model import Limits
 
 if TYPE_CHECKING:
     from caselint.manifest.case import Case
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 
 @dataclass

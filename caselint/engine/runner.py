@@ -37,7 +37,7 @@ from caselint.model import (
 
 if TYPE_CHECKING:
     from caselint.manifest.case import Case, Waiver
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 
 def _matching_waiver(

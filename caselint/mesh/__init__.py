@@ -5,8 +5,9 @@
 >>> mesh.cell_volumes.sum()                              # doctest: +SKIP
 """
 
+from caselint.mesh.analysis import Mesh
 from caselint.mesh.celltypes import CELL_TYPES
-from caselint.mesh.model import BoundaryElements, CellBlock, Mesh
+from caselint.mesh.model import MeshData, ShapeBlock
 from caselint.mesh.reader import mesh_from_meshio, read_mesh
 
-__all__ = ["CELL_TYPES", "BoundaryElements", "CellBlock", "Mesh", "mesh_from_meshio", "read_mesh"]
+__all__ = ["CELL_TYPES", "Mesh", "MeshData", "ShapeBlock", "mesh_from_meshio", "read_mesh"]

@@ -1,10 +1,10 @@
-"""A :class:`~caselint.mesh.model.Mesh` as a flat dict of plain numpy arrays, and back.
+"""A :class:`~caselint.mesh.analysis.Mesh` as a flat dict of plain numpy arrays, and back.
 
 For the mesh cache (:mod:`caselint.cache`): the arrays go into an ``.npz`` file that
 ``numpy.load(..., allow_pickle=False)`` reads back, so a cache file can never run code.
-Strings (path, group and field names, notes) are stored as numpy unicode arrays. The
-topology and geometry are included when they have been computed, so that a mesh read
-back needs neither again; metrics are not (they are cheap next to the topology and are
+Strings (path, group, zone and field names, notes) are stored as numpy unicode arrays. The
+geometry is included when it has been computed, so that a mesh read back needs neither the
+file nor the geometry pass again; metrics are not (they are cheap next to reading and are
 recomputed, to the bit, from the same arrays).
 """
 
@@ -15,13 +15,12 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Layout version of the arrays; a mismatch makes :func:`mesh_from_arrays` refuse them.
-FORMAT = 2
-_TOPOLOGY = ("faces", "owner", "neighbour", "nonmanifold", "clashing", "face_group",
-             "cell_faces")
-_GEOMETRY = ("area_vectors", "face_centroids", "volumes", "cell_centroids", "vertex_means")
+FORMAT = 3
+_DATA = ("points", "face_offsets", "face_points", "owner", "neighbour", "face_group")
+_GEOMETRY = ("area_vectors", "face_centroids", "volumes", "cell_centroids", "apex")
 
 
 def _strings(values) -> np.ndarray:
@@ -31,37 +30,43 @@ def _strings(values) -> np.ndarray:
 
 
 def mesh_to_arrays(mesh: "Mesh") -> dict[str, np.ndarray]:
-    """Every array that defines ``mesh``, plus its topology and geometry when computed."""
+    """Every array that defines ``mesh``, plus its geometry when computed."""
+    data = mesh.data
+    report = data.report
+    names = data.group_names
     out: dict[str, np.ndarray] = {
-        "format": np.array(FORMAT), "path": _strings([mesh.path]), "dim": np.array(mesh.dim),
-        "points": mesh.points, "group_names": _strings(mesh.group_names),
-        "notes": _strings(mesh.notes),
-        "block_types": _strings(b.type for b in mesh.cell_blocks),
-        "block_starts": np.array([b.start for b in mesh.cell_blocks], dtype=np.int64),
-        "boundary_vertices": mesh.boundary.vertices, "boundary_element": mesh.boundary.element,
-        "boundary_group": mesh.boundary.group,
-        "point_data_names": _strings(mesh.point_data), "cell_data_names": _strings(mesh.cell_data),
+        "format": np.array(FORMAT), "path": _strings([data.path]), "dim": np.array(data.dim),
+        "n_cells": np.array(data.n_cells, dtype=np.int64),
+        "group_names": _strings(names),
+        "group_types": _strings(f"{k}\t{v}" for k, v in sorted(data.group_types.items())),
+        "zone_names": _strings(data.zone_names), "notes": _strings(data.notes),
+        "shape_types": _strings(b.type for b in data.shapes),
+        "point_data_names": _strings(data.point_data),
+        "cell_data_names": _strings(data.cell_data),
+        "report_clashing": report.clashing,
+        "report_unmatched": np.array([report.unmatched.get(n, 0) for n in names], np.int64),
+        "report_internal": np.array([report.internal.get(n, 0) for n in names], np.int64),
+        "report_multi_group": np.array(report.multi_group, dtype=np.int64),
     }
-    for i, block in enumerate(mesh.cell_blocks):
-        out[f"block_{i}"] = block.connectivity
-    for kind, ids in mesh._file_ids.items():
+    for name in _DATA:
+        out[name] = getattr(data, name)
+    if report.nonmanifold is not None:
+        out["report_nonmanifold"] = report.nonmanifold
+    if data.cell_zone is not None:
+        out["cell_zone"] = data.cell_zone
+    for i, block in enumerate(data.shapes):
+        out[f"shape_{i}_cells"] = block.cells
+        out[f"shape_{i}_connectivity"] = block.connectivity
+    for kind in ("cell", "point"):
+        ids = getattr(data, f"file_{kind}_ids")
         if ids is not None:
             out[f"file_{kind}_ids"] = ids
-    for kind, data in (("point_data", mesh.point_data), ("cell_data", mesh.cell_data)):
-        for i, values in enumerate(data.values()):
+    for kind, fields in (("point_data", data.point_data), ("cell_data", data.cell_data)):
+        for i, values in enumerate(fields.values()):
             out[f"{kind}_{i}"] = np.asarray(values)
-    topo = mesh.__dict__.get("_topology")
-    if topo is not None:
-        for name in _TOPOLOGY:
-            out[f"topology_{name}"] = getattr(topo, name)
-        names = mesh.group_names
-        out["topology_unmatched"] = np.array([topo.unmatched.get(n, 0) for n in names], np.int64)
-        out["topology_internal"] = np.array([topo.internal.get(n, 0) for n in names], np.int64)
-        out["topology_multi_group"] = np.array(topo.multi_group, dtype=np.int64)
-    geo = mesh.__dict__.get("_geometry")
-    if geo is not None:
+    if mesh.has("geometry"):
         for name in _GEOMETRY:
-            out[f"geometry_{name}"] = getattr(geo, name)
+            out[f"geometry_{name}"] = getattr(mesh.geometry, name)
     return out
 
 
@@ -71,43 +76,44 @@ def mesh_from_arrays(arrays, *, path: str | None = None) -> "Mesh":
     ``path`` replaces the stored path (the same file content may sit elsewhere now).
     :raises ValueError: the arrays are of another layout version, or incomplete.
     """
+    from caselint.mesh.analysis import Mesh
     from caselint.mesh.geometry import Geometry
-    from caselint.mesh.model import BoundaryElements, CellBlock, Mesh
-    from caselint.mesh.topology import Topology
+    from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
 
     try:
         if int(arrays["format"]) != FORMAT:
             raise ValueError(f"mesh arrays of format {int(arrays['format'])}, expected {FORMAT}")
         keys = set(arrays.keys()) if hasattr(arrays, "keys") else set(arrays)
-        types = [str(t) for t in arrays["block_types"]]
-        starts = arrays["block_starts"]
-        blocks = tuple(CellBlock(t, arrays[f"block_{i}"], int(starts[i]))
-                       for i, t in enumerate(types))
         names = tuple(str(n) for n in arrays["group_names"])
-        boundary = BoundaryElements(arrays["boundary_vertices"], arrays["boundary_element"],
-                                    arrays["boundary_group"])
+
+        def counts(name: str) -> dict[str, int]:
+            return {n: int(c) for n, c in zip(names, arrays[name]) if c}
+
+        report = ReadReport(
+            nonmanifold=arrays["report_nonmanifold"] if "report_nonmanifold" in keys else None,
+            clashing=arrays["report_clashing"], unmatched=counts("report_unmatched"),
+            internal=counts("report_internal"),
+            multi_group=int(arrays["report_multi_group"]))
+        shapes = tuple(ShapeBlock(str(t), arrays[f"shape_{i}_cells"],
+                                  arrays[f"shape_{i}_connectivity"])
+                       for i, t in enumerate(arrays["shape_types"]))
         fields = {kind: {str(n): arrays[f"{kind}_{i}"]
                          for i, n in enumerate(arrays[f"{kind}_names"])}
                   for kind in ("point_data", "cell_data")}
-        mesh = Mesh(path=path if path is not None else str(arrays["path"][0]),
-                    points=arrays["points"], dim=int(arrays["dim"]), cell_blocks=blocks,
-                    group_names=names, boundary=boundary,
-                    notes=tuple(str(n) for n in arrays["notes"]),
-                    point_data=fields["point_data"], cell_data=fields["cell_data"],
-                    file_cell_ids=arrays["file_cell_ids"] if "file_cell_ids" in keys else None,
-                    file_point_ids=(arrays["file_point_ids"] if "file_point_ids" in keys
-                                    else None))
-        if "topology_faces" in keys:
-            def counts(name: str) -> dict[str, int]:
-                return {n: int(c) for n, c in zip(names, arrays[name]) if c}
-
-            mesh.__dict__["_topology"] = Topology(
-                *(arrays[f"topology_{n}"] for n in _TOPOLOGY[:6]),
-                unmatched=counts("topology_unmatched"), internal=counts("topology_internal"),
-                multi_group=int(arrays["topology_multi_group"]),
-                cell_faces=arrays["topology_cell_faces"])
+        types = dict(str(t).split("\t", 1) for t in arrays["group_types"] if str(t))
+        data = MeshData(
+            path=path if path is not None else str(arrays["path"][0]), dim=int(arrays["dim"]),
+            n_cells=int(arrays["n_cells"]), group_names=names, group_types=types,
+            zone_names=tuple(str(z) for z in arrays["zone_names"] if str(z)),
+            cell_zone=arrays["cell_zone"] if "cell_zone" in keys else None,
+            notes=tuple(str(n) for n in arrays["notes"] if str(n)), shapes=shapes,
+            point_data=fields["point_data"], cell_data=fields["cell_data"],
+            file_cell_ids=arrays["file_cell_ids"] if "file_cell_ids" in keys else None,
+            file_point_ids=arrays["file_point_ids"] if "file_point_ids" in keys else None,
+            report=report, **{name: arrays[name] for name in _DATA})
+        geometry = None
         if "geometry_volumes" in keys:
-            mesh.__dict__["_geometry"] = Geometry(*(arrays[f"geometry_{n}"] for n in _GEOMETRY))
+            geometry = Geometry(*(arrays[f"geometry_{n}"] for n in _GEOMETRY))
     except KeyError as exc:
         raise ValueError(f"mesh arrays incomplete: no {exc.args[0]!r}") from None
-    return mesh
+    return Mesh(data, geometry=geometry)

@@ -1,26 +1,31 @@
-"""Face area vectors and centroids, cell volumes and centroids, vectorised in chunks.
+"""Face area vectors and centroids, cell volumes and centroids, for any polygon and polyhedron.
 
-Faces (3-D): the area vector of a face (p0, p1, p2, p3) is half the cross product of its
-diagonals, ``S = (p2 - p0) x (p3 - p1) / 2``. It is the vector area of any surface spanning
-the face's edge loop, so a padded triangle (a, b, c, c) gets its exact area and the area
-vectors of a closed cell sum to zero. The face centroid is the area-weighted centroid of
-the fan of triangles about the vertex mean ``m``, each triangle weighted by its area
-vector projected on ``S`` (exact for any planar face).
+Faces (3-D), a polygon x_0 .. x_{k-1} with vertex mean m (Moukalled, Mangani & Darwish,
+*The Finite Volume Method in Computational Fluid Dynamics*, 2016, ch. 6; Jasak 1996): the
+face is fanned into triangles (m, x_i, x_{i+1}) with area vectors
+``s_i = (x_i - m) x (x_{i+1} - m) / 2``. The face area vector is ``S = sum_i s_i``: the vector
+area of the edge loop, exact for any face and, for a quadrilateral, equal to half the cross
+product of its diagonals; the area vectors of a closed cell sum to zero. The face centroid
+is the centroid of the fan triangles, ``(m + x_i + x_{i+1}) / 3``, each weighted by its area
+projected on S (``s_i . S``): exact for a planar face.
 
-Cells: face-pyramid decomposition about the cell's vertex mean ``x0``,
-``V = (1/3) sum_f S_f . (m_f - x0)``. With ``m_f`` the face vertex mean this is exactly the
-volume of the polyhedron whose faces are fanned about their vertex means, which for a
-hexahedron equals the volume of the trilinear cell (bilinear faces) and for wedges and
-pyramids matches Verdict's decomposition about the quadrilateral face centres. It is
-independent of ``x0`` (the area vectors of a cell sum to zero); ``x0`` only keeps the
-arithmetic local. A tetrahedral split of a warped hexahedron would instead depend on the
-chosen diagonals (the design notes measured up to 4e-5 relative). The cell centroid
-weights each pyramid's centroid, ``x0 + 3/4 (x_f - x0)``, by its volume; where the volume
-vanishes the vertex mean is used instead (never NaN).
+Cells: pyramids on the faces about an apex x0 inside the cell, the mean of the cell's face
+vertex means (for tetrahedra, hexahedra and wedges exactly their vertex mean):
+``V = (1/3) sum_f S_f . (m_f - x0)``, with S_f taken out of the cell. This is exactly the
+volume of the polyhedron whose faces are fanned about their vertex means (for a hexahedron
+the volume of the trilinear cell), and independent of x0 for a closed cell; x0 only keeps
+the arithmetic local. A tetrahedral split of a warped hexahedron would instead depend on
+the chosen diagonals (the design notes measured up to 4e-5 relative). The centroid weights
+each pyramid's centroid ``x0 + 3/4 (x_f - x0)`` by its volume; where the volume vanishes the
+apex is used instead (never NaN).
 
-2-D meshes (unit depth): a face is an edge (a, b) with ``S = (yb - ya, -(xb - xa), 0)``,
-the cell "volume" is its area ``(1/2) sum_f S_f . (m_f - x0)``, and the pyramids are
-triangles with centroids ``x0 + 2/3 (m_f - x0)``.
+2-D meshes (unit depth): a face is an edge (a, b) with ``S = (yb - ya, -(xb - xa), 0)``, the
+cell "volume" is its area ``(1/2) sum_f S_f . (m_f - x0)``, and the pyramids are triangles
+with centroids ``x0 + 2/3 (m_f - x0)``.
+
+Faces are processed in chunks of equal-sized polygons (reshaped, not looped over); the
+per-cell sums are ``bincount`` passes over all faces (the neighbour side is scattered, and a
+bincount over the whole mesh at once is linear where one per chunk would be quadratic).
 """
 
 from __future__ import annotations
@@ -31,7 +36,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.model import MeshData
 
 #: Faces or cells per vectorised chunk: keeps temporaries small (see the design notes).
 #: 16,384 keeps a chunk's temporaries (128 kB per array) in the L2 cache: on the 1M-cell
@@ -39,15 +44,19 @@ if TYPE_CHECKING:
 CHUNK = 16_384
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Geometry:
-    """Geometry of a mesh (see :class:`caselint.mesh.model.Mesh`)."""
+    """Face and cell geometry of a mesh (m, m^2, m^3; 2-D: m, m, m^2 on unit depth).
+
+    ``apex`` is the point each cell's face pyramids are built about (see the module
+    docstring); ``volumes`` are signed (<= 0 for an inverted or degenerate cell).
+    """
 
     area_vectors: np.ndarray
     face_centroids: np.ndarray
     volumes: np.ndarray
     cell_centroids: np.ndarray
-    vertex_means: np.ndarray
+    apex: np.ndarray
 
 
 def chunks(n: int, size: int | None = None):
@@ -63,52 +72,69 @@ def coordinate_columns(points: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.n
     return tuple(np.ascontiguousarray(points[:, k]) for k in range(3))  # type: ignore[return-value]
 
 
-def vertex_means(mesh: "Mesh") -> np.ndarray:
-    """(C, 3) mean of the vertices of each cell."""
-    cols = coordinate_columns(mesh.points)
-    out = np.empty((mesh.n_cells, 3))
-    for block in mesh.cell_blocks:
-        conn = block.connectivity
-        for sl in chunks(len(conn)):
-            rows = conn[sl]
-            for k in range(3):
-                out[block.start + sl.start : block.start + sl.stop, k] = cols[k][rows].mean(axis=1)
-    return out
+def size_classes(offsets: np.ndarray, sl: slice):
+    """Yield (k, rows) for the faces of slice ``sl`` with k points each, rows as ``(n, k)``
+    indices into the face-point array; one class when every face has the same size."""
+    start = offsets[sl.start : sl.stop]
+    size = offsets[sl.start + 1 : sl.stop + 1] - start
+    if not len(size):
+        return
+    k0 = int(size[0])
+    if bool((size == k0).all()):
+        yield k0, None, int(start[0]) + np.arange(len(size) * k0).reshape(-1, k0)
+        return
+    for k in np.unique(size):
+        sel = np.flatnonzero(size == k)
+        yield int(k), sel, start[sel][:, None] + np.arange(int(k))[None, :]
 
 
-def _face_chunk_3d(cols, f):
-    """Area vector, fan centroid and vertex mean of quadrilateral (or padded) faces."""
-    X = [[c[f[:, i]] for c in cols] for i in range(4)]
-    m = [(X[0][k] + X[1][k] + X[2][k] + X[3][k]) * 0.25 for k in range(3)]
-    d1 = [X[2][k] - X[0][k] for k in range(3)]
-    d2 = [X[3][k] - X[1][k] for k in range(3)]
-    S = _cross(d1, d2, 0.5)
-    r = [[X[i][k] - m[k] for k in range(3)] for i in range(4)]
+def fan(cols, fp: np.ndarray):
+    """Per face of ``fp`` (n, k) point ids: the vertex mean m, the fan triangles' area
+    vectors s_i and the gathered vertices, as lists of x, y, z arrays."""
+    k = fp.shape[1]
+    X = [[c[fp[:, i]] for c in cols] for i in range(k)]
+    m = [sum(X[i][a] for i in range(k)) * (1.0 / k) for a in range(3)]
+    r = [[X[i][a] - m[a] for a in range(3)] for i in range(k)]
+    s = [cross(r[i], r[(i + 1) % k], 0.5) for i in range(k)]
+    return m, s, X
+
+
+def _polygons(cols, fp: np.ndarray):
+    """Area vector, centroid and vertex mean of polygons ``fp`` (n, k), k >= 3."""
+    m, s, X = fan(cols, fp)
+    k = fp.shape[1]
+    S = [sum(s[i][a] for i in range(k)) for a in range(3)]
     wsum = np.zeros_like(m[0])
     acc = [np.zeros_like(m[0]) for _ in range(3)]
-    for i in range(4):
-        a, b = r[i], r[(i + 1) % 4]
-        s = _cross(a, b, 0.5)
-        w = s[0] * S[0] + s[1] * S[1] + s[2] * S[2]
+    for i in range(k):
+        w = s[i][0] * S[0] + s[i][1] * S[1] + s[i][2] * S[2]
         wsum += w
-        for k in range(3):
-            acc[k] += w * (a[k] + b[k])
+        nxt = X[(i + 1) % k]
+        for a in range(3):
+            acc[a] += w * (X[i][a] + nxt[a] - 2.0 * m[a])
     ok = wsum > 0
     safe = np.where(ok, wsum, 1.0)
-    centroid = [m[k] + np.where(ok, acc[k] / (3.0 * safe), 0.0) for k in range(3)]
+    centroid = [m[a] + np.where(ok, acc[a] / (3.0 * safe), 0.0) for a in range(3)]
     return S, centroid, m
 
 
-def _face_chunk_2d(cols, f):
+def _short(cols, fp: np.ndarray):
+    """Faces of one or two points in 3-D (damaged): no area, centroid at the vertex mean."""
+    m = [sum(c[fp[:, i]] for i in range(fp.shape[1])) / fp.shape[1] for c in cols]
+    return [np.zeros_like(m[0]) for _ in range(3)], m, m
+
+
+def _edges(cols, fp: np.ndarray):
     """Outward normal times length, and midpoint, of edges in the x-y plane."""
-    xa, ya = cols[0][f[:, 0]], cols[1][f[:, 0]]
-    xb, yb = cols[0][f[:, 1]], cols[1][f[:, 1]]
+    xa, ya = cols[0][fp[:, 0]], cols[1][fp[:, 0]]
+    xb, yb = cols[0][fp[:, 1]], cols[1][fp[:, 1]]
     S = [yb - ya, xa - xb, np.zeros_like(xa)]
     mid = [(xa + xb) * 0.5, (ya + yb) * 0.5, np.zeros_like(xa)]
     return S, mid, mid
 
 
-def _cross(a, b, scale=1.0):
+def cross(a, b, scale=1.0):
+    """a x b (times ``scale``) on lists of x, y, z arrays."""
     return [
         (a[1] * b[2] - a[2] * b[1]) * scale,
         (a[2] * b[0] - a[0] * b[2]) * scale,
@@ -116,70 +142,76 @@ def _cross(a, b, scale=1.0):
     ]
 
 
-def compute_geometry(mesh: "Mesh") -> Geometry:
-    """Face and cell geometry of ``mesh`` (see the module docstring for the formulas)."""
+def face_geometry(mesh: "MeshData") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(F, 3) area vectors, centroids and vertex means of every face."""
     cols = coordinate_columns(mesh.points)
-    faces, owner, neighbour = mesh.faces, mesh.owner, mesh.neighbour
-    n_faces, n_cells, dim = len(owner), mesh.n_cells, mesh.dim
-    xbar = vertex_means(mesh)
-    xb = coordinate_columns(xbar)
-    area = np.empty((n_faces, 3))
-    fcent = np.empty((n_faces, 3))
-    # Per-cell sums of pyramid volume, volume x centroid offset, and |pyramid volume|.
+    n = mesh.n_faces
+    out = [np.empty((n, 3)) for _ in range(3)]
+    for sl in chunks(n):
+        for k, sel, rows in size_classes(mesh.face_offsets, sl):
+            fp = mesh.face_points[rows]
+            if mesh.dim == 2:
+                parts = _edges(cols, fp) if k == 2 else _short(cols, fp)
+            else:
+                parts = _polygons(cols, fp) if k >= 3 else _short(cols, fp)
+            target = np.arange(sl.start, sl.stop) if sel is None else sl.start + sel
+            for arr, vec in zip(out, parts):
+                for a in range(3):
+                    if sel is None:
+                        arr[sl, a] = vec[a]
+                    else:
+                        arr[target, a] = vec[a]
+    return out[0], out[1], out[2]
+
+
+def compute_geometry(mesh: "MeshData") -> Geometry:
+    """Face and cell geometry of ``mesh`` (see the module docstring for the formulas)."""
+    area, fcent, fmean = face_geometry(mesh)
+    n_cells, n_int, dim = mesh.n_cells, mesh.n_internal, mesh.dim
+    owner, nbr = mesh.owner, mesh.neighbour[:n_int]
+    count = (np.bincount(owner, minlength=n_cells)
+             + np.bincount(nbr, minlength=n_cells)).astype(np.float64)
+    apex = np.empty((n_cells, 3))
+    for a in range(3):
+        total = (np.bincount(owner, weights=fmean[:, a], minlength=n_cells)
+                 + np.bincount(nbr, weights=fmean[:n_int, a], minlength=n_cells))
+        apex[:, a] = total / np.maximum(count, 1.0)
+    # Per-cell sums of pyramid volume, volume x centroid offset (x, y, z), |volume|.
     acc = np.zeros((5, n_cells))
-    face_chunk = _face_chunk_3d if dim == 3 else _face_chunk_2d
-    for sl in chunks(n_faces):
-        S, xf, m = face_chunk(cols, faces[sl])
-        for k in range(3):
-            area[sl, k] = S[k]
-            fcent[sl, k] = xf[k]
-        own = owner[sl]
-        _accumulate(acc, own, _pyramid_terms(S, xf, m, [c[own] for c in xb], dim), 1.0, True)
-        nbr = neighbour[sl]
-        inner = np.flatnonzero(nbr >= 0)
-        if len(inner):
-            nbr = nbr[inner]
-            part = ([v[inner] for v in S], [v[inner] for v in xf], [v[inner] for v in m])
-            _accumulate(acc, nbr, _pyramid_terms(*part, [c[nbr] for c in xb], dim), -1.0, True)
-    # A neighbour listing its face the same way round as the owner (an orientation clash)
-    # must see it with +S, not -S: undo the reversal for those faces.
-    clash = mesh.clashing_faces
-    if len(clash):
-        S, xf, m = face_chunk(cols, faces[clash])
-        nbr = neighbour[clash]
-        _accumulate(acc, nbr, _pyramid_terms(S, xf, m, [c[nbr] for c in xb], dim), 2.0, False)
+    own = _pyramid_terms(area, fcent, fmean, apex, owner, dim)
+    for j in range(5):
+        acc[j] += np.bincount(owner, weights=own[j], minlength=n_cells)
+    del own
+    if n_int:
+        # the neighbour sees -S; an orientation clash (both cells list the face the same
+        # way round) means its own cell definition sees +S
+        sign = np.full(n_int, -1.0)
+        clash = mesh.report.clashing
+        sign[clash[clash < n_int]] = 1.0
+        side = _pyramid_terms(area[:n_int] * sign[:, None], fcent[:n_int], fmean[:n_int],
+                              apex, nbr, dim)
+        for j in range(5):
+            acc[j] += np.bincount(nbr, weights=side[j], minlength=n_cells)
     volumes = acc[0]
-    # Pyramids that cancel out (a collapsed cell) leave no usable centroid: use x0.
+    # Pyramids that cancel out (a collapsed cell) leave no usable centroid: use the apex.
     good = np.abs(volumes) > 1e-12 * acc[4]
     frac = dim / (dim + 1.0)
     safe = np.where(good, volumes, 1.0)
     cent = np.empty((n_cells, 3))
-    for k in range(3):
-        cent[:, k] = xbar[:, k] + np.where(good, frac * acc[k + 1] / safe, 0.0)
-    return Geometry(area, fcent, volumes, cent, xbar)
+    for a in range(3):
+        cent[:, a] = apex[:, a] + np.where(good, frac * acc[a + 1] / safe, 0.0)
+    return Geometry(area, fcent, volumes, cent, apex)
 
 
-def _accumulate(acc: np.ndarray, cells: np.ndarray, terms, sign: float, magnitude: bool) -> None:
-    """Add ``sign`` x the signed per-face terms to their cells (and |volume| if asked)."""
-    # Faces come sorted by owner, so a chunk's owners span a short id range: one bincount
-    # over that range. Neighbours are scattered over all cells; a bincount as long as the
-    # mesh per chunk would make the pass quadratic (5M cells: seconds), so they are added
-    # one by one (np.add.at, linear).
-    lo, hi = int(cells.min()), int(cells.max()) + 1
-    compact = hi - lo <= 4 * len(cells)
-    local = cells - lo
-    for j, term in enumerate(terms):
-        if j == 4 and not magnitude:
-            continue
-        factor = sign if j < 4 else 1.0
-        if compact:
-            weight = np.bincount(local, weights=term, minlength=hi - lo)
-            acc[j, lo:hi] += factor * weight if factor != 1.0 else weight
-        else:
-            np.add.at(acc[j], cells, factor * term if factor != 1.0 else term)
-
-
-def _pyramid_terms(S, xf, m, x0, dim):
+def _pyramid_terms(S, xf, m, apex, cells, dim) -> list[np.ndarray]:
     """Pyramid volume, volume times centroid offset (x, y, z), and |volume|, per face."""
-    v = (S[0] * (m[0] - x0[0]) + S[1] * (m[1] - x0[1]) + S[2] * (m[2] - x0[2])) / dim
-    return [v, v * (xf[0] - x0[0]), v * (xf[1] - x0[1]), v * (xf[2] - x0[2]), np.abs(v)]
+    out = [np.empty(len(cells)) for _ in range(5)]
+    for sl in chunks(len(cells)):
+        x0 = apex[cells[sl]]
+        d = m[sl] - x0
+        v = (S[sl, 0] * d[:, 0] + S[sl, 1] * d[:, 1] + S[sl, 2] * d[:, 2]) / dim
+        out[0][sl] = v
+        for a in range(3):
+            out[a + 1][sl] = v * (xf[sl, a] - x0[:, a])
+        out[4][sl] = np.abs(v)
+    return out

@@ -6,20 +6,22 @@ across memory, and on a million cells the cache misses cost about a third of a c
 Sorting points by their Morton code, and each block's cells by the new number of their
 first corner, puts neighbours next to each other in memory.
 
-Reports must still speak in the file's numbering: :class:`~caselint.mesh.model.Mesh` keeps
-the file's id of every renumbered cell and point (``Mesh.file_cell_ids``,
-``Mesh.file_point_ids``), and rules name cells and points through them. Cells stay in their
-blocks (cell types keep their id ranges); boundary elements keep their file order.
+Reports must still speak in the file's numbering: the mesh keeps the file's id of every
+renumbered cell and point (``Mesh.file_cell_ids``, ``Mesh.file_point_ids``), and rules name
+cells and points through them. Cells stay in their blocks (cell types keep their id
+ranges); boundary elements keep their file order. Element meshes are renumbered before
+their faces are built (:mod:`caselint.mesh.build`).
 """
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Sequence
 
 import numpy as np
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.pairing import ElementBlock
 
 #: Bits per axis of the Morton code (three axes fit in 63 bits).
 BITS = 21
@@ -60,40 +62,38 @@ def _sorted_order(codes: np.ndarray) -> np.ndarray:
     return order
 
 
-def spatial_order(mesh: "Mesh") -> "Mesh":
-    """The same mesh with points and cells renumbered along a Morton curve.
+@dataclass(frozen=True, eq=False)
+class Renumbering:
+    """Element blocks renumbered along a Morton curve, and the maps back to the input ids.
 
-    Geometry is unchanged; ``file_cell_ids`` / ``file_point_ids`` of the result map its ids
-    back to those of ``mesh``. A mesh that was already renumbered maps to the original file.
+    ``point_order[i]`` / ``cell_order[i]`` is the input id of new point / cell ``i``;
+    ``new_point[j]`` is the new id of input point ``j``.
     """
-    from caselint.mesh.model import BoundaryElements, CellBlock, Mesh
 
-    if mesh.n_points == 0 or mesh.n_cells == 0:
-        return mesh
-    point_order = _sorted_order(morton_codes(mesh.points))
-    index_type = np.result_type(*[b.connectivity.dtype for b in mesh.cell_blocks])
-    new_point = np.empty(mesh.n_points, dtype=index_type)
-    new_point[point_order] = np.arange(mesh.n_points, dtype=index_type)
-    blocks, cell_order = [], []
-    for block in mesh.cell_blocks:
+    blocks: tuple["ElementBlock", ...]
+    point_order: np.ndarray
+    new_point: np.ndarray
+    cell_order: np.ndarray
+
+
+def spatial_order(points: np.ndarray, blocks: Sequence["ElementBlock"]) -> Renumbering:
+    """Points sorted by Morton code; each block's cells by the new number of their first
+    corner (cells stay in their blocks, so cell types keep their id ranges)."""
+    from caselint.mesh.pairing import ElementBlock
+
+    point_order = _sorted_order(morton_codes(points))
+    index_type = np.result_type(*[b.connectivity.dtype for b in blocks])
+    new_point = np.empty(len(points), dtype=index_type)
+    new_point[point_order] = np.arange(len(points), dtype=index_type)
+    out, cell_order = [], []
+    for block in blocks:
         conn = np.take(new_point, block.connectivity)
         # Unique keys (first corner, then file order), so that numpy's fastest sort,
         # which is not stable and differs between processors, gives one order everywhere.
         n = len(conn)
         key = conn[:, 0].astype(np.int64) * n + np.arange(n)
         order = np.argsort(key)
-        blocks.append(CellBlock(block.type, np.take(conn, order, axis=0), block.start))
+        out.append(ElementBlock(block.type, np.take(conn, order, axis=0), block.start))
         cell_order.append(order + block.start)
-    cells = np.concatenate(cell_order)
-    boundary = mesh.boundary
-    return Mesh(
-        path=mesh.path, points=np.take(mesh.points, point_order, axis=0), dim=mesh.dim,
-        cell_blocks=tuple(blocks), group_names=mesh.group_names,
-        boundary=BoundaryElements(np.take(new_point, boundary.vertices), boundary.element,
-                                  boundary.group),
-        notes=mesh.notes,
-        point_data={k: np.take(v, point_order, axis=0) for k, v in mesh.point_data.items()},
-        cell_data={k: np.take(v, cells, axis=0) for k, v in mesh.cell_data.items()},
-        file_cell_ids=mesh.file_cell_ids(cells),
-        file_point_ids=mesh.file_point_ids(point_order),
-    )
+    cells = np.concatenate(cell_order) if cell_order else np.zeros(0, dtype=np.int64)
+    return Renumbering(tuple(out), point_order, new_point, cells)

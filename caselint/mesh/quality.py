@@ -12,8 +12,15 @@ Face metrics (finite-volume definitions, Jasak 1996; Ferziger & Peric 2002):
 - skewness: |x_f - x_i| / |d|, x_i = where the line P-N crosses the plane through x_f
   normal to S; 0 on boundary faces and on faces of zero area.
 
+- face warp: the largest angle (degrees) between the area vector of a triangle of the face's
+  fan (vertex mean and two consecutive vertices, :mod:`caselint.mesh.geometry`) and the
+  face's area vector; 0 on planar faces and on triangles. A quadrilateral whose four
+  corners lie off one plane, by a small height h at alternate corners of a square of
+  side a, warps by about atan(2 sqrt(2) h / a) (derived in the tests).
+
 Cell metrics follow Verdict (Stimpson et al., SAND2007-1751), the library behind VTK's
-``vtkMeshQuality``:
+``vtkMeshQuality``, and are defined per shape: a cell whose shape the file did not give
+(a general polyhedron or polygon) gets NaN ("not defined"), never a number:
 
 - scaled Jacobian: hexahedron, min over the 8 corners and the centre of the determinant
   of the normalised edge (or principal-axis) vectors; tetrahedron, sqrt(2) J / (largest
@@ -37,10 +44,10 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from caselint.mesh.celltypes import CORNERS, CORNERS_2D, EDGES, PYRAMID_TETS
-from caselint.mesh.geometry import chunks, coordinate_columns
+from caselint.mesh.geometry import chunks, coordinate_columns, cross, fan, size_classes
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Value of an unbounded metric (edge ratio, skewness) on a degenerate entity.
 DEGENERATE = 1.0e12
@@ -104,6 +111,56 @@ def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
     return mesh.cached("quality.face_metrics", compute)
 
 
+def face_warp_deg(mesh: "Mesh") -> np.ndarray:
+    """(F,) largest angle (degrees) between a fan triangle's normal and the face normal."""
+
+    def compute() -> np.ndarray:
+        data = mesh.data
+        out = np.zeros(mesh.n_faces)
+        if mesh.dim == 2:
+            return out
+        cols = coordinate_columns(mesh.points)
+        for sl in chunks(mesh.n_faces):
+            for k, sel, rows in size_classes(data.face_offsets, sl):
+                if k < 4:
+                    continue                      # a triangle is planar
+                _, s, _ = fan(cols, data.face_points[rows])
+                S = [sum(t[a] for t in s) for a in range(3)]
+                worst = np.zeros(len(rows))
+                for t in s:
+                    ang = np.degrees(np.arctan2(_norm(cross(t, S)), _dot(t, S)))
+                    # a fan triangle of zero area (a vertex at the mean) has no normal
+                    worst = np.maximum(worst, np.where(_norm(t) > 0, ang, 0.0))
+                worst = np.where(_norm(S) > 0, worst, 0.0)
+                if sel is None:
+                    out[sl] = worst
+                else:
+                    out[sl.start + sel] = worst
+        return out
+
+    return mesh.cached("quality.face_warp", compute)
+
+
+def folded_polyhedra(mesh: "Mesh") -> np.ndarray:
+    """(C,) bool: cells without a known shape whose centroid sees one of their faces from
+    behind (``S_out . (x_f - x_c) <= 0``), a fold or a concavity no cell centre may have."""
+
+    def compute() -> np.ndarray:
+        out = np.zeros(mesh.n_cells, dtype=bool)
+        if np.all(mesh.cell_shape >= 0):
+            return out
+        S, xf, c = mesh.face_area_vectors, mesh.face_centroids, mesh.cell_centroids
+        # the owner side of every face, then the neighbour side of the internal ones
+        for cells, sign in ((mesh.owner, 1.0), (mesh.neighbour[:mesh.n_internal], -1.0)):
+            for sl in chunks(len(cells)):
+                cc = cells[sl]
+                behind = sign * np.einsum("ij,ij->i", S[sl], xf[sl] - c[cc]) <= 0
+                out[cc[behind]] = True
+        return out & (mesh.cell_shape < 0)
+
+    return mesh.cached("quality.folded_polyhedra", compute)
+
+
 def growth_ratio(mesh: "Mesh") -> np.ndarray:
     """(F,) larger over smaller volume of the two cells of a face; 1.0 where undefined."""
 
@@ -125,30 +182,32 @@ def growth_ratio(mesh: "Mesh") -> np.ndarray:
 
 # -- cell metrics --------------------------------------------------------------
 def scaled_jacobian(mesh: "Mesh") -> np.ndarray:
-    """(C,) Verdict scaled Jacobian in [-1, 1]; <= 0 means an inverted or collapsed corner."""
+    """(C,) Verdict scaled Jacobian in [-1, 1]; <= 0 means an inverted or collapsed corner;
+    NaN where the cell's shape is not known."""
     return _cell_metrics(mesh)[0]
 
 
 def min_corner_jacobian(mesh: "Mesh") -> np.ndarray:
-    """(C,) smallest corner Jacobian determinant (m^3; m^2 in 2-D)."""
+    """(C,) smallest corner Jacobian determinant (m^3; m^2 in 2-D); NaN without a shape."""
     return _cell_metrics(mesh)[1]
 
 
 def edge_ratio(mesh: "Mesh") -> np.ndarray:
-    """(C,) longest over shortest edge; :data:`DEGENERATE` where an edge has zero length."""
+    """(C,) longest over shortest edge; :data:`DEGENERATE` where an edge has zero length;
+    NaN where the cell's shape is not known."""
     return _cell_metrics(mesh)[2]
 
 
 def _cell_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     def compute():
         cols = coordinate_columns(mesh.points)
-        sj, mj, er = (np.empty(mesh.n_cells) for _ in range(3))
-        for block in mesh.cell_blocks:
+        sj, mj, er = (np.full(mesh.n_cells, np.nan) for _ in range(3))
+        for block in mesh.data.shapes:
             conn = block.connectivity
             for sl in chunks(len(conn)):
                 rows = conn[sl]
                 g = _Edges([[c[rows[:, i]] for c in cols] for i in range(rows.shape[1])])
-                out = slice(block.start + sl.start, block.start + sl.stop)
+                out = block.cells[sl]
                 sj[out], mj[out] = _JACOBIANS[block.type](g)
                 er[out] = _edge_ratio(g, EDGES[block.type])
         return np.clip(sj, -1.0, 1.0), mj, er

@@ -11,11 +11,14 @@ leaves through (``d . n_out > 0``, ``n_out`` pointing out of the current cell) t
 plane it meets first. The parameter ``t`` is measured from the ray's origin, so the width of
 a gap is ``t`` at the plane of the wall face hit, in metres, and the number of cells crossed
 includes the first and the last cell. The face the ray came in through is never an exit;
-``t`` never decreases along a ray. A ray that finds no exit (a degenerate cell) or is still
-marching after ``max_steps`` cells is *lost*, so a damaged mesh cannot loop forever.
+``t`` never decreases along a ray. A ray that finds no exit (a degenerate cell), that crosses
+:data:`MAX_STALLED` cells in a row without advancing (cycling between non-convex cells,
+where the plane-based exit can point back), or that is still marching after ``max_steps``
+cells is *lost*, so a damaged or non-convex mesh cannot loop forever.
 
 All rays march in lock step: one numpy step per cell crossed, over every ray still active
-(and over the at most six face slots of a cell), never a Python loop over rays or cells.
+(and over the face slots of a cell, as many as the cell with the most faces has), never a
+Python loop over rays or cells.
 Cells are taken as convex with planar faces; on warped cells the exit is the plane-based
 estimate, which is what a cell-by-cell count needs.
 """
@@ -30,7 +33,7 @@ import numpy as np
 from caselint.mesh.geometry import chunks
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: A ray that ended on a wall face: a gap.
 WALL = 0
@@ -41,6 +44,9 @@ LOST = 2
 
 #: Default limit on the cells one ray may cross.
 MAX_STEPS = 10_000
+#: Cells a ray may cross in a row without advancing (through an edge or corner shared by
+#: many cells it advances by 0 legitimately) before it counts as lost in a cycle.
+MAX_STALLED = 64
 #: Rays marched together: one numpy step serves them all, so the more the better, up to
 #: the memory of their per-step temporaries (about 250 bytes a ray).
 RAY_CHUNK = 262_144
@@ -74,26 +80,9 @@ class RayHits:
         return self.origin[ray] + 0.5 * self.width[ray] * self.direction[ray]
 
 
-def cell_faces_csr(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
-    """Cell-to-face incidence in CSR form: cell c has faces[offsets[c]:offsets[c + 1]]."""
-
-    def build() -> tuple[np.ndarray, np.ndarray]:
-        table = cell_face_table(mesh)
-        present = table >= 0
-        offsets = np.zeros(mesh.n_cells + 1, dtype=np.int64)
-        np.cumsum(np.count_nonzero(present, axis=1), out=offsets[1:])
-        return offsets, table[present].astype(np.int64)
-
-    return mesh.cached("rays.cell_faces_csr", build)
-
-
 def cell_face_table(mesh: "Mesh") -> np.ndarray:
-    """(C, K) face ids of each cell, K the most faces of any cell, padded with -1.
-
-    The topology's table (:attr:`Mesh.cell_faces`, template order, int32 on meshes below
-    2**31 faces).
-    """
-    return mesh.cell_faces
+    """(C, K) face ids of each cell, K the most faces of any cell, padded with -1 (cached)."""
+    return mesh.cell_face_table()
 
 
 def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
@@ -185,13 +174,18 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
     cell = fd.owner[entry]
     t_now = np.zeros(rays.size)
     count = np.ones(rays.size, dtype=np.int64)
+    stuck = np.zeros(rays.size, dtype=np.int64)
     idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
     for _ in range(max_steps):
         if idx.size == 0:
             return
         t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
-        lost = f_exit < 0
-        t_exit = np.maximum(t_exit, t_now)   # a ray never goes back
+        # a ray never goes back; one that stops advancing (cycling between non-convex
+        # cells) is lost after MAX_STALLED cells
+        stalled = t_exit <= t_now
+        stuck[idx] = np.where(stalled, stuck[idx] + 1, 0)
+        lost = (f_exit < 0) | (stuck[idx] > MAX_STALLED)
+        t_exit = np.maximum(t_exit, t_now)
         ends = ~lost & (nxt < 0)
         ray = rays[idx]
         out.status[ray[ends]] = np.where(fd.wall[f_exit[ends]], WALL, OPEN)

@@ -35,9 +35,11 @@ from typing import Any
 import numpy as np
 
 from caselint.errors import MeshReadError
+from caselint.mesh.analysis import Mesh
+from caselint.mesh.build import mesh_from_elements
 from caselint.mesh.celltypes import SURFACE_TYPES, VOLUME_TYPES, linear_type
-from caselint.mesh.model import BoundaryElements, CellBlock, Mesh
-from caselint.mesh.ordering import spatial_order
+from caselint.mesh.groups import BoundaryElements
+from caselint.mesh.pairing import ElementBlock
 
 _PAD = {"triangle": [0, 1, 2, 2], "quad": [0, 1, 2, 3], "line": [0, 1]}
 #: Largest coordinate magnitude read (m); the case file's own limit for lengths, too.
@@ -148,14 +150,14 @@ def mesh_from_meshio(
     notes.extend(f"{t} elements ignored" for t in odd if t not in unsupported)
     volume_types = VOLUME_TYPES if has_3d else SURFACE_TYPES
     face_types = SURFACE_TYPES if has_3d else ("line",)
-    cell_blocks: list[CellBlock] = []
+    cell_blocks: list[ElementBlock] = []
     volume_block_ids: list[int] = []      # meshio block of each cell block, for cell data
     start = 0
     for i, mtype, base, data in blocks:
         if base not in volume_types or len(data) == 0:
             continue
         conn = _corners(path, mtype, base, data, n_points, index_type, notes)
-        cell_blocks.append(CellBlock(base, conn, start))
+        cell_blocks.append(ElementBlock(base, conn, start))
         volume_block_ids.append(i)
         start += len(conn)
     if not cell_blocks:
@@ -179,10 +181,10 @@ def mesh_from_meshio(
                    for i, t, base, d in blocks if base in face_types and len(d)]
     names, boundary = _groups(path, m, face_blocks, dim, tag_array, tags)
     point_data, cell_data = _fields(m, volume_block_ids, cell_blocks, n_points)
-    mesh = Mesh(path=path, points=points, dim=dim, cell_blocks=tuple(cell_blocks),
-                group_names=names, boundary=boundary, notes=tuple(notes),
-                point_data=point_data, cell_data=cell_data)
-    return spatial_order(mesh)          # locality for every later gather; ids map back
+    data = mesh_from_elements(path=path, points=points, dim=dim, blocks=cell_blocks,
+                              group_names=names, boundary=boundary, notes=tuple(notes),
+                              point_data=point_data, cell_data=cell_data)
+    return Mesh(data)
 
 
 def _fields(m, volume_block_ids, cell_blocks, n_points):

@@ -1,11 +1,13 @@
 """Wall layer stacks: the cells lined up above each wall face, walked layer by layer.
 
 From a wall face the walk enters the cell behind it, crosses to the cell's *opposite
-face* (the far side of a hexahedron, the other triangle of a wedge entered through a
-triangle, the far edge of a 2-D quadrilateral; read from a per-cell table of face ids in
-template order, :func:`template_faces`) and on to the neighbour across that face. All
-wall faces walk in lock-step: one vectorised numpy step per layer, never a Python loop
-over faces.
+face* and on to the neighbour across that face. The opposite face is found from the
+cell's faces, for any cell: the faces sharing no point with the entry face (the far side
+of a hexahedron, the other triangle of a wedge entered through a triangle, the far edge
+of a 2-D quadrilateral; several for a polyhedron whose far side is split by a refinement,
+of which the one the entry normal crosses first is taken, :func:`_opposite`). All wall
+faces walk in lock-step: one vectorised numpy step per layer, never a Python loop over
+faces.
 
 A cell *continues the stack* while
 
@@ -46,10 +48,11 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh.celltypes import CELL_TYPES, FACES
+from caselint.mesh.geometry import chunks
+from caselint.mesh.topology import cell_point_table
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: How a stack ended (``WallLayers.end``).
 NO_STACK = 0      #: the wall cell is no layer cell (a tetrahedron, or as tall as wide)
@@ -144,78 +147,49 @@ def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, turn_deg: float
     return layers
 
 
-#: Face template opposite each face template (-1: none), for the cell types that have one.
-OPPOSITE: dict[str, tuple[int, ...]] = {
-    "hexahedron": (1, 0, 4, 5, 2, 3),
-    "wedge": (1, 0, -1, -1, -1),        # only the triangles face each other
-    "quad": (2, 3, 0, 1),               # 2-D: opposite edges
-}
+def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray, x_in: np.ndarray,
+              n_in: np.ndarray):
+    """The face of each cell opposite its entry face, and whether it has one.
 
-
-def _key_vertices(template: tuple[int, ...]) -> tuple[int, ...]:
-    """Template vertices that single the face out among its cell's faces.
-
-    Two diagonal corners of a quadrilateral lie on no other face of a hexahedron or
-    wedge; a triangle needs all three (two of them also lie on a quadrilateral).
+    Candidates are the cell's faces that share no point with the entry face: exactly the
+    opposite face of a hexahedron, of a wedge entered through a triangle and of a 2-D
+    quadrilateral, none for tetrahedra, pyramids and wedges entered through a
+    quadrilateral. Among several (a polyhedron with a split top face, a hexahedron whose
+    sides are split by a refinement), the first one crossed by the ray from the entry face
+    centroid along the entry normal ``n_in`` (into the cell) is taken.
     """
-    distinct = tuple(dict.fromkeys(template))
-    return (distinct[0], distinct[2]) if len(distinct) == 4 else distinct
-
-
-def template_faces(mesh: "Mesh") -> np.ndarray:
-    """(C, 6) int face id of each face template of the hexahedra, wedges and 2-D quadrilaterals
-    (``caselint.mesh.celltypes.FACES`` order), -1 elsewhere; cached on the mesh.
-
-    Read from the topology's per-cell face table (:attr:`Mesh.cell_faces`), which pairs
-    each cell's half-faces with the unique faces as they are built.
-    """
-
-    def compute() -> np.ndarray:
-        table = mesh.cell_faces
-        out = np.full((mesh.n_cells, 6), -1, dtype=table.dtype)
-        for block in mesh.cell_blocks:
-            if block.type in OPPOSITE:
-                nf = len(FACES[block.type])
-                out[block.start : block.stop, :nf] = table[block.start : block.stop, :nf]
-        return out
-
-    return mesh.cached("wall_layers.template_faces", compute)
-
-
-def _opposite_table() -> np.ndarray:
-    """(cell type index, template) -> opposite template, -1 for none."""
-    table = np.full((len(CELL_TYPES), 6), -1, dtype=np.int64)
-    for name, opposite in OPPOSITE.items():
-        table[CELL_TYPES.index(name), : len(opposite)] = opposite
-    return table
-
-
-_OPPOSITE_TABLE = _opposite_table()
-
-
-def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray):
-    """The face of each cell opposite its entry face, and whether it has one."""
-    # np.take gathers rows several times faster than fancy indexing does
-    slots = np.take(template_faces(mesh), cells, axis=0)
-    hit = slots == entry[:, None]
-    j = np.argmax(hit, axis=1)
-    oj = _OPPOSITE_TABLE[mesh.cell_type[cells], j]
-    rows = np.arange(len(cells))
-    opp = np.take(slots, rows * slots.shape[1] + np.maximum(oj, 0)).astype(np.int64)
-    shaped = hit[rows, j] & (oj >= 0) & (opp >= 0)
-    return np.where(shaped, opp, entry), shaped
+    slots = np.take(mesh.cell_face_table(), cells, axis=0)                      # (m, K)
+    valid = (slots >= 0) & (slots != entry[:, None])
+    table = mesh.face_point_table
+    entry_pts = table(entry)                                           # (m, Ve)
+    m, k = slots.shape
+    pts = table(np.where(valid, slots, 0).ravel()).reshape(m, k, -1)   # (m, K, V)
+    shared = (pts[:, :, :, None] == entry_pts[:, None, None, :]).any(axis=(2, 3))
+    cand = valid & ~shared
+    f = np.where(cand, slots, 0)
+    s = np.take(mesh.face_area_vectors, f.ravel(), axis=0).reshape(m, k, 3)
+    xf = np.take(mesh.face_centroids, f.ravel(), axis=0).reshape(m, k, 3)
+    mine = mesh.owner[f] == cells[:, None]
+    dn = np.einsum("mkj,mj->mk", s, n_in) * np.where(mine, 1.0, -1.0)
+    reach = np.einsum("mkj,mkj->mk", s, xf - x_in[:, None, :]) * np.where(mine, 1.0, -1.0)
+    leaving = cand & (dn > 0)
+    t = np.where(leaving, reach / np.where(leaving, dn, 1.0), np.inf)
+    # a candidate the ray does not leave through ranks after every one it does
+    score = np.where(leaving, t, np.where(cand, np.finfo(float).max, np.inf))
+    j = np.argmin(score, axis=1)
+    rows = np.arange(m)
+    shaped = cand[rows, j]
+    opp = np.where(shaped, slots[rows, j], entry).astype(np.int64)
+    return opp, shaped
 
 
 def _extent(mesh: "Mesh", cells: np.ndarray, origin: np.ndarray, normal: np.ndarray) -> np.ndarray:
     """Largest distance of each cell's vertices from ``origin`` along unit ``normal`` (m)."""
     out = np.zeros(len(cells))
-    for block in mesh.cell_blocks:
-        sel = np.flatnonzero((cells >= block.start) & (cells < block.stop))
-        if sel.size == 0:
-            continue
-        pts = mesh.points[block.connectivity[cells[sel] - block.start]]
-        d = np.einsum("ikj,ij->ik", pts - origin[sel][:, None, :], normal[sel])
-        out[sel] = d.max(axis=1)
+    for sl in chunks(len(cells)):
+        pts = mesh.points[cell_point_table(mesh.data, mesh.cell_faces, cells[sl])]
+        d = np.einsum("ikj,ij->ik", pts - origin[sl][:, None, :], normal[sl])
+        out[sl] = d.max(axis=1)
     return out
 
 
@@ -256,7 +230,7 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
     for step in range(max_cells):
         if act.size == 0:
             break
-        opp, shaped = _opposite(mesh, cell, entry)
+        opp, shaped = _opposite(mesh, cell, entry, x_in, nin)
         mine = owner[opp] == cell
         a_out = areas[opp]
         x_out = np.take(xf, opp, axis=0)      # take and compress: see _opposite

@@ -30,7 +30,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Explicit Runge-Kutta schemes of the case file and their number of stages (= order).
 EXPLICIT_STAGES: dict[str, int] = {"forward-euler": 1, "rk2": 2, "rk3": 3, "rk4": 4}
@@ -204,21 +204,15 @@ def max_time_step(dt_s: float, measured: float, limit: float) -> float:
 
 
 def face_velocity_from_points(mesh: "Mesh", point_velocity: np.ndarray) -> np.ndarray:
-    """(F, 3) mean of each face's vertex velocities (padded triangles counted once)."""
-    faces = mesh.faces
-    out = np.empty((len(faces), 3))
-    if faces.shape[1] == 4:
-        quad = faces[:, 3] != faces[:, 2]
-        weight = np.where(quad, 0.25, 1.0 / 3.0)
+    """(F, 3) mean of each face's vertex velocities."""
+    from caselint.mesh.topology import face_point_mean
+
+    out = np.empty((mesh.n_faces, 3))
+    faces = np.arange(mesh.n_faces)
     # column by column: gathers from contiguous columns are faster than from (P, 3) rows
     for k in range(3):
         col = np.ascontiguousarray(point_velocity[:, k], dtype=np.float64)
-        if faces.shape[1] == 2:
-            out[:, k] = 0.5 * (col[faces[:, 0]] + col[faces[:, 1]])
-            continue
-        total = col[faces[:, 0]] + col[faces[:, 1]] + col[faces[:, 2]]
-        total += np.where(quad, col[faces[:, 3]], 0.0)
-        out[:, k] = total * weight
+        out[:, k] = face_point_mean(mesh.data, col, faces)
     return out
 
 

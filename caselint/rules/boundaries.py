@@ -18,7 +18,7 @@ from caselint.rules.mesh_quality import finite_point, first_cells, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 
 def _faces_where(mesh: "Mesh", faces: np.ndarray, boundary: str | None = None) -> Where:

@@ -37,7 +37,7 @@ from caselint.rules.mesh_quality import finite_point
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 _COST = "COST Action 732 best practice guideline (Franke et al., 2007)"
 _AIJ = "AIJ guidelines (Tominaga et al., J. Wind Eng. Ind. Aerodyn. 96, 2008)"
@@ -85,10 +85,7 @@ def _axes(ctx: "RuleContext", dim: int) -> tuple[np.ndarray, np.ndarray, np.ndar
 
 def _used_points(mesh: "Mesh") -> np.ndarray:
     def build() -> np.ndarray:
-        used = np.zeros(mesh.n_points, dtype=bool)
-        for block in mesh.cell_blocks:
-            used[block.connectivity.ravel()] = True
-        return mesh.points[used]
+        return mesh.points[mesh.used_points()]
 
     return mesh.cached("domain.used_points", build)
 
@@ -143,7 +140,7 @@ def check_domain_extent(ctx: "RuleContext") -> RuleResult:
     faces = mesh.boundary_faces[np.isin(mesh.face_group[mesh.boundary_faces], index)]
     if faces.size == 0:
         return RuleResult.skip("the body groups of domain.body hold no boundary face of the mesh")
-    body = mesh.points[np.unique(mesh.faces[faces].ravel())]
+    body = mesh.points[np.unique(mesh.face_point_table(faces).ravel())]
     domain = _used_points(mesh)
     be, bu, de, du = body @ e, body @ u, domain @ e, domain @ u
     height = float(bu.max() - bu.min())

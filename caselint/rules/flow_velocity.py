@@ -23,7 +23,7 @@ from caselint.rules.mesh_quality import plural
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
     from caselint.manifest.case import Case
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Array names recognised as a velocity field when ``mesh.velocity_field`` is not given.
 FIELD_NAMES: tuple[str, ...] = ("U", "u", "velocity", "Velocity")

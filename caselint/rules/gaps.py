@@ -29,7 +29,7 @@ from caselint.rules.mesh_quality import cell_names, finite_point, plural
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
     from caselint.manifest.case import Case
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 
 #: Default of ``facing_angle_deg``: the walls of a gap face each other within this angle.

@@ -21,13 +21,13 @@ import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.errors import CaseFileError, MeshReadError
-from caselint.mesh.cellsize import MeshSize, first_layer_heights, local_cell_volumes, mesh_size
+from caselint.mesh.cellsize import MeshSize, first_layer_heights, mesh_size
 from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
     from caselint.manifest.case import Case
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 _CELIK = ("Celik, Ghia, Roache, Freitas, Coleman & Raad, ASME J. Fluids Eng. 130(7) 078001 "
           "(2008)")
@@ -77,7 +77,7 @@ def read_member(case: "Case", index: int, *, walls: tuple[str, ...] = (),
         except MeshReadError as exc:
             raise CaseFileError(str(case.path), f"cannot read the grid-study mesh: {exc}",
                                 line=case.line_of(key), key=key) from exc
-    volumes = local_cell_volumes(mesh)
+    volumes = mesh.cell_volumes
     size = mesh_size(mesh, volumes)
     height, missing = None, ()
     if walls:

@@ -24,12 +24,13 @@ import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.mesh.geometry import chunks
+from caselint.mesh.topology import cells_of_points
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
 from caselint.rules.mesh_quality import finite_point, first_cells, plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Points closer than this fraction of the mesh's largest extent count as coincident: far
 #: below any cell size, only round-off of the same coordinates.
@@ -40,18 +41,10 @@ _DEFINITION = "definition of a finite-volume face (one owner and one neighbour c
 # -- measurements --------------------------------------------------------------------------
 
 
-def used_points(mesh: "Mesh") -> np.ndarray:
-    """(P,) bool: which points at least one volume cell uses."""
-    used = np.zeros(mesh.n_points, dtype=bool)
-    for block in mesh.cell_blocks:
-        used[block.connectivity.ravel()] = True
-    return used
-
-
 def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
     """Ids of used points sharing their place with another used point, and the number of
     extra copies (a point present three times gives three ids and two copies)."""
-    ids = np.flatnonzero(used_points(mesh))
+    ids = np.flatnonzero(mesh.used_points())
     if ids.size < 2:
         return np.empty(0, dtype=np.int64), 0
     pts = mesh.points[ids]
@@ -74,9 +67,7 @@ def cells_using(mesh: "Mesh", point_ids: np.ndarray) -> np.ndarray:
     """Sorted ids of the volume cells using any of ``point_ids``."""
     marked = np.zeros(mesh.n_points, dtype=bool)
     marked[point_ids] = True
-    hits = [block.start + np.flatnonzero(marked[block.connectivity].any(axis=1))
-            for block in mesh.cell_blocks]
-    return np.concatenate(hits) if hits else np.empty(0, dtype=np.int64)
+    return cells_of_points(mesh.data, marked)
 
 
 def cell_pieces(mesh: "Mesh") -> np.ndarray:
@@ -120,7 +111,7 @@ def check_duplicate_points(ctx: "RuleContext") -> RuleResult:
     if mesh.n_cells == 0:
         return RuleResult.skip("the mesh has no volume cells")
     points, copies = coincident_points(mesh)
-    unused = int(mesh.n_points - np.count_nonzero(used_points(mesh)))
+    unused = int(mesh.n_points - np.count_nonzero(mesh.used_points()))
     notes = ()
     if unused:
         notes = (Note(f"{plural(unused, 'point')} of the file belong to no volume cell "
@@ -150,7 +141,7 @@ def check_non_manifold_faces(ctx: "RuleContext") -> RuleResult:
     if occurrences.size == 0:
         return RuleResult(measurements=(Measurement(
             0.0, detail=f"every one of the {mesh.n_faces} faces has at most two cells"),))
-    keys = np.sort(mesh.faces[occurrences], axis=1)
+    keys = np.sort(mesh.face_point_table(occurrences), axis=1)
     _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
     count = int(first.size)
     cells = np.unique(mesh.owner[occurrences])

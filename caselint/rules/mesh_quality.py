@@ -30,7 +30,7 @@ from caselint.model import (
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 _VERDICT = "Verdict geometric quality library (Stimpson et al., SAND2007-1751, 2007)"
 #: Most bins of a histogram a rule attaches (growth ratio: 0.05 wide up to 1.5x the limit).

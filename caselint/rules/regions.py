@@ -24,7 +24,7 @@ from caselint.rules.mesh_quality import cell_names, finite_point, plural, worst_
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 
 def cell_sizes(mesh: "Mesh") -> np.ndarray:

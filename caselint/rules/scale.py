@@ -42,7 +42,7 @@ from caselint.rules.gaps import FACING_ANGLE_DEG, gap_rays, wall_groups
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
     from caselint.manifest.case import Case
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Mesh units the fix may suggest (those of the case schema's ``mesh.units``).
 UNITS: tuple[str, ...] = ("m", "cm", "mm", "um", "in", "ft")
@@ -70,7 +70,7 @@ def _extent(points: np.ndarray, dim: int) -> np.ndarray:
 
 
 def _face_points(mesh: "Mesh", faces: np.ndarray) -> np.ndarray:
-    return mesh.points[np.unique(mesh.faces[faces].ravel())]
+    return mesh.points[np.unique(mesh.face_point_table(faces).ravel())]
 
 
 def mesh_lengths(case: "Case", mesh: "Mesh", max_steps: int) -> MeshLengths:

@@ -19,7 +19,7 @@ from caselint.rules.time_step import merged, number_param, scale_resolving, stea
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 # Both from memory (see REFERENCES.md section 4); findings cite them without the tag.
 _WILLIAMSON = "Williamson, Annu. Rev. Fluid Mech. 28 (1996)"
@@ -73,10 +73,7 @@ def domain_length(mesh: "Mesh", direction) -> float:
         return float((hi - lo).max())
 
     def compute() -> float:
-        used = np.zeros(mesh.n_points, dtype=bool)
-        for block in mesh.cell_blocks:
-            used[block.connectivity.ravel()] = True
-        along = mesh.points[used] @ np.asarray(direction, dtype=np.float64)
+        along = mesh.points[mesh.used_points()] @ np.asarray(direction, dtype=np.float64)
         return float(along.max() - along.min())
 
     return mesh.cached(f"time_resolution.length:{tuple(direction)}", compute)

@@ -23,12 +23,13 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from caselint.mesh.topology import face_point_mean
 from caselint.physics import friction as fr
 from caselint.rules.wall_scope import fmt
 
 if TYPE_CHECKING:
     from caselint.manifest.case import Case
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 #: Field names recognised as friction velocity (m/s) and as wall shear stress (Pa).
 U_TAU_FIELDS: tuple[str, ...] = ("u_tau", "friction_velocity")
@@ -116,13 +117,7 @@ def _field_on_faces(mesh: "Mesh", names: tuple[str, ...], faces: np.ndarray,
                 values.reshape(len(values), -1), axis=1)
             if kind == "cell":
                 return f"{name} (cell data of the wall cells)", mag[cells]
-            verts = mesh.faces[faces]
-            if verts.shape[1] == 4:
-                tri = verts[:, 3] == verts[:, 2]
-                total = mag[verts].sum(axis=1)
-                per_face = np.where(tri, (total - mag[verts[:, 3]]) / 3.0, total / 4.0)
-            else:
-                per_face = mag[verts].mean(axis=1)
+            per_face = face_point_mean(mesh.data, mag, faces)
             return f"{name} (point data, averaged over each face)", per_face
     return None
 

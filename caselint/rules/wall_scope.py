@@ -15,7 +15,7 @@ from caselint.rules.mesh_quality import cell_names, finite_point, worst_ids
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
-    from caselint.mesh.model import Mesh
+    from caselint.mesh.analysis import Mesh
 
 
 @dataclass(frozen=True)

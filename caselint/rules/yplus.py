@@ -55,7 +55,7 @@ def _spacing(mesh, faces, normals, direction):
     usable = size > 0.1                       # flow not (nearly) normal to the wall
     t = tang / np.where(usable, size, 1.0)[:, None]
     s = np.cross(normals, t)
-    pts = mesh.points[mesh.faces[faces]]
+    pts = mesh.points[mesh.face_point_table(faces)]
     along = np.einsum("ikj,ij->ik", pts, t)
     across = np.einsum("ikj,ij->ik", pts, s)
     return np.ptp(along, axis=1), np.ptp(across, axis=1), usable
