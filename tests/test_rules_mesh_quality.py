@@ -260,11 +260,11 @@ def test_worst_ids_lists_worst_first_ties_by_id_and_counts_all():
 def test_rules_are_registered_and_documented():
     rules = mesh_quality.caselint_register_rules()
     assert [r.id for r in rules] == ["inverted-cells", "non-orthogonality", "skewness",
-                                     "aspect-ratio", "growth-ratio"]
+                                     "aspect-ratio", "growth-ratio", "face-warp"]
     defaults = {r.id: (r.limits.warn, r.limits.error) for r in rules}
     assert defaults == {"inverted-cells": (None, 0), "non-orthogonality": (70.0, 85.0),
                         "skewness": (0.5, 1.0), "aspect-ratio": (1000.0, 10000.0),
-                        "growth-ratio": (1.3, 2.0)}
+                        "growth-ratio": (1.3, 2.0), "face-warp": (20.0, 40.0)}
     for rule in rules:
         assert rule.measures and rule.worse == "higher" and "mesh" in rule.needs
         assert "common practice" in rule.rationale or "Verdict" in rule.rationale

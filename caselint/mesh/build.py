@@ -69,6 +69,14 @@ def _new_ids(order: np.ndarray | None, ids: np.ndarray) -> np.ndarray:
     return np.sort(where[ids])
 
 
+def sorted_groups(names: Sequence[str], face_group: np.ndarray):
+    """Group names sorted and made unique (equal names merge), and the group index of each
+    face renumbered to match (-1 stays -1)."""
+    unique = tuple(sorted(set(names)))
+    remap = np.array([unique.index(n) for n in names] + [-1], dtype=np.int32)
+    return unique, remap[np.where(face_group >= 0, face_group, len(names))]
+
+
 def mesh_from_elements(
     *,
     path: str,
@@ -159,7 +167,7 @@ def mesh_from_faces(
     """A mesh from polygonal faces whose normals point out of their owner cell.
 
     ``neighbour`` is -1 on boundary faces; ``face_group`` indexes ``group_names`` (-1: no
-    group). ``n_cells`` defaults to one more than the largest cell id. Faces are reordered
+    group; names need not be sorted, equal names are one group). ``n_cells`` defaults to one more than the largest cell id. Faces are reordered
     internal first where needed.
 
     :raises ValueError: arrays of inconsistent sizes or ids out of range (the reader turns
@@ -177,6 +185,7 @@ def mesh_from_faces(
         n_cells = int(max(owner.max(initial=-1), neighbour.max(initial=-1))) + 1
     if face_group is None:
         face_group = np.full(n_faces, -1, dtype=np.int32)
+    group_names, face_group = sorted_groups(group_names, face_group)
     face_group = np.where(neighbour >= 0, -1, face_group).astype(np.int32)
     order = internal_first(neighbour)
     if order is not None:

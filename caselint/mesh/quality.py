@@ -14,9 +14,9 @@ Face metrics (finite-volume definitions, Jasak 1996; Ferziger & Peric 2002):
 
 - face warp: the largest angle (degrees) between the area vector of a triangle of the face's
   fan (vertex mean and two consecutive vertices, :mod:`caselint.mesh.geometry`) and the
-  face's area vector; 0 on planar faces and on triangles. A quadrilateral whose four
-  corners lie off one plane, by a small height h at alternate corners of a square of
-  side a, warps by about atan(2 sqrt(2) h / a) (derived in the tests).
+  face's area vector; 0 on planar faces and on triangles. A square of side a whose
+  alternate corners are lifted by +h and -h warps by exactly atan(2 h / a) (derived in
+  the tests).
 
 Cell metrics follow Verdict (Stimpson et al., SAND2007-1751), the library behind VTK's
 ``vtkMeshQuality``, and are defined per shape: a cell whose shape the file did not give

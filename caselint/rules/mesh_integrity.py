@@ -10,6 +10,10 @@
 - ``unmatched-boundary-elements``: boundary elements of the file (triangles, quads or edges
   in a named group) that lie on no face of any volume cell: they are ignored, so the
   boundary condition meant for them is applied nowhere.
+- ``open-cells``: cells whose faces do not close (their outward area vectors do not sum to
+  zero): a face is missing or listed with the wrong cell, as a face-based file can have.
+- ``degenerate-faces``: faces with fewer than three distinct points (3-D) or an edge of one
+  point (2-D): no area, no normal.
 
 Inverted and zero-volume cells are the business of ``inverted-cells`` (mesh_quality).
 Everything is vectorised: grouping by sorted keys, and connected pieces by hooking and
@@ -100,6 +104,38 @@ def cell_pieces(mesh: "Mesh") -> np.ndarray:
             if np.array_equal(jumped, label):
                 break
             label = jumped
+
+
+#: A cell is open when its outward area vectors sum to more than this fraction of the sum
+#: of their magnitudes: round-off of a closed cell stays near 1e-16.
+OPEN_TOLERANCE = 1e-8
+
+
+def cell_closure(mesh: "Mesh") -> np.ndarray:
+    """(C,) |sum of the outward face area vectors| over the sum of their magnitudes."""
+
+    def compute() -> np.ndarray:
+        n, n_int = mesh.n_cells, mesh.n_internal
+        s, area = mesh.face_area_vectors, mesh.face_areas
+        nbr = mesh.neighbour[:n_int]
+        total = (np.bincount(mesh.owner, weights=area, minlength=n)
+                 + np.bincount(nbr, weights=area[:n_int], minlength=n))
+        net = np.zeros(n)
+        for k in range(3):
+            part = (np.bincount(mesh.owner, weights=s[:, k], minlength=n)
+                    - np.bincount(nbr, weights=s[:n_int, k], minlength=n))
+            net += part * part
+        return np.sqrt(net) / np.where(total > 0, total, 1.0)
+
+    return mesh.cached("mesh_integrity.closure", compute)
+
+
+def short_faces(mesh: "Mesh") -> np.ndarray:
+    """Ids of faces with fewer distinct points than a face needs (3 in 3-D, 2 in 2-D)."""
+    table = mesh.face_point_table()
+    srt = np.sort(table, axis=1)
+    distinct = 1 + np.count_nonzero(srt[:, 1:] != srt[:, :-1], axis=1)
+    return np.flatnonzero(distinct < mesh.dim)
 
 
 # -- checks --------------------------------------------------------------------------------
@@ -207,6 +243,46 @@ def check_unmatched_boundary_elements(ctx: "RuleContext") -> RuleResult:
     return RuleResult(measurements=measurements)
 
 
+def check_open_cells(ctx: "RuleContext") -> RuleResult:
+    """Count the cells whose faces do not close."""
+    mesh = ctx.mesh
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    closure = cell_closure(mesh)
+    open_ = np.flatnonzero(closure > OPEN_TOLERANCE)
+    if not open_.size:
+        return RuleResult(measurements=(Measurement(
+            0.0, detail=f"the faces of all {mesh.n_cells} cells close (largest gap "
+                        f"{float(closure.max(initial=0.0)):.1e} of the cell's face area)"),))
+    worst = int(open_[np.argmax(closure[open_])])
+    where = Where(cells=first_cells(mesh, open_), cell_count=int(open_.size),
+                  point=finite_point(mesh.cell_centroids[worst]))
+    detail = (f"{plural(int(open_.size), 'cell')} whose faces leave a gap; worst cell "
+              f"{int(mesh.file_cell_ids(worst))} (its face area vectors sum to "
+              f"{closure[worst]:.3g} of their total)")
+    return RuleResult(measurements=(Measurement(float(open_.size), where=where, detail=detail),))
+
+
+def check_degenerate_faces(ctx: "RuleContext") -> RuleResult:
+    """Count the faces with too few distinct points to have an area."""
+    mesh = ctx.mesh
+    if mesh.n_cells == 0:
+        return RuleResult.skip("the mesh has no volume cells")
+    bad = short_faces(mesh)
+    need = "three" if mesh.dim == 3 else "two"
+    if not bad.size:
+        return RuleResult(measurements=(Measurement(
+            0.0, detail=f"every one of the {mesh.n_faces} faces has at least {need} points"),))
+    cells = np.unique(np.concatenate([mesh.owner[bad], mesh.neighbour[bad]]))
+    cells = cells[cells >= 0]
+    where = Where(faces=tuple(int(f) for f in bad[:MAX_LISTED_IDS]), face_count=int(bad.size),
+                  cells=first_cells(mesh, cells), cell_count=int(cells.size),
+                  point=finite_point(mesh.face_centroids[bad[0]]))
+    detail = (f"{plural(int(bad.size), 'face')} with fewer than {need} distinct points, on "
+              f"{plural(int(cells.size), 'cell')}")
+    return RuleResult(measurements=(Measurement(float(bad.size), where=where, detail=detail),))
+
+
 # -- the rules -------------------------------------------------------------------------------
 
 DUPLICATE_POINTS = Rule(
@@ -283,8 +359,46 @@ UNMATCHED_BOUNDARY_ELEMENTS = Rule(
     measures="number of boundary elements matching no face of a volume cell",
 )
 
+OPEN_CELLS = Rule(
+    id="open-cells",
+    title="Cells whose faces do not close",
+    rationale=(
+        "The faces of a cell enclose it: their outward area vectors sum to zero (the "
+        "divergence theorem applied to a constant). When they do not, a face is missing, "
+        "belongs to another cell or is listed with the wrong owner, and the cell's volume, "
+        "centroid and fluxes are wrong. caselint flags a cell whose area vectors sum to more "
+        "than 1e-8 of their total magnitude (round-off of a closed cell is near 1e-16). A "
+        "single such cell is an error (common practice)."
+    ),
+    source="divergence theorem (closed control volumes); limit: common practice",
+    unit="cells",
+    limits=Limits(warn=None, error=0),
+    hint=("Re-export the mesh: a face-based file whose face lists or owner/neighbour lists "
+          "are incomplete or inconsistent (often a partial write or a bad conversion)."),
+    check=check_open_cells,
+    measures="number of cells whose faces do not close",
+)
+
+DEGENERATE_FACES = Rule(
+    id="degenerate-faces",
+    title="Faces with too few points",
+    rationale=(
+        "A face of a 3-D mesh needs at least three distinct points to have an area and a "
+        "normal (an edge of a 2-D mesh two). A face with fewer carries no flux and has no "
+        "direction: it comes from collapsed cells or a damaged face list. A single such face "
+        "is an error (common practice)."
+    ),
+    source="common practice",
+    unit="faces",
+    limits=Limits(warn=None, error=0),
+    hint=("Remove collapsed cells (merged nodes in the mesher) or re-export the mesh; "
+          "check the cells on the listed faces."),
+    check=check_degenerate_faces,
+    measures="number of faces with fewer than three distinct points (two in 2-D)",
+)
+
 RULES: tuple[Rule, ...] = (DUPLICATE_POINTS, NON_MANIFOLD_FACES, DISCONNECTED_PIECES,
-                           UNMATCHED_BOUNDARY_ELEMENTS)
+                           UNMATCHED_BOUNDARY_ELEMENTS, OPEN_CELLS, DEGENERATE_FACES)
 
 
 @hookimpl

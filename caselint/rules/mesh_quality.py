@@ -1,4 +1,5 @@
-"""Built-in mesh-quality rules: inverted cells, non-orthogonality, skewness, aspect ratio, growth.
+"""Built-in mesh-quality rules: inverted cells, non-orthogonality, skewness, aspect ratio,
+growth, face warp.
 
 Each rule reads one metric of :mod:`caselint.mesh.quality` (vectorised, cached on the mesh)
 and reports its extreme value, how many cells or faces are past the warning limit, the
@@ -227,7 +228,8 @@ def check_inverted_cells(ctx: "RuleContext") -> RuleResult:
     volumes = mesh.cell_volumes
     corner = quality.min_corner_jacobian(mesh)
     scaled = quality.scaled_jacobian(mesh)
-    bad = (volumes <= 0.0) | (corner < 0.0)
+    # general polyhedra have no corner Jacobian (NaN): their test is a face seen from behind
+    bad = (volumes <= 0.0) | (corner < 0.0) | quality.folded_polyhedra(mesh)
     bad_ids = np.flatnonzero(bad)
     count = int(bad_ids.size)
     # worst first: the most negative scaled Jacobian, then the smallest volume
@@ -236,11 +238,19 @@ def check_inverted_cells(ctx: "RuleContext") -> RuleResult:
     listed = bad_ids[order][:MAX_LISTED_IDS]
     if count:
         worst = int(listed[0])
+        jacobian = (f", scaled Jacobian {scaled[worst]:.3g}" if np.isfinite(scaled[worst])
+                    else ", a polyhedron whose centre sees a face from behind")
         detail = (f"{plural(count, 'cell')} inverted or folded, worst cell {names[worst]} "
-                  f"(volume {volumes[worst]:.3g} m^3, scaled Jacobian {scaled[worst]:.3g})")
-    else:
-        worst = int(worst_ids(scaled, None, "lower", names)[0][0])  # ties: lowest file id
+                  f"(volume {volumes[worst]:.3g} m^3{jacobian})")
+    elif np.isfinite(scaled).any():
+        # cells without a known shape have no scaled Jacobian: rank the others
+        ranked = np.where(np.isfinite(scaled), scaled, np.inf)
+        worst = int(worst_ids(ranked, None, "lower", names)[0][0])  # ties: lowest file id
         detail = (f"no inverted cells; lowest scaled Jacobian {scaled[worst]:.3g} in cell "
+                  f"{names[worst]}")
+    else:
+        worst = int(worst_ids(volumes, None, "lower", names)[0][0])
+        detail = (f"no inverted cells; smallest volume {volumes[worst]:.3g} m^3 in cell "
                   f"{names[worst]}")
     where = Where(cells=cell_names(mesh, listed), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
@@ -302,10 +312,16 @@ def check_aspect_ratio(ctx: "RuleContext") -> RuleResult:
     if (skip := _no_cells(mesh)) is not None:
         return skip
     values = quality.edge_ratio(mesh)
-    if (skip := _nonfinite_skip(values, "edge ratio")) is not None:
-        return skip
+    shaped = mesh.cell_shape >= 0
+    n_general = int(mesh.n_cells - np.count_nonzero(shaped))
+    if n_general == mesh.n_cells:
+        return RuleResult.skip(
+            f"the edge ratio is defined per cell shape; all {plural(n_general, 'cell')} "
+            "are general polyhedra (polygons in 2-D)")
+    # not defined on general polyhedra: they neither pass nor fail, and are counted
+    ranked = np.where(shaped, values, -np.inf)
     threshold = ctx.limits.warn if ctx.limits.warn is not None else ctx.limits.error
-    listed, count = worst_ids(values, threshold, names=mesh.file_cell_ids())
+    listed, count = worst_ids(ranked, threshold, names=mesh.file_cell_ids())
     worst = int(listed[0])
     name = int(mesh.file_cell_ids(worst))
     if count:
@@ -313,10 +329,24 @@ def check_aspect_ratio(ctx: "RuleContext") -> RuleResult:
                   f"worst cell {name} ({values[worst]:.4g})")
     else:
         detail = f"no cell above the limit; largest {values[worst]:.4g} in cell {name}"
+    if n_general:
+        kind = "polyhedron" if n_general == 1 else "polyhedra"
+        detail += f"; not defined for {n_general} general {kind}"
     where = Where(cells=cell_names(mesh, listed) if count else (), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
     measurement = Measurement(value=float(values[worst]), where=where, detail=detail)
     return RuleResult(measurements=(measurement,))
+
+
+def check_face_warp(ctx: "RuleContext") -> RuleResult:
+    """Largest face warp: how far a face's fan triangles turn from the face normal."""
+    mesh = ctx.mesh
+    if (skip := _no_cells(mesh)) is not None:
+        return skip
+    if mesh.dim == 2:
+        return RuleResult.skip("faces of a 2-D mesh are edges, which cannot warp")
+    values = quality.face_warp_deg(mesh)
+    return _face_rule_result(ctx, values, None, "face warp", " deg", ".1f")
 
 
 # -- the rules ---------------------------------------------------------------------------
@@ -328,7 +358,9 @@ INVERTED_CELLS = Rule(
         "A cell with zero or negative volume, or with a corner whose Jacobian determinant is "
         "negative (the cell folds over itself), has no meaningful control volume: fluxes and "
         "gradients on it are wrong in sign or undefined and most solvers stop or diverge. The "
-        "corner Jacobian follows the Verdict definitions (" + _VERDICT + "). A single such cell "
+        "corner Jacobian follows the Verdict definitions (" + _VERDICT + "). A general "
+        "polyhedron (no corners of a known shape) counts as folded when its centroid sees one "
+        "of its faces from behind, which no finite-volume cell centre may. A single such cell "
         "is an error."
     ),
     source=_VERDICT,
@@ -337,7 +369,8 @@ INVERTED_CELLS = Rule(
     hint=("Re-mesh or untangle the listed cells: check the node ordering of hand-made blocks, "
           "collapsed edges, and inflation layers that fold at sharp convex corners."),
     check=check_inverted_cells,
-    measures="number of inverted or folded cells (non-positive volume or negative corner Jacobian)",
+    measures=("number of inverted or folded cells (non-positive volume, negative corner "
+              "Jacobian, or a polyhedron's face seen from behind)"),
 )
 
 NON_ORTHOGONALITY = Rule(
@@ -386,7 +419,9 @@ ASPECT_RATIO = Rule(
         "The edge ratio of a cell, its longest edge over its shortest (Verdict 'edge ratio', "
         + _VERDICT + "). Very flat or needle-like cells slow convergence and amplify round-off. "
         "Wall-layer cells are anisotropic by design (thin normal to the wall, long along it), "
-        "so the limits are loose: warning above 1000, error above 10000 (common practice)."
+        "so the limits are loose: warning above 1000, error above 10000 (common practice). "
+        "The edge ratio is defined per cell shape (tetrahedron, hexahedron, wedge, pyramid, "
+        "triangle, quadrilateral); general polyhedra are counted as not measured."
     ),
     source=_VERDICT + "; limits: common practice",
     unit="",
@@ -416,7 +451,31 @@ GROWTH_RATIO = Rule(
     measures="largest volume ratio of two neighbouring cells",
 )
 
-RULES: tuple[Rule, ...] = (INVERTED_CELLS, NON_ORTHOGONALITY, SKEWNESS, ASPECT_RATIO, GROWTH_RATIO)
+FACE_WARP = Rule(
+    id="face-warp",
+    title="Face warp",
+    rationale=(
+        "A face whose points do not lie in one plane has no single normal: the face area "
+        "vector and centroid a solver uses are those of an averaged surface, and fluxes, "
+        "gradients and the non-orthogonal correction pick up an error that grows with the "
+        "warp. caselint fans each face into triangles about its vertex mean (the geometry "
+        "of " + _FV_BOOKS + ") and measures the largest angle between a triangle's normal "
+        "and the face's area vector: 0 on planar faces and on triangles; a square with "
+        "alternate corners lifted by +h and -h warps by atan(2 h / side). Warning above "
+        "20 deg, error above 40 deg: common practice (caselint defaults; tune per solver)."
+    ),
+    source=_FV_BOOKS + "; limits: common practice",
+    unit="deg",
+    limits=Limits(warn=20.0, error=40.0),
+    hint=("Flatten the listed faces: split warped quadrilaterals or polygons into "
+          "triangles (or planar pieces), smooth the mesh near curved walls, or reduce the "
+          "twist of swept blocks."),
+    check=check_face_warp,
+    measures="largest face warp (angle between a fan triangle's normal and the face normal)",
+)
+
+RULES: tuple[Rule, ...] = (INVERTED_CELLS, NON_ORTHOGONALITY, SKEWNESS, ASPECT_RATIO, GROWTH_RATIO,
+                           FACE_WARP)
 
 
 @hookimpl
