@@ -9,8 +9,9 @@ product of its diagonals; the area vectors of a closed cell sum to zero. The fac
 is the centroid of the fan triangles, ``(m + x_i + x_{i+1}) / 3``, each weighted by its area
 projected on S (``s_i . S``): exact for a planar face.
 
-Cells: pyramids on the faces about an apex x0 inside the cell, the mean of the cell's face
-vertex means (for tetrahedra, hexahedra and wedges exactly their vertex mean):
+Cells: pyramids on the faces about an apex x0 inside the cell: the vertex mean of a cell
+of known shape, else the mean of the cell's face vertex means (for tetrahedra, hexahedra
+and wedges the two are the same point):
 ``V = (1/3) sum_f S_f . (m_f - x0)``, with S_f taken out of the cell. This is exactly the
 volume of the polyhedron whose faces are fanned about their vertex means (for a hexahedron
 the volume of the trilinear cell), and independent of x0 for a closed cell; x0 only keeps
@@ -176,6 +177,12 @@ def compute_geometry(mesh: "MeshData") -> Geometry:
         total = (np.bincount(owner, weights=fmean[:, a], minlength=n_cells)
                  + np.bincount(nbr, weights=fmean[:n_int, a], minlength=n_cells))
         apex[:, a] = total / np.maximum(count, 1.0)
+    cols = coordinate_columns(mesh.points)
+    for block in mesh.shapes:           # cells of known shape: their vertex mean
+        for sl in chunks(len(block.cells)):
+            rows = block.connectivity[sl]
+            for a in range(3):
+                apex[block.cells[sl], a] = cols[a][rows].mean(axis=1)
     # Per-cell sums of pyramid volume, volume x centroid offset (x, y, z), |volume|.
     acc = np.zeros((5, n_cells))
     own = _pyramid_terms(area, fcent, fmean, apex, owner, dim)
