@@ -13,6 +13,7 @@ from caselint import __version__
 from caselint.engine.plugins import get_plugin_manager
 from caselint.engine.registry import (
     collect_case_sections,
+    collect_mesh_readers,
     collect_rule_set_files,
     collect_rules,
     contributions,
@@ -27,6 +28,7 @@ if TYPE_CHECKING:
 
     from caselint.manifest.case import Case
     from caselint.mesh.analysis import Mesh
+    from caselint.mesh.readers import MeshReader
 
 
 def load_case(path: str | Path, pm: "pluggy.PluginManager | None" = None) -> "Case":
@@ -57,11 +59,12 @@ def case_quantity(case: "Case", key: str, dimension: str) -> float | None:
         raise CaseFileError(str(case.path), exc.message, line=case.line_of(key), key=key) from None
 
 
-def load_case_mesh(case: "Case") -> "Mesh":
+def load_case_mesh(case: "Case", readers: "Iterable[MeshReader] | None" = None) -> "Mesh":
     """Read the case's mesh in metres and check that its named boundary groups exist.
 
     Inside a batch (:mod:`caselint.batch`) the mesh comes from the batch's mesh store,
-    which reads each mesh once or takes it from the mesh cache.
+    which reads each mesh once or takes it from the mesh cache. ``readers`` are the mesh
+    readers of the run's plugins (default: the built-in ones).
 
     :raises CaseFileError: the mesh cannot be read, or a boundary named in the case file is
         not in the mesh; the message points at the case-file key.
@@ -74,7 +77,7 @@ def load_case_mesh(case: "Case") -> "Mesh":
     read = store.read if store is not None else read_mesh
     try:
         mesh = read(spec.file, scale_to_m=spec.scale_to_m, tag_array=spec.tag_array,
-                    tags=dict(spec.tags) or None)
+                    tags=dict(spec.tags) or None, readers=readers)
     except MeshReadError as exc:
         raise CaseFileError(str(case.path), f"cannot read the mesh: {exc}",
                             line=case.line_of("mesh.file"), key="mesh.file") from exc
@@ -126,9 +129,10 @@ def lint_case(
     case = load_case(path, pm)
     selection = select_for_case(case, pm, rule_sets)
     needs_mesh = any("mesh" in a.rule.needs for a in selection.rules)
-    mesh = load_case_mesh(case) if needs_mesh else None
+    readers = tuple(collect_mesh_readers(pm).values())
+    mesh = load_case_mesh(case, readers) if needs_mesh else None
     report = run_case(case, selection.rules,
-                      lambda: mesh if mesh is not None else load_case_mesh(case),
+                      lambda: mesh if mesh is not None else load_case_mesh(case, readers),
                       label=str(path), rule_sets=selection.rule_sets,
                       checklist=selection.checklist, today=today)
     return dataclasses.replace(report, case_sha256=file_sha256(case.path),

@@ -1,11 +1,12 @@
 """The mesh cache: analysed meshes (topology and geometry included) kept on disk by file hash.
 
 A parameter sweep checks hundreds of case files that share a few meshes. Each mesh is read
-and analysed once: the arrays of the analysed :class:`~caselint.mesh.model.Mesh` are
+and analysed once: the arrays of the analysed :class:`~caselint.mesh.analysis.Mesh` are
 written as an ``.npz`` file (:mod:`caselint.mesh.arrays`; read back without pickle) named
-by a key of the mesh file's SHA-256, the read settings (scale, tag array, tag names) and
-caselint's version. A later run, or another process of the same batch, reads that file
-instead of the mesh.
+by a key of the mesh file's SHA-256, the read settings (scale, tag array, tag names),
+caselint's version and a fingerprint of the mesh code that computed the entry (so a
+changed formula never serves old geometry). A later run, or another process of the same
+batch, reads that file instead of the mesh.
 
 - Folder: ``CASELINT_CACHE_DIR``, else ``~/.cache/caselint`` (``XDG_CACHE_HOME`` honoured);
   ``CASELINT_CACHE_DIR=off`` turns every on-disk cache of caselint off (this one and the
@@ -65,13 +66,15 @@ def cache_dir() -> Path | None:
 
 def mesh_key(mesh_sha256: str, scale_to_m: float, tag_array: str | None,
              tags: dict[int, str] | None) -> str:
-    """Cache key of a mesh file read with these settings by this caselint version."""
+    """Cache key of a mesh file read with these settings by this caselint version and this
+    mesh code (:func:`caselint.mesh.fingerprint.code_fingerprint`)."""
     from caselint.mesh.arrays import FORMAT
+    from caselint.mesh.fingerprint import code_fingerprint
 
     settings = {"sha256": mesh_sha256, "scale_to_m": repr(float(scale_to_m)),
                 "tag_array": tag_array, "tags": sorted((int(k), str(v)) for k, v in
                                                        (tags or {}).items()),
-                "caselint": __version__, "format": FORMAT}
+                "caselint": __version__, "format": FORMAT, "code": code_fingerprint()}
     return hashlib.sha256(json.dumps(settings, sort_keys=True).encode()).hexdigest()
 
 
@@ -180,7 +183,7 @@ class MeshStore:
         self._fresh: dict[tuple, str] = {}      # read from file: settings -> cache key
 
     def read(self, path, *, scale_to_m: float = 1.0, tag_array: str | None = None,
-             tags: dict[int, str] | None = None) -> "Mesh":
+             tags: dict[int, str] | None = None, readers=None) -> "Mesh":
         """The mesh of ``path`` read with these settings; raises MeshReadError like read_mesh."""
         from caselint.mesh import read_mesh
 
@@ -195,7 +198,8 @@ class MeshStore:
             key = mesh_key(file_sha256(Path(path)), scale_to_m, tag_array, tags)
             mesh = self.cache.load(key, str(path))
         if mesh is None:
-            mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags)
+            mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags,
+                             readers=readers)
             if key is not None:
                 self._fresh[settings] = key
         self._meshes[settings] = mesh

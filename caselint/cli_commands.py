@@ -418,10 +418,12 @@ def cmd_plugins(args: argparse.Namespace) -> int:
         table = _table(plain, "Plugin", "Distribution", "Registers")
         for row in rows:
             adds = [f"{kind.replace('_', ' ')}: {', '.join(row[kind])}"
-                    for kind in ("rules", "rule_sets", "case_sections", "reporters")
+                    for kind in ("rules", "rule_sets", "case_sections", "reporters",
+                                 "mesh_readers")
                     if row.get(kind)]
             dist = f"{row['distribution']} {row['version']}".strip()
-            table.add_row(row["name"], dist, "\n".join(adds) or "(no rules, rule sets or formats)")
+            table.add_row(row["name"], dist,
+                          "\n".join(adds) or "(no rules, rule sets, formats or readers)")
         console.print(table)
         if args.blocked:
             console.print(f"Blocked: {', '.join(sorted(set(args.blocked)))}")

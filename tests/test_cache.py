@@ -150,3 +150,38 @@ def test_unwritable_cache_folder_leaves_the_run_alone(tmp_path):
 def test_default_minimum_size_is_read_when_the_cache_is_made(monkeypatch, tmp_path):
     monkeypatch.setattr(cache_mod, "MIN_CELLS", 5)
     assert MeshCache(tmp_path).min_cells == 5
+
+
+def test_changed_mesh_code_misses_the_cache(tmp_path, monkeypatch):
+    """A formula changed without a version bump must not be served old geometry."""
+    import shutil
+
+    from caselint.mesh import fingerprint
+
+    copy = tmp_path / "mesh_code"
+    shutil.copytree(fingerprint.MESH_PACKAGE, copy, ignore=shutil.ignore_patterns("__pycache__"))
+    before = fingerprint.code_fingerprint(copy)
+    assert fingerprint.code_fingerprint(copy) == before              # stable
+    geometry = copy / "geometry.py"
+    text = geometry.read_text()
+    assert "frac = dim / (dim + 1.0)" in text
+    geometry.write_text(text.replace("frac = dim / (dim + 1.0)", "frac = dim / (dim + 2.0)"))
+    fingerprint.code_fingerprint.cache_clear()
+    assert fingerprint.code_fingerprint(copy) != before
+
+    # end to end: an entry written under the old code is not read under the new one
+    path = tmp_path / "block.msh"
+    write_gmsh22(structured_hex(*(np.linspace(0, 1, 3),) * 3), path, binary=True)
+    cache = MeshCache(tmp_path / "cache", min_cells=0)
+    store = MeshStore(cache)
+    store.read(path).cell_volumes  # noqa: B018
+    store.save()
+    reads = []
+    real = caselint.mesh.read_mesh
+    monkeypatch.setattr(caselint.mesh, "read_mesh",
+                        lambda *a, **k: reads.append(a[0]) or real(*a, **k))
+    MeshStore(cache).read(path)
+    assert reads == []                                            # same code: a hit
+    monkeypatch.setattr(fingerprint, "code_fingerprint", lambda root=None: "changed")
+    MeshStore(cache).read(path)
+    assert reads == [path]                                        # new code: read again

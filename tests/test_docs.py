@@ -20,8 +20,9 @@ HOOKS = sorted(name for name, _ in inspect.getmembers(hookspecs, inspect.isfunct
 
 
 def test_there_are_hooks_and_all_share_the_prefix():
-    assert HOOKS == ["caselint_register_case_sections", "caselint_register_reporters",
-                     "caselint_register_rule_sets", "caselint_register_rules"]
+    assert HOOKS == ["caselint_register_case_sections", "caselint_register_mesh_readers",
+                     "caselint_register_reporters", "caselint_register_rule_sets",
+                     "caselint_register_rules"]
 
 
 @pytest.mark.parametrize("name", HOOKS)

@@ -323,5 +323,52 @@ def test_bad_in_memory_meshes():
 
 
 def test_directory_is_not_a_mesh(tmp_path):
-    with pytest.raises(MeshReadError, match="not a file"):
+    with pytest.raises(MeshReadError, match="folder that no mesh reader recognises"):
         read_mesh(tmp_path)
+
+
+# -- choosing a reader ---------------------------------------------------------------------
+
+
+def test_meshio_suffixes_are_meshios_own():
+    import meshio
+
+    from caselint.mesh.formats.meshio_files import SUFFIXES
+
+    assert sorted(SUFFIXES) == sorted(meshio.extension_to_filetypes)
+
+
+def test_a_reader_with_a_content_check_is_asked_first(tmp_path):
+    from caselint.mesh.build import mesh_from_faces
+    from caselint.mesh.readers import MeshReader, builtin_readers, choose_reader
+
+    def one_tet(path, options):
+        pts = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)
+        faces = [[0, 2, 1], [0, 1, 3], [1, 2, 3], [0, 3, 2]]
+        return mesh_from_faces(path=str(path), points=pts * options.scale_to_m, dim=3,
+                               face_offsets=np.arange(0, 13, 3),
+                               face_points=np.concatenate(faces), owner=np.zeros(4, int),
+                               neighbour=np.full(4, -1))
+
+    mine = MeshReader(name="tet-text", description="a test format", read=one_tet,
+                      suffixes=(".msh",), accepts=lambda p: p.read_text().startswith("TET"))
+    ours, other = tmp_path / "a.msh", tmp_path / "b.msh"
+    ours.write_text("TET\n")
+    other.write_text("$MeshFormat\n")
+    readers = (*builtin_readers(), mine)
+    assert choose_reader(ours, readers) is mine
+    assert choose_reader(other, readers).name == "meshio"
+    mesh = read_mesh(ours, scale_to_m=2.0, readers=readers)
+    assert mesh.cell_volumes[0] == pytest.approx(8 / 6)
+    with pytest.raises(MeshReadError, match="no reader recognises the content"):
+        choose_reader(ours, [MeshReader(name="never", description="x", read=one_tet,
+                                        suffixes=(".msh",), accepts=lambda p: False)])
+    with pytest.raises(ValueError, match="lower-case words"):
+        MeshReader(name="Bad Name", description="x", read=one_tet, suffixes=(".x",))
+
+
+def test_plugins_lists_the_mesh_readers():
+    from caselint.engine.plugins import get_plugin_manager, plugin_listing
+
+    rows = {r["name"]: r for r in plugin_listing(get_plugin_manager())}
+    assert "meshio" in rows["caselint.engine.builtin_sets"]["mesh_readers"]

@@ -1,4 +1,5 @@
-"""Registers the rule sets shipped with caselint (``rules/*.yaml``) as a built-in plugin."""
+"""Registers the rule sets shipped with caselint (``rules/*.yaml``) and its mesh readers as a
+built-in plugin."""
 
 from __future__ import annotations
 
@@ -6,6 +7,14 @@ from pathlib import Path
 
 from caselint.engine.hookspecs import hookimpl
 from caselint.resources import shipped_dir
+
+
+@hookimpl
+def caselint_register_mesh_readers() -> list:
+    """The mesh readers caselint ships (:mod:`caselint.mesh.formats`)."""
+    from caselint.mesh.readers import builtin_readers
+
+    return list(builtin_readers())
 
 
 @hookimpl

@@ -15,6 +15,7 @@ import pluggy
 if TYPE_CHECKING:
     from pathlib import Path
 
+    from caselint.mesh.readers import MeshReader
     from caselint.model import CaseSection, Rule
     from caselint.report.base import Reporter
 
@@ -56,6 +57,21 @@ def caselint_register_case_sections() -> "list[CaseSection]":
         fragment). The section is validated with the rest of the case file, errors carry
         file, line and key, and its data reaches rules as ``ctx.case.extensions[name]``.
         A name that clashes with a built-in key or another plugin's section is an error.
+    """
+
+
+# -- meshes ----------------------------------------------------------------------------
+
+
+@hookspec
+def caselint_register_mesh_readers() -> "list[MeshReader]":
+    """Register mesh readers.
+
+    :returns: A list of :class:`caselint.mesh.readers.MeshReader`: the file suffixes or
+        folders each reads, an optional content check, and a function returning
+        :class:`caselint.mesh.model.MeshData`. Duplicate names are an error. A reader with
+        a content check is asked before readers without one, so a pack can take over a
+        suffix another format shares.
     """
 
 

@@ -138,6 +138,7 @@ def plugin_listing(pm: CaselintPluginManager) -> list[dict[str, Any]]:
                 "case_sections": sorted(added["case_sections"].get(name, [])),
                 "reporters": sorted(added["reporters"].get(name, [])),
                 "rule_sets": sorted(added["rule_sets"].get(name, [])),
+                "mesh_readers": sorted(added["mesh_readers"].get(name, [])),
             }
         )
     return rows

@@ -1,4 +1,5 @@
-"""Collect what plugins register (rules, rule sets, reporters) and index it by id.
+"""Collect what plugins register (rules, rule sets, reporters, mesh readers) and index it by
+id.
 
 Each ``caselint_register_*`` implementation is called on its own so that every item can
 be traced to the plugin that added it: a duplicate id is an error naming both plugins,
@@ -18,6 +19,7 @@ from caselint.errors import PluginLoadError
 from caselint.model import Rule
 
 if TYPE_CHECKING:
+    from caselint.mesh.readers import MeshReader
     from caselint.report.base import Reporter
 
 
@@ -86,6 +88,21 @@ def collect_reporters(pm: pluggy.PluginManager) -> dict[str, "Reporter"]:
     return {name: reporter for name, (reporter, _) in found.items()}
 
 
+def collect_mesh_readers(pm: pluggy.PluginManager) -> dict[str, "MeshReader"]:
+    """Every registered mesh reader by name, sorted by name."""
+    found = _collect(pm, "caselint_register_mesh_readers", "mesh reader", _reader_name)
+    return {name: reader for name, (reader, _) in found.items()}
+
+
+def _reader_name(reader: Any) -> str:
+    from caselint.mesh.readers import MeshReader
+
+    if not isinstance(reader, MeshReader):
+        raise PluginLoadError(f"caselint_register_mesh_readers returned {reader!r}, not a "
+                              "caselint MeshReader")
+    return reader.name
+
+
 def collect_rule_set_files(pm: pluggy.PluginManager) -> dict[str, Path]:
     """Every registered rule-set file by set name (the file stem), sorted by name."""
     found = _collect(pm, "caselint_register_rule_sets", "rule set", lambda p: Path(p).stem)
@@ -93,7 +110,8 @@ def collect_rule_set_files(pm: pluggy.PluginManager) -> dict[str, Path]:
 
 
 def contributions(pm: pluggy.PluginManager) -> dict[str, dict[str, list[str]]]:
-    """For each kind (rules, case_sections, reporters, rule_sets), the ids each plugin adds.
+    """For each kind (rules, case_sections, reporters, mesh_readers, rule_sets), the ids each
+    plugin adds.
 
     Declarative rules are listed under the plugin that registers their rule set.
     """
@@ -102,6 +120,8 @@ def contributions(pm: pluggy.PluginManager) -> dict[str, dict[str, list[str]]]:
         "case_sections": _collect(pm, "caselint_register_case_sections", "case-file section",
                                   lambda section: section.name),
         "reporters": _collect(pm, "caselint_register_reporters", "output format", lambda r: r.name),
+        "mesh_readers": _collect(pm, "caselint_register_mesh_readers", "mesh reader",
+                                 _reader_name),
         "rule_sets": _collect(
             pm, "caselint_register_rule_sets", "rule set", lambda p: Path(p).stem
         ),

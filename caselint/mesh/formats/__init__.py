@@ -1,0 +1,10 @@
+"""The mesh formats caselint reads, one module per format, each defining a ``READER``.
+
+:data:`BUILTIN_READERS` is what the built-in plugin registers through
+``caselint_register_mesh_readers`` (see :mod:`caselint.mesh.readers` for how a reader is
+chosen for a path).
+"""
+
+from caselint.mesh.formats import meshio_files
+
+BUILTIN_READERS = (meshio_files.READER,)
