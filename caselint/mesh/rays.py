@@ -18,7 +18,9 @@ cells is *lost*, so a damaged or non-convex mesh cannot loop forever.
 
 All rays march in lock step: one numpy step per cell crossed, over every ray still active
 (and over the face slots of a cell, as many as the cell with the most faces has), never a
-Python loop over rays or cells.
+Python loop over rays or cells. On large meshes the compiled kernel
+:mod:`caselint.mesh.kernels.ray_march` marches each ray on its own instead, with the same
+arithmetic (equal results; :mod:`caselint.mesh.kernels` decides which runs).
 Cells are taken as convex with planar faces; on warped cells the exit is the plane-based
 estimate, which is what a cell-by-cell count needs.
 """
@@ -30,6 +32,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from caselint.mesh import kernels
 from caselint.mesh.geometry import chunks
 
 if TYPE_CHECKING:
@@ -113,7 +116,17 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     norm = np.sqrt((area**2).sum(axis=1))
     ok = norm > 0                      # a collapsed face has no normal: its ray is lost
     out.direction[ok] = -area[ok] / norm[ok, None]
-    faces = _FaceData(mesh, wall_face)
+    wall = _wall_mask(mesh, wall_face)
+    kernel = kernels.compiled("ray_march", mesh.n_cells)
+    if kernel is not None:
+        cf = mesh.cell_faces
+        hit, status, width, cells = kernel.march(
+            cf.offsets, cf.faces, mesh.owner, mesh.neighbour, mesh.face_area_vectors,
+            mesh.face_centroids, wall,
+            start_faces, out.origin, out.direction, ok, max_steps, MAX_STALLED, _PARALLEL)
+        out.hit_face[:], out.status[:], out.width[:], out.cells[:] = hit, status, width, cells
+        return out
+    faces = _FaceData(mesh, wall)
     for sl in chunks(n, RAY_CHUNK):
         _march_chunk(faces, out, np.arange(sl.start, sl.stop)[ok[sl]], max_steps)
     return out
@@ -127,33 +140,43 @@ class _FaceData:
     tables (face, sign, cell across) is contiguous.
     """
 
-    def __init__(self, mesh: "Mesh", wall_face: np.ndarray) -> None:
+    def __init__(self, mesh: "Mesh", wall: np.ndarray) -> None:
         self.table = cell_face_table(mesh)
         self.owner = mesh.owner
-        self.wall = np.asarray(wall_face, dtype=bool)
-        if self.wall.shape != self.owner.shape:
-            raise ValueError(f"wall_face must have one entry per face ({self.owner.size}), "
-                             f"got shape {self.wall.shape}")
-        self.plane, self.sign, self.across = _march_tables(mesh, self.table)
+        self.wall = wall
+        self.plane = face_planes(mesh)
+        self.sign, self.across = _slot_tables(mesh, self.table)
 
 
-def _march_tables(mesh: "Mesh", table: np.ndarray):
-    """Face planes, and per cell slot the face's orientation sign and the cell across it.
+def _wall_mask(mesh: "Mesh", wall_face: np.ndarray) -> np.ndarray:
+    wall = np.asarray(wall_face, dtype=bool)
+    if wall.shape != mesh.owner.shape:
+        raise ValueError(f"wall_face must have one entry per face ({mesh.owner.size}), "
+                         f"got shape {wall.shape}")
+    return wall
 
-    A plane is ``n . x = c`` with n the unit normal out of the owner; a collapsed face
-    gets n = 0 and is never an exit. The sign is +1 where the cell owns the face (its
-    normal points out of the cell), -1 where it is the neighbour, 0 on padding; the cell
-    across is -1 on boundary faces.
-    """
+
+def face_planes(mesh: "Mesh") -> np.ndarray:
+    """(F, 4) plane ``n . x = c`` of every face, n the unit normal out of the owner; a
+    collapsed face gets n = 0 and is never an exit."""
     s, xf = mesh.face_area_vectors, mesh.face_centroids
-    owner, neighbour = mesh.owner, mesh.neighbour
-    plane = np.empty((len(owner), 4))
-    for sl in chunks(len(owner)):
+    plane = np.empty((mesh.n_faces, 4))
+    for sl in chunks(mesh.n_faces):
         sv = s[sl]
-        norm = np.sqrt(sv[:, 0] ** 2 + sv[:, 1] ** 2 + sv[:, 2] ** 2)
+        norm = np.sqrt(sv[:, 0] * sv[:, 0] + sv[:, 1] * sv[:, 1] + sv[:, 2] * sv[:, 2])
         unit = sv / np.where(norm > 0, norm, 1.0)[:, None]
         plane[sl, :3] = unit
         plane[sl, 3] = unit[:, 0] * xf[sl, 0] + unit[:, 1] * xf[sl, 1] + unit[:, 2] * xf[sl, 2]
+    return plane
+
+
+def _slot_tables(mesh: "Mesh", table: np.ndarray):
+    """Per cell slot the face's orientation sign and the cell across it.
+
+    The sign is +1 where the cell owns the face (its normal points out of the cell), -1
+    where it is the neighbour, 0 on padding; the cell across is -1 on boundary faces.
+    """
+    owner, neighbour = mesh.owner, mesh.neighbour
     sign = np.zeros(table.shape, dtype=np.int8)
     across = np.full(table.shape, -1, dtype=table.dtype)
     for sl in chunks(len(table)):
@@ -163,7 +186,7 @@ def _march_tables(mesh: "Mesh", table: np.ndarray):
         own = owner[fs] == np.arange(sl.start, sl.stop)[:, None]
         sign[sl] = np.where(valid, np.where(own, 1, -1), 0)
         across[sl] = np.where(valid, np.where(own, neighbour[fs], owner[fs]), -1)
-    return plane, sign, across
+    return sign, across
 
 
 def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) -> None:

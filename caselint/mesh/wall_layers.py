@@ -41,6 +41,7 @@ in the core is measured the same way: its farthest vertex from the stack's last 
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import math
 from dataclasses import dataclass
@@ -48,6 +49,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from caselint.mesh import kernels
 from caselint.mesh.geometry import chunks
 from caselint.mesh.topology import cell_point_table
 
@@ -169,9 +171,9 @@ def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray, x_in: np.ndarr
     f = np.where(cand, slots, 0)
     s = np.take(mesh.face_area_vectors, f.ravel(), axis=0).reshape(m, k, 3)
     xf = np.take(mesh.face_centroids, f.ravel(), axis=0).reshape(m, k, 3)
-    mine = mesh.owner[f] == cells[:, None]
-    dn = np.einsum("mkj,mj->mk", s, n_in) * np.where(mine, 1.0, -1.0)
-    reach = np.einsum("mkj,mkj->mk", s, xf - x_in[:, None, :]) * np.where(mine, 1.0, -1.0)
+    sign = np.where(mesh.owner[f] == cells[:, None], 1.0, -1.0)
+    dn = _dot(s, n_in[:, None, :]) * sign
+    reach = _dot(s, xf - x_in[:, None, :]) * sign
     leaving = cand & (dn > 0)
     t = np.where(leaving, reach / np.where(leaving, dn, 1.0), np.inf)
     # a candidate the ray does not leave through ranks after every one it does
@@ -188,9 +190,14 @@ def _extent(mesh: "Mesh", cells: np.ndarray, origin: np.ndarray, normal: np.ndar
     out = np.zeros(len(cells))
     for sl in chunks(len(cells)):
         pts = mesh.points[cell_point_table(mesh.data, mesh.cell_faces, cells[sl])]
-        d = np.einsum("ikj,ij->ik", pts - origin[sl][:, None, :], normal[sl])
-        out[sl] = d.max(axis=1)
+        out[sl] = _dot(pts - origin[sl][:, None, :], normal[sl][:, None, :]).max(axis=1)
     return out
+
+
+def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Dot product over the last axis (of length 3), summed x + y + z in that order: the
+    compiled walk (:mod:`caselint.mesh.kernels.layer_walk`) sums the same way."""
+    return a[..., 0] * b[..., 0] + a[..., 1] * b[..., 1] + a[..., 2] * b[..., 2]
 
 
 def _unit_normals(mesh: "Mesh", faces: np.ndarray, sign: np.ndarray) -> np.ndarray:
@@ -201,15 +208,56 @@ def _unit_normals(mesh: "Mesh", faces: np.ndarray, sign: np.ndarray) -> np.ndarr
 
 def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
           max_cells: int, reach_m: float = math.inf) -> WallLayers:
+    """Walk every stack (compiled, or in lock step with numpy) and sum up its layers."""
+    cos_turn = math.cos(math.radians(turn_deg))
+    kernel = kernels.compiled("layer_walk", mesh.n_cells)
+    if kernel is None:
+        walked = _walk_lockstep(mesh, faces, max_aspect, cos_turn, max_cells, reach_m)
+        extent = functools.partial(_extent, mesh)
+    else:
+        cf, data = mesh.cell_faces, mesh.data
+        topo = (cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.points)
+        *per_face, flat = kernel.walk(
+            *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
+            mesh.face_centroids, mesh.cell_centroids, faces, float(max_aspect), cos_turn,
+            max_cells, float(reach_m), mesh.dim == 3)
+        n_walked = per_face[5]
+        heights = np.zeros((len(faces), int(n_walked.max(initial=0))))
+        rows = np.repeat(np.arange(len(faces)), n_walked)
+        cols = np.arange(len(flat)) - np.repeat(np.cumsum(n_walked) - n_walked, n_walked)
+        heights[rows, cols] = flat
+        walked = _Walked(*per_face[:6], heights, *per_face[6:])
+        extent = functools.partial(kernel.extents, *topo)
+    return _stacks(faces, mesh.owner[faces], walked, extent, reach_m)
+
+
+@dataclass(frozen=True)
+class _Walked:
+    """What the walks found, per wall face (see :class:`WallLayers`)."""
+
+    n_wall: np.ndarray
+    centre: np.ndarray
+    first: np.ndarray
+    layered_first: np.ndarray
+    n_layers: np.ndarray
+    n_walked: np.ndarray
+    heights: np.ndarray
+    end: np.ndarray
+    core_cell: np.ndarray
+    core_origin: np.ndarray
+    core_normal: np.ndarray
+
+
+def _walk_lockstep(mesh: "Mesh", faces: np.ndarray, max_aspect: float, cos_turn: float,
+                   max_cells: int, reach_m: float) -> _Walked:
     """March every stack one cell per step (see the module docstring)."""
     n = len(faces)
     owner, neighbour = mesh.owner, mesh.neighbour
     xf, areas = mesh.face_centroids, mesh.face_areas
-    cos_turn = math.cos(math.radians(turn_deg))
 
     cells0 = owner[faces]
     n_wall = _unit_normals(mesh, faces, -np.ones(n))      # area vectors point out of the domain
-    centre = np.einsum("ij,ij->i", mesh.cell_centroids[cells0] - xf[faces], n_wall)
+    centre = _dot(mesh.cell_centroids[cells0] - xf[faces], n_wall)
     first = _extent(mesh, cells0, xf[faces], n_wall)
     layered_first = np.zeros(n, dtype=bool)
 
@@ -236,8 +284,8 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
         x_out = np.take(xf, opp, axis=0)      # take and compress: see _opposite
         nout = np.take(mesh.face_area_vectors, opp, axis=0) * (
             np.where(mine, 1.0, -1.0) / np.where(a_out > 0, a_out, 1.0))[:, None]
-        h = np.einsum("ij,ij->i", x_out - x_in, nin)
-        straight = np.einsum("ij,ij->i", nout, np.take(n_wall, act, axis=0)) >= cos_turn
+        h = _dot(x_out - x_in, nin)
+        straight = _dot(nout, np.take(n_wall, act, axis=0)) >= cos_turn
         ok = shaped & straight & (h > 0)
         width = np.sqrt(a_in) if mesh.dim == 3 else a_in
         thin = ok & (h < max_aspect * width)
@@ -276,6 +324,14 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
 
     walked = int(n_walked.max(initial=0))    # the last step may have walked no cell
     heights = np.column_stack(columns[:walked]) if walked else np.zeros((n, 0))
+    return _Walked(n_wall, centre, first, layered_first, n_layers, n_walked, heights, end,
+                   core_cell, core_origin, core_normal)
+
+
+def _stacks(faces: np.ndarray, cells0: np.ndarray, w: _Walked, extent,
+            reach_m: float) -> WallLayers:
+    """The stacks' thickness, growth and core jump from the walked heights."""
+    n, heights, n_layers, core_cell = len(faces), w.heights, w.n_layers, w.core_cell
     depth = np.arange(heights.shape[1])[None, :]
     in_layers = depth < n_layers[:, None]
     thickness = np.where(in_layers, heights, 0.0).sum(axis=1)
@@ -290,9 +346,9 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
     core_jump = np.zeros(n)
     has_core = np.flatnonzero(core_cell >= 0)
     if has_core.size:
-        core_h = _extent(mesh, core_cell[has_core], core_origin[has_core], core_normal[has_core])
+        core_h = extent(core_cell[has_core], w.core_origin[has_core], w.core_normal[has_core])
         last = heights[has_core, n_layers[has_core] - 1]
         core_jump[has_core] = core_h / last
-    return WallLayers(faces, cells0, n_wall, centre, first, layered_first, n_layers, n_walked,
-                      heights, thickness, max_growth, growth_layer, end, core_cell, core_jump,
-                      reach=reach_m)
+    return WallLayers(faces, cells0, w.n_wall, w.centre, w.first, w.layered_first, n_layers,
+                      w.n_walked, heights, thickness, max_growth, growth_layer, w.end, core_cell,
+                      core_jump, reach=reach_m)

@@ -1,0 +1,126 @@
+"""Which implementation of the mesh kernels runs: compiled (numba) or the numpy reference.
+
+The walks, marches and per-face / per-cell passes of :mod:`caselint.mesh` each have a numpy
+implementation (the reference, and the fallback) and, in the modules of this package, a
+numba one that gives the same results. :func:`compiled` decides per mesh:
+
+- ``CASELINT_KERNELS=numpy`` forces the numpy reference; ``numba`` forces the compiled
+  kernels at every mesh size (tests use it); unset or ``auto``: compiled kernels for meshes
+  of at least :data:`MIN_CELLS` cells, when numba is installed;
+- numba is imported on first use only, so small cases and pre-commit hooks never pay its
+  start-up.
+
+Compiled kernels are kept in the *kernel cache*, ``kernels/`` under caselint's cache folder
+(:func:`caselint.cache.cache_dir`, ``CASELINT_CACHE_DIR``), so that only the first run of an
+installation compiles them. It belongs to the installation, not to a run: ``--no-cache``
+turns off the analysed-mesh cache only, ``CASELINT_CACHE_DIR=off`` turns off both. Where no
+writable folder exists, the kernels are compiled in memory for each process (numba's own
+``cache=True`` would raise at import there).
+"""
+
+from __future__ import annotations
+
+import functools
+import importlib
+import os
+import tempfile
+from pathlib import Path
+from types import ModuleType
+from typing import Callable
+
+#: Environment variable choosing the kernels: ``numpy``, ``numba`` or ``auto`` (default).
+ENV_KERNELS = "CASELINT_KERNELS"
+MODES = ("auto", "numpy", "numba")
+
+#: Smallest mesh (cells) for which ``auto`` uses the compiled kernels. numba's import and
+#: the loading of cached kernels take 0.3-0.5 s a process on the 2-core benchmark machine;
+#: the whole ``caselint check`` of the benchmark duct (bench_meshes.py, shuffled hexahedra,
+#: rule set ``general``, kernels cached) was measured in fresh processes both ways:
+#: numpy path faster below about 20,000 cells, compiled path faster above
+#: (benchmarks/bench_threshold.py; README "Kernel threshold").
+MIN_CELLS = 20_000
+
+
+def mode() -> str:
+    """The kernel choice of ``CASELINT_KERNELS`` (``auto`` when unset or unknown)."""
+    value = os.environ.get(ENV_KERNELS, "auto").strip().lower()
+    return value if value in MODES else "auto"
+
+
+@functools.lru_cache(maxsize=1)
+def numba_available() -> bool:
+    """Whether numba can be imported (checked once; imports it)."""
+    try:
+        import numba  # noqa: F401
+    except Exception:  # noqa: BLE001 - a broken install counts as absent: numpy runs
+        return False
+    return True
+
+
+def use_compiled(n_cells: int) -> bool:
+    """Whether a mesh of ``n_cells`` cells gets the compiled kernels (see the module doc)."""
+    choice = mode()
+    if choice == "numpy" or (choice == "auto" and n_cells < MIN_CELLS):
+        return False
+    return numba_available()
+
+
+def compiled(name: str, n_cells: int) -> ModuleType | None:
+    """The kernel module ``caselint.mesh.kernels.<name>`` for a mesh of ``n_cells`` cells,
+    or None when the numpy reference is to run."""
+    if not use_compiled(n_cells):
+        return None
+    return importlib.import_module(f"{__name__}.{name}")
+
+
+def kernel_cache_dir() -> Path | None:
+    """The writable kernel cache folder, or None (caches off, or nothing writable)."""
+    from caselint.cache import cache_dir
+
+    root = cache_dir()
+    if root is None:
+        return None
+    folder = root / "kernels"
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        with tempfile.TemporaryFile(dir=folder):
+            pass
+    except OSError:
+        return None
+    return folder
+
+
+@functools.lru_cache(maxsize=1)
+def _cache_folder() -> Path | None:
+    # fixed for the process: every kernel of a run is cached in one place, or in none
+    return kernel_cache_dir()
+
+
+def jit(func: Callable) -> Callable:
+    """``numba.njit`` for a kernel function, cached in the kernel cache when it is writable,
+    compiled in memory otherwise. Only kernel modules call it (they import numba)."""
+    import numba
+
+    folder = _cache_folder()
+    if folder is None:
+        return numba.njit(cache=False, nogil=True)(func)
+    # numba's cache locator reads CACHE_DIR when the dispatcher is made: set it for that
+    # moment only, so that other numba users of the process keep their own setting
+    previous = numba.config.CACHE_DIR
+    numba.config.CACHE_DIR = str(folder)
+    try:
+        return numba.njit(cache=True, nogil=True)(func)
+    finally:
+        numba.config.CACHE_DIR = previous
+
+
+def status() -> dict:
+    """What runs here: the mode, whether numba is importable (imports it) and its version,
+    the threshold, and the kernel cache folder (None: compiled in memory)."""
+    info = {"mode": mode(), "min_cells": MIN_CELLS, "numba": None,
+            "cache": None if _cache_folder() is None else str(_cache_folder())}
+    if numba_available():
+        import numba
+
+        info["numba"] = numba.__version__
+    return info

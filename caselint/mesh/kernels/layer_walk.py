@@ -1,0 +1,196 @@
+"""Compiled wall-layer walk: each wall face's stack walked on its own (numba).
+
+The numpy reference is :func:`caselint.mesh.wall_layers._walk` (all stacks in lock step,
+one vectorised step per layer); this module walks one stack at a time with the same
+arithmetic in the same order, so the results are equal to the bit. See
+:mod:`caselint.mesh.wall_layers` for what a stack is and when it ends.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from caselint.mesh.kernels import jit
+
+# end codes, as in caselint.mesh.wall_layers
+NO_STACK, END_CORE, END_TURN, END_BOUNDARY, END_LIMIT, END_DEGENERATE = 0, 1, 2, 3, 4, 5
+_BIG = np.finfo(np.float64).max
+
+
+@jit
+def extent(cf_offsets, cf_faces, face_offsets, face_points, points, cell, o, nrm):
+    """Largest distance of ``cell``'s vertices from ``o`` along unit ``nrm`` (m)."""
+    best = -np.inf
+    for i in range(cf_offsets[cell], cf_offsets[cell + 1]):
+        f = cf_faces[i]
+        for j in range(face_offsets[f], face_offsets[f + 1]):
+            p = face_points[j]
+            d = ((points[p, 0] - o[0]) * nrm[0] + (points[p, 1] - o[1]) * nrm[1]
+                 + (points[p, 2] - o[2]) * nrm[2])
+            if d > best:
+                best = d
+    return best
+
+
+@jit
+def _shares_point(face_offsets, face_points, f, g):
+    for i in range(face_offsets[f], face_offsets[f + 1]):
+        p = face_points[i]
+        for j in range(face_offsets[g], face_offsets[g + 1]):
+            if face_points[j] == p:
+                return True
+    return False
+
+
+@jit
+def opposite(cf_offsets, cf_faces, face_offsets, face_points, owner, area, centroid, cell,
+             entry, x_in, n_in):
+    """The face of ``cell`` opposite ``entry`` and whether it has one, as
+    :func:`caselint.mesh.wall_layers._opposite` chooses it (first slot among equal scores)."""
+    lo, hi = cf_offsets[cell], cf_offsets[cell + 1]
+    best_j, best, nan_j = -1, np.inf, -1
+    best_cand = False
+    for j in range(lo, hi):
+        f = cf_faces[j]
+        score = np.inf
+        cand = False
+        if f != entry and not _shares_point(face_offsets, face_points, f, entry):
+            cand = True
+            sg = 1.0 if owner[f] == cell else -1.0
+            s0, s1, s2 = area[f, 0], area[f, 1], area[f, 2]
+            dn = (s0 * n_in[0] + s1 * n_in[1] + s2 * n_in[2]) * sg
+            reach = (s0 * (centroid[f, 0] - x_in[0]) + s1 * (centroid[f, 1] - x_in[1])
+                     + s2 * (centroid[f, 2] - x_in[2])) * sg
+            if dn > 0:
+                score = reach / dn
+            else:
+                score = _BIG
+        if np.isnan(score):
+            if nan_j < 0:
+                nan_j = j
+        elif best_j < 0 or score < best:
+            best_j, best, best_cand = j, score, cand
+    if nan_j >= 0:
+        return cf_faces[nan_j], True
+    if best_j < 0 or not best_cand:
+        return entry, False
+    return cf_faces[best_j], True
+
+
+@jit
+def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbour, area,
+         areas, centroid, cell_centroids, faces, max_aspect, cos_turn, max_cells, reach_m,
+         three_d):
+    """Walk the stack above every boundary face of ``faces``.
+
+    Returns per face: wall normal (n, 3), centre distance, first height, layered first,
+    layers, cells walked, end code, core cell, core origin (n, 3), core normal (n, 3), and
+    the heights of the walked cells, face after face (face i's are ``n_walked[i]`` long).
+    """
+    n = faces.shape[0]
+    n_wall = np.empty((n, 3))
+    centre = np.empty(n)
+    first = np.empty(n)
+    layered = np.zeros(n, dtype=np.bool_)
+    n_layers = np.zeros(n, dtype=np.int64)
+    n_walked = np.zeros(n, dtype=np.int64)
+    end = np.full(n, END_LIMIT, dtype=np.int8)
+    core_cell = np.full(n, -1, dtype=np.int64)
+    core_origin = np.zeros((n, 3))
+    core_normal = np.zeros((n, 3))
+    heights = np.empty(max(16, 4 * n))
+    used = 0
+    x_in = np.empty(3)
+    nin = np.empty(3)
+    nout = np.empty(3)
+    for i in range(n):
+        face = faces[i]
+        a = areas[face]
+        scale = -1.0 / (a if a > 0 else 1.0)      # area vectors point out of the domain
+        for k in range(3):
+            n_wall[i, k] = area[face, k] * scale
+        cell = owner[face]
+        centre[i] = ((cell_centroids[cell, 0] - centroid[face, 0]) * n_wall[i, 0]
+                     + (cell_centroids[cell, 1] - centroid[face, 1]) * n_wall[i, 1]
+                     + (cell_centroids[cell, 2] - centroid[face, 2]) * n_wall[i, 2])
+        for k in range(3):
+            x_in[k] = centroid[face, k]
+            nin[k] = n_wall[i, k]
+        first[i] = extent(cf_offsets, cf_faces, face_offsets, face_points, points, cell, x_in,
+                          nin)
+        entry = face
+        a_in = a
+        top = 0.0
+        in_stack = True
+        for step in range(max_cells):
+            opp, shaped = opposite(cf_offsets, cf_faces, face_offsets, face_points, owner,
+                                   area, centroid, cell, entry, x_in, nin)
+            mine = owner[opp] == cell
+            a_out = areas[opp]
+            sg = (1.0 if mine else -1.0) / (a_out if a_out > 0 else 1.0)
+            for k in range(3):
+                nout[k] = area[opp, k] * sg
+            h = ((centroid[opp, 0] - x_in[0]) * nin[0] + (centroid[opp, 1] - x_in[1]) * nin[1]
+                 + (centroid[opp, 2] - x_in[2]) * nin[2])
+            straight = (nout[0] * n_wall[i, 0] + nout[1] * n_wall[i, 1]
+                        + nout[2] * n_wall[i, 2]) >= cos_turn
+            ok = shaped and straight and h > 0
+            width = np.sqrt(a_in) if three_d else a_in
+            thin = ok and h < max_aspect * width
+            if ok:
+                if step == 0:
+                    first[i] = h
+                    layered[i] = True
+                if used == heights.shape[0]:
+                    grown = np.empty(2 * used)
+                    grown[:used] = heights
+                    heights = grown
+                heights[used] = h
+                used += 1
+                n_walked[i] += 1
+            stacking = in_stack
+            if stacking:
+                if thin:
+                    n_layers[i] += 1
+                else:
+                    if step == 0:
+                        reason = NO_STACK
+                    elif not shaped or ok:
+                        reason = END_CORE
+                    elif not straight:
+                        reason = END_TURN
+                    else:
+                        reason = END_DEGENERATE
+                    end[i] = reason
+                    if reason == END_CORE:
+                        core_cell[i] = cell
+                        for k in range(3):
+                            core_origin[i, k] = x_in[k]
+                            core_normal[i, k] = nin[k]
+                    in_stack = False
+            on_boundary = ok and neighbour[opp] < 0
+            if stacking and thin and on_boundary:
+                end[i] = END_BOUNDARY
+                in_stack = False
+            if ok:
+                top += h
+            if not (ok and not on_boundary and (in_stack or top < reach_m)):
+                break
+            cell = neighbour[opp] if mine else owner[opp]
+            entry = opp
+            for k in range(3):
+                nin[k] = nout[k]
+                x_in[k] = centroid[opp, k]
+            a_in = a_out
+    return (n_wall, centre, first, layered, n_layers, n_walked, end, core_cell, core_origin,
+            core_normal, heights[:used].copy())
+
+
+@jit
+def extents(cf_offsets, cf_faces, face_offsets, face_points, points, cells, origin, normal):
+    """:func:`extent` of each of ``cells`` from its own origin along its own normal."""
+    out = np.empty(cells.shape[0])
+    for i in range(cells.shape[0]):
+        out[i] = extent(cf_offsets, cf_faces, face_offsets, face_points, points, cells[i],
+                        origin[i], normal[i])
+    return out
