@@ -27,6 +27,8 @@ with centroids ``x0 + 2/3 (m_f - x0)``.
 Faces are processed in chunks of equal-sized polygons (reshaped, not looped over); the
 per-cell sums are ``bincount`` passes over all faces (the neighbour side is scattered, and a
 bincount over the whole mesh at once is linear where one per chunk would be quadratic).
+On large meshes the compiled kernels of :mod:`caselint.mesh.kernels.geometry` do the same
+arithmetic in loops (equal results; :mod:`caselint.mesh.kernels` decides which runs).
 """
 
 from __future__ import annotations
@@ -35,6 +37,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
+
+from caselint.mesh import kernels
 
 if TYPE_CHECKING:
     from caselint.mesh.model import MeshData
@@ -167,38 +171,26 @@ def face_geometry(mesh: "MeshData") -> tuple[np.ndarray, np.ndarray, np.ndarray]
 
 def compute_geometry(mesh: "MeshData") -> Geometry:
     """Face and cell geometry of ``mesh`` (see the module docstring for the formulas)."""
-    area, fcent, fmean = face_geometry(mesh)
+    kernel = kernels.compiled("geometry", mesh.n_cells)
     n_cells, n_int, dim = mesh.n_cells, mesh.n_internal, mesh.dim
     owner, nbr = mesh.owner, mesh.neighbour[:n_int]
-    count = (np.bincount(owner, minlength=n_cells)
-             + np.bincount(nbr, minlength=n_cells)).astype(np.float64)
-    apex = np.empty((n_cells, 3))
-    for a in range(3):
-        total = (np.bincount(owner, weights=fmean[:, a], minlength=n_cells)
-                 + np.bincount(nbr, weights=fmean[:n_int, a], minlength=n_cells))
-        apex[:, a] = total / np.maximum(count, 1.0)
-    cols = coordinate_columns(mesh.points)
-    for block in mesh.shapes:           # cells of known shape: their vertex mean
-        for sl in chunks(len(block.cells)):
-            rows = block.connectivity[sl]
-            for a in range(3):
-                apex[block.cells[sl], a] = cols[a][rows].mean(axis=1)
-    # Per-cell sums of pyramid volume, volume x centroid offset (x, y, z), |volume|.
-    acc = np.zeros((5, n_cells))
-    own = _pyramid_terms(area, fcent, fmean, apex, owner, dim)
-    for j in range(5):
-        acc[j] += np.bincount(owner, weights=own[j], minlength=n_cells)
-    del own
-    if n_int:
-        # the neighbour sees -S; an orientation clash (both cells list the face the same
-        # way round) means its own cell definition sees +S
-        sign = np.full(n_int, -1.0)
-        clash = mesh.report.clashing
-        sign[clash[clash < n_int]] = 1.0
-        side = _pyramid_terms(area[:n_int] * sign[:, None], fcent[:n_int], fmean[:n_int],
-                              apex, nbr, dim)
-        for j in range(5):
-            acc[j] += np.bincount(nbr, weights=side[j], minlength=n_cells)
+    # the neighbour sees -S; an orientation clash (both cells list the face the same way
+    # round) means its own cell definition sees +S
+    sign = np.full(n_int, -1.0)
+    clash = mesh.report.clashing
+    sign[clash[clash < n_int]] = 1.0
+    if kernel is not None:
+        area, fcent, fmean = kernel.face_geometry(mesh.face_offsets, mesh.face_points,
+                                                  mesh.points, dim == 3)
+        apex = kernel.face_mean_apex(owner, nbr, n_int, n_cells, fmean)
+        for block in mesh.shapes:       # cells of known shape: their vertex mean
+            kernel.vertex_mean_apex(block.connectivity, block.cells, mesh.points, apex)
+        acc = kernel.pyramid_sums(owner, nbr, n_int, area, fcent, fmean, apex, sign, dim)
+    else:
+        area, fcent, fmean = face_geometry(mesh)
+        apex = _apex(mesh, fmean)
+        acc = _pyramid_sums(mesh, area, fcent, fmean, apex, sign)
+    del fmean
     volumes = acc[0]
     # Pyramids that cancel out (a collapsed cell) leave no usable centroid: use the apex.
     good = np.abs(volumes) > 1e-12 * acc[4]
@@ -208,6 +200,48 @@ def compute_geometry(mesh: "MeshData") -> Geometry:
     for a in range(3):
         cent[:, a] = apex[:, a] + np.where(good, frac * acc[a + 1] / safe, 0.0)
     return Geometry(area, fcent, volumes, cent, apex)
+
+
+def _apex(mesh: "MeshData", fmean: np.ndarray) -> np.ndarray:
+    """(C, 3) the vertex mean of cells of known shape, else the mean of the face means."""
+    n_cells, n_int = mesh.n_cells, mesh.n_internal
+    owner, nbr = mesh.owner, mesh.neighbour[:n_int]
+    count = (np.bincount(owner, minlength=n_cells)
+             + np.bincount(nbr, minlength=n_cells)).astype(np.float64)
+    apex = np.empty((n_cells, 3))
+    for a in range(3):
+        total = (np.bincount(owner, weights=fmean[:, a], minlength=n_cells)
+                 + np.bincount(nbr, weights=fmean[:n_int, a], minlength=n_cells))
+        apex[:, a] = total / np.maximum(count, 1.0)
+    cols = coordinate_columns(mesh.points)
+    for block in mesh.shapes:
+        for sl in chunks(len(block.cells)):
+            rows = block.connectivity[sl]
+            for a in range(3):
+                # summed vertex after vertex (as the compiled kernel does), not pairwise
+                total = cols[a][rows[:, 0]]
+                for j in range(1, rows.shape[1]):
+                    total = total + cols[a][rows[:, j]]
+                apex[block.cells[sl], a] = total / rows.shape[1]
+    return apex
+
+
+def _pyramid_sums(mesh: "MeshData", area, fcent, fmean, apex, sign) -> np.ndarray:
+    """(5, C) per-cell sums of pyramid volume, volume x centroid offset (x, y, z), |volume|:
+    owner sides, then neighbour sides (with ``sign`` on their area vectors)."""
+    n_cells, n_int, dim = mesh.n_cells, mesh.n_internal, mesh.dim
+    owner, nbr = mesh.owner, mesh.neighbour[:n_int]
+    acc = np.zeros((5, n_cells))
+    own = _pyramid_terms(area, fcent, fmean, apex, owner, dim)
+    for j in range(5):
+        acc[j] += np.bincount(owner, weights=own[j], minlength=n_cells)
+    del own
+    if n_int:
+        side = _pyramid_terms(area[:n_int] * sign[:, None], fcent[:n_int], fmean[:n_int],
+                              apex, nbr, dim)
+        for j in range(5):
+            acc[j] += np.bincount(nbr, weights=side[j], minlength=n_cells)
+    return acc
 
 
 def _pyramid_terms(S, xf, m, apex, cells, dim) -> list[np.ndarray]:
