@@ -16,6 +16,10 @@ non-manifold: every occurrence stays a separate face with no neighbour and is li
 ``nonmanifold``. Faces come out sorted by owner cell. Two cells listing a shared face the
 same way round (one of them is inverted, or both are the same cell) are recorded in
 ``clashing``; the geometry then takes each cell's side of that face in its own orientation.
+
+On large meshes the compiled kernels of :mod:`caselint.mesh.kernels.face_pairing` pair the
+half-faces by buckets of their smallest vertex instead of a sort: the same faces, in the
+same order (:mod:`caselint.mesh.kernels` decides which runs).
 """
 
 from __future__ import annotations
@@ -25,6 +29,7 @@ from typing import Sequence
 
 import numpy as np
 
+from caselint.mesh import kernels
 from caselint.mesh.celltypes import FACES, TRIANGLE_FACES, face_index
 from caselint.mesh.geometry import chunks
 
@@ -61,6 +66,10 @@ class PairedFaces:
 
 def pair_faces(blocks: Sequence[ElementBlock], n_points: int, dim: int) -> PairedFaces:
     """Pair the half-faces of the element ``blocks`` into faces with owner and neighbour."""
+    n_cells = sum(len(b.connectivity) for b in blocks)
+    kernel = kernels.compiled("face_pairing", n_cells)
+    if kernel is not None and n_cells:
+        return _pair_compiled(kernel, blocks, n_points, dim)
     half, hcell, tri_mask = _half_faces(blocks, dim)
     n_half = half.shape[1]
     rep = np.zeros(n_half, dtype=bool)
@@ -84,6 +93,53 @@ def pair_faces(blocks: Sequence[ElementBlock], n_points: int, dim: int) -> Paire
     nonmanifold = np.flatnonzero(odd[fidx])
     clashing = np.flatnonzero(clash[fidx])
     return PairedFaces(faces, owner, neighbour, nonmanifold, clashing)
+
+
+def _pair_compiled(kernel, blocks: Sequence[ElementBlock], n_points: int,
+                   dim: int) -> PairedFaces:
+    """:func:`pair_faces` by the compiled kernels (same result, see the module docstring)."""
+    width = 4 if dim == 3 else 2
+    blocks = [b for b in blocks if len(b.connectivity)]
+    hcell = HalfFaceCells(blocks)
+    templates = [np.ascontiguousarray(face_index(b.type)[:, :width]) for b in blocks]
+    tri = [np.isin(np.arange(len(t)), TRIANGLE_FACES[b.type] if dim == 3 else ())
+           for b, t in zip(blocks, templates)]
+    counts = np.zeros(n_points + 1, dtype=np.int64)
+    for b, t in zip(blocks, templates):
+        kernel.count_smallest(b.connectivity, t, counts[1:])
+    offsets = np.cumsum(counts)
+    n_half = int(offsets[-1])
+    index = np.int32 if n_half < 2**31 else np.int64
+    bucket_h = np.empty(n_half, dtype=index)
+    k1, k2 = np.empty(n_half, dtype=np.int64), np.empty(n_half, dtype=np.int64)
+    flags = np.empty(n_half, dtype=np.uint8)
+    cursor = offsets[:-1].copy()
+    p = np.int64(max(n_points, 1))
+    for b, t, tr, h0 in zip(blocks, templates, tri, hcell.offsets):
+        kernel.fill_buckets(b.connectivity, t, tr, h0, p, cursor, bucket_h, k1, k2, flags)
+    del cursor
+    rep = np.zeros(n_half, dtype=bool)
+    mate = np.full(n_half, -1, dtype=index)
+    odd = np.zeros(n_half, dtype=bool)
+    clash = np.zeros(n_half, dtype=bool)
+    kernel.match_buckets(offsets, bucket_h, k1, k2, flags, np.append(hcell.offsets, n_half),
+                         hcell.per_cell, hcell.starts, rep, mate, odd, clash)
+    del bucket_h, k1, k2, flags, offsets
+    n_faces = int(np.count_nonzero(rep))
+    dtype = np.result_type(*[b.connectivity.dtype for b in blocks])
+    faces = np.empty((n_faces, width), dtype=dtype)
+    owner = np.empty(n_faces, dtype=hcell.dtype)
+    at = 0
+    for b, t, h0 in zip(blocks, templates, hcell.offsets):
+        at = kernel.emit_faces(b.connectivity, t, h0, rep, faces, owner, at, b.start)
+    fidx = np.flatnonzero(rep)
+    del rep
+    mates = mate[fidx]
+    del mate
+    paired = mates >= 0
+    neighbour = np.where(paired, hcell[np.where(paired, mates, 0)], -1)
+    return PairedFaces(faces, owner, neighbour, np.flatnonzero(odd[fidx]),
+                       np.flatnonzero(clash[fidx]))
 
 
 class HalfFaceCells:

@@ -96,20 +96,23 @@ def _cache_folder() -> Path | None:
     return kernel_cache_dir()
 
 
-def jit(func: Callable) -> Callable:
-    """``numba.njit`` for a kernel function, cached in the kernel cache when it is writable,
-    compiled in memory otherwise. Only kernel modules call it (they import numba)."""
+def jit(func: Callable | None = None, **options) -> Callable:
+    """``numba.njit`` for a kernel function (``@jit`` or ``@jit(inline="always")``), cached
+    in the kernel cache when it is writable, compiled in memory otherwise. Only kernel
+    modules call it (they import numba)."""
+    if func is None:
+        return functools.partial(jit, **options)
     import numba
 
     folder = _cache_folder()
     if folder is None:
-        return numba.njit(cache=False, nogil=True)(func)
+        return numba.njit(cache=False, nogil=True, **options)(func)
     # numba's cache locator reads CACHE_DIR when the dispatcher is made: set it for that
     # moment only, so that other numba users of the process keep their own setting
     previous = numba.config.CACHE_DIR
     numba.config.CACHE_DIR = str(folder)
     try:
-        return numba.njit(cache=True, nogil=True)(func)
+        return numba.njit(cache=True, nogil=True, **options)(func)
     finally:
         numba.config.CACHE_DIR = previous
 
