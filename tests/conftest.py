@@ -17,3 +17,13 @@ def _no_installed_packs(monkeypatch: pytest.MonkeyPatch) -> None:
 @pytest.fixture(autouse=True)
 def _private_cache(monkeypatch: pytest.MonkeyPatch, tmp_path_factory: pytest.TempPathFactory) -> None:
     monkeypatch.setenv(CACHE_DIR_ENV, str(tmp_path_factory.getbasetemp() / "mesh-cache"))
+
+
+@pytest.fixture(params=["numpy", "numba"])
+def kernel_mode(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> str:
+    """Run a test with the numpy reference kernels and again with the compiled ones
+    (``CASELINT_KERNELS``; the compiled run is skipped where numba is not installed)."""
+    if request.param == "numba":
+        pytest.importorskip("numba")
+    monkeypatch.setenv("CASELINT_KERNELS", request.param)
+    return request.param

@@ -15,6 +15,9 @@ from scipy.spatial import ConvexHull
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import graded, shuffled, structured_hex, structured_quad, tetrahedralise
 
+# every test here runs with the numpy kernels and with the compiled ones
+pytestmark = pytest.mark.usefixtures("kernel_mode")
+
 RNG_SEED = 20240611
 
 

@@ -19,6 +19,9 @@ from caselint.mesh import Mesh, quality
 from caselint.mesh.build import mesh_from_faces
 from caselint.mesh.refined import refined_block
 
+# every test here runs with the numpy kernels and with the compiled ones
+pytestmark = pytest.mark.usefixtures("kernel_mode")
+
 
 def one_cell(points, faces) -> Mesh:
     """A mesh of one cell with the given polygonal faces (outward), all on the boundary."""

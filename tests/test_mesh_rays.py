@@ -23,6 +23,9 @@ from caselint.mesh.rays import (
     LOST, OPEN, WALL, cell_face_table, hit_angles_deg, march, wall_rays,
 )
 
+# every test here runs with the numpy kernels and with the compiled ones
+pytestmark = pytest.mark.usefixtures("kernel_mode")
+
 CHANNEL_SIDES = ("inlet", "outlet", "floor", "ceiling", "front", "back")
 
 

@@ -14,6 +14,9 @@ from caselint.mesh import mesh_from_meshio
 from caselint.mesh import quality
 from caselint.mesh.blocks import shuffled, structured_hex, structured_quad
 
+# every test here runs with the numpy kernels and with the compiled ones
+pytestmark = pytest.mark.usefixtures("kernel_mode")
+
 
 def block(nx=3, ny=4, nz=2):
     return structured_hex(np.linspace(0, nx, nx + 1), np.linspace(0, ny, ny + 1),

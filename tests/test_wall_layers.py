@@ -20,6 +20,9 @@ from caselint.mesh.wall_layers import (
 )
 from near_wall_meshes import geometric, layer_block, prism_block, stack
 
+# every test here runs with the numpy kernels and with the compiled ones
+pytestmark = pytest.mark.usefixtures("kernel_mode")
+
 
 def _stacks(meshio_mesh, group="zmin", **kw):
     mesh = mesh_from_meshio(meshio_mesh)

@@ -1,6 +1,8 @@
 """Per-face and per-cell quality metrics of a :class:`~caselint.mesh.model.Mesh`.
 
-Each function is memoised through ``mesh.cached`` and never returns NaN or infinity.
+Each function is memoised through ``mesh.cached`` and never returns NaN or infinity. On
+large meshes the face passes run as compiled loops (:mod:`caselint.mesh.kernels.face_checks`,
+same arithmetic; :mod:`caselint.mesh.kernels` decides which runs).
 
 Face metrics (finite-volume definitions, Jasak 1996; Ferziger & Peric 2002):
 
@@ -43,6 +45,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from caselint.mesh import kernels
 from caselint.mesh.celltypes import CORNERS, CORNERS_2D, EDGES, PYRAMID_TETS
 from caselint.mesh.geometry import chunks, coordinate_columns, cross, fan, size_classes
 
@@ -84,6 +87,10 @@ def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
     """Non-orthogonality and skewness in one pass over the faces (they share d and S)."""
 
     def compute():
+        kernel = kernels.compiled("face_checks", mesh.n_cells)
+        if kernel is not None:
+            return kernel.face_metrics(mesh.owner, mesh.neighbour, mesh.face_area_vectors,
+                                       mesh.face_centroids, mesh.cell_centroids, DEGENERATE)
         angle = np.empty(mesh.n_faces)
         skew = np.zeros(mesh.n_faces)
         for sl in chunks(mesh.n_faces):
@@ -119,6 +126,9 @@ def face_warp_deg(mesh: "Mesh") -> np.ndarray:
         out = np.zeros(mesh.n_faces)
         if mesh.dim == 2:
             return out
+        kernel = kernels.compiled("face_checks", mesh.n_cells)
+        if kernel is not None:
+            return kernel.face_warp(data.face_offsets, data.face_points, mesh.points)
         cols = coordinate_columns(mesh.points)
         for sl in chunks(mesh.n_faces):
             for k, sel, rows in size_classes(data.face_offsets, sl):

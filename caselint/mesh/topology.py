@@ -4,7 +4,8 @@ cell, the points of faces and cells, and faces that share one point set.
 Plain functions of the mesh data (no state); :class:`caselint.mesh.analysis.Mesh` keeps
 their results. Everything is vectorised over faces; the per-cell lists are built by one
 stable sort of the face-cell incidences (cells are met in face order, so each cell's faces
-come in ascending face id).
+come in ascending face id), or on large meshes by the compiled counting sort of
+:mod:`caselint.mesh.kernels.face_checks` (the same lists).
 """
 
 from __future__ import annotations
@@ -13,6 +14,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
+
+from caselint.mesh import kernels
 
 if TYPE_CHECKING:
     from caselint.mesh.model import MeshData
@@ -46,12 +49,16 @@ class CellFaces:
 def cell_faces(mesh: "MeshData") -> CellFaces:
     """Each cell's faces, ascending by face id, and whether the cell owns each."""
     n_int = mesh.n_internal
+    dtype = np.int32 if mesh.n_faces < 2**31 else np.int64
+    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    if kernel is not None:
+        return CellFaces(*kernel.cell_faces(mesh.owner, mesh.neighbour, n_int, mesh.n_cells,
+                                            np.empty(0, dtype=dtype)))
     cells = np.concatenate([mesh.owner, mesh.neighbour[:n_int]])
     ids = np.concatenate([np.arange(mesh.n_faces), np.arange(n_int)])
     order = np.argsort(cells, kind="stable")
     offsets = np.zeros(mesh.n_cells + 1, dtype=np.int64)
     np.cumsum(np.bincount(cells, minlength=mesh.n_cells), out=offsets[1:])
-    dtype = np.int32 if mesh.n_faces < 2**31 else np.int64
     return CellFaces(offsets, ids[order].astype(dtype), order < mesh.n_faces)
 
 

@@ -27,6 +27,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from caselint.engine.hookspecs import hookimpl
+from caselint.mesh import kernels
 from caselint.mesh.geometry import chunks
 from caselint.mesh.topology import cells_of_points
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
@@ -117,6 +118,9 @@ def cell_closure(mesh: "Mesh") -> np.ndarray:
     def compute() -> np.ndarray:
         n, n_int = mesh.n_cells, mesh.n_internal
         s, area = mesh.face_area_vectors, mesh.face_areas
+        kernel = kernels.compiled("face_checks", n)
+        if kernel is not None:
+            return kernel.cell_closure(mesh.owner, mesh.neighbour, n_int, n, s, area)
         nbr = mesh.neighbour[:n_int]
         total = (np.bincount(mesh.owner, weights=area, minlength=n)
                  + np.bincount(nbr, weights=area[:n_int], minlength=n))
@@ -132,6 +136,10 @@ def cell_closure(mesh: "Mesh") -> np.ndarray:
 
 def short_faces(mesh: "Mesh") -> np.ndarray:
     """Ids of faces with fewer distinct points than a face needs (3 in 3-D, 2 in 2-D)."""
+    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    if kernel is not None:
+        distinct = kernel.distinct_points(mesh.face_offsets, mesh.face_points)
+        return np.flatnonzero(distinct < mesh.dim)
     table = mesh.face_point_table()
     srt = np.sort(table, axis=1)
     distinct = 1 + np.count_nonzero(srt[:, 1:] != srt[:, :-1], axis=1)

@@ -1,0 +1,212 @@
+"""Compiled kernels (numba) against the numpy reference, and how the kernels are chosen.
+
+Every kernel result is computed twice on the same input, once with ``CASELINT_KERNELS=numpy``
+and once with ``CASELINT_KERNELS=numba``, on meshes not designed for the kernels: shuffled
+perturbed hexahedra, tetrahedra, prism layers under tetrahedra, 2:1 refined polyhedra,
+2-D quadrilaterals and triangles, and a damaged mesh (a duplicated cell, an inverted cell,
+a collapsed hexahedron). Integer results and geometry must be equal to the bit; angles go
+through ``arctan2``, which numpy may evaluate with vector instructions, so they get 1e-12 deg.
+The timing targets are in benchmarks/, not here.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import os
+import subprocess
+import sys
+import textwrap
+
+import meshio
+import numpy as np
+import pytest
+
+from caselint.mesh import kernels, rays, wall_layers
+from caselint.mesh.analysis import Mesh
+from caselint.mesh.blocks import graded, shuffled, structured_hex, structured_quad, tetrahedralise
+from caselint.mesh.formats.meshio_files import meshio_data
+from caselint.mesh.quality import face_warp_deg, non_orthogonality_deg, skewness
+from caselint.mesh.refined import refined_block
+from caselint.rules.mesh_integrity import cell_closure, short_faces
+from near_wall_meshes import prism_block
+from regression_meshes import MESHES, _perturbed
+
+numba = pytest.importorskip("numba")
+
+
+def _hexes() -> meshio.Mesh:
+    m = structured_hex(graded(0, 1, 9, 1.2), np.linspace(0, 2, 8), graded(0, 0.5, 7, 0.85))
+    return shuffled(_perturbed(m, 0.02, 11), seed=12)
+
+
+def _damaged() -> meshio.Mesh:
+    """Hexahedra with one cell listed twice (non-manifold faces), one inverted (clashing
+    faces) and one collapsed onto a wedge shape (quadrilaterals with a repeated point)."""
+    m = structured_hex(*(np.linspace(0, 1, 5),) * 3)
+    hexes = m.cells_dict["hexahedron"].copy()
+    hexes[5] = hexes[5][[4, 5, 6, 7, 0, 1, 2, 3]]          # inverted
+    hexes[9][[2, 6]] = hexes[9][[1, 5]]                    # collapsed edge
+    hexes = np.vstack([hexes, hexes[20:21]])               # duplicated
+    return meshio.Mesh(m.points, [("hexahedron", hexes)])
+
+
+def _polyhedra():
+    xs = np.linspace(0, 1, 9)
+    data = refined_block(xs, graded(0, 1, 8, 1.15), np.linspace(0, 0.6, 7),
+                         ((0.3, 0.8), (0.2, 0.7), (0.1, 0.5)))
+    rng = np.random.default_rng(5)
+    lo, hi = data.points.min(axis=0), data.points.max(axis=0)
+    inner = np.all((data.points > lo + 1e-9) & (data.points < hi - 1e-9), axis=1)
+    jitter = np.where(inner[:, None], rng.uniform(-0.004, 0.004, data.points.shape), 0.0)
+    return dataclasses.replace(data, points=data.points + jitter)
+
+
+SOURCES = {
+    "hex": _hexes,
+    "tet": lambda: shuffled(tetrahedralise(structured_hex(*(np.linspace(0, 1, 6),) * 3)),
+                            seed=3),
+    "prism-tet": lambda: shuffled(prism_block([0.002, 0.003, 0.0045], [0.02, 0.03, 0.05],
+                                              nx=5, ny=4), seed=8),
+    "polyhedra": _polyhedra,
+    "quad-2d": lambda: shuffled(structured_quad(graded(0, 2, 9, 1.2), np.linspace(0, 1, 6)),
+                                seed=6),
+    "triangle-2d": lambda: MESHES()["triangle"],
+    "damaged": _damaged,
+    "mixed": lambda: MESHES()["mixed"],
+}
+
+
+def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
+    """Every kernel's result on the mesh ``name`` with the kernels of ``mode``."""
+    monkeypatch.setenv(kernels.ENV_KERNELS, mode)
+    source = SOURCES[name]()
+    data = source if not isinstance(source, meshio.Mesh) else meshio_data(source, path=name)
+    mesh = Mesh(data)
+    out = {f"data.{f}": getattr(data, f) for f in ("face_offsets", "face_points", "owner",
+                                                    "neighbour", "face_group")}
+    out["data.nonmanifold"] = data.report.nonmanifold
+    out["data.clashing"] = data.report.clashing
+    cf = mesh.cell_faces
+    out.update({"cell_faces.offsets": cf.offsets, "cell_faces.faces": cf.faces,
+                "cell_faces.owned": cf.owned})
+    for f in dataclasses.fields(mesh.geometry):
+        out[f"geometry.{f.name}"] = getattr(mesh.geometry, f.name)
+    out["angle:non_orthogonality"] = non_orthogonality_deg(mesh)
+    out["skewness"] = skewness(mesh)
+    out["angle:face_warp"] = face_warp_deg(mesh)
+    out["closure"] = cell_closure(mesh)
+    out["short_faces"] = short_faces(mesh)
+    if mesh.dim == 3:
+        boundary = mesh.boundary_faces
+        wall = np.zeros(mesh.n_faces, dtype=bool)
+        wall[boundary[::2]] = True                   # half the boundary ends rays as walls
+        hits = rays.march(mesh, boundary, wall)
+        for f in ("hit_face", "status", "width", "cells"):
+            out[f"rays.{f}"] = getattr(hits, f)
+        for reach in (0.0, math.inf):
+            layers = wall_layers.wall_layers(mesh, boundary, reach_m=reach)
+            for f in dataclasses.fields(layers):
+                out[f"layers{reach}.{f.name}"] = getattr(layers, f.name)
+    return out
+
+
+@pytest.mark.parametrize("name", sorted(SOURCES))
+def test_compiled_kernels_equal_the_numpy_reference(name, monkeypatch):
+    reference = _analyse(name, "numpy", monkeypatch)
+    compiled = _analyse(name, "numba", monkeypatch)
+    assert reference.keys() == compiled.keys()
+    for key, expected in reference.items():
+        got = compiled[key]
+        if key.startswith("angle:"):
+            np.testing.assert_allclose(got, expected, rtol=0, atol=1e-12, err_msg=key)
+        elif isinstance(expected, np.ndarray):
+            assert got.dtype == expected.dtype, key
+            np.testing.assert_array_equal(got, expected, err_msg=key)
+        else:
+            assert got == expected, key
+
+
+def test_the_meshes_exercise_what_the_kernels_handle(monkeypatch):
+    """The damaged mesh has non-manifold, clashing and collapsed faces; the polyhedra have
+    faces of more than four points; rays reach walls and open boundaries; stacks end in
+    several ways. Otherwise the equality above would test less than it claims."""
+    damaged = _analyse("damaged", "numpy", monkeypatch)
+    assert damaged["data.nonmanifold"].size and damaged["data.clashing"].size
+    assert np.any(np.diff(damaged["data.face_offsets"]) == 3)     # a collapsed quadrilateral
+    poly = _analyse("polyhedra", "numpy", monkeypatch)
+    assert np.diff(poly["data.face_offsets"]).max() > 4
+    assert {0, 1} <= set(poly["rays.status"].tolist())
+    prism = _analyse("prism-tet", "numpy", monkeypatch)
+    assert len(set(prism["layers0.0.end"].tolist())) >= 2
+    assert prism["layers0.0.n_layers"].max() == 3
+
+
+def test_mode_comes_from_the_environment(monkeypatch):
+    monkeypatch.setenv(kernels.ENV_KERNELS, "numpy")
+    assert kernels.compiled("ray_march", 10**9) is None
+    monkeypatch.setenv(kernels.ENV_KERNELS, "numba")
+    assert kernels.compiled("ray_march", 10).__name__ == "caselint.mesh.kernels.ray_march"
+    monkeypatch.setenv(kernels.ENV_KERNELS, "auto")
+    assert kernels.compiled("ray_march", kernels.MIN_CELLS - 1) is None
+    assert kernels.compiled("ray_march", kernels.MIN_CELLS) is not None
+    monkeypatch.delenv(kernels.ENV_KERNELS)
+    assert kernels.mode() == "auto"
+
+
+def _run(code: str, env: dict) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-c", textwrap.dedent(code)], capture_output=True,
+                          text=True, env={**os.environ, **env}, timeout=300)
+
+
+def test_kernels_compile_uncached_when_no_cache_folder_is_writable(tmp_path):
+    """A cache folder that cannot be made (a file is in the way, which binds root too):
+    numba's ``cache=True`` would raise at import; the kernels compile in memory instead."""
+    blocker = tmp_path / "not-a-folder"
+    blocker.write_text("")
+    done = _run("""
+        import numpy as np
+        from caselint.mesh import kernels
+        from caselint.mesh.analysis import Mesh
+        from caselint.mesh.blocks import structured_hex
+        from caselint.mesh.formats.meshio_files import meshio_data
+        from caselint.mesh.kernels import ray_march
+        assert kernels.kernel_cache_dir() is None
+        mesh = Mesh(meshio_data(structured_hex(*(np.linspace(0, 1, 4),) * 3)))
+        hits = ray_march.march(mesh.cell_faces.offsets, mesh.cell_faces.faces, mesh.owner,
+                               mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids,
+                               np.ones(mesh.n_faces, bool), mesh.boundary_faces,
+                               mesh.face_centroids[mesh.boundary_faces],
+                               -mesh.face_area_vectors[mesh.boundary_faces] * 9.0,
+                               np.ones(len(mesh.boundary_faces), bool), 100, 64, 1e-9)
+        print(type(ray_march.march._cache).__name__, int(hits[3].max()))
+        """, {"CASELINT_CACHE_DIR": str(blocker / "sub"), "CASELINT_KERNELS": "numba"})
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.split() == ["NullCache", "3"]          # uncached; 3 cells across
+    assert blocker.is_file()
+
+
+def test_kernel_cache_is_kept_under_the_cache_folder_and_off_turns_it_off(tmp_path):
+    code = """
+        from caselint.mesh import kernels
+        from caselint.mesh.kernels import ray_march
+        print(type(ray_march.face_planes._cache).__name__, kernels.status()["cache"])
+        """
+    on = _run(code, {"CASELINT_CACHE_DIR": str(tmp_path)})
+    assert on.returncode == 0, on.stderr
+    assert on.stdout.split() == ["FunctionCache", str(tmp_path / "kernels")]
+    off = _run(code, {"CASELINT_CACHE_DIR": "off"})
+    assert off.returncode == 0, off.stderr
+    assert off.stdout.split() == ["NullCache", "None"]
+
+
+def test_the_demo_check_does_not_import_numba(tmp_path):
+    """Small cases keep the start-up they had: numba is imported for large meshes only."""
+    done = _run("""
+        import sys
+        from caselint.cli import main
+        code = main(["demo", "--format", "json"])
+        print("NUMBA", "numba" in sys.modules, code)
+        """, {"CASELINT_CACHE_DIR": str(tmp_path)})
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip().splitlines()[-1].startswith("NUMBA False")
