@@ -114,6 +114,8 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
 @pytest.mark.parametrize("name", sorted(SOURCES))
 def test_compiled_kernels_equal_the_numpy_reference(name, monkeypatch):
     reference = _analyse(name, "numpy", monkeypatch)
+    # split the marches and walks into parts on threads even on these small meshes
+    monkeypatch.setattr(kernels, "THREADED_ITEMS", 1)
     compiled = _analyse(name, "numba", monkeypatch)
     assert reference.keys() == compiled.keys()
     for key, expected in reference.items():
@@ -173,8 +175,9 @@ def test_kernels_compile_uncached_when_no_cache_folder_is_writable(tmp_path):
         from caselint.mesh.kernels import ray_march
         assert kernels.kernel_cache_dir() is None
         mesh = Mesh(meshio_data(structured_hex(*(np.linspace(0, 1, 4),) * 3)))
+        planes = ray_march.face_planes(mesh.face_area_vectors, mesh.face_centroids)
         hits = ray_march.march(mesh.cell_faces.offsets, mesh.cell_faces.faces, mesh.owner,
-                               mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids,
+                               mesh.neighbour, planes,
                                np.ones(mesh.n_faces, bool), mesh.boundary_faces,
                                mesh.face_centroids[mesh.boundary_faces],
                                -mesh.face_area_vectors[mesh.boundary_faces] * 9.0,

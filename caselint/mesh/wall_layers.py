@@ -217,10 +217,11 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
     else:
         cf, data = mesh.cell_faces, mesh.data
         topo = (cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.points)
-        *per_face, flat = kernel.walk(
+        parts = kernels.in_threads(lambda p: kernel.walk(
             *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
-            mesh.face_centroids, mesh.cell_centroids, faces, float(max_aspect), cos_turn,
-            max_cells, float(reach_m), mesh.dim == 3)
+            mesh.face_centroids, mesh.cell_centroids, faces[p], float(max_aspect), cos_turn,
+            max_cells, float(reach_m), mesh.dim == 3), len(faces))
+        *per_face, flat = (np.concatenate(values) for values in zip(*parts))
         n_walked = per_face[5]
         heights = np.zeros((len(faces), int(n_walked.max(initial=0))))
         rows = np.repeat(np.arange(len(faces)), n_walked)

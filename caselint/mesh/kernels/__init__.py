@@ -73,6 +73,27 @@ def compiled(name: str, n_cells: int) -> ModuleType | None:
     return importlib.import_module(f"{__name__}.{name}")
 
 
+#: Items (rays, wall faces) below which a kernel runs on one thread.
+THREADED_ITEMS = 4096
+
+
+def in_threads(run: Callable[[slice], tuple], n: int) -> list[tuple]:
+    """``run(part)`` over slices covering ``range(n)``, on up to one thread per core (the
+    kernels release the interpreter lock), results in the order of the parts.
+
+    The parts are independent (one wall face's walk, one ray), so the result is the same
+    as one call over everything.
+    """
+    threads = min(os.cpu_count() or 1, 8)
+    if threads == 1 or n < THREADED_ITEMS:
+        return [run(slice(0, n))]
+    from concurrent.futures import ThreadPoolExecutor
+
+    bounds = [n * i // (4 * threads) for i in range(4 * threads + 1)]   # 4 parts a thread
+    with ThreadPoolExecutor(threads) as pool:
+        return list(pool.map(run, [slice(a, b) for a, b in zip(bounds, bounds[1:])]))
+
+
 def kernel_cache_dir() -> Path | None:
     """The writable kernel cache folder, or None (caches off, or nothing writable)."""
     from caselint.cache import cache_dir

@@ -70,7 +70,8 @@ def distinct_points(face_offsets, face_points):
 @jit
 def face_warp(face_offsets, face_points, points):
     """(F,) largest angle (deg) between a fan triangle's normal and the face normal, as
-    :func:`caselint.mesh.quality.face_warp_deg` (3-D faces of four or more points)."""
+    :func:`caselint.mesh.quality.face_warp_deg` (3-D faces of four or more points; two
+    triangles within rounding of each other may give the other's angle, to 1e-15 deg)."""
     n = face_offsets.shape[0] - 1
     out = np.zeros(n)
     for f in range(n):
@@ -91,15 +92,19 @@ def face_warp(face_offsets, face_points, points):
             S0 += t0
             S1 += t1
             S2 += t2
-        worst = 0.0
+        # the largest angle atan2(|t x S|, t . S) over the fan triangles t: angles in
+        # [0, 180] compare by the sign of y1 x2 - x1 y2, so one arctan2 per face
+        wy, wx = 0.0, 1.0                        # angle 0: a triangle of no area counts 0
         for i in range(k):
             t0, t1, t2 = _fan_triangle(face_points, points, lo, k, i, m0, m1, m2)
-            c0, c1, c2 = t1 * S2 - t2 * S1, t2 * S0 - t0 * S2, t0 * S1 - t1 * S0
-            ang = np.arctan2(np.sqrt(c0 * c0 + c1 * c1 + c2 * c2),
-                             t0 * S0 + t1 * S1 + t2 * S2) * _DEG
             if not np.sqrt(t0 * t0 + t1 * t1 + t2 * t2) > 0:
-                ang = 0.0
-            worst = max(worst, ang)
+                continue
+            c0, c1, c2 = t1 * S2 - t2 * S1, t2 * S0 - t0 * S2, t0 * S1 - t1 * S0
+            y, x = np.sqrt(c0 * c0 + c1 * c1 + c2 * c2), t0 * S0 + t1 * S1 + t2 * S2
+            turn = y * wx - x * wy
+            if turn > 0 or (turn == 0 and x < wx):    # (x < wx: 180 against 0 degrees)
+                wy, wx = y, x
+        worst = np.arctan2(wy, wx) * _DEG
         out[f] = worst if np.sqrt(S0 * S0 + S1 * S1 + S2 * S2) > 0 else 0.0
     return out
 

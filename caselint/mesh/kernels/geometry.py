@@ -42,7 +42,7 @@ def face_geometry(face_offsets, face_points, points, three_d):
     return area, cent, mean
 
 
-@jit
+@jit(inline="always")
 def _polygon(face_points, points, lo, k, area, cent, mean, f):
     """Fan about the vertex mean: area vector, centroid and mean of one polygon."""
     m0 = m1 = m2 = 0.0
@@ -133,7 +133,7 @@ def pyramid_sums(owner, neighbour, n_internal, area, fcent, fmean, apex, neighbo
     return acc
 
 
-@jit
+@jit(inline="always")
 def _add_pyramid(out, c, sign, area, fcent, fmean, apex, f, dim):
     x0, x1, x2 = apex[c, 0], apex[c, 1], apex[c, 2]
     v = ((area[f, 0] * sign) * (fmean[f, 0] - x0) + (area[f, 1] * sign) * (fmean[f, 1] - x1)

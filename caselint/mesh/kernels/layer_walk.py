@@ -17,7 +17,7 @@ NO_STACK, END_CORE, END_TURN, END_BOUNDARY, END_LIMIT, END_DEGENERATE = 0, 1, 2,
 _BIG = np.finfo(np.float64).max
 
 
-@jit
+@jit(inline="always")
 def extent(cf_offsets, cf_faces, face_offsets, face_points, points, cell, o, nrm):
     """Largest distance of ``cell``'s vertices from ``o`` along unit ``nrm`` (m)."""
     best = -np.inf
@@ -32,7 +32,7 @@ def extent(cf_offsets, cf_faces, face_offsets, face_points, points, cell, o, nrm
     return best
 
 
-@jit
+@jit(inline="always")
 def _shares_point(face_offsets, face_points, f, g):
     for i in range(face_offsets[f], face_offsets[f + 1]):
         p = face_points[i]
@@ -42,7 +42,7 @@ def _shares_point(face_offsets, face_points, f, g):
     return False
 
 
-@jit
+@jit(inline="always")
 def opposite(cf_offsets, cf_faces, face_offsets, face_points, owner, area, centroid, cell,
              entry, x_in, n_in):
     """The face of ``cell`` opposite ``entry`` and whether it has one, as

@@ -34,16 +34,14 @@ def face_planes(area, centroid):
 
 
 @jit
-def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, start_faces, origin,
+def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, origin,
           direction, active, max_steps, max_stalled, parallel_eps):
     """Hit face, status, width and cells crossed of every ray (see the module docstring).
 
     ``cf_offsets`` / ``cf_faces``: the faces of every cell (CSR, ascending face id);
-    ``area`` / ``centroid``: (F, 3) face area vectors and centroids, from which the face
-    planes are computed (:func:`face_planes`); ``active``: rays that have a direction (the
-    others stay lost with no cell counted).
+    ``plane``: (F, 4) face planes (:func:`face_planes`); ``active``: rays that have a
+    direction (the others stay lost with no cell counted).
     """
-    plane = face_planes(area, centroid)
     n = start_faces.shape[0]
     hit = np.full(n, -1, dtype=np.int64)
     status = np.full(n, LOST, dtype=np.int8)
