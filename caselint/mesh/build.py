@@ -21,6 +21,7 @@ from typing import Sequence
 
 import numpy as np
 
+from caselint.mesh import kernels
 from caselint.mesh.groups import BoundaryElements, match_groups
 from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
 from caselint.mesh.ordering import spatial_order
@@ -120,13 +121,18 @@ def mesh_from_elements(
     paired = pair_faces(blocks, n_points, dim)
     face_group, unmatched, internal, multi = match_groups(
         paired.faces, paired.neighbour, boundary, group_names, n_points)
-    order = internal_first(paired.neighbour)
-    faces, owner, neighbour = paired.faces, paired.owner, paired.neighbour
+    kernel = kernels.compiled("ordering", n_cells)
+    owner, neighbour = paired.owner, paired.neighbour
+    if kernel is not None:
+        offsets, face_points, order, moved = kernel.faces_to_csr(paired.faces, neighbour)
+        order = order if moved else None
+    else:
+        order = internal_first(neighbour)
     if order is not None:
-        faces, owner, neighbour = faces[order], owner[order], neighbour[order]
-        face_group = face_group[order]
-    offsets, face_points = padded_to_csr(faces)
-    del faces
+        owner, neighbour, face_group = owner[order], neighbour[order], face_group[order]
+    if kernel is None:
+        offsets, face_points = padded_to_csr(paired.faces if order is None
+                                             else paired.faces[order])
     cell_type = index_dtype(max(n_cells, 1))
     shapes = tuple(ShapeBlock(b.type, np.arange(b.start, b.stop, dtype=cell_type),
                               b.connectivity) for b in blocks if len(b.connectivity))

@@ -10,7 +10,9 @@ Reports must still speak in the file's numbering: the mesh keeps the file's id o
 renumbered cell and point (``Mesh.file_cell_ids``, ``Mesh.file_point_ids``), and rules name
 cells and points through them. Cells stay in their blocks (cell types keep their id
 ranges); boundary elements keep their file order. Element meshes are renumbered before
-their faces are built (:mod:`caselint.mesh.build`).
+their faces are built (:mod:`caselint.mesh.build`). On large meshes the codes and sorts
+are computed by a compiled loop (:mod:`caselint.mesh.kernels.ordering`: the same codes;
+numpy's sorts were as fast as a compiled radix sort here).
 """
 
 from __future__ import annotations
@@ -19,6 +21,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Sequence
 
 import numpy as np
+
+from caselint.mesh import kernels
 
 if TYPE_CHECKING:
     from caselint.mesh.pairing import ElementBlock
@@ -37,11 +41,14 @@ def _spread(q: np.ndarray) -> np.ndarray:
     return v
 
 
-def morton_codes(points: np.ndarray) -> np.ndarray:
-    """(P,) uint64 Morton code of each point in the points' bounding box (21 bits an axis)."""
+def morton_codes(points: np.ndarray, kernel=None) -> np.ndarray:
+    """(P,) uint64 Morton code of each point in the points' bounding box (21 bits an axis);
+    ``kernel``: the compiled :mod:`caselint.mesh.kernels.ordering`, or None for numpy."""
     lo = points.min(axis=0)
     span = points.max(axis=0) - lo
     scale = np.where(span > 0, (2**BITS - 1) / np.where(span > 0, span, 1.0), 0.0)
+    if kernel is not None:
+        return kernel.morton_codes(points, lo, scale)
     code = np.zeros(len(points), dtype=np.uint64)
     for axis in range(3):
         q = ((points[:, axis] - lo[axis]) * scale[axis]).astype(np.uint64)
@@ -81,7 +88,9 @@ def spatial_order(points: np.ndarray, blocks: Sequence["ElementBlock"]) -> Renum
     corner (cells stay in their blocks, so cell types keep their id ranges)."""
     from caselint.mesh.pairing import ElementBlock
 
-    point_order = _sorted_order(morton_codes(points))
+    kernel = kernels.compiled("ordering", sum(len(b.connectivity) for b in blocks))
+    codes = morton_codes(points, kernel)
+    point_order = _sorted_order(codes)
     index_type = np.result_type(*[b.connectivity.dtype for b in blocks])
     new_point = np.empty(len(points), dtype=index_type)
     new_point[point_order] = np.arange(len(points), dtype=index_type)
