@@ -12,7 +12,8 @@ Built on the fine lattice (twice the coarse resolution) with numpy, no loop over
 every lattice face between two different cells is a face; between two unrefined coarse
 cells the four lattice faces of a coarse face are one polygon. Cells that keep six
 four-point faces are hexahedra (their shape is recorded); the rest are polyhedra.
-Boundary faces are grouped by box side (``xmin`` ... ``zmax``).
+Boundary faces are grouped by box side (``xmin`` ... ``zmax``). Faces come as face-based
+solver files keep them: internal faces by owner, then neighbour; boundary faces by group.
 """
 
 from __future__ import annotations
@@ -68,6 +69,15 @@ def refined_block(xs, ys, zs, refine: Box, *, path: str = "<refined block>") -> 
     sizes, face_points, owner, neighbour, group = (
         np.concatenate(col) for col in zip(*(_axis_faces(axis, cellmap, fine_pos, fine_used, pid)
                                             for axis in range(3))))
+    # faces in the order face-based solver files keep: internal faces by owner then
+    # neighbour, boundary faces by group then owner (locality for everything that follows)
+    inner = neighbour >= 0
+    order = np.lexsort((neighbour, owner, np.where(inner, -1, group)))
+    starts = np.concatenate([[0], np.cumsum(sizes)])[:-1][order]
+    sizes = sizes[order]
+    face_points = face_points[np.repeat(starts - np.concatenate([[0], np.cumsum(sizes)])[:-1],
+                                        sizes) + np.arange(int(sizes.sum()))]
+    owner, neighbour, group = owner[order], neighbour[order], group[order]
     offsets = np.concatenate([[0], np.cumsum(sizes)])
     used, face_points = np.unique(face_points, return_inverse=True)
     fine_coords = [_fine_axis(a) for a in axes]

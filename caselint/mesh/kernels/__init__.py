@@ -38,7 +38,7 @@ MODES = ("auto", "numpy", "numba")
 #: rule set ``general``, kernels cached) was measured in fresh processes both ways:
 #: numpy path faster below about 20,000 cells, compiled path faster above
 #: (benchmarks/bench_threshold.py; README "Kernel threshold").
-MIN_CELLS = 20_000
+MIN_CELLS = 100_000
 
 
 def mode() -> str:
