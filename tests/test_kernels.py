@@ -26,9 +26,14 @@ from caselint.mesh import kernels, rays, wall_layers
 from caselint.mesh.analysis import Mesh
 from caselint.mesh.blocks import graded, shuffled, structured_hex, structured_quad, tetrahedralise
 from caselint.mesh.formats.meshio_files import meshio_data
-from caselint.mesh.quality import face_warp_deg, non_orthogonality_deg, skewness
+from caselint.mesh.quality import face_warp_deg, growth_ratio, non_orthogonality_deg, skewness
 from caselint.mesh.refined import refined_block
-from caselint.rules.mesh_integrity import cell_closure, short_faces
+from caselint.rules.mesh_integrity import (
+    cell_closure,
+    cell_pieces,
+    coincident_points,
+    short_faces,
+)
 from near_wall_meshes import prism_block
 from regression_meshes import MESHES, _perturbed
 
@@ -42,13 +47,17 @@ def _hexes() -> meshio.Mesh:
 
 def _damaged() -> meshio.Mesh:
     """Hexahedra with one cell listed twice (non-manifold faces), one inverted (clashing
-    faces) and one collapsed onto a wedge shape (quadrilaterals with a repeated point)."""
+    faces) and one collapsed onto a wedge shape (quadrilaterals with a repeated point), and
+    a second block against x = 1 with points of its own there (a seam of coincident points,
+    a second piece)."""
     m = structured_hex(*(np.linspace(0, 1, 5),) * 3)
     hexes = m.cells_dict["hexahedron"].copy()
     hexes[5] = hexes[5][[4, 5, 6, 7, 0, 1, 2, 3]]          # inverted
     hexes[9][[2, 6]] = hexes[9][[1, 5]]                    # collapsed edge
     hexes = np.vstack([hexes, hexes[20:21]])               # duplicated
-    return meshio.Mesh(m.points, [("hexahedron", hexes)])
+    other = structured_hex(np.linspace(1, 1.5, 3), np.linspace(0, 1, 5), np.linspace(0, 1, 3))
+    hexes = np.vstack([hexes, other.cells_dict["hexahedron"] + len(m.points)])
+    return meshio.Mesh(np.vstack([m.points, other.points]), [("hexahedron", hexes)])
 
 
 def _polyhedra():
@@ -96,6 +105,10 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
     out["skewness"] = skewness(mesh)
     out["angle:face_warp"] = face_warp_deg(mesh)
     out["closure"] = cell_closure(mesh)
+    out["growth"] = growth_ratio(mesh)
+    out["pieces"] = cell_pieces(mesh)
+    points, copies = coincident_points(mesh)
+    out["coincident"], out["copies"] = points, copies
     out["short_faces"] = short_faces(mesh)
     if mesh.dim == 3:
         boundary = mesh.boundary_faces
@@ -135,6 +148,7 @@ def test_the_meshes_exercise_what_the_kernels_handle(monkeypatch):
     several ways. Otherwise the equality above would test less than it claims."""
     damaged = _analyse("damaged", "numpy", monkeypatch)
     assert damaged["data.nonmanifold"].size and damaged["data.clashing"].size
+    assert damaged["copies"] == 15 and len(set(damaged["pieces"].tolist())) >= 2
     assert np.any(np.diff(damaged["data.face_offsets"]) == 3)     # a collapsed quadrilateral
     poly = _analyse("polyhedra", "numpy", monkeypatch)
     assert np.diff(poly["data.face_offsets"]).max() > 4

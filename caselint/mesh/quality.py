@@ -175,8 +175,11 @@ def growth_ratio(mesh: "Mesh") -> np.ndarray:
     """(F,) larger over smaller volume of the two cells of a face; 1.0 where undefined."""
 
     def compute() -> np.ndarray:
-        out = np.ones(mesh.n_faces)
         volumes, owner, neighbour = mesh.cell_volumes, mesh.owner, mesh.neighbour
+        kernel = kernels.compiled("face_checks", mesh.n_cells)
+        if kernel is not None:
+            return kernel.growth_ratio(owner, neighbour, volumes)
+        out = np.ones(mesh.n_faces)
         for sl in chunks(mesh.n_faces):    # small temporaries (see geometry.CHUNK)
             nbr = neighbour[sl]
             inner = nbr >= 0

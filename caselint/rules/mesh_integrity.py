@@ -59,6 +59,10 @@ def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
         return ids, int(ids.size - 1)          # every point at one place
     # Relative to the lower corner, rounded to COINCIDENCE * span: at most 1e12, fits int64.
     q = np.floor((pts - lo) / (COINCIDENCE * span) + 0.5).astype(np.int64)
+    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    if kernel is not None:
+        flagged, copies = kernel.coincident(q)
+        return ids[flagged], int(copies)
     order = np.lexsort((q[:, 2], q[:, 1], q[:, 0]))
     sq = q[order]
     same = np.all(sq[1:] == sq[:-1], axis=1)
@@ -81,6 +85,10 @@ def cell_pieces(mesh: "Mesh") -> np.ndarray:
     # int32 ids where they fit: half the memory, and on a large mesh first touches of new
     # memory cost as much as the arithmetic (benchmarks/README.md)
     dtype = np.int32 if mesh.n_cells < 2**31 else np.int64
+    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    if kernel is not None:           # union-find: the same labels
+        return kernel.cell_pieces(mesh.owner, mesh.neighbour, mesh.n_internal, mesh.n_cells,
+                                  np.empty(0, dtype=dtype))
     label = np.arange(mesh.n_cells, dtype=dtype)
     owner, neighbour = mesh.owner, mesh.neighbour
     inner = neighbour >= 0

@@ -185,3 +185,71 @@ def cell_closure(owner, neighbour, n_internal, n_cells, area, areas):
             net += part * part
         out[c] = np.sqrt(net) / (total if total > 0 else 1.0)
     return out
+
+
+@jit
+def growth_ratio(owner, neighbour, volumes):
+    """(F,) larger over smaller volume of a face's two cells, 1 where undefined, as
+    :func:`caselint.mesh.quality.growth_ratio`."""
+    n = owner.shape[0]
+    out = np.ones(n)
+    for f in range(n):
+        nb = neighbour[f]
+        if nb < 0:
+            continue
+        vp, vn = volumes[owner[f]], volumes[nb]
+        if vp > 0 and vn > 0:
+            out[f] = max(vp, vn) / min(vp, vn)
+    return out
+
+
+@jit
+def cell_pieces(owner, neighbour, n_internal, n_cells, like):
+    """(C,) the lowest cell id of each cell's connected piece (joined through internal
+    faces), as :func:`caselint.rules.mesh_integrity.cell_pieces`; dtype of ``like``."""
+    parent = np.arange(n_cells).astype(like.dtype)
+    for f in range(n_internal):
+        a, b = _root(parent, owner[f]), _root(parent, neighbour[f])
+        if a < b:
+            parent[b] = a
+        elif b < a:
+            parent[a] = b
+    for c in range(n_cells):
+        parent[c] = parent[parent[c]]          # roots come first: one hop reaches them
+    return parent
+
+
+@jit(inline="always")
+def _root(parent, c):
+    while parent[c] != c:
+        parent[c] = parent[parent[c]]           # path halving
+        c = parent[c]
+    return c
+
+
+@jit
+def coincident(q):
+    """For the (n, 3) integer keys ``q``: which rows share their key with another row, and
+    how many rows repeat an earlier key (hash table, open addressing)."""
+    n = q.shape[0]
+    size = 1
+    while size < 2 * n:
+        size *= 2
+    table = np.full(size, -1, dtype=np.int64)
+    flagged = np.zeros(n, dtype=np.bool_)
+    copies = 0
+    for i in range(n):
+        h = (q[i, 0] * 73856093) ^ (q[i, 1] * 19349663) ^ (q[i, 2] * 83492791)
+        slot = h & (size - 1)
+        while True:
+            j = table[slot]
+            if j < 0:
+                table[slot] = i
+                break
+            if q[j, 0] == q[i, 0] and q[j, 1] == q[i, 1] and q[j, 2] == q[i, 2]:
+                flagged[i] = True
+                flagged[j] = True
+                copies += 1
+                break
+            slot = (slot + 1) & (size - 1)
+    return flagged, copies
