@@ -26,7 +26,15 @@ from caselint.mesh import kernels, rays, wall_layers
 from caselint.mesh.analysis import Mesh
 from caselint.mesh.blocks import graded, shuffled, structured_hex, structured_quad, tetrahedralise
 from caselint.mesh.formats.meshio_files import meshio_data
-from caselint.mesh.quality import face_warp_deg, growth_ratio, non_orthogonality_deg, skewness
+from caselint.mesh.quality import (
+    edge_ratio,
+    face_warp_deg,
+    growth_ratio,
+    min_corner_jacobian,
+    non_orthogonality_deg,
+    scaled_jacobian,
+    skewness,
+)
 from caselint.mesh.refined import refined_block
 from caselint.rules.mesh_integrity import (
     cell_closure,
@@ -106,6 +114,9 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
     out["angle:face_warp"] = face_warp_deg(mesh)
     out["closure"] = cell_closure(mesh)
     out["growth"] = growth_ratio(mesh)
+    out["scaled_jacobian"] = scaled_jacobian(mesh)
+    out["min_corner_jacobian"] = min_corner_jacobian(mesh)
+    out["edge_ratio"] = edge_ratio(mesh)
     out["pieces"] = cell_pieces(mesh)
     points, copies = coincident_points(mesh)
     out["coincident"], out["copies"] = points, copies

@@ -18,6 +18,9 @@ from caselint.mesh import mesh_from_meshio
 from caselint.mesh import quality as q
 from caselint.mesh.blocks import graded, structured_hex, structured_quad
 
+# every test here runs with the numpy kernels and with the compiled ones
+pytestmark = pytest.mark.usefixtures("kernel_mode")
+
 METRICS_F = (q.non_orthogonality_deg, q.skewness, q.growth_ratio)
 METRICS_C = (q.scaled_jacobian, q.min_corner_jacobian, q.edge_ratio)
 

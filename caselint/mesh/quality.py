@@ -215,6 +215,16 @@ def _cell_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     def compute():
         cols = coordinate_columns(mesh.points)
         sj, mj, er = (np.full(mesh.n_cells, np.nan) for _ in range(3))
+        kernel = kernels.compiled("cell_metrics", mesh.n_cells)
+        if kernel is not None:
+            for block in mesh.data.shapes:
+                kind = block.type
+                corners = np.array(CORNERS.get(kind) or CORNERS_2D.get(kind) or ((0, 0, 0, 0),))
+                kernel.cell_metrics(
+                    block.connectivity, block.cells, mesh.points, _KERNEL_SHAPES[kind],
+                    corners, np.array(EDGES[kind]), np.array(EDGES["tetra"]),
+                    np.array(PYRAMID_TETS), sj, mj, er, DEGENERATE)
+            return sj, mj, er
         for block in mesh.data.shapes:
             conn = block.connectivity
             for sl in chunks(len(conn)):
@@ -339,6 +349,9 @@ def _planar(p, corners, scale):
     ok = largest > 0
     return np.where(ok, scale * dets[0] / np.where(ok, largest, 1.0), 0.0), dets[0]
 
+
+_KERNEL_SHAPES = {"hexahedron": 0, "tetra": 1, "wedge": 2, "pyramid": 3, "triangle": 4,
+                  "quad": 5}   # the shape codes of caselint.mesh.kernels.cell_metrics
 
 _JACOBIANS = {
     "hexahedron": _hex,
