@@ -1,7 +1,7 @@
 """The long fuzz run: at least 10,000 generated case files per property, result recorded.
 
-    /work/venv/bin/python benchmarks/fuzz_long.py                 # 10,000 examples each
-    /work/venv/bin/python benchmarks/fuzz_long.py --examples 500 --no-record
+    python benchmarks/fuzz_long.py                 # 10,000 examples each
+    python benchmarks/fuzz_long.py --examples 500 --no-record
 
 It runs the two properties of tests/fuzz_properties.py on case files from
 tests/case_fuzzing.py (the same ones the bounded tests in tests/test_fuzz_case_file.py and

@@ -1,7 +1,7 @@
 """Measure the memory ``caselint check`` needs per cell, for the constants of mesh/limits.py.
 
-    /work/venv/bin/python benchmarks/memory_per_cell.py            # 50k and 200k cells
-    /work/venv/bin/python benchmarks/memory_per_cell.py --small 20000 --large 80000
+    python benchmarks/memory_per_cell.py            # 50k and 200k cells
+    python benchmarks/memory_per_cell.py --small 20000 --large 80000
 
 For each volume cell type it builds two meshes of the same block (hexahedra; tetrahedra,
 six per hexahedron; wedges, two per hexahedron; pyramids, six per hexahedron around a
