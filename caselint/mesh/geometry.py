@@ -180,8 +180,10 @@ def compute_geometry(mesh: "MeshData") -> Geometry:
     clash = mesh.report.clashing
     sign[clash[clash < n_int]] = 1.0
     if kernel is not None:
-        area, fcent, fmean = kernel.face_geometry(mesh.face_offsets, mesh.face_points,
-                                                  mesh.points, dim == 3)
+        area, fcent, fmean = (np.empty((mesh.n_faces, 3)) for _ in range(3))
+        kernels.in_threads(lambda p: kernel.face_geometry(
+            mesh.face_offsets, mesh.face_points, mesh.points, dim == 3, p.start, p.stop, area,
+            fcent, fmean), mesh.n_faces)
         apex = kernel.face_mean_apex(owner, nbr, n_int, n_cells, fmean)
         for block in mesh.shapes:       # cells of known shape: their vertex mean
             kernel.vertex_mean_apex(block.connectivity, block.cells, mesh.points, apex)

@@ -89,8 +89,11 @@ def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
     def compute():
         kernel = kernels.compiled("face_checks", mesh.n_cells)
         if kernel is not None:
-            return kernel.face_metrics(mesh.owner, mesh.neighbour, mesh.face_area_vectors,
-                                       mesh.face_centroids, mesh.cell_centroids, DEGENERATE)
+            angle, skew = np.empty(mesh.n_faces), np.empty(mesh.n_faces)
+            kernels.in_threads(lambda p: kernel.face_metrics(
+                mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids,
+                mesh.cell_centroids, DEGENERATE, p.start, p.stop, angle, skew), mesh.n_faces)
+            return angle, skew
         angle = np.empty(mesh.n_faces)
         skew = np.zeros(mesh.n_faces)
         for sl in chunks(mesh.n_faces):
@@ -128,7 +131,10 @@ def face_warp_deg(mesh: "Mesh") -> np.ndarray:
             return out
         kernel = kernels.compiled("face_checks", mesh.n_cells)
         if kernel is not None:
-            return kernel.face_warp(data.face_offsets, data.face_points, mesh.points)
+            kernels.in_threads(lambda p: kernel.face_warp(
+                data.face_offsets, data.face_points, mesh.points, p.start, p.stop, out),
+                mesh.n_faces)
+            return out
         cols = coordinate_columns(mesh.points)
         for sl in chunks(mesh.n_faces):
             for k, sel, rows in size_classes(data.face_offsets, sl):

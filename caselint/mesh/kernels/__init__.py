@@ -81,8 +81,8 @@ def in_threads(run: Callable[[slice], tuple], n: int) -> list[tuple]:
     """``run(part)`` over slices covering ``range(n)``, on up to one thread per core (the
     kernels release the interpreter lock), results in the order of the parts.
 
-    The parts are independent (one wall face's walk, one ray), so the result is the same
-    as one call over everything.
+    The parts are independent (one wall face's walk, one ray, one face's metrics, written
+    to its own rows), so the result is the same as one call over everything.
     """
     threads = min(os.cpu_count() or 1, 8)
     if threads == 1 or n < THREADED_ITEMS:

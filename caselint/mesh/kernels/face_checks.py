@@ -68,13 +68,12 @@ def distinct_points(face_offsets, face_points):
 
 
 @jit
-def face_warp(face_offsets, face_points, points):
-    """(F,) largest angle (deg) between a fan triangle's normal and the face normal, as
+def face_warp(face_offsets, face_points, points, lo_face, hi_face, out):
+    """Largest angle (deg) between a fan triangle's normal and the face normal of faces
+    ``lo_face`` .. ``hi_face - 1``, into ``out`` (zeros), as
     :func:`caselint.mesh.quality.face_warp_deg` (3-D faces of four or more points; two
     triangles within rounding of each other may give the other's angle, to 1e-15 deg)."""
-    n = face_offsets.shape[0] - 1
-    out = np.zeros(n)
-    for f in range(n):
+    for f in range(lo_face, hi_face):
         lo, hi = face_offsets[f], face_offsets[f + 1]
         k = hi - lo
         if k < 4:
@@ -106,7 +105,6 @@ def face_warp(face_offsets, face_points, points):
                 wy, wx = y, x
         worst = np.arctan2(wy, wx) * _DEG
         out[f] = worst if np.sqrt(S0 * S0 + S1 * S1 + S2 * S2) > 0 else 0.0
-    return out
 
 
 @jit(inline="always")
@@ -118,13 +116,11 @@ def _fan_triangle(face_points, points, lo, k, i, m0, m1, m2):
 
 
 @jit
-def face_metrics(owner, neighbour, area, fcent, ccent, degenerate):
-    """(F,) non-orthogonality (deg) and skewness, as
-    :func:`caselint.mesh.quality._face_metrics`."""
-    n = owner.shape[0]
-    angle = np.empty(n)
-    skew = np.zeros(n)
-    for f in range(n):
+def face_metrics(owner, neighbour, area, fcent, ccent, degenerate, lo_face, hi_face, angle,
+                 skew):
+    """Non-orthogonality (deg) and skewness of faces ``lo_face`` .. ``hi_face - 1``, into
+    ``angle`` and ``skew``, as :func:`caselint.mesh.quality._face_metrics`."""
+    for f in range(lo_face, hi_face):
         S0, S1, S2 = area[f, 0], area[f, 1], area[f, 2]
         x0, x1, x2 = fcent[f, 0], fcent[f, 1], fcent[f, 2]
         p = owner[f]
@@ -157,7 +153,6 @@ def face_metrics(owner, neighbour, area, fcent, ccent, degenerate):
         if inner and stuck:
             val = degenerate
         skew[f] = min(val, degenerate)
-    return angle, skew
 
 
 @jit

@@ -13,13 +13,11 @@ from caselint.mesh.kernels import jit
 
 
 @jit
-def face_geometry(face_offsets, face_points, points, three_d):
-    """(F, 3) area vectors, centroids and vertex means of every face."""
-    n = face_offsets.shape[0] - 1
-    area = np.empty((n, 3))
-    cent = np.empty((n, 3))
-    mean = np.empty((n, 3))
-    for f in range(n):
+def face_geometry(face_offsets, face_points, points, three_d, lo_face, hi_face, area, cent,
+                  mean):
+    """Area vectors, centroids and vertex means of faces ``lo_face`` .. ``hi_face - 1``,
+    written into the (F, 3) arrays ``area``, ``cent``, ``mean``."""
+    for f in range(lo_face, hi_face):
         lo, hi = face_offsets[f], face_offsets[f + 1]
         k = hi - lo
         if three_d and k >= 3:
@@ -39,7 +37,6 @@ def face_geometry(face_offsets, face_points, points, three_d):
                 area[f, c] = 0.0
                 cent[f, c] = s / k
                 mean[f, c] = s / k
-    return area, cent, mean
 
 
 @jit(inline="always")
