@@ -221,12 +221,14 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
             *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
             mesh.face_centroids, mesh.cell_centroids, faces[p], float(max_aspect), cos_turn,
             max_cells, float(reach_m), mesh.dim == 3), len(faces))
-        *per_face, flat = (np.concatenate(values) for values in zip(*parts))
-        n_walked = per_face[5]
-        heights = np.zeros((len(faces), int(n_walked.max(initial=0))))
-        rows = np.repeat(np.arange(len(faces)), n_walked)
-        cols = np.arange(len(flat)) - np.repeat(np.cumsum(n_walked) - n_walked, n_walked)
-        heights[rows, cols] = flat
+        *per_face, tables = (list(values) for values in zip(*parts))
+        per_face = [np.concatenate(values) for values in per_face]
+        widest = max(t.shape[1] for t in tables)
+        heights = np.zeros((len(faces), widest))
+        at = 0
+        for t in tables:
+            heights[at : at + len(t), : t.shape[1]] = t
+            at += len(t)
         walked = _Walked(*per_face[:6], heights, *per_face[6:])
         extent = functools.partial(kernel.extents, *topo)
     return _stacks(faces, mesh.owner[faces], walked, extent, reach_m)

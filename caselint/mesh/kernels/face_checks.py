@@ -234,8 +234,7 @@ def coincident(q):
     flagged = np.zeros(n, dtype=np.bool_)
     copies = 0
     for i in range(n):
-        h = (q[i, 0] * 73856093) ^ (q[i, 1] * 19349663) ^ (q[i, 2] * 83492791)
-        slot = h & (size - 1)
+        slot = _mix(q[i, 0], q[i, 1], q[i, 2]) & np.uint64(size - 1)
         while True:
             j = table[slot]
             if j < 0:
@@ -246,5 +245,17 @@ def coincident(q):
                 flagged[j] = True
                 copies += 1
                 break
-            slot = (slot + 1) & (size - 1)
+            slot = (slot + np.uint64(1)) & np.uint64(size - 1)
     return flagged, copies
+
+
+@jit(inline="always")
+def _mix(a, b, c):
+    """A 64-bit hash of three integers (the finaliser of splitmix64 over their sum with
+    odd multipliers): structured points, whose keys share their low bits, spread evenly."""
+    h = (np.uint64(a) * np.uint64(0x9E3779B97F4A7C15)
+         + np.uint64(b) * np.uint64(0xC2B2AE3D27D4EB4F)
+         + np.uint64(c) * np.uint64(0x165667B19E3779F9))
+    h = (h ^ (h >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    h = (h ^ (h >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return h ^ (h >> np.uint64(31))

@@ -77,6 +77,11 @@ def opposite(cf_offsets, cf_faces, face_offsets, face_points, owner, area, centr
     return cf_faces[best_j], True
 
 
+#: Stacks one thread walks in alternation: their memory reads overlap (a walk waits on
+#: memory, not arithmetic); each stack's own steps are unchanged.
+BATCH = 16
+
+
 @jit
 def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbour, area,
          areas, centroid, cell_centroids, faces, max_aspect, cos_turn, max_cells, reach_m,
@@ -85,7 +90,7 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
 
     Returns per face: wall normal (n, 3), centre distance, first height, layered first,
     layers, cells walked, end code, core cell, core origin (n, 3), core normal (n, 3), and
-    the heights of the walked cells, face after face (face i's are ``n_walked[i]`` long).
+    the (n, most cells walked) heights of the walked cells (0 beyond ``n_walked``).
     """
     n = faces.shape[0]
     n_wall = np.empty((n, 3))
@@ -98,62 +103,84 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
     core_cell = np.full(n, -1, dtype=np.int64)
     core_origin = np.zeros((n, 3))
     core_normal = np.zeros((n, 3))
-    heights = np.empty(max(16, 4 * n))
-    used = 0
-    x_in = np.empty(3)
-    nin = np.empty(3)
+    heights = np.zeros((n, 16))
+    widest = 0
+    # the state of the stack in each slot; the entry face's centroid and width carry over
+    row = np.full(BATCH, -1, dtype=np.int64)
+    cell = np.zeros(BATCH, dtype=np.int64)
+    entry = np.zeros(BATCH, dtype=np.int64)
+    step = np.zeros(BATCH, dtype=np.int64)
+    x_in = np.zeros((BATCH, 3))
+    nin = np.zeros((BATCH, 3))
+    a_in = np.zeros(BATCH)
+    top = np.zeros(BATCH)
+    in_stack = np.zeros(BATCH, dtype=np.bool_)
     nout = np.empty(3)
-    for i in range(n):
-        face = faces[i]
-        a = areas[face]
-        scale = -1.0 / (a if a > 0 else 1.0)      # area vectors point out of the domain
-        for k in range(3):
-            n_wall[i, k] = area[face, k] * scale
-        cell = owner[face]
-        centre[i] = ((cell_centroids[cell, 0] - centroid[face, 0]) * n_wall[i, 0]
-                     + (cell_centroids[cell, 1] - centroid[face, 1]) * n_wall[i, 1]
-                     + (cell_centroids[cell, 2] - centroid[face, 2]) * n_wall[i, 2])
-        for k in range(3):
-            x_in[k] = centroid[face, k]
-            nin[k] = n_wall[i, k]
-        first[i] = extent(cf_offsets, cf_faces, face_offsets, face_points, points, cell, x_in,
-                          nin)
-        entry = face
-        a_in = a
-        top = 0.0
-        in_stack = True
-        for step in range(max_cells):
+    following = 0
+    busy = True
+    while busy:
+        busy = False
+        for b in range(BATCH):
+            i = row[b]
+            if i < 0:                                  # start the next stack in this slot
+                if following == n:
+                    continue
+                i = following
+                following += 1
+                face = faces[i]
+                a = areas[face]
+                scale = -1.0 / (a if a > 0 else 1.0)   # area vectors point out of the domain
+                for k in range(3):
+                    n_wall[i, k] = area[face, k] * scale
+                c0 = owner[face]
+                centre[i] = ((cell_centroids[c0, 0] - centroid[face, 0]) * n_wall[i, 0]
+                             + (cell_centroids[c0, 1] - centroid[face, 1]) * n_wall[i, 1]
+                             + (cell_centroids[c0, 2] - centroid[face, 2]) * n_wall[i, 2])
+                for k in range(3):
+                    x_in[b, k] = centroid[face, k]
+                    nin[b, k] = n_wall[i, k]
+                first[i] = extent(cf_offsets, cf_faces, face_offsets, face_points, points, c0,
+                                  x_in[b], nin[b])
+                row[b], cell[b], entry[b], step[b] = i, c0, face, 0
+                a_in[b], top[b], in_stack[b] = a, 0.0, True
+            busy = True
+            if step[b] == max_cells:
+                row[b] = -1
+                continue
+            c = cell[b]
             opp, shaped = opposite(cf_offsets, cf_faces, face_offsets, face_points, owner,
-                                   area, centroid, cell, entry, x_in, nin)
-            mine = owner[opp] == cell
+                                   area, centroid, c, entry[b], x_in[b], nin[b])
+            mine = owner[opp] == c
             a_out = areas[opp]
             sg = (1.0 if mine else -1.0) / (a_out if a_out > 0 else 1.0)
             for k in range(3):
                 nout[k] = area[opp, k] * sg
-            h = ((centroid[opp, 0] - x_in[0]) * nin[0] + (centroid[opp, 1] - x_in[1]) * nin[1]
-                 + (centroid[opp, 2] - x_in[2]) * nin[2])
+            h = ((centroid[opp, 0] - x_in[b, 0]) * nin[b, 0]
+                 + (centroid[opp, 1] - x_in[b, 1]) * nin[b, 1]
+                 + (centroid[opp, 2] - x_in[b, 2]) * nin[b, 2])
             straight = (nout[0] * n_wall[i, 0] + nout[1] * n_wall[i, 1]
                         + nout[2] * n_wall[i, 2]) >= cos_turn
             ok = shaped and straight and h > 0
-            width = np.sqrt(a_in) if three_d else a_in
+            width = np.sqrt(a_in[b]) if three_d else a_in[b]
             thin = ok and h < max_aspect * width
             if ok:
-                if step == 0:
+                if step[b] == 0:
                     first[i] = h
                     layered[i] = True
-                if used == heights.shape[0]:
-                    grown = np.empty(2 * used)
-                    grown[:used] = heights
+                k = n_walked[i]
+                if k == heights.shape[1]:
+                    grown = np.zeros((n, 2 * k))
+                    grown[:, :k] = heights
                     heights = grown
-                heights[used] = h
-                used += 1
-                n_walked[i] += 1
-            stacking = in_stack
+                heights[i, k] = h
+                n_walked[i] = k + 1
+                widest = max(widest, k + 1)
+            stacking = in_stack[b]
             if stacking:
                 if thin:
                     n_layers[i] += 1
                 else:
-                    if step == 0:
+                    if step[b] == 0:
                         reason = NO_STACK
                     elif not shaped or ok:
                         reason = END_CORE
@@ -163,27 +190,29 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
                         reason = END_DEGENERATE
                     end[i] = reason
                     if reason == END_CORE:
-                        core_cell[i] = cell
+                        core_cell[i] = c
                         for k in range(3):
-                            core_origin[i, k] = x_in[k]
-                            core_normal[i, k] = nin[k]
-                    in_stack = False
+                            core_origin[i, k] = x_in[b, k]
+                            core_normal[i, k] = nin[b, k]
+                    in_stack[b] = False
             on_boundary = ok and neighbour[opp] < 0
             if stacking and thin and on_boundary:
                 end[i] = END_BOUNDARY
-                in_stack = False
+                in_stack[b] = False
             if ok:
-                top += h
-            if not (ok and not on_boundary and (in_stack or top < reach_m)):
-                break
-            cell = neighbour[opp] if mine else owner[opp]
-            entry = opp
+                top[b] += h
+            if not (ok and not on_boundary and (in_stack[b] or top[b] < reach_m)):
+                row[b] = -1
+                continue
+            cell[b] = neighbour[opp] if mine else owner[opp]
+            entry[b] = opp
             for k in range(3):
-                nin[k] = nout[k]
-                x_in[k] = centroid[opp, k]
-            a_in = a_out
+                nin[b, k] = nout[k]
+                x_in[b, k] = centroid[opp, k]
+            a_in[b] = a_out
+            step[b] += 1
     return (n_wall, centre, first, layered, n_layers, n_walked, end, core_cell, core_origin,
-            core_normal, heights[:used].copy())
+            core_normal, heights[:, :widest].copy())
 
 
 @jit

@@ -33,6 +33,11 @@ def face_planes(area, centroid):
     return plane
 
 
+#: Rays one thread marches in alternation: their memory reads overlap (the march waits on
+#: memory, not arithmetic); each ray's own steps are unchanged.
+BATCH = 16
+
+
 @jit
 def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, origin,
           direction, active, max_steps, max_stalled, parallel_eps):
@@ -47,28 +52,47 @@ def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, orig
     status = np.full(n, LOST, dtype=np.int8)
     width = np.zeros(n)
     cells = np.zeros(n, dtype=np.int64)
-    for r in range(n):
-        if not active[r]:
-            continue
-        o0, o1, o2 = origin[r, 0], origin[r, 1], origin[r, 2]
-        d0, d1, d2 = direction[r, 0], direction[r, 1], direction[r, 2]
-        entry = start_faces[r]
-        cell = owner[entry]
-        t_now = 0.0
-        count = 1
-        stuck = 0
-        done = False
-        for _ in range(max_steps):
+    ray = np.full(BATCH, -1, dtype=np.int64)
+    cell = np.zeros(BATCH, dtype=np.int64)
+    entry = np.zeros(BATCH, dtype=np.int64)
+    t_now = np.zeros(BATCH)
+    count = np.zeros(BATCH, dtype=np.int64)
+    stuck = np.zeros(BATCH, dtype=np.int64)
+    steps = np.zeros(BATCH, dtype=np.int64)
+    following = 0
+    busy = True
+    while busy:
+        busy = False
+        for b in range(BATCH):
+            r = ray[b]
+            if r < 0:                                  # start the next ray in this slot
+                while following < n and not active[following]:
+                    following += 1
+                if following == n:
+                    continue
+                r = following
+                following += 1
+                ray[b], entry[b], t_now[b] = r, start_faces[r], 0.0
+                cell[b], count[b], stuck[b], steps[b] = owner[start_faces[r]], 1, 0, 0
+            busy = True
+            if steps[b] == max_steps:
+                cells[r] = count[b] - 1     # cells fully crossed before the step limit; LOST
+                ray[b] = -1
+                continue
+            steps[b] += 1
+            c, e = cell[b], entry[b]
+            o0, o1, o2 = origin[r, 0], origin[r, 1], origin[r, 2]
+            d0, d1, d2 = direction[r, 0], direction[r, 1], direction[r, 2]
             best_t = np.inf
             best_f = -1
             nxt = -1
-            for i in range(cf_offsets[cell], cf_offsets[cell + 1]):
+            for i in range(cf_offsets[c], cf_offsets[c + 1]):
                 f = cf_faces[i]
-                if f == entry:
+                if f == e:
                     continue
                 p0, p1, p2, p3 = plane[f, 0], plane[f, 1], plane[f, 2], plane[f, 3]
                 dn = p0 * d0 + p1 * d1 + p2 * d2
-                mine = owner[f] == cell
+                mine = owner[f] == c
                 sign = 1.0 if mine else -1.0
                 if dn * sign > parallel_eps:
                     on = p0 * o0 + p1 * o1 + p2 * o2
@@ -78,28 +102,23 @@ def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, orig
                         best_f = f
                         nxt = neighbour[f] if mine else owner[f]
             if best_f < 0:
-                cells[r] = count                    # no exit: lost
-                done = True
-                break
-            if best_t <= t_now:
-                stuck += 1
-            else:
-                stuck = 0
-            if stuck > max_stalled:
-                cells[r] = count
-                done = True
-                break
-            if best_t < t_now:
-                best_t = t_now
+                cells[r] = count[b]                     # no exit: lost
+                ray[b] = -1
+                continue
+            stuck[b] = stuck[b] + 1 if best_t <= t_now[b] else 0
+            if stuck[b] > max_stalled:
+                cells[r] = count[b]
+                ray[b] = -1
+                continue
+            if best_t < t_now[b]:
+                best_t = t_now[b]
             if nxt < 0:
                 status[r] = WALL if wall[best_f] else OPEN
                 hit[r] = best_f
                 width[r] = best_t
-                cells[r] = count
-                done = True
-                break
-            cell, entry, t_now = nxt, best_f, best_t
-            count += 1
-        if not done:
-            cells[r] = count - 1        # cells fully crossed before the step limit; LOST
+                cells[r] = count[b]
+                ray[b] = -1
+                continue
+            cell[b], entry[b], t_now[b] = nxt, best_f, best_t
+            count[b] += 1
     return hit, status, width, cells
