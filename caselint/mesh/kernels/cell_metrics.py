@@ -41,16 +41,22 @@ def _det(u0, u1, u2, v0, v1, v2, w0, w1, w2):
 
 
 @jit(inline="always")
+def _corner_det(P, o, a, b, c):
+    """Determinant of the edge vectors o-a, o-b, o-c (each stored lower node first, the
+    sign applied to the determinant)."""
+    u0, u1, u2, su = _vec(P, o, a)
+    v0, v1, v2, sv = _vec(P, o, b)
+    w0, w1, w2, sw = _vec(P, o, c)
+    det = _det(u0, u1, u2, v0, v1, v2, w0, w1, w2)
+    return -det if su * sv * sw < 0 else det
+
+
+@jit(inline="always")
 def _corner_min(P, corners):
     best_n, best_d = np.inf, np.inf
     for k in range(corners.shape[0]):
         o, a, b, c = corners[k, 0], corners[k, 1], corners[k, 2], corners[k, 3]
-        u0, u1, u2, su = _vec(P, o, a)
-        v0, v1, v2, sv = _vec(P, o, b)
-        w0, w1, w2, sw = _vec(P, o, c)
-        det = _det(u0, u1, u2, v0, v1, v2, w0, w1, w2)
-        if su * sv * sw < 0:
-            det = -det
+        det = _corner_det(P, o, a, b, c)
         scale = _length(P, o, a) * _length(P, o, b) * _length(P, o, c)
         nrm = det / scale if scale > 0 else 0.0
         best_n = min(best_n, nrm)
@@ -64,12 +70,7 @@ def _tet(P, n0, n1, n2, n3, tet_edges):
     e = np.empty(6)
     for k in range(6):
         e[k] = _length(P, nodes[tet_edges[k, 0]], nodes[tet_edges[k, 1]])
-    u0, u1, u2, su = _vec(P, n0, n1)
-    v0, v1, v2, sv = _vec(P, n0, n2)
-    w0, w1, w2, sw = _vec(P, n0, n3)
-    det = _det(u0, u1, u2, v0, v1, v2, w0, w1, w2)
-    if su * sv * sw < 0:
-        det = -det
+    det = _corner_det(P, n0, n1, n2, n3)
     product = -np.inf
     for k in range(4):
         i, j, m = _TET_NODE_EDGES[k, 0], _TET_NODE_EDGES[k, 1], _TET_NODE_EDGES[k, 2]
