@@ -181,6 +181,10 @@ def mesh_from_faces(
         raise ValueError(f"{len(neighbour)} neighbour entries for {n_faces} faces")
     if face_offsets.shape != (n_faces + 1,):
         raise ValueError(f"{len(face_offsets) - 1} faces listed for {n_faces} owner entries")
+    if n_faces and (int(face_offsets[-1]) != len(face_points)
+                    or bool(np.any(np.diff(face_offsets) < 1))):
+        raise ValueError(f"face offsets must rise from 0 to the {len(face_points)} face "
+                         f"points, got {int(face_offsets[0])} .. {int(face_offsets[-1])}")
     if n_cells is None:
         n_cells = int(max(owner.max(initial=-1), neighbour.max(initial=-1))) + 1
     if face_group is None:
