@@ -306,9 +306,12 @@ class Check:
     unit: str
     reason: str = ""
     limits: Limits = field(default_factory=Limits)
+    worse: Worse = "higher"      # direction of the deciding value: its limits are maxima or minima
 
     def __post_init__(self) -> None:
         _require_finite(self, ("measured", "limit"))
+        if self.worse not in ("higher", "lower"):
+            raise ValueError(f"worse must be 'higher' or 'lower', got {self.worse!r}")
 
 
 @dataclass(frozen=True)
