@@ -14,7 +14,7 @@ import re
 import warnings
 
 from caselint.model import PlotData
-from caselint.report.text import format_number
+from caselint.wording import format_number
 
 #: Colours of the limit marks (warning, error) and of up to six series.
 WARN_COLOUR, ERROR_COLOUR = "#d08c00", "#c0392b"
