@@ -73,7 +73,7 @@ def test_where_names_scope_count_first_ids_and_point():
     assert format_where(WARN.where) == (
         "boundary 'duct-wall'; 14 faces (ids 0, 1, 2, 3, 4, ...); near (0.1, 0.25, 0.001) m")
     assert format_where(ERR.where) == "3 cells (ids 5, 9, 12)"
-    assert format_where(Where(cells=(8,), cell_count=1)) == "1 cell (ids 8)"
+    assert format_where(Where(cells=(8,), cell_count=1)) == "1 cell (id 8)"
     assert format_where(Where()) == "whole case"
 
 

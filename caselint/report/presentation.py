@@ -81,7 +81,7 @@ def _ids(kind: str, ids: tuple[int, ...], count: int | None) -> str:
     if ids:
         shown = ", ".join(str(i) for i in ids[:SHOWN_IDS])
         more = ", ..." if n > min(len(ids), SHOWN_IDS) else ""
-        text += f" (ids {shown}{more})"
+        text += f" (id {shown})" if len(ids) == 1 and n == 1 else f" (ids {shown}{more})"
     return text
 
 
