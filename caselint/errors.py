@@ -107,7 +107,8 @@ class CaseFileErrors(CaseFileError):
     def __str__(self) -> str:
         count = len(self.problems) + self.more
         lines = [f"{self.file}: {count} problems"]
-        lines += [f"  {problem}" for problem in self.problems]
+        # one line each: a key or value quoted in a message may hold a line break
+        lines += [f"  {printable(str(problem))}" for problem in self.problems]
         if self.more:
             lines.append(f"  ... and {self.more} more (the first {len(self.problems)} are "
                          "listed; fix these and run again)")

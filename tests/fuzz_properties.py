@@ -59,12 +59,15 @@ def assert_good_error(exc: Any, path: Path, text: str) -> None:
     from caselint.errors import MAX_REPORTED_PROBLEMS, CaseFileErrors
 
     if isinstance(exc, CaseFileErrors):
-        lines = str(exc).splitlines()
+        from caselint.errors import printable
+
+        lines = str(exc).split("\n")     # one line a problem, whatever its keys hold
         assert lines[0] == f"{path}: {len(exc.problems) + exc.more} problems", lines[0]
+        assert len(lines) == 1 + len(exc.problems) + (1 if exc.more else 0), lines
         assert 2 <= len(exc.problems) <= MAX_REPORTED_PROBLEMS
         assert (exc.line, exc.key) == (exc.problems[0].line, exc.problems[0].key)
         for problem, line in zip(exc.problems, lines[1:]):
-            assert line == f"  {problem}"
+            assert line == f"  {printable(str(problem))}"
             assert_good_error(problem, path, text)
         return
     message = str(exc)

@@ -85,12 +85,12 @@ def test_every_check_shows_its_outcome_and_measured_value():
                 ("growth-ratio", "pass", "1.18", "<= 1.3"),
                 ("wall-yplus", "not checked", "-", "-"))
     for rule, outcome, measured, limit in expected:
-        row = re.search(rf"<tr><td><strong>{rule}</strong>.*?</tr>", hood)
+        row = re.search(rf"<tr><td><strong class=\"id\">{rule}</strong>.*?</tr>", hood)
         assert row, rule
         cells = _parse(row.group(0)).cells
         assert cells[1:4] == [outcome, measured, limit], rule
     # failures first (errors, then warnings), rule faults, waived, passed, not checked
-    order = [hood.index(f"<tr><td><strong>{rule}</strong>") for rule, *_ in expected]
+    order = [hood.index(f'<tr><td><strong class="id">{rule}</strong>') for rule, *_ in expected]
     assert order == sorted(order)
 
 

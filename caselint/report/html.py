@@ -34,11 +34,13 @@ code { font-size: 0.85rem; word-break: break-all; }
 .caution { border: 2px solid #b02a1e; background: #fff4f2; padding: 0.6rem 0.8rem; }
 .sign td { height: 2.2rem; }
 ul.checklist { list-style: none; padding-left: 0.3rem; }
-figure { margin: 1rem 0; } figure svg { max-width: 100%; height: auto; }
+figure { margin: 1rem 0; } figure svg { width: 100%; max-width: 46rem; height: auto; }
 figcaption { font-size: 0.85rem; color: #555; }
 .scope { font-size: 0.9rem; color: #333; border-left: 3px solid #c8c8cc;
          padding-left: 0.6rem; }
 a.key { text-decoration: none; white-space: nowrap; }
+.id, td.pass, td.fail, td.error, td.waived, td.skipped { white-space: nowrap; }
+table.head td:first-child { white-space: nowrap; }
 h4 { font-size: 0.95rem; margin: 1rem 0 0.3rem; }
 footer { margin-top: 2rem; font-size: 0.85rem; color: #555; }
 @media print { body { max-width: none; } h2 { page-break-before: always; } }
@@ -107,7 +109,7 @@ def _case(report: Report, case: CaseReport, index: int, stamp: str, tag: str,
         cell = f"<code>{_e(value)}</code>" if "SHA-256" in label and "(" not in value \
             else _e(value)
         rows.append([_e(label), cell])
-    out += _table(("Item", "Value"), rows)
+    out += _table(("Item", "Value"), rows, css="head")
     if signoff.relevant(case):
         out.append(f'<p class="caution"><strong>Safety-relevant case ({_e(case.safety)}).'
                    f"</strong> {_e(case.safety_note or signoff.SCOPE_NOTE)}</p>")
@@ -115,7 +117,7 @@ def _case(report: Report, case: CaseReport, index: int, stamp: str, tag: str,
     checks = signoff.check_rows(report, case, keys)
     if checks:
         out += _table(("Rule", "Outcome", "Measured", "Limit", "Hint or reason"), [
-            [f"<strong>{_e(r.rule)}</strong>{_key(r.source)}<br>{_e(r.title)}",
+            [f'<strong class="id">{_e(r.rule)}</strong>{_key(r.source)}<br>{_e(r.title)}',
              f'<td class="{_e(r.outcome)}">{_e(r.label)}</td>',
              f'<td class="num">{_e(r.measured)}</td>', f'<td class="num">{_e(r.limit)}</td>',
              _e(r.hint)] for r in checks])
