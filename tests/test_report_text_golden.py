@@ -232,3 +232,21 @@ def test_piped_command_line_output_is_plain_and_fits(tmp_path):
     table = _table_rows(run.stdout)
     assert table[0][1:3] == ["fail", "(error)"]
     assert ["growth-ratio", "fail", "(error)", "2.5", "<=", "2"] in table
+
+
+def test_the_cases_table_keeps_every_column_at_80_columns():
+    import dataclasses
+
+    first = golden_report().cases[0]
+    second = dataclasses.replace(first, case="enclosures/fan-tray-rev-b/case.yaml",
+                                 findings=(), checks=first.checks[3:5])
+    text = render_text(Report((first, second), "0.1.0"), RenderOptions(width=80))
+    table = text[text.index("\nCases\n"):].splitlines()
+    # the header of the rule-fault count takes two lines, so that paths stay whole
+    assert [table[2].split(), table[3].split()] == [
+        ["Rule"], ["Case", "file", "Fail", "fault", "Waived", "Pass", "Skipped", "Worst"]]
+    assert table[5].split() == ["enclosures/fan-tray/case.yaml", "3", "1", "1", "3", "1",
+                                "error"]
+    assert table[6].split() == ["enclosures/fan-tray-rev-b/case.yaml", "0", "0", "0", "2",
+                                "0", "none"]
+    assert all(len(line) <= 80 for line in text.splitlines()[:-1])

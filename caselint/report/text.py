@@ -57,6 +57,9 @@ _SEVERITY_STYLE = {"error": "bold red", "warning": "bold yellow", "note": "cyan"
 _GROUP_TITLE = {"error": "Errors", "warning": "Warnings", "note": "Notes"}
 #: A header rule and no column lines, in ASCII for plain output.
 _PLAIN_BOX = box.Box("    \n    \n -- \n    \n    \n    \n    \n    \n", ascii=True)
+#: Cell padding (top, right, bottom, left): with the box's blank divider, two spaces
+#: between columns.
+_PADDING = (0, 1, 0, 0)
 
 
 def _outcome_text(check: Check) -> Text:
@@ -103,7 +106,7 @@ def _checks_table(console: Console, checks: list[Check], plain: bool) -> None:
         console.print(Text("No rules were selected for this case.", style="yellow"))
         return
     table = Table(box=_PLAIN_BOX if plain else box.SIMPLE_HEAD, header_style="bold",
-                  show_edge=False, pad_edge=False)
+                  show_edge=False, pad_edge=False, padding=_PADDING)
     # ids are never broken: the column is as wide as the longest one
     table.add_column("Rule", no_wrap=True, min_width=max(cell_len(c.rule) for c in checks))
     table.add_column("Outcome", no_wrap=True)
@@ -183,11 +186,15 @@ def _sources(console: Console, sources: SourceKeys) -> None:
 def _cases_table(console: Console, report: Report, plain: bool) -> None:
     """Several cases: one row each with its outcome counts and worst open severity."""
     table = Table(box=_PLAIN_BOX if plain else box.SIMPLE_HEAD, header_style="bold",
-                  title="Cases", title_justify="left", show_edge=False, pad_edge=False)
-    table.add_column("Case file", overflow="fold")
+                  title="Cases", title_justify="left", show_edge=False, pad_edge=False,
+                  padding=_PADDING)
+    # paths are kept whole where the width allows; the count headers wrap first
+    table.add_column("Case file", overflow="fold",
+                     min_width=min(24, max(cell_len(case.case) for case in report.cases)))
     for outcome in OUTCOME_ORDER:
         name = OUTCOME_NAME[outcome]
-        table.add_column(name[0].upper() + name[1:], justify="right", no_wrap=True)
+        # "Rule fault" on two lines: five columns narrower, for the paths
+        table.add_column((name[0].upper() + name[1:]).replace(" ", "\n"), justify="right")
     table.add_column("Worst", no_wrap=True)
     for case in report.cases:
         counts = Counter(c.outcome for c in case.checks)
