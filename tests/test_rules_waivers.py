@@ -38,7 +38,8 @@ def test_a_waiver_naming_a_boundary_the_mesh_lacks_is_a_finding_at_its_line(tmp_
     assert [(f["where"]["key"], f["where"]["line"]) for f in found] == [
         ("checks.waivers[0].boundary",
          next(i for i, l in enumerate(lines, 1) if "boundary: wals" in l)),
-        ("checks.waivers[2].boundary", next(i for i, l in enumerate(lines, 1) if "boundary: vent" in l)),
+        ("checks.waivers[2].boundary",
+         next(i for i, l in enumerate(lines, 1) if "boundary: vent" in l)),
     ]
     assert ("the waiver of 'growth-ratio' approved by R. Quill names boundary 'wals', which "
             "the mesh does not have (did you mean 'walls'?); it waives nothing") \

@@ -191,13 +191,13 @@ class _CaseBuilder(ValueReader):
         end = self.quantity(spec, "end", "time", "time")
         if step is not None and end is not None and end < step:
             self.problem("time.end", f"the end time {end:g} s is shorter than one time step "
-                                        f"({step:g} s)")
+                                     f"({step:g} s)")
         integration, scheme = spec.get("integration"), spec.get("scheme")
         if integration is not None and scheme is not None \
                 and SCHEME_INTEGRATION[scheme] != integration:
             self.problem("time.scheme", f"the scheme {scheme} is {SCHEME_INTEGRATION[scheme]}, "
-                                           f"but time.integration says {integration}; make them "
-                                           "agree or leave one out")
+                                        f"but time.integration says {integration}; make them "
+                                        "agree or leave one out")
         return TimeSpec(
             mode=spec.get("mode", "steady"),
             step=step,
@@ -286,9 +286,9 @@ class _CaseBuilder(ValueReader):
                      up[0] * flow[1] - up[1] * flow[0])
             # within about 0.6 deg of the flow direction there is no usable height axis
             if math.sqrt(sum(c * c for c in cross)) < 0.01:
-                self.problem("domain.up", f"up {list(spec['up'])} lies along the flow "
-                                f"direction {list(flow_direction)}; give the vertical direction, "
-                                "e.g. [0, 0, 1]")
+                self.problem("domain.up", f"up {list(spec['up'])} lies along the flow direction "
+                                          f"{list(flow_direction)}; give the vertical direction, "
+                                          "e.g. [0, 0, 1]")
         return Domain(body=tuple(spec.get("body", ())), up=up)
 
     def review(self, spec: dict[str, Any]) -> Review:

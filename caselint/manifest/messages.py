@@ -14,6 +14,7 @@ from typing import Any
 from jsonschema.exceptions import ValidationError
 
 from caselint.manifest.yamlnodes import child_path
+from caselint.wording import plural
 
 _TYPE_WORDS = {
     "object": "a mapping of keys",
@@ -45,7 +46,7 @@ def describe(value: Any) -> str:
     if isinstance(value, dict):
         return "a mapping"
     if isinstance(value, list):
-        return f"a list of {len(value)} item{'s' if len(value) != 1 else ''}"
+        return f"a list of {plural(len(value), 'item')}"
     return repr(value)
 
 
@@ -128,9 +129,11 @@ def describe_error(error: ValidationError) -> tuple[str, str]:
     if kind == "minLength" and error.validator_value == 1:
         return "must not be empty", path
     if kind == "minItems":
-        return f"expected at least {error.validator_value} items, got {describe(value)}", path
+        return (f"expected at least {plural(error.validator_value, 'item')}, got "
+                f"{describe(value)}"), path
     if kind == "maxItems":
-        return f"expected at most {error.validator_value} items, got {describe(value)}", path
+        return (f"expected at most {plural(error.validator_value, 'item')}, got "
+                f"{describe(value)}"), path
     if kind == "uniqueItems":
         return "the items must all be different", path
     if kind == "format":

@@ -3,9 +3,10 @@
 Validation runs jsonschema's Draft 2020-12 validator with an explicit
 ``referencing.Registry``, so no ``$ref`` is ever fetched over the network. Every problem
 becomes a :class:`~caselint.errors.CaseFileError` at its line and key; they are raised
-together (:class:`~caselint.errors.CaseFileErrors`), first by line. Plugin sections (``extensions``) are validated with
-the rest; their fragments may refer to the built-in definitions as
-``urn:caselint:schema:case-v1#/$defs/length`` (and ``velocity``, ``time``, ``point``...).
+together (:class:`~caselint.errors.CaseFileErrors`), first by line. Plugin sections
+(``extensions``) are validated with the rest; their fragments may refer to the built-in
+definitions as ``urn:caselint:schema:case-v1#/$defs/length`` (and ``velocity``, ``time``,
+``point``...).
 """
 
 from __future__ import annotations
