@@ -21,7 +21,8 @@ from caselint.report import signoff
 from caselint.report.base import RenderOptions, Reporter
 from caselint.report.presentation import SourceKeys
 
-_SPECIAL = re.compile(r"([\\`*_\[\]<>|#])")
+#: Characters escaped in text; "<=" and ">=" (limits) stay as they are: no tag opens so.
+_SPECIAL = re.compile(r"([\\`*_\[\]|#]|[<>](?!=))")
 
 
 def md(text: str) -> str:
