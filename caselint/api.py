@@ -20,7 +20,7 @@ from caselint.engine.registry import (
 )
 from caselint.engine.rulesets import Selection, select_rules
 from caselint.engine.runner import run_case
-from caselint.errors import CaseFileError, MeshReadError
+from caselint.errors import CaseFileError, CaseFileErrors, MeshReadError
 from caselint.model import CaseReport, Report, RuleInfo, RuleSetInfo
 
 if TYPE_CHECKING:
@@ -81,15 +81,18 @@ def load_case_mesh(case: "Case", readers: "Iterable[MeshReader] | None" = None) 
     except MeshReadError as exc:
         raise CaseFileError(str(case.path), f"cannot read the mesh: {exc}",
                             line=case.line_of("mesh.file"), key="mesh.file") from exc
+    problems = []
     for name in sorted(spec.boundaries):
         if name not in mesh.group_names:
             close = difflib.get_close_matches(name, mesh.group_names, n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
             known = ", ".join(mesh.group_names) or "none"
             key = f"mesh.boundaries.{name}"
-            raise CaseFileError(str(case.path), f"boundary group {name!r} is not in the mesh "
-                                f"{spec.file.name}{hint}; the mesh has: {known}",
-                                line=case.line_of(key), key=key)
+            problems.append(CaseFileError(str(case.path), f"boundary group {name!r} is not in "
+                                          f"the mesh {spec.file.name}{hint}; the mesh has: "
+                                          f"{known}", line=case.line_of(key), key=key))
+    if problems:
+        raise CaseFileErrors.of(problems)
     return mesh
 
 
@@ -103,13 +106,17 @@ def select_for_case(
     names = tuple(rule_sets) if rule_sets else case.checks.rule_sets
     rules = collect_rules(pm)
     known_rules = set(rules)
+    problems = []
     for i, waiver in enumerate(case.checks.waivers):
         if waiver.rule not in known_rules:
             close = difflib.get_close_matches(waiver.rule, sorted(known_rules), n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
             key = f"checks.waivers[{i}].rule"
-            raise CaseFileError(str(case.path), f"waiver names unknown rule {waiver.rule!r}{hint}",
-                                line=case.line_of(key), key=key)
+            problems.append(CaseFileError(str(case.path), f"waiver names unknown rule "
+                                          f"{waiver.rule!r}{hint}", line=case.line_of(key),
+                                          key=key))
+    if problems:
+        raise CaseFileErrors.of(problems)
     return select_rules(names, collect_rule_set_files(pm), rules, case.checks.rules,
                         case_file=str(case.path), case_lines=case.lines)
 

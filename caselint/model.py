@@ -170,19 +170,12 @@ class PlotSeries:
                    above=int(np.count_nonzero(values > edges[-1])))
 
 
-def log_bin_edges(values: Any, per_decade: int = 4, max_bins: int = 200) -> Any:
-    """Log-spaced histogram edges on whole fractions of a decade covering the positive,
-    finite ``values`` (numbers spanning decades: y+, Courant numbers)."""
-    import numpy as np
+def log_bin_edges(values: Any, per_decade: int | None = None) -> Any:
+    """Log-spaced histogram edges chosen from the data: see :func:`caselint.bins.log_bin_edges`
+    (imported when called, so that importing the model does not import numpy)."""
+    from caselint.bins import log_bin_edges as edges
 
-    values = np.asarray(values, dtype=np.float64).ravel()
-    values = values[np.isfinite(values) & (values > 0)]
-    lo, hi = (float(values.min()), float(values.max())) if values.size else (1.0, 1.0)
-    low = math.floor(math.log10(max(lo, 1e-12)) * per_decade) / per_decade
-    high = math.ceil(math.log10(max(hi, 1e-12)) * per_decade) / per_decade
-    high = max(high, low + 1.0 / per_decade)
-    bins = min(int(round((high - low) * per_decade)), max_bins)
-    return np.logspace(low, high, bins + 1)
+    return edges(values, per_decade)
 
 
 @dataclass(frozen=True)
@@ -306,9 +299,12 @@ class Check:
     unit: str
     reason: str = ""
     limits: Limits = field(default_factory=Limits)
+    worse: Worse = "higher"      # direction of the deciding value: its limits are maxima or minima
 
     def __post_init__(self) -> None:
         _require_finite(self, ("measured", "limit"))
+        if self.worse not in ("higher", "lower"):
+            raise ValueError(f"worse must be 'higher' or 'lower', got {self.worse!r}")
 
 
 @dataclass(frozen=True)

@@ -86,7 +86,7 @@ def _crash(active: ActiveRule, exc: BaseException, case: "Case") -> tuple[Check,
     at = f" at {last.filename}:{last.lineno}" if last else ""
     reason = f"internal error in rule: {type(exc).__name__}: {exc}{at}"
     check = Check(rule.id, rule.title, "error", "error", None, None, rule.unit, reason,
-                  active.limits)
+                  active.limits, rule.worse)
     finding = Finding(
         rule=rule.id, severity="error", message=f"the rule could not run: {reason}",
         measured=None, limit=None, unit=rule.unit, where=Where(), source=rule.source,
@@ -109,7 +109,7 @@ def _grade(
     ]
     if result.skipped is not None:
         check = Check(rule.id, rule.title, "skipped", None, None, None, rule.unit,
-                      result.skipped, limits)
+                      result.skipped, limits, rule.worse)
         return check, findings
     worst_open: str | None = None
     worst_waived: str | None = None
@@ -146,7 +146,8 @@ def _grade(
     d_limits = deciding.limits or limits
     check = Check(rule.id, rule.title, outcome, severity, deciding.value,
                   grading.limit_for(deciding_severity, d_limits),
-                  deciding.unit if deciding.unit is not None else rule.unit, "", d_limits)
+                  deciding.unit if deciding.unit is not None else rule.unit, "", d_limits,
+                  deciding.worse or rule.worse)
     return check, findings
 
 

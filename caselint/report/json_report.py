@@ -79,6 +79,7 @@ def check_to_dict(check: Check) -> dict[str, Any]:
             "warning": _number(check.limits.warn, f"{what} warning limit"),
             "error": _number(check.limits.error, f"{what} error limit"),
         },
+        "worse": check.worse,
     }
 
 

@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from caselint.bins import linear_bin_edges
 from caselint.engine.hookspecs import hookimpl
 from caselint.mesh import quality
 from caselint.model import (
@@ -34,8 +35,6 @@ if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
 
 _VERDICT = "Verdict geometric quality library (Stimpson et al., SAND2007-1751, 2007)"
-#: Most bins of a histogram a rule attaches (growth ratio: 0.05 wide up to 1.5x the limit).
-MAX_BINS = 200
 _FV_BOOKS = (
     "Jasak 1996 (PhD thesis, Imperial College); Ferziger & Peric 2002; Moukalled et al. 2016"
 )
@@ -264,8 +263,7 @@ def check_non_orthogonality(ctx: "RuleContext") -> RuleResult:
         return skip
     values = quality.non_orthogonality_deg(mesh)
     result = _face_rule_result(ctx, values, None, "non-orthogonality", " deg", ".1f")
-    # 5 deg bins over 0-90 deg; the plot counts faces beyond 90 deg (flipped) separately.
-    edges = np.linspace(0.0, 90.0, 19)
+    edges = linear_bin_edges(values, resolution=0.5, limits=ctx.limits)
     return _with_histogram(result, ctx, values, edges, "Face non-orthogonality",
                            "non-orthogonality (deg)", "faces (internal and boundary)")
 
@@ -294,14 +292,7 @@ def check_growth_ratio(ctx: "RuleContext") -> RuleResult:
                                "no neighbours to compare")
     values = quality.growth_ratio(mesh)
     result = _face_rule_result(ctx, values, internal, "growth ratio", "", ".4g")
-    # Bins of 0.05 from 1 to 1.5x the highest limit (at least 2); the plot counts the rest.
-    # A rule set may raise the limits to any value: past MAX_BINS bins of 0.05 the bins
-    # widen, so a plot never holds millions of bins.
-    top_limit = max(v for v in (ctx.limits.error, ctx.limits.warn, 2.0 / 1.5) if v is not None)
-    top_limit = min(top_limit, 1e6)   # beyond, the plot range would overflow; counted above
-    width = max(0.05, (1.5 * top_limit - 1.0) / MAX_BINS)
-    n_bins = int(np.ceil(round((1.5 * top_limit - 1.0) / width, 6)))
-    edges = np.round(1.0 + width * np.arange(n_bins + 1), 9)
+    edges = linear_bin_edges(values[internal], resolution=0.01, limits=ctx.limits)
     return _with_histogram(result, ctx, values[internal], edges, "Volume growth ratio",
                            "growth ratio (larger / smaller cell volume)", "internal faces")
 
