@@ -138,3 +138,15 @@ def volume_boundary_meshio(mesh: ElementMesh):
 def tags() -> dict[int, str]:
     """Boundary tag -> side name used by :func:`volume_boundary_meshio`."""
     return {i + 1: name for i, name in enumerate(sorted(SIDE_ROLES))}
+
+
+def reference_data(mesh: ElementMesh, folder):
+    """The mesh data of ``mesh`` written as VTU and read through meshio (the reference of
+    the round trip)."""
+    import meshio
+
+    from caselint.mesh.reader import read_mesh
+
+    path = folder / "reference.vtu"
+    meshio.write(path, volume_boundary_meshio(mesh))
+    return read_mesh(path, tag_array="boundary", tags=tags()).data

@@ -72,3 +72,73 @@ def _is_number(token: str, dtype) -> bool:
     except ValueError:
         return False
     return True
+
+
+_HEX = np.full(256, -1, dtype=np.int64)
+_HEX[np.frombuffer(b"0123456789", np.uint8)] = np.arange(10)
+_HEX[np.frombuffer(b"abcdef", np.uint8)] = np.arange(10, 16)
+_HEX[np.frombuffer(b"ABCDEF", np.uint8)] = np.arange(10, 16)
+
+
+def hex_numbers(chunk: bytes, path: str, what: str) -> np.ndarray:
+    """All whitespace-separated hexadecimal numbers of ``chunk`` as int64, vectorised: each
+    digit contributes ``value << 4 * (digits after it in its token)``, summed per token.
+
+    :raises MeshReadError: a token that is not a hexadecimal number, or one of more than
+        15 digits.
+    """
+    buf = np.frombuffer(chunk, dtype=np.uint8)
+    space = _SPACE[buf]
+    digit = _HEX[buf]
+    bad = ~space & (digit < 0)
+    if bad.any():
+        at = int(np.argmax(bad))
+        token = chunk[at:at + 20].split()[0].decode("latin-1", "replace")
+        raise MeshReadError(path, f"{what}: {token!r} is not a hexadecimal number")
+    pos = np.flatnonzero(~space)
+    if not len(pos):
+        return np.zeros(0, dtype=np.int64)
+    starts = np.ones(len(pos), dtype=bool)
+    starts[1:] = pos[1:] != pos[:-1] + 1
+    token = np.cumsum(starts) - 1
+    first = np.flatnonzero(starts)
+    ends = np.append(first[1:], len(pos))
+    after = ends[token] - 1 - np.arange(len(pos))        # digits after this one
+    if int(after.max()) > 14:
+        raise MeshReadError(path, f"{what}: a number of more than 15 hexadecimal digits")
+    return np.add.reduceat(digit[pos] << (4 * after), first)
+
+
+def record_starts(values: np.ndarray, n_records: int, extra: int, path: str,
+                  what: str) -> np.ndarray:
+    """Where each of ``n_records`` records starts in ``values``, a record being a count
+    ``n`` followed by ``n + extra`` numbers.
+
+    Runs of records of one length are found with one vectorised comparison each (a window
+    that doubles while the run lasts), so a table of a few face sizes in long runs costs a
+    few steps; a table whose sizes change at every record costs one step per record.
+
+    :raises MeshReadError: a count below 1 or a table shorter than its records.
+    """
+    starts = np.empty(n_records, dtype=np.int64)
+    p, r, window = 0, 0, 64
+    total = len(values)
+    while r < n_records:
+        if p >= total:
+            raise MeshReadError(path, f"{what}: {n_records} records declared, the data ends "
+                                      f"after {r}")
+        n = int(values[p])
+        if n < 1:
+            raise MeshReadError(path, f"{what}: record {r + 1} has {n} entries")
+        length = n + 1 + extra
+        w = min(window, n_records - r, max(1, (total - p) // length))
+        cand = p + length * np.arange(w)
+        same = values[cand] == n
+        k = w if same.all() else max(1, int(np.argmin(same)))
+        starts[r:r + k] = cand[:k]
+        r += k
+        p = int(cand[k - 1]) + length
+        window = window * 2 if k == w else 64
+    if p > total:
+        raise MeshReadError(path, f"{what}: the data ends inside record {n_records}")
+    return starts
