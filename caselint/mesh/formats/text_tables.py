@@ -110,9 +110,10 @@ def hex_numbers(chunk: bytes, path: str, what: str) -> np.ndarray:
 
 
 def record_starts(values: np.ndarray, n_records: int, extra: int, path: str,
-                  what: str) -> np.ndarray:
+                  what: str, sizes: np.ndarray | None = None) -> np.ndarray:
     """Where each of ``n_records`` records starts in ``values``, a record being a count
-    ``n`` followed by ``n + extra`` numbers.
+    ``n`` followed by ``n + extra`` numbers (or, with ``sizes``, a code ``n`` followed by
+    ``sizes[n]`` numbers: an element type and its nodes).
 
     Runs of records of one length are found with one vectorised comparison each (a window
     that doubles while the run lasts), so a table of a few face sizes in long runs costs a
@@ -128,9 +129,15 @@ def record_starts(values: np.ndarray, n_records: int, extra: int, path: str,
             raise MeshReadError(path, f"{what}: {n_records} records declared, the data ends "
                                       f"after {r}")
         n = int(values[p])
-        if n < 1:
-            raise MeshReadError(path, f"{what}: record {r + 1} has {n} entries")
-        length = n + 1 + extra
+        if sizes is not None:
+            known = 0 <= n < len(sizes) and sizes[n] > 0
+            length = int(sizes[n]) + 1 if known else 0
+        else:
+            length = n + 1 + extra if n >= 1 else 0
+        if length < 2:
+            raise MeshReadError(path, f"{what}: record {r + 1} starts with {n}, which is not "
+                                      + ("an element type" if sizes is not None else
+                                         "a count of at least 1"))
         w = min(window, n_records - r, max(1, (total - p) // length))
         cand = p + length * np.arange(w)
         same = values[cand] == n
