@@ -155,5 +155,22 @@ def _face_msh(binary):
     return write
 
 
+def _cgns(**layout):
+    def write(mesh, folder):
+        from caselint.mesh.readers import ReadOptions
+        from cgns_writer import write_cgns_elements, write_cgns_ngon
+        from mixed_mesh import reference_data
+
+        path = folder / "box.cgns"
+        if layout.get("ngon"):
+            return write_cgns_ngon(reference_data(mesh, folder), path), ReadOptions()
+        return write_cgns_elements(mesh, path, **layout), ReadOptions()
+    return write
+
+
+#: Format -> ``write(element mesh, folder) -> (path, read options)``. Face-based formats
+#: (the .msh, CGNS NGON_n/NFACE_n) hold the cells as polyhedra.
 ROUND_TRIP_WRITERS = {"su2": _su2, "face-msh-ascii": _face_msh(False),
-                      "face-msh-binary": _face_msh(True)}
+                      "face-msh-binary": _face_msh(True), "cgns-sections": _cgns(),
+                      "cgns-mixed": _cgns(mixed=True), "cgns-ngon": _cgns(ngon=True)}
+FACE_BASED = ("face-msh-ascii", "face-msh-binary", "cgns-ngon")
