@@ -157,13 +157,15 @@ def main(argv: list[str]) -> None:
     parser.add_argument("--n", type=int, default=1_000_000)
     parser.add_argument("--runs", type=int, default=3)
     parser.add_argument("--no-readme", action="store_true")
+    parser.add_argument("--only", help="measure the formats whose label holds this text")
     parser.add_argument("--worker")
     args = parser.parse_args(argv)
     if args.worker:
         _worker(args.worker)
         return
     with tempfile.TemporaryDirectory() as tmp:
-        rows = measure(write_files(args.n, Path(tmp)), args.runs)
+        files = write_files(args.n, Path(tmp))
+        rows = measure({k: v for k, v in files.items() if (args.only or "") in k}, args.runs)
     text = table(rows, args.runs)
     print(text)
     if not args.no_readme:

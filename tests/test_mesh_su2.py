@@ -142,3 +142,20 @@ def test_cli_exit_2_names_the_file(tmp_path):
     path.write_text(path.read_text()[:-200])
     code, _, err = run_cli("mesh", str(path))
     assert code == 2 and "box.su2" in err and "MARKER_ELEMS= 36 but" in err
+
+
+def test_two_dimensional_file(tmp_path):
+    from caselint.mesh.blocks import structured_quad
+
+    m = structured_quad(np.linspace(0, 2, 5), np.linspace(0, 1, 3))
+    tag = m.cell_data["gmsh:physical"][1]
+    names = {int(v[0]): k for k, v in m.field_data.items()}
+    plane = ElementMesh(m.points, [("quad", m.cells[0].data)],
+                        [("line", m.cells[1].data[tag == t], names[t]) for t in sorted(names)])
+    path = tmp_path / "plane.su2"
+    path.write_text("\n".join(su2_zone(plane, dim=2)) + "\n")
+    mesh = read_mesh(path)
+    assert (mesh.dim, mesh.n_cells) == (2, 8)
+    assert mesh.cell_volumes.sum() == pytest.approx(2.0, rel=1e-12)     # 2 m x 1 m
+    assert {g: len(mesh.group_faces(g)) for g in mesh.group_names} == {
+        "xmax": 2, "xmin": 2, "ymax": 4, "ymin": 4}

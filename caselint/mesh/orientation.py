@@ -21,7 +21,10 @@ The sign comes from the cell's closed surface: six times the volume is
 ``sum over face triangles of a . (b x c)`` with the faces of :data:`~celltypes.FACES`,
 coordinates taken relative to the cell's node 0 and each face fanned from node 0 where it
 holds it (so only the triangles away from node 0 count: 6 for a hexahedron, 3 for a
-wedge); in 2-D it is the shoelace area of the polygon. This is
+wedge); in 2-D it is the shoelace area of the polygon.
+
+:func:`reverse_faces` turns polygonal faces round, for face-based readers whose files list
+a face's nodes the other way from caselint's rule (normal out of the owner). This is
 exact for planar faces and keeps the sign on warped ones (a corner Jacobian alone would
 misjudge cells with a collapsed corner, e.g. a wedge written as a hexahedron).
 """
@@ -120,3 +123,14 @@ def oriented_blocks(points: np.ndarray, blocks: Sequence[ElementBlock],
         notes.append(f"{mirrored} of {n} {t} cells were written in the mirrored node order "
                      f"({_CONVENTION[t]}); all {n} read in the other order{rest}")
     return out, notes
+
+
+def reverse_faces(offsets: np.ndarray, face_points: np.ndarray, which: np.ndarray):
+    """``face_points`` with the node order of faces ``which`` reversed."""
+    if not which.any():
+        return face_points
+    sizes = np.diff(offsets)
+    pos = np.arange(len(face_points)) - np.repeat(offsets[:-1], sizes)
+    flip = np.repeat(which, sizes)
+    src = np.where(flip, np.repeat(offsets[1:], sizes) - 1 - pos, np.arange(len(face_points)))
+    return face_points[src]

@@ -82,7 +82,9 @@ def _zones(path: str, base, dim: int, families: dict, wanted: str | None) -> lis
             raise MeshReadError(path, f"mesh.zone {wanted!r} is not a zone of this file (zones "
                                       f"{', '.join(node_name(z) for z in nodes)})")
         nodes = chosen
-    zones = []
+    from caselint.mesh.limits import check_memory
+
+    zones, declared = [], 0
     for zn in nodes:
         sizes = data(zn)
         kind = text(child(zn, "ZoneType_t"))
@@ -93,6 +95,8 @@ def _zones(path: str, base, dim: int, families: dict, wanted: str | None) -> lis
             raise MeshReadError(path, f"{zn.name}: ZoneType is {kind or 'missing'}; expected "
                                       "Structured or Unstructured")
         sizes = sizes.reshape(3, -1).astype(np.int64)     # rows: vertices, cells, boundary
+        declared += int(np.prod(sizes[1][:dim])) if kind == "Structured" else int(sizes[1][0])
+        check_memory(path, {"cell": declared}, "the zone sizes")   # before reading the zone
         if kind == "Structured":
             z = structured(path, zn, dim, sizes)
             shape = tuple(int(v) for v in sizes[0][:dim])[::-1]

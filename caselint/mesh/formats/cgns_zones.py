@@ -27,6 +27,7 @@ from caselint.errors import MeshReadError
 from caselint.mesh.formats.cgns_nodes import (ELEMENT_TYPES, NODE_COUNTS, child, children,
                                               data, node_name, text, where)
 from caselint.mesh.formats.text_tables import record_starts
+from caselint.mesh.orientation import reverse_faces
 
 #: BC types (BCType_t) and the role they give; the rest give none.
 BC_ROLES: dict[str, str] = {
@@ -201,12 +202,7 @@ def _polyhedra(path, zone, ngon, nface, n_vertex) -> dict:
     if len(points) and (points.min() < 0 or points.max() >= n_vertex):
         _fail(path, zone, "an NGON_n face refers to a vertex outside the zone")
     offsets = ngon["offsets"]
-    if flip.any():
-        sizes = np.diff(offsets)
-        pos = np.arange(len(points)) - np.repeat(offsets[:-1], sizes)
-        src = np.where(np.repeat(flip, sizes), np.repeat(offsets[1:], sizes) - 1 - pos,
-                       np.arange(len(points)))
-        points = points[src]
+    points = reverse_faces(offsets, points, flip)
     return {"offsets": offsets, "points": points, "owner": owner, "neighbour": neighbour,
             "n_cells": n_cells, "first": ngon["first"]}
 

@@ -47,6 +47,7 @@ from caselint.errors import MeshReadError
 from caselint.mesh.build import mesh_from_faces
 from caselint.mesh.formats.text_tables import hex_numbers, numbers, record_starts
 from caselint.mesh.model import MeshData
+from caselint.mesh.orientation import reverse_faces
 from caselint.mesh.readers import MeshReader, ReadOptions, checked_points
 
 #: bc-type numbers of face zones and the zone-type words they stand for.
@@ -110,10 +111,11 @@ def _hex(path: str, word: str, line: int) -> int:
 def _sections(path: str, data: bytes) -> list[_Section]:
     """Every section of the file, binary data decoded, ASCII data kept as bytes."""
     out: list[_Section] = []
-    pos = 0
+    pos, counted, line = 0, 0, 1
     while (i := data.find(b"(", pos)) >= 0:
         m = _ID.match(data, i)
-        line = _line(data, i)
+        line += data.count(b"\n", counted, i)      # counted once per byte, not per section
+        counted = i
         if m is None:
             raise MeshReadError(path, f"line {line}: expected a section '(number ...', found "
                                       f"{data[i:i + 20]!r}")
@@ -175,7 +177,8 @@ def _binary_body(path, data, at, section, sid):
         dtype = "<f4" if section.binary == 4 else "<f8"
         body = np.frombuffer(data, dtype=dtype, count=count * nd, offset=at) \
             if at + size <= len(data) else None
-    elif section.kind == 12:
+    elif section.kind in (12, 18):               # cell types; periodic face pairs
+        count *= 1 if section.kind == 12 else 2
         size = count * 4
         body = np.frombuffer(data, "<i4", count=count, offset=at) \
             if at + size <= len(data) else None
@@ -282,8 +285,12 @@ def _face_rows(path: str, head, s: _Section):
 
 def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
     """Read a face-based ``.msh`` file (see the module docstring)."""
+    from caselint.mesh.limits import check_memory
+
     name = str(path)
     g = _collect(name, _sections(name, path.read_bytes()))
+    if 12 in g.totals:                      # before the faces are built
+        check_memory(name, {"cell": g.totals[12][0]}, "the file header")
     if not g.faces or not g.nodes:
         missing = " and ".join(w for w, have in (("node", g.nodes), ("face", g.faces))
                                if not have)
@@ -325,9 +332,9 @@ def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
     owner = np.where(swap, c1, c0) - 1
     neighbour = np.where(swap | (c1 == 0), 0, c1) - 1
     reverse = ~swap if dim == 3 else swap
-    face_points = _reverse_faces(offsets, face_points, reverse)
+    face_points = reverse_faces(offsets, face_points, reverse)
     if _enclosed_volume(points, offsets, face_points, neighbour < 0, dim) < 0:
-        face_points = _reverse_faces(offsets, face_points, np.ones(len(owner), bool))
+        face_points = reverse_faces(offsets, face_points, np.ones(len(owner), bool))
         notes.append("the faces of this file are ordered the other way round from the "
                      "format's rule (the boundary enclosed a negative volume); read reversed")
     # face zones holding boundary faces are the groups; interior zones name none
@@ -381,17 +388,6 @@ def _cells(path: str, g: _Grid, c0: np.ndarray, c1: np.ndarray):
     unique = tuple(sorted(set(names)))
     remap = np.array([unique.index(n) for n in names], dtype=np.int32)
     return n_cells, remap[cell_zone], unique
-
-
-def _reverse_faces(offsets: np.ndarray, face_points: np.ndarray, which: np.ndarray):
-    """``face_points`` with the node order of faces ``which`` reversed."""
-    if not which.any():
-        return face_points
-    sizes = np.diff(offsets)
-    pos = np.arange(len(face_points)) - np.repeat(offsets[:-1], sizes)
-    flip = np.repeat(which, sizes)
-    src = np.where(flip, np.repeat(offsets[1:], sizes) - 1 - pos, np.arange(len(face_points)))
-    return face_points[src]
 
 
 def _enclosed_volume(points, offsets, face_points, boundary, dim) -> float:

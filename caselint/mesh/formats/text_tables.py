@@ -33,19 +33,33 @@ def line_starts(data: bytes) -> np.ndarray:
     return np.concatenate([[0], np.flatnonzero(buf == 10) + 1]).astype(np.int64)
 
 
+def _token_starts(buf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per byte: whether a token starts there, and whether it is whitespace."""
+    space = _SPACE[buf]
+    start = np.empty(len(buf), dtype=bool)
+    start[0] = not space[0]
+    np.greater(space[:-1], space[1:], out=start[1:])     # space, then not space
+    return start, space
+
+
+def _token_bounds(buf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Start and end (exclusive) byte offsets of the whitespace-separated tokens."""
+    start, space = _token_starts(buf)
+    end = np.empty(len(buf), dtype=bool)
+    np.less(space[:-1], space[1:], out=end[:-1])        # not space, then space
+    end[-1] = not space[-1]
+    return np.flatnonzero(start), np.flatnonzero(end) + 1
+
+
 def tokens_per_line(chunk: bytes) -> np.ndarray:
     """(L,) number of whitespace-separated tokens on each line of ``chunk``."""
     buf = np.frombuffer(chunk, dtype=np.uint8)
     if not len(buf):
         return np.zeros(0, dtype=np.int64)
-    space = _SPACE[buf]
-    starts = ~space
-    starts[1:] &= space[:-1]
-    ends = np.flatnonzero(buf == 10)
-    if not len(ends) or ends[-1] != len(buf) - 1:
-        ends = np.append(ends, len(buf) - 1)
-    before = np.concatenate([[0], np.cumsum(starts)])
-    return np.diff(np.concatenate([[0], before[ends + 1]]))
+    start, _ = _token_starts(buf)
+    line = np.flatnonzero(buf == 10) + 1
+    line = np.concatenate([[0], line[line < len(buf)]])
+    return np.add.reduceat(start, line, dtype=np.int64)
 
 
 def numbers(chunk: bytes, dtype, path: str, what: str) -> np.ndarray:
@@ -81,32 +95,33 @@ _HEX[np.frombuffer(b"ABCDEF", np.uint8)] = np.arange(10, 16)
 
 
 def hex_numbers(chunk: bytes, path: str, what: str) -> np.ndarray:
-    """All whitespace-separated hexadecimal numbers of ``chunk`` as int64, vectorised: each
-    digit contributes ``value << 4 * (digits after it in its token)``, summed per token.
+    """All whitespace-separated hexadecimal numbers of ``chunk`` as int64, vectorised:
+    one pass per digit position over all tokens (value = 16 * value + digit where the
+    token is that long), so the working memory is a few arrays per token, not per byte.
 
     :raises MeshReadError: a token that is not a hexadecimal number, or one of more than
         15 digits.
     """
     buf = np.frombuffer(chunk, dtype=np.uint8)
-    space = _SPACE[buf]
-    digit = _HEX[buf]
-    bad = ~space & (digit < 0)
-    if bad.any():
-        at = int(np.argmax(bad))
-        token = chunk[at:at + 20].split()[0].decode("latin-1", "replace")
-        raise MeshReadError(path, f"{what}: {token!r} is not a hexadecimal number")
-    pos = np.flatnonzero(~space)
-    if not len(pos):
+    starts, ends = _token_bounds(buf)
+    if not len(starts):
         return np.zeros(0, dtype=np.int64)
-    starts = np.ones(len(pos), dtype=bool)
-    starts[1:] = pos[1:] != pos[:-1] + 1
-    token = np.cumsum(starts) - 1
-    first = np.flatnonzero(starts)
-    ends = np.append(first[1:], len(pos))
-    after = ends[token] - 1 - np.arange(len(pos))        # digits after this one
-    if int(after.max()) > 14:
+    length = ends - starts
+    longest = int(length.max())
+    if longest > 15:
         raise MeshReadError(path, f"{what}: a number of more than 15 hexadecimal digits")
-    return np.add.reduceat(digit[pos] << (4 * after), first)
+    value = np.zeros(len(starts), dtype=np.int64)
+    last = len(buf) - 1
+    for k in range(longest):
+        # past a token's end the byte is whitespace (or the chunk's end): masked out
+        digit = _HEX[buf[np.minimum(starts + k, last)]]
+        inside = length > k
+        if (inside & (digit < 0)).any():
+            first = int(starts[np.argmax(inside & (digit < 0))])
+            token = bytes(buf[first:first + 20]).split()[0].decode("latin-1", "replace")
+            raise MeshReadError(path, f"{what}: {token!r} is not a hexadecimal number")
+        value = np.where(inside, value * 16 + digit, value)
+    return value
 
 
 def record_starts(values: np.ndarray, n_records: int, extra: int, path: str,
