@@ -13,7 +13,6 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from caselint.errors import MeshReadError
 from caselint.mesh import read_mesh
 from caselint.mesh.formats.face_msh import looks_like_face_msh
 from caselint.mesh.refined import refined_block

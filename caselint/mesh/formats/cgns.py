@@ -62,13 +62,16 @@ def read_cgns(path: Path, options: ReadOptions) -> MeshData:
                           + [n for n, _ in z.vertex_groups]}))
     types = {k: v for z in zones for k, v in z.types.items() if k in names}
     zone_names = tuple(z.name for z in zones) if len(zones) > 1 else ()
-    if zones[0].polyhedra is not None:
-        if len(zones) > 1:
-            raise MeshReadError(name, "several zones of NGON_n/NFACE_n polyhedra: caselint "
-                                      "reads one such zone (set mesh.zone)")
-        mesh = _polyhedral(name, zones[0], points, dim, names, types, notes)
-    else:
-        mesh = _elements(name, zones, maps, points, dim, names, types, notes, zone_names)
+    if any(z.polyhedra is not None for z in zones) and len(zones) > 1:
+        raise MeshReadError(name, "several zones, some of NGON_n/NFACE_n polyhedra: caselint "
+                                  "reads such a zone on its own (set mesh.zone)")
+    try:
+        if zones[0].polyhedra is not None:
+            mesh = _polyhedral(name, zones[0], points, dim, names, types, notes)
+        else:
+            mesh = _elements(name, zones, maps, points, dim, names, types, notes, zone_names)
+    except ValueError as exc:           # inconsistent arrays the checks let through
+        raise MeshReadError(name, str(exc)) from None
     return _vertex_groups(mesh, zones, maps, names)
 
 

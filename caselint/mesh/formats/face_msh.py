@@ -45,6 +45,7 @@ import numpy as np
 
 from caselint.errors import MeshReadError
 from caselint.mesh.build import mesh_from_faces
+from caselint.mesh.formats.face_msh_sections import FACE_NODES, Section, hex_word, sections
 from caselint.mesh.formats.text_tables import hex_numbers, numbers, record_starts
 from caselint.mesh.model import MeshData
 from caselint.mesh.orientation import reverse_faces
@@ -67,139 +68,6 @@ ROLES: dict[str, str] = {
     "interface": "interface", "fan": "interface", "porous-jump": "interface",
     "radiator": "interface",
 }
-_ID = re.compile(rb"\(\s*(\d+)")
-_BRACKET = re.compile(rb'[()"]')
-_FACE_NODES = {2: 2, 3: 3, 4: 4}          # fixed face types; 0 mixed and 5 polygonal vary
-
-
-@dataclass
-class _Section:
-    kind: int                 # section id without the binary prefix (10, 12, 13, ...)
-    binary: int               # 0 ASCII, 4 or 8: bytes of a binary coordinate
-    header: list[str]
-    line: int
-    body: object = None       # ASCII bytes, or decoded arrays for binary sections
-
-
-def _line(data: bytes, at: int) -> int:
-    return data.count(b"\n", 0, at) + 1
-
-
-def _skip_balanced(path: str, data: bytes, at: int) -> int:
-    """Index after the parenthesis group opening at ``at`` (quoted text may hold any)."""
-    depth, pos = 0, at
-    while (m := _BRACKET.search(data, pos)) is not None:
-        pos = m.end()
-        if m.group() == b'"':                   # quoted text: skip to its closing quote
-            pos = data.find(b'"', pos) + 1
-            if pos == 0:
-                break
-            continue
-        depth += 1 if m.group() == b"(" else -1
-        if depth == 0:
-            return pos
-    raise MeshReadError(path, f"line {_line(data, at)}: a section is not closed (truncated)")
-
-
-def _hex(path: str, word: str, line: int) -> int:
-    try:
-        return int(word, 16)
-    except ValueError:
-        raise MeshReadError(path, f"line {line}: {word!r} is not a hexadecimal number") from None
-
-
-def _sections(path: str, data: bytes) -> list[_Section]:
-    """Every section of the file, binary data decoded, ASCII data kept as bytes."""
-    out: list[_Section] = []
-    pos, counted, line = 0, 0, 1
-    while (i := data.find(b"(", pos)) >= 0:
-        m = _ID.match(data, i)
-        line += data.count(b"\n", counted, i)      # counted once per byte, not per section
-        counted = i
-        if m is None:
-            raise MeshReadError(path, f"line {line}: expected a section '(number ...', found "
-                                      f"{data[i:i + 20]!r}")
-        sid = int(m.group(1))
-        kind, binary = (sid % 1000, 4 if sid < 3000 else 8) if sid >= 2000 else (sid, 0)
-        j = m.end()
-        if kind in (0, 1, 39, 45) or kind not in (2, 10, 12, 13, 18):
-            end = _skip_balanced(path, data, i)
-            if kind in (39, 45):
-                inner = data[j:end].lstrip()
-                head = inner[1:inner.find(b")")] if inner.startswith(b"(") else b""
-                out.append(_Section(kind, 0, head.decode("latin-1").split(), line))
-            elif binary:
-                raise MeshReadError(path, f"line {line}: binary section {sid} cannot be "
-                                          "skipped (its length is unknown)")
-            pos = end
-            continue
-        while data[j:j + 1].isspace():
-            j += 1
-        if data[j:j + 1] != b"(":
-            k = data.find(b")", j)
-            out.append(_Section(kind, 0, data[j:k].decode("latin-1").split(), line))
-            pos = k + 1
-            continue
-        k = data.find(b")", j)
-        if k < 0:
-            raise MeshReadError(path, f"line {line}: section {sid} is not closed (truncated)")
-        section = _Section(kind, binary, data[j + 1:k].decode("latin-1").split(), line)
-        out.append(section)
-        j = k + 1
-        while data[j:j + 1].isspace():
-            j += 1
-        if data[j:j + 1] != b"(":
-            pos = j + 1
-            continue
-        if binary:
-            section.body, j = _binary_body(path, data, j + 1, section, sid)
-        else:
-            k = data.find(b")", j)
-            if k < 0:
-                raise MeshReadError(path, f"line {line}: the data of section {sid} is not "
-                                          "closed (truncated)")
-            section.body, j = data[j + 1:k], k + 1
-        close = data.find(b")", j)
-        if close < 0:
-            raise MeshReadError(path, f"line {line}: section {sid} is not closed (truncated)")
-        pos = close + 1
-    return out
-
-
-def _binary_body(path, data, at, section, sid):
-    """Decode the binary data of a node, cell or face section starting at byte ``at``;
-    return it and the byte after it (past ``End of Binary Section`` where present)."""
-    head = [_hex(path, w, section.line) for w in section.header]
-    count = head[2] - head[1] + 1
-    if section.kind == 10:
-        nd = head[4] if len(head) > 4 else 3
-        size = count * nd * section.binary
-        dtype = "<f4" if section.binary == 4 else "<f8"
-        body = np.frombuffer(data, dtype=dtype, count=count * nd, offset=at) \
-            if at + size <= len(data) else None
-    elif section.kind in (12, 18):               # cell types; periodic face pairs
-        count *= 1 if section.kind == 12 else 2
-        size = count * 4
-        body = np.frombuffer(data, "<i4", count=count, offset=at) \
-            if at + size <= len(data) else None
-    else:
-        words = np.frombuffer(data, "<i4", count=(len(data) - at) // 4, offset=at)
-        if head[4] in _FACE_NODES:
-            size = count * (_FACE_NODES[head[4]] + 2) * 4
-        else:
-            starts = record_starts(words, count, 2, path, f"line {section.line}: faces")
-            size = 4 * (int(starts[-1]) + int(words[starts[-1]]) + 3) if count else 0
-        body = words[:size // 4] if at + size <= len(data) else None
-    if body is None:
-        raise MeshReadError(path, f"line {section.line}: binary section {sid} ends before its "
-                                  f"{count} entries (truncated)")
-    end = at + size
-    if data[end:end + 1] != b")":
-        raise MeshReadError(path, f"line {section.line}: binary section {sid} holds more data "
-                                  "than its header declares")
-    end += 1
-    tail = re.compile(rb"\s*End of Binary Section\s*\d+\s*").match(data, end)
-    return np.asarray(body), (tail.end() if tail else end)
 
 
 @dataclass
@@ -212,9 +80,9 @@ class _Grid:
     names: dict = None
 
 
-def _collect(path: str, sections: list[_Section]) -> _Grid:
+def _collect(path: str, found: list[Section]) -> _Grid:
     g = _Grid(totals={}, nodes=[], cells=[], faces=[], names={})
-    for s in sections:
+    for s in found:
         if s.kind == 2:
             g.dim = int(s.header[0]) if s.header and s.header[0].isdigit() else 0
         elif s.kind in (39, 45):
@@ -223,7 +91,7 @@ def _collect(path: str, sections: list[_Section]) -> _Grid:
                                           "zone-type zone-name)")
             g.names[int(s.header[0])] = (s.header[1].lower(), s.header[2])
         elif s.kind in (10, 12, 13):
-            head = [_hex(path, w, s.line) for w in s.header]
+            head = [hex_word(path, w, s.line) for w in s.header]
             if len(head) < 4:
                 raise MeshReadError(path, f"line {s.line}: section {s.kind} header has "
                                           f"{len(head)} numbers; expected at least 4")
@@ -258,13 +126,13 @@ def _nodes(path: str, g: _Grid) -> np.ndarray:
     return points
 
 
-def _face_rows(path: str, head, s: _Section):
+def _face_rows(path: str, head, s: Section):
     """(sizes, node ids, c0, c1) of one face zone, ids from 1."""
     count, ftype = head[2] - head[1] + 1, head[4] if len(head) > 4 else 0
     values = s.body if s.binary else hex_numbers(s.body or b"", path, f"line {s.line}: faces")
     where = f"line {s.line}: face zone {head[0]}"
-    if ftype in _FACE_NODES:
-        k = _FACE_NODES[ftype]
+    if ftype in FACE_NODES:
+        k = FACE_NODES[ftype]
         if len(values) != count * (k + 2):
             raise MeshReadError(path, f"{where} declares {count} faces of {k} nodes, found "
                                       f"{len(values)} numbers (expected {count * (k + 2)})")
@@ -288,7 +156,7 @@ def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
     from caselint.mesh.limits import check_memory
 
     name = str(path)
-    g = _collect(name, _sections(name, path.read_bytes()))
+    g = _collect(name, sections(name, path.read_bytes()))
     if 12 in g.totals:                      # before the faces are built
         check_memory(name, {"cell": g.totals[12][0]}, "the file header")
     if not g.faces or not g.nodes:
@@ -320,6 +188,9 @@ def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
                                   f"the face sections hold {declared_faces}")
     sizes, nodes = np.concatenate(sizes), np.concatenate(nodes)
     c0, c1 = np.concatenate(c0), np.concatenate(c1)
+    if ((c0 == 0) & (c1 == 0)).any():
+        raise MeshReadError(name, f"{int(((c0 == 0) & (c1 == 0)).sum())} faces have no cell on "
+                                  "either side (c0 = c1 = 0)")
     face_zone = np.concatenate(zone_of_face)
     n_cells, cell_zone, zone_names = _cells(name, g, c0, c1)
     if len(nodes) and (int(nodes.min()) < 1 or int(nodes.max()) > len(points)):
@@ -343,12 +214,14 @@ def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
     position[boundary_zones] = np.arange(len(boundary_zones))
     group_names = tuple(groups[i] for i in boundary_zones)
     points = checked_points(name, points, options.scale_to_m)
-    return mesh_from_faces(
-        path=name, points=points, dim=dim, face_offsets=offsets, face_points=face_points,
-        owner=owner, neighbour=neighbour, n_cells=n_cells, face_group=position[face_zone],
-        group_names=group_names, group_types={k: types[k] for k in group_names},
-        cell_zone=cell_zone,
-        zone_names=zone_names, notes=tuple(notes))
+    try:
+        return mesh_from_faces(
+            path=name, points=points, dim=dim, face_offsets=offsets, face_points=face_points,
+            owner=owner, neighbour=neighbour, n_cells=n_cells, face_group=position[face_zone],
+            group_names=group_names, group_types={k: types[k] for k in group_names},
+            cell_zone=cell_zone, zone_names=zone_names, notes=tuple(notes))
+    except ValueError as exc:           # inconsistent arrays the checks above let through
+        raise MeshReadError(name, str(exc)) from None
 
 
 def _cells(path: str, g: _Grid, c0: np.ndarray, c1: np.ndarray):

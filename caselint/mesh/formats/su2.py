@@ -260,7 +260,7 @@ def read_su2(path: Path, options: ReadOptions) -> MeshData:
     n_points = len(zone.points)
     blocks, order = _blocks(name, types, by_type, n_points)
     group_names = tuple(sorted({m for m, _ in zone.markers}))
-    verts, element, group = [], [], []
+    verts, group = [], []
     for marker, faces in zone.markers:
         for t, (ids, conn) in faces.items():
             verts.append(_in_range(name, conn, n_points, f"marker {marker!r}")[:, _PAD[t]])
@@ -272,8 +272,11 @@ def read_su2(path: Path, options: ReadOptions) -> MeshData:
         boundary = BoundaryElements(vertices, np.arange(len(vertices)), np.concatenate(group))
     points = checked_points(name, zone.points, options.scale_to_m)
     notes = (f"{label.strip()} read (mesh.zone)",) if label else ()
-    data = mesh_from_elements(path=name, points=points, dim=zone.dim, blocks=blocks,
-                              boundary=boundary, group_names=group_names, notes=notes)
+    try:
+        data = mesh_from_elements(path=name, points=points, dim=zone.dim, blocks=blocks,
+                                  boundary=boundary, group_names=group_names, notes=notes)
+    except ValueError as exc:           # inconsistent arrays the checks above let through
+        raise MeshReadError(name, str(exc)) from None
     if order is None or data.file_cell_ids is None:
         return data
     # Blocks hold the cells grouped by type: name them by their row in the file.
