@@ -7,8 +7,8 @@ same cells as NGON_n/NFACE_n polyhedra). Each file is read with ``read_mesh`` (r
 building faces with owner and neighbour, renumbering, groups) in a fresh process per
 run; the median of the runs is reported with the worker's peak resident memory.
 
-    python benchmarks/bench_readers.py                # 1M cells, 3 runs, updates README
-    python benchmarks/bench_readers.py --n 20000 --runs 1 --no-readme
+    python benchmarks/bench_read_su2_msh_cgns.py                # 1M cells, 3 runs, updates README
+    python benchmarks/bench_read_su2_msh_cgns.py --n 20000 --runs 1 --no-readme
 """
 
 from __future__ import annotations
@@ -32,7 +32,7 @@ sys.path.insert(0, str(HERE.parent / "tests"))
 
 from bench_meshes import ROLES, hex_block  # noqa: E402
 
-MARK = ("<!-- readers:start -->", "<!-- readers:end -->")
+MARK = ("<!-- su2-msh-cgns:start -->", "<!-- su2-msh-cgns:end -->")
 
 
 def _element_mesh(m: meshio.Mesh):
