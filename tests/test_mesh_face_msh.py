@@ -179,3 +179,13 @@ def test_broken_ascii_files_exit_2(tmp_path, edit, message):
 ])
 def test_broken_binary_files_exit_2(tmp_path, edit, message):
     assert message in _broken(tmp_path, edit, binary=True)
+
+
+def test_mesh_zone_is_refused_for_a_single_mesh_format(tmp_path):
+    from caselint.errors import MeshReadError
+
+    path = tmp_path / "three.msh"
+    path.write_text(DOCUMENTED_2D)
+    with pytest.raises(MeshReadError, match="mesh.zone is '2', but this format holds a "
+                                            "single mesh"):
+        read_mesh(path, zone="2")

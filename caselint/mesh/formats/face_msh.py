@@ -49,7 +49,7 @@ from caselint.mesh.formats.face_msh_sections import FACE_NODES, Section, hex_wor
 from caselint.mesh.formats.text_tables import hex_numbers, numbers, record_starts
 from caselint.mesh.model import MeshData
 from caselint.mesh.orientation import reverse_faces
-from caselint.mesh.readers import MeshReader, ReadOptions, checked_points
+from caselint.mesh.readers import MeshReader, ReadOptions, checked_points, no_zones
 
 #: bc-type numbers of face zones and the zone-type words they stand for.
 BC_TYPES: dict[int, str] = {
@@ -156,6 +156,7 @@ def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
     from caselint.mesh.limits import check_memory
 
     name = str(path)
+    no_zones(path, options)       # cell zones are regions of one mesh, read together
     g = _collect(name, sections(name, path.read_bytes()))
     if 12 in g.totals:                      # before the faces are built
         check_memory(name, {"cell": g.totals[12][0]}, "the file header")

@@ -43,7 +43,7 @@ from caselint.mesh.celltypes import SURFACE_TYPES, VOLUME_TYPES, linear_type
 from caselint.mesh.groups import BoundaryElements
 from caselint.mesh.model import MeshData
 from caselint.mesh.pairing import ElementBlock
-from caselint.mesh.readers import MeshReader, ReadOptions, checked_points
+from caselint.mesh.readers import MeshReader, ReadOptions, checked_points, no_zones
 
 _PAD = {"triangle": [0, 1, 2, 2], "quad": [0, 1, 2, 3], "line": [0, 1]}
 # redirect_stdout/stderr swap the process-wide streams: two threads reading at once (a
@@ -70,6 +70,7 @@ def read_meshio(path: Path, options: ReadOptions) -> MeshData:
     name = str(path)
     if not path.is_file():
         raise MeshReadError(name, "mesh file not found" if not path.exists() else "not a file")
+    no_zones(path, options)
     from caselint.mesh.limits import check_memory, header_cell_count
 
     declared = header_cell_count(name)
