@@ -77,7 +77,7 @@ def load_case_mesh(case: "Case", readers: "Iterable[MeshReader] | None" = None) 
     read = store.read if store is not None else read_mesh
     try:
         mesh = read(spec.file, scale_to_m=spec.scale_to_m, tag_array=spec.tag_array,
-                    tags=dict(spec.tags) or None, readers=readers)
+                    tags=dict(spec.tags) or None, zone=spec.zone, readers=readers)
     except MeshReadError as exc:
         raise CaseFileError(str(case.path), f"cannot read the mesh: {exc}",
                             line=case.line_of("mesh.file"), key="mesh.file") from exc

@@ -91,7 +91,7 @@ def _group_by_mesh(paths: list[str], pm: "pluggy.PluginManager") -> list[list[in
         try:
             spec = load_case(path, pm).mesh
             key: object = (os.path.abspath(spec.file), repr(spec.scale_to_m), spec.tag_array,
-                           tuple(sorted(spec.tags.items())))
+                           tuple(sorted(spec.tags.items())), spec.zone)
         except Exception:  # noqa: BLE001 - the worker reports it, with the serial message
             key = ("unreadable", i)
         groups.setdefault(key, []).append(i)

@@ -65,7 +65,7 @@ def cache_dir() -> Path | None:
 
 
 def mesh_key(mesh_sha256: str, scale_to_m: float, tag_array: str | None,
-             tags: dict[int, str] | None) -> str:
+             tags: dict[int, str] | None, zone: str | None = None) -> str:
     """Cache key of a mesh file read with these settings by this caselint version and this
     mesh code (:func:`caselint.mesh.fingerprint.code_fingerprint`)."""
     from caselint.mesh.arrays import FORMAT
@@ -74,6 +74,7 @@ def mesh_key(mesh_sha256: str, scale_to_m: float, tag_array: str | None,
     settings = {"sha256": mesh_sha256, "scale_to_m": repr(float(scale_to_m)),
                 "tag_array": tag_array, "tags": sorted((int(k), str(v)) for k, v in
                                                        (tags or {}).items()),
+                "zone": zone,
                 "caselint": __version__, "format": FORMAT, "code": code_fingerprint()}
     return hashlib.sha256(json.dumps(settings, sort_keys=True).encode()).hexdigest()
 
@@ -183,23 +184,24 @@ class MeshStore:
         self._fresh: dict[tuple, str] = {}      # read from file: settings -> cache key
 
     def read(self, path, *, scale_to_m: float = 1.0, tag_array: str | None = None,
-             tags: dict[int, str] | None = None, readers=None) -> "Mesh":
+             tags: dict[int, str] | None = None, zone: str | None = None,
+             readers=None) -> "Mesh":
         """The mesh of ``path`` read with these settings; raises MeshReadError like read_mesh."""
         from caselint.mesh import read_mesh
 
         settings = (os.path.abspath(path), repr(float(scale_to_m)), tag_array,
-                    tuple(sorted((tags or {}).items())))
+                    tuple(sorted((tags or {}).items())), zone)
         if settings in self._meshes:
             return self._meshes[settings]
         key = mesh = None
         if self.cache is not None and os.path.isfile(path):
             from caselint.api import file_sha256
 
-            key = mesh_key(file_sha256(Path(path)), scale_to_m, tag_array, tags)
+            key = mesh_key(file_sha256(Path(path)), scale_to_m, tag_array, tags, zone)
             mesh = self.cache.load(key, str(path))
         if mesh is None:
             mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags,
-                             readers=readers)
+                             zone=zone, readers=readers)
             if key is not None:
                 self._fresh[settings] = key
         self._meshes[settings] = mesh

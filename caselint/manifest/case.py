@@ -49,6 +49,7 @@ class MeshSpec:
     tag_array: str | None = None     # cell-data array with an integer tag per boundary face
     tags: dict[int, str] = field(default_factory=dict)         # tag -> group name
     velocity_field: str | None = None  # point/cell-data array with the flow velocity (m/s)
+    zone: str | None = None          # the zone to check in a file of several zones
 
 
 @dataclass(frozen=True)

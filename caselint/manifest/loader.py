@@ -142,6 +142,7 @@ class _CaseBuilder(ValueReader):
             tag_array=spec.get("tag_array"),
             tags={int(tag): name for tag, name in spec.get("tags", {}).items()},
             velocity_field=spec.get("velocity_field"),
+            zone=None if spec.get("zone") is None else str(spec["zone"]),
         )
 
     def physics(self, spec: dict[str, Any]) -> Physics:

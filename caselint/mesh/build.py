@@ -24,6 +24,7 @@ import numpy as np
 from caselint.mesh.groups import BoundaryElements, match_groups
 from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
 from caselint.mesh.ordering import spatial_order
+from caselint.mesh.orientation import oriented_blocks
 from caselint.mesh.pairing import ElementBlock, pair_faces
 
 
@@ -105,6 +106,9 @@ def mesh_from_elements(
                              f"{block.type!r} starts at {block.start}, expected {expected}")
         expected = block.stop
     n_cells, n_points = expected, len(points)
+    # A block written in the mirrored node order is read the other way round (with a note).
+    blocks, flipped = oriented_blocks(points, blocks, dim)
+    notes = (*notes, *flipped)
     boundary = boundary or BoundaryElements.empty(4 if dim == 3 else 2)
     point_data, cell_data = dict(point_data or {}), dict(cell_data or {})
     file_cells = file_points = None

@@ -122,6 +122,15 @@ def choose_reader(path: Path, readers: Iterable[MeshReader]) -> MeshReader:
                         f"expected one of {', '.join(suffixes)}, or a mesh folder")
 
 
+def no_zones(path: Path, options: ReadOptions) -> None:
+    """Refuse ``mesh.zone`` for a format that holds one mesh (MeshReadError), so that the
+    key is never ignored silently."""
+    if options.zone is not None:
+        raise MeshReadError(str(path), f"mesh.zone is {options.zone!r}, but this format "
+                                       "holds a single mesh (no zones to choose from); "
+                                       "remove mesh.zone from the case file")
+
+
 def checked_points(path: str, points: np.ndarray, scale_to_m: float) -> np.ndarray:
     """(P, 3) float64 coordinates in metres: 2-D points get z = 0, non-finite coordinates
     and coordinates beyond :data:`MAX_COORDINATE_M` are refused (MeshReadError)."""

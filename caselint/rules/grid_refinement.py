@@ -73,7 +73,7 @@ def read_member(case: "Case", index: int, *, walls: tuple[str, ...] = (),
     if mesh is None:
         try:
             mesh = read_mesh(path, scale_to_m=spec.scale_to_m, tag_array=spec.tag_array,
-                             tags=dict(spec.tags) or None)
+                             tags=dict(spec.tags) or None, zone=spec.zone)
         except MeshReadError as exc:
             raise CaseFileError(str(case.path), f"cannot read the grid-study mesh: {exc}",
                                 line=case.line_of(key), key=key) from exc

@@ -5,6 +5,6 @@
 chosen for a path).
 """
 
-from caselint.mesh.formats import meshio_files
+from caselint.mesh.formats import cgns, face_msh, meshio_files, su2
 
-BUILTIN_READERS = (meshio_files.READER,)
+BUILTIN_READERS = (cgns.READER, face_msh.READER, meshio_files.READER, su2.READER)
