@@ -53,10 +53,13 @@ def read_mesh(
     scale_to_m: float = 1.0,
     tag_array: str | None = None,
     tags: dict[int, str] | None = None,
+    memory_limit: tuple[int | None, str] | None = None,
 ) -> Mesh:
     """Read a mesh file with meshio; coordinates are multiplied by ``scale_to_m``.
 
-    Raises :class:`MeshReadError` for a missing, unreadable or unusable file.
+    ``memory_limit`` is a :data:`caselint.mesh.limits.MemoryLimit` (None: the default share
+    of the available memory). Raises :class:`MeshReadError` for a missing, unreadable or
+    unusable file, or one whose check would pass the memory limit.
     """
     import meshio
 
@@ -76,7 +79,7 @@ def read_mesh(
 
     declared = header_cell_count(name)
     if declared is not None:           # refuse before meshio fills the memory
-        check_memory(name, {"element": declared}, "the file header")
+        check_memory(name, {"element": declared}, "the file header", memory_limit)
     sink = io.StringIO()
     try:
         with _READ_LOCK, contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink), \
@@ -93,7 +96,7 @@ def read_mesh(
     counts: dict[str, int] = {}
     for block in raw.cells:
         counts[block.type] = counts.get(block.type, 0) + len(block.data)
-    check_memory(name, counts, "the cells read")       # before topology is built
+    check_memory(name, counts, "the cells read", memory_limit)   # before topology is built
     return mesh_from_meshio(raw, path=name, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags)
 
 
