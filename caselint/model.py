@@ -17,12 +17,20 @@ Severity = Literal["error", "warning", "note"]
 Worse = Literal["higher", "lower"]
 
 OUTCOMES: tuple[str, ...] = ("pass", "fail", "skipped", "waived", "error")
+#: Places of a mesh entity for grading by place (codes are indices into this tuple): inside a
+#: region of interest of the case file, in the band of cells near a no-slip wall, elsewhere.
+PLACES: tuple[str, ...] = ("elsewhere", "near-wall", "region")
+#: The places judged strictly: where the flow is resolved ("fine where the flow is resolved,
+#: a compromise elsewhere" is common practice).
+STRICT_PLACES: tuple[str, ...] = ("region", "near-wall")
 SEVERITIES: tuple[str, ...] = ("error", "warning", "note")
 #: Rank of each severity; a larger number is more severe.
 SEVERITY_RANK: dict[str, int] = {"note": 0, "warning": 1, "error": 2}
 
 #: How many cell or face ids a finding lists; the count is always given in full.
 MAX_LISTED_IDS = 10
+#: Keys of a rule's entry in a rule set or case file that are not parameters.
+ENTRY_KEYS: tuple[str, ...] = ("enabled", "warn", "error", "severity", "grades")
 
 
 def _require_finite(record: Any, names: tuple[str, ...]) -> None:
@@ -57,6 +65,7 @@ class Where:
     point: tuple[float, float, float] | None = None
     key: str | None = None       # case-file key path the finding concerns, e.g. "time.step"
     line: int | None = None      # its 1-based line in the case file (filled in by the engine)
+    place: str | None = None     # grading by place: the places judged, e.g. "elsewhere"
 
     def __post_init__(self) -> None:
         if len(self.cells) > MAX_LISTED_IDS or len(self.faces) > MAX_LISTED_IDS:
@@ -74,7 +83,7 @@ class Where:
         listed), so a reader never mistakes a capped list for all of them.
         """
         out: dict[str, Any] = {}
-        for key in ("boundary", "region", "key", "line"):
+        for key in ("boundary", "region", "key", "line", "place"):
             if getattr(self, key) is not None:
                 out[key] = getattr(self, key)
         for kind, ids, count in (("cells", self.cells, self.cell_count),
@@ -85,6 +94,38 @@ class Where:
         if self.point is not None:
             out["point"] = [float(v) for v in self.point]
         return out
+
+
+@dataclass(frozen=True, eq=False)
+class Extent:
+    """The per-entity values behind a measurement, each with its place, for grading by
+    extent and place (see :class:`Grade`).
+
+    ``values`` (N,) are finite per-entity values (faces, cells, wall faces), ``places`` (N,)
+    their place codes (indices into :data:`PLACES`). ``measure(subset, limits)`` returns the
+    located measurement of the entities ``subset`` (indices into ``values``) against
+    ``limits``: their worst value, where it is, how many are past the limits; the engine
+    calls it for each place it grades. ``weights`` (N,), when given, weigh the shares (wall
+    face areas: a share of the wall area); ``entity`` names one entity ("face", "cell").
+    Compared by identity: it holds arrays.
+    """
+
+    values: Any
+    places: Any
+    entity: str
+    measure: Callable[[Any, "Limits"], "Measurement"]
+    weights: Any = None
+    weight_words: str = ""
+
+    def __post_init__(self) -> None:
+        import numpy as np
+
+        if np.shape(self.values) != np.shape(self.places) or np.ndim(self.values) != 1:
+            raise ValueError(f"an extent needs one place per value, got shapes "
+                             f"{np.shape(self.values)} and {np.shape(self.places)}")
+        if self.weights is not None and np.shape(self.weights) != np.shape(self.values):
+            raise ValueError(f"an extent's weights must match its values, got shapes "
+                             f"{np.shape(self.weights)} and {np.shape(self.values)}")
 
 
 @dataclass(frozen=True)
@@ -103,6 +144,13 @@ class Measurement:
     that sets them reads them from its parameters (``ctx.params``).
     ``statement``, when given, is the finding's whole sentence (for yes/no conditions,
     where "1 above the limit 0" would say nothing).
+
+    ``grade`` names the rule's grade (:class:`Grade`) the measurement is graded against
+    (None: the rule's main grade); the engine resolves it with the rule-set and case-file
+    overrides, and takes the grade's direction and unit where the measurement leaves them
+    unset. ``limits`` set here replace the grade's (a rule deriving them per case from its
+    resolved grade, ``ctx.grades``). A measurement with an ``extent`` is graded by extent
+    and place instead: the engine grades it once per place grade of the rule.
     """
 
     value: float
@@ -114,6 +162,8 @@ class Measurement:
     worse: Worse | None = None
     limits: Limits | None = None
     statement: str = ""
+    grade: str | None = None
+    extent: Extent | None = None
 
     def __post_init__(self) -> None:
         if not math.isfinite(self.value):
@@ -244,12 +294,35 @@ class RuleResult:
         return cls(skipped=reason)
 
 
+#: Kinds of rule parameters and how a message names a value of each.
+PARAMETER_KINDS: dict[str, str] = {
+    "number": "a finite number", "integer": "a whole number", "flag": "true or false",
+    "text": "text",
+}
+_NAME = r"[a-z][a-z0-9]*(_[a-z0-9]+)*"
+_GRADE_NAME = r"[a-z][a-z0-9]*(-[a-z0-9]+)*(\.[a-z0-9]+(-[a-z0-9]+)*)*"
+
+
+def _number_or_none(value: Any) -> float | None:
+    """``value`` as a float when it is a finite number (not true/false), else None."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return None
+    try:
+        number = float(value)
+    except OverflowError:             # an int beyond the float range
+        return None
+    return number if math.isfinite(number) else None
+
+
 @dataclass(frozen=True)
 class Parameter:
-    """A rule parameter beyond its limits, with its default and unit.
+    """A rule parameter: its default, unit and the values it takes.
 
-    A rule set may set it to a value of the default's kind (a number, a flag, text), or
-    to null where ``nullable`` (always so when the default itself is None).
+    The engine checks every value a rule set or case file sets against ``kind``
+    (``number``, ``integer``, ``flag``, ``text``; by default the kind of the default),
+    ``minimum`` / ``maximum`` (inclusive), ``exclusive_minimum``, ``choices`` and
+    ``nullable`` (null allowed; always so when the default is None), and reports a bad
+    one at the file, line and key that set it. A rule never validates its parameters.
     """
 
     name: str
@@ -257,6 +330,116 @@ class Parameter:
     unit: str = ""
     description: str = ""
     nullable: bool = False
+    kind: str = ""
+    minimum: float | None = None
+    maximum: float | None = None
+    exclusive_minimum: float | None = None
+    choices: tuple[Any, ...] = ()
+
+    def __post_init__(self) -> None:
+        import re
+
+        if not re.fullmatch(_NAME, self.name):
+            raise ValueError(f"parameter name {self.name!r} must be lower-case words joined by '_'")
+        if not self.kind:
+            kind = ("flag" if isinstance(self.default, bool) else
+                    "text" if isinstance(self.default, str) else "number")
+            object.__setattr__(self, "kind", kind)
+        if self.kind not in PARAMETER_KINDS:
+            raise ValueError(f"parameter {self.name!r}: kind must be one of "
+                             f"{', '.join(PARAMETER_KINDS)}, got {self.kind!r}")
+        if self.default is None:
+            object.__setattr__(self, "nullable", True)
+        problem = self.problem(self.default)
+        if problem is not None:
+            raise ValueError(f"parameter {self.name!r}: its default {self.default!r} is not "
+                             f"{problem}")
+
+    def expected(self) -> str:
+        """What a value must be, in words: ``a whole number of at least 1 (cells) or null``."""
+        text = PARAMETER_KINDS[self.kind]
+        if self.choices:
+            text = "one of " + ", ".join(str(c) for c in self.choices)
+        bounds = []
+        if self.exclusive_minimum is not None:
+            bounds.append(f"above {self.exclusive_minimum:g}")
+        if self.minimum is not None:
+            bounds.append(f"at least {self.minimum:g}")
+        if self.maximum is not None:
+            bounds.append(f"at most {self.maximum:g}")
+        if bounds:
+            text += ", " + " and ".join(bounds)
+        if self.unit and self.kind in ("number", "integer"):
+            text += f" (in {self.unit})"
+        return text + (" or null" if self.nullable else "")
+
+    def problem(self, value: Any) -> str | None:
+        """None when ``value`` is one this parameter takes, else what was expected."""
+        if value is None:
+            return None if self.nullable else self.expected()
+        if self.kind == "flag":
+            ok = isinstance(value, bool)
+        elif self.kind == "text":
+            ok = isinstance(value, str)
+        else:
+            number = _number_or_none(value)
+            ok = number is not None and (self.kind == "number" or number == int(number))
+            if ok:
+                ok = ((self.minimum is None or number >= self.minimum)
+                      and (self.maximum is None or number <= self.maximum)
+                      and (self.exclusive_minimum is None or number > self.exclusive_minimum))
+        if ok and self.choices:
+            ok = value in self.choices
+        return None if ok else self.expected()
+
+
+@dataclass(frozen=True)
+class Grade:
+    """A named pair of limits that a rule's measurements are graded against.
+
+    Every rule has a main grade (named ``Rule.main_grade``, its ``limits``, ``worse`` and
+    ``unit``); :attr:`Rule.grades` declares more, for measurements on another scale or in
+    another regime (``wall-function.low`` for the low side of a y+ band). A measurement
+    names its grade; rule sets and case files override a grade by name.
+
+    Grading by extent and place: a grade with ``places`` judges the entities of a
+    measurement's :class:`Extent` in those places (names from :data:`PLACES`). It bounds
+    their worst value, or, when ``share`` is set, the share (percent of the entities, or of
+    their weight) beyond the quality limit ``beyond`` (None: the rule's main warning limit,
+    else its error limit).
+    """
+
+    name: str
+    warn: float | None = None
+    error: float | None = None
+    description: str = ""
+    source: str = ""
+    worse: Worse | None = None
+    unit: str | None = None
+    places: tuple[str, ...] = ()
+    share: bool = False
+    beyond: float | None = None
+
+    def __post_init__(self) -> None:
+        import re
+
+        if not re.fullmatch(_GRADE_NAME, self.name):
+            raise ValueError(f"grade name {self.name!r} must be lower-case words joined by '-' "
+                             "(and '.')")
+        _require_finite(self, ("warn", "error", "beyond"))
+        unknown = [p for p in self.places if p not in PLACES]
+        if unknown:
+            raise ValueError(f"grade {self.name!r}: unknown places {unknown}; places are "
+                             f"{', '.join(PLACES)}")
+        if (self.share or self.beyond is not None) and not self.places:
+            raise ValueError(f"grade {self.name!r}: a share grade needs the places it judges")
+        if self.share and self.worse == "lower":
+            raise ValueError(f"grade {self.name!r}: a share grade is worse when higher")
+
+    @property
+    def limits(self) -> Limits:
+        """The grade's warning and error limits."""
+        return Limits(self.warn, self.error)
 
 
 @dataclass(frozen=True)
@@ -265,9 +448,14 @@ class Rule:
 
     ``check`` is a pure function ``check(ctx) -> RuleResult`` of a
     :class:`caselint.engine.context.RuleContext`; it never prints, exits or writes files.
-    ``needs`` names the case data the rule reads (``"mesh"``, ``"physics.flow"``...),
-    shown by ``caselint explain``. ``worse`` says which direction of the measured value
-    crosses a limit: ``"higher"`` (a maximum) or ``"lower"`` (a minimum).
+    ``needs`` names the case data the rule cannot run without (``"mesh"``, a case-file
+    key such as ``"physics.flow.length"``, or a condition of
+    :data:`caselint.engine.needs.CONDITIONS` such as ``"transient"``); the engine skips the
+    rule, with one wording, when one is missing. ``worse`` says which direction of the
+    measured value crosses a limit: ``"higher"`` (a maximum) or ``"lower"`` (a minimum).
+    ``limits`` are the defaults of the main grade (named ``main_grade``, described by
+    ``main_description``, judging the places ``main_places`` when the rule grades by place);
+    ``grades`` declares the others (see :class:`Grade`).
     """
 
     id: str
@@ -282,6 +470,10 @@ class Rule:
     needs: tuple[str, ...] = ("mesh",)
     parameters: tuple[Parameter, ...] = ()
     measures: str = ""
+    grades: tuple[Grade, ...] = ()
+    main_grade: str = "main"
+    main_places: tuple[str, ...] = ()
+    main_description: str = ""
 
     def __post_init__(self) -> None:
         import re
@@ -291,11 +483,66 @@ class Rule:
         for attr in ("title", "rationale", "source", "hint"):
             if not getattr(self, attr).strip():
                 raise ValueError(f"rule {self.id!r} has no {attr}")
+        names = [g.name for g in self.all_grades]
+        if len(set(names)) < len(names):
+            raise ValueError(f"rule {self.id!r} declares a grade twice: {names}")
+        params = [p.name for p in self.parameters]
+        if len(set(params)) < len(params) or set(params) & set(ENTRY_KEYS):
+            raise ValueError(f"rule {self.id!r}: parameter names must be unique and not one of "
+                             f"{', '.join(ENTRY_KEYS)}: {params}")
+
+    @property
+    def all_grades(self) -> tuple[Grade, ...]:
+        """The main grade (from ``limits``), then the declared ones."""
+        main = Grade(self.main_grade, self.limits.warn, self.limits.error,
+                     description=self.main_description or "the rule's main limits",
+                     source=self.source, worse=self.worse, unit=self.unit,
+                     places=self.main_places)
+        return (main, *self.grades)
+
+    @property
+    def place_grades(self) -> tuple[Grade, ...]:
+        """The grades judging places (grading by extent and place)."""
+        return tuple(g for g in self.all_grades if g.places)
+
+
+@dataclass(frozen=True)
+class PlaceSpread:
+    """The entities of a distribution in one place: how many, the worst value, and the share
+    beyond each limit (pairs of limit and percent)."""
+
+    place: str
+    count: int
+    worst: float | None
+    beyond: tuple[tuple[float, float], ...] = ()
+
+
+@dataclass(frozen=True)
+class Distribution:
+    """How a graded quantity is spread over the mesh, for a report to show beyond the maximum.
+
+    ``percentiles`` are pairs (p, value) over all entities (by weight when ``weighted``);
+    ``beyond`` pairs (limit, percent of all entities past it) for each limit of the rule's
+    place grades; ``places`` the same per place; ``worst_place`` where the worst value sits.
+    """
+
+    entity: str
+    count: int
+    percentiles: tuple[tuple[float, float], ...]
+    beyond: tuple[tuple[float, float], ...]
+    places: tuple[PlaceSpread, ...]
+    worst_place: str
+    worse: Worse = "higher"
+    weighted: str = ""
+    label: str = ""
 
 
 @dataclass(frozen=True)
 class Check:
-    """The outcome of one rule on one case, with its extreme measured value."""
+    """The outcome of one rule on one case, with its extreme measured value.
+
+    ``distributions`` describe the spread of a rule graded by extent and place.
+    """
 
     rule: str
     title: str
@@ -306,6 +553,7 @@ class Check:
     unit: str
     reason: str = ""
     limits: Limits = field(default_factory=Limits)
+    distributions: tuple[Distribution, ...] = ()
 
     def __post_init__(self) -> None:
         _require_finite(self, ("measured", "limit"))
@@ -334,10 +582,18 @@ class Finding:
 
 @dataclass(frozen=True)
 class CaseSection:
-    """A top-level case-file section that a plugin adds, with its JSON Schema (2020-12)."""
+    """A top-level case-file section that a plugin adds, with its JSON Schema (2020-12).
+
+    ``quantities`` maps the dotted keys of the section that hold physical quantities to
+    their dimension (a name of ``caselint.manifest.units.DIMENSIONS``: ``"length"``,
+    ``"volume_flow"``...). The loader converts them to SI like every quantity of the case
+    file (a wrong unit is an error at its line), so rules read plain SI numbers from
+    ``ctx.case.extensions[name]``.
+    """
 
     name: str
     schema: dict[str, Any]
+    quantities: dict[str, str] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -381,6 +637,8 @@ class CaseReport:
     ``checklist`` holds the manual checks of the rule sets used. ``plots`` are the data
     the rules attached for the review reports (ordered by rule id). ``baselined`` counts
     findings left out because a baseline file (``--baseline``) records them as known.
+    ``rule_set_files`` pairs each rule set used with its file, and ``rule_info`` describes
+    the rules that ran (the run's :class:`Report` gathers both).
     """
 
     case: str
@@ -399,6 +657,8 @@ class CaseReport:
     review: ReviewInfo = field(default_factory=ReviewInfo)
     plots: tuple[PlotData, ...] = ()
     baselined: int = 0
+    rule_set_files: tuple[tuple[str, Any], ...] = field(default=(), compare=False)
+    rule_info: tuple["RuleInfo", ...] = field(default=(), compare=False)
 
 
 @dataclass(frozen=True)
