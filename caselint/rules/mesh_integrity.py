@@ -22,13 +22,13 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
 from caselint.mesh.geometry import chunks
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import finite_point, first_cells, plural
+from caselint.rulekit import RuleContext, finite_point, first_cells, plural
+from caselint.rulekit.meshview import cells_using, face_point_ids, used_points
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.mesh.model import Mesh
 
 #: Points closer than this fraction of the mesh's largest extent count as coincident: far
@@ -38,14 +38,6 @@ _DEFINITION = "definition of a finite-volume face (one owner and one neighbour c
 
 
 # -- measurements --------------------------------------------------------------------------
-
-
-def used_points(mesh: "Mesh") -> np.ndarray:
-    """(P,) bool: which points at least one volume cell uses."""
-    used = np.zeros(mesh.n_points, dtype=bool)
-    for block in mesh.cell_blocks:
-        used[block.connectivity.ravel()] = True
-    return used
 
 
 def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
@@ -68,15 +60,6 @@ def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
     flagged[order[1:][same]] = True
     flagged[order[:-1][same]] = True
     return np.sort(ids[flagged]), int(np.count_nonzero(same))
-
-
-def cells_using(mesh: "Mesh", point_ids: np.ndarray) -> np.ndarray:
-    """Sorted ids of the volume cells using any of ``point_ids``."""
-    marked = np.zeros(mesh.n_points, dtype=bool)
-    marked[point_ids] = True
-    hits = [block.start + np.flatnonzero(marked[block.connectivity].any(axis=1))
-            for block in mesh.cell_blocks]
-    return np.concatenate(hits) if hits else np.empty(0, dtype=np.int64)
 
 
 def cell_pieces(mesh: "Mesh") -> np.ndarray:
@@ -114,11 +97,9 @@ def cell_pieces(mesh: "Mesh") -> np.ndarray:
 # -- checks --------------------------------------------------------------------------------
 
 
-def check_duplicate_points(ctx: "RuleContext") -> RuleResult:
+def check_duplicate_points(ctx: RuleContext) -> RuleResult:
     """Count extra copies of points at one place among the points the cells use."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     points, copies = coincident_points(mesh)
     unused = int(mesh.n_points - np.count_nonzero(used_points(mesh)))
     notes = ()
@@ -141,16 +122,14 @@ def check_duplicate_points(ctx: "RuleContext") -> RuleResult:
                       notes=notes)
 
 
-def check_non_manifold_faces(ctx: "RuleContext") -> RuleResult:
+def check_non_manifold_faces(ctx: RuleContext) -> RuleResult:
     """Count the faces (vertex sets) shared by more than two cells, or twice by one cell."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     occurrences = np.asarray(mesh.nonmanifold_faces, dtype=np.int64)
     if occurrences.size == 0:
         return RuleResult(measurements=(Measurement(
             0.0, detail=f"every one of the {mesh.n_faces} faces has at most two cells"),))
-    keys = np.sort(mesh.faces[occurrences], axis=1)
+    keys = np.sort(face_point_ids(mesh, occurrences), axis=1)
     _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
     count = int(first.size)
     cells = np.unique(mesh.owner[occurrences])
@@ -165,11 +144,9 @@ def check_non_manifold_faces(ctx: "RuleContext") -> RuleResult:
     return RuleResult(measurements=(Measurement(float(count), where=where, detail=detail),))
 
 
-def check_disconnected_pieces(ctx: "RuleContext") -> RuleResult:
+def check_disconnected_pieces(ctx: RuleContext) -> RuleResult:
     """Count the pieces of cells joined through faces; list the cells outside the largest."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     label = mesh.cached("mesh_integrity.pieces", lambda: cell_pieces(mesh))
     roots, inverse, sizes = np.unique(label, return_inverse=True, return_counts=True)
     n = int(roots.size)
@@ -195,11 +172,9 @@ def check_disconnected_pieces(ctx: "RuleContext") -> RuleResult:
     return RuleResult(measurements=(Measurement(float(n), where=where, detail=detail),))
 
 
-def check_unmatched_boundary_elements(ctx: "RuleContext") -> RuleResult:
+def check_unmatched_boundary_elements(ctx: RuleContext) -> RuleResult:
     """Boundary elements of each group that lie on no face of a volume cell."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     if not mesh.group_names:
         return RuleResult.skip("the mesh file names no boundary groups")
     unmatched = mesh.unmatched_group_elements
