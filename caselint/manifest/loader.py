@@ -9,6 +9,7 @@ regions named once, mesh files that exist). The mesh itself is not read here.
 
 from __future__ import annotations
 
+import copy
 import datetime as _dt
 import math
 from collections.abc import Mapping
@@ -17,8 +18,8 @@ from typing import Any
 
 from caselint.errors import CaseFileError
 from caselint.manifest.case import (
-    SCHEME_INTEGRATION, Case, CaseInfo, Checks, Flow, Fluid, GridStudy, MeshSpec, Physics,
-    Region, Review, TimeSpec, Turbulence, Waiver,
+    METHOD_ALIASES, RENAMED_VALUES, SCHEME_INTEGRATION, Case, CaseInfo, Checks, Flow, Fluid,
+    GridStudy, MeshSpec, Physics, Region, Review, TimeSpec, Turbulence, Waiver,
 )
 from caselint.manifest.messages import describe
 from caselint.manifest.schema import validate_case
@@ -37,13 +38,19 @@ MIN_MAGNITUDE = 1e-12
 MAX_MAGNITUDE = 1e12
 
 
-def load_case(path: str | Path, *, extensions: Mapping[str, dict] | None = None) -> Case:
-    """Load and validate a case file; ``extensions`` maps plugin sections to schema fragments."""
+def load_case(path: str | Path, *, extensions: Mapping[str, dict] | None = None,
+              quantities: Mapping[str, Mapping[str, str]] | None = None) -> Case:
+    """Load and validate a case file; ``extensions`` maps plugin sections to schema fragments.
+
+    ``quantities`` maps a plugin section to its quantities (dotted key in the section ->
+    dimension name), which are converted to SI like the case file's own.
+    """
     case_path = Path(path)
     doc = load_yaml(case_path)
     _check_version(doc)
+    _check_renamed(doc)
     data = validate_case(doc, extensions)
-    return _CaseBuilder(case_path, doc).build(data, extensions or {})
+    return _CaseBuilder(case_path, doc).build(data, extensions or {}, quantities or {})
 
 
 def _check_version(doc: YamlDoc) -> None:
@@ -61,6 +68,29 @@ def _check_version(doc: YamlDoc) -> None:
                    f"(caselint: {FORMAT_VERSION}), got {describe(version)}")
     raise CaseFileError(doc.file, message, line=doc.line_of("caselint"),
                         column=doc.column_of("caselint"), key="caselint")
+
+
+def _check_renamed(doc: YamlDoc) -> None:
+    """A value an earlier format spelt differently names its new spelling (exit 2)."""
+    data = doc.data if isinstance(doc.data, dict) else {}
+    found: list[tuple[str, str, Any]] = []
+    mesh = data.get("mesh")
+    boundaries = mesh.get("boundaries") if isinstance(mesh, dict) else None
+    for name, role in (boundaries.items() if isinstance(boundaries, dict) else ()):
+        if isinstance(role, dict):
+            found.append(("boundary role", f"mesh.boundaries.{name}.type", role.get("type")))
+        else:
+            found.append(("boundary role", f"mesh.boundaries.{name}", role))
+    physics = data.get("physics")
+    turbulence = physics.get("turbulence") if isinstance(physics, dict) else None
+    if isinstance(turbulence, dict):
+        found.append(("turbulence model", "physics.turbulence.model", turbulence.get("model")))
+    for what, key, value in found:
+        for kind, old, new in RENAMED_VALUES:
+            if kind == what and value == old:
+                raise CaseFileError(doc.file, f"the {what} '{old}' is now called '{new}'; "
+                                    f"write {new}", line=doc.line_of(key),
+                                    column=doc.column_of(key), key=key)
 
 
 def _floats(values: list[Any]) -> list[float]:
@@ -166,7 +196,8 @@ class _CaseBuilder:
 
     # -- sections ----------------------------------------------------------------------
 
-    def build(self, data: dict[str, Any], extensions: Mapping[str, dict]) -> Case:
+    def build(self, data: dict[str, Any], extensions: Mapping[str, dict],
+              quantities: Mapping[str, Mapping[str, str]]) -> Case:
         regions = self.regions(data.get("regions", []))
         return Case(
             path=self.case_path,
@@ -183,10 +214,26 @@ class _CaseBuilder:
             review=self.review(data.get("review", {})),
             domain=self.domain(data.get("domain", {}),
                                data.get("physics", {}).get("flow", {}).get("direction")),
-            extensions={name: data[name] for name in sorted(extensions) if name in data},
+            extensions={name: self.section(name, data[name], quantities.get(name, {}))
+                        for name in sorted(extensions) if name in data},
             document=data,
             lines=dict(self.doc.lines),
         )
+
+    def section(self, name: str, data: Any, quantities: Mapping[str, str]) -> Any:
+        """A plugin section's data with its declared quantities in SI (the rest as written)."""
+        if not quantities or not isinstance(data, dict):
+            return data
+        out = copy.deepcopy(data)
+        for key, dimension in sorted(quantities.items()):
+            *parents, last = key.split(".")
+            holder = out
+            for part in parents:
+                holder = holder.get(part) if isinstance(holder, dict) else None
+            if isinstance(holder, dict) and last in holder:
+                path = ".".join([name, *parents])
+                holder[last] = self.quantity(holder, last, dimension, path, positive=False)
+        return out
 
     def mesh(self, spec: dict[str, Any]) -> MeshSpec:
         units = spec.get("units", "m")
@@ -227,7 +274,8 @@ class _CaseBuilder:
             strouhal=self.finite(flow_spec, "strouhal", p),
         )
         turbulence = Turbulence(**spec["turbulence"]) if "turbulence" in spec else Turbulence()
-        return Physics(method=spec.get("method", "finite-volume"), fluid=fluid, flow=flow,
+        method = spec.get("method", "cell-centred")
+        return Physics(method=METHOD_ALIASES.get(method, method), fluid=fluid, flow=flow,
                        turbulence=turbulence, compressible=spec.get("compressible", False))
 
     def check_fluid(self, fluid: Fluid) -> None:
