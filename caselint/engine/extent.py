@@ -97,7 +97,7 @@ def _share(rule: Rule, grade: Grade, main: Grade, extent: Extent, values: np.nda
               f"{relation} {beyond:g}{unit_words}")
     if offenders.size:
         detail += f"; {located.detail}" if located.detail else ""
-    label = f"{whole}share of the {extent.entity}s {relation} {beyond:g}{unit_words}"
+    label = f"share of the {whole}{extent.entity}s {relation} {beyond:g}{unit_words}"
     return Measurement(
         value=float(f"{share:.10g}"), detail=detail, fix=located.fix, label=label, unit="%",
         worse="higher", grade=grade.name,
@@ -119,9 +119,9 @@ def expand(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> list[Meas
         subset = np.flatnonzero(np.isin(places, codes))
         if subset.size == 0:
             continue
-        worse = grade.worse or m.worse or rule.worse
-        unit = grade.unit if grade.unit is not None else (m.unit if m.unit is not None
-                                                          else rule.unit)
+        # the measured quantity's direction and unit (a share grade's own are its percent's)
+        worse = m.worse or rule.worse
+        unit = m.unit if m.unit is not None else rule.unit
         if grade.share:
             shared = _share(rule, grade, main, extent, values, weights, subset, worse, unit)
             if shared is not None:
