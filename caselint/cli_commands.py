@@ -10,13 +10,12 @@ from __future__ import annotations
 
 import argparse
 import contextlib
-import difflib
 import json
 import os
 import shutil
 import sys
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable, Iterable, TextIO
+from typing import TYPE_CHECKING, Callable, TextIO
 
 from rich import box
 from rich.console import Console
@@ -205,14 +204,15 @@ def cmd_rules(args: argparse.Namespace) -> int:
         table.columns[0].no_wrap = True
         for rule in rules.values():
             per_case = (rule.limits.warn is None and rule.limits.error is None
-                        and bool(rule.parameters))
+                        and (bool(rule.parameters) or rule.main_description != ""))
             warn, error = (("per case", "per case") if per_case else
                            (_limit_text(rule, rule.limits.warn),
                             _limit_text(rule, rule.limits.error)))
             table.add_row(rule.id, warn, error, rule.unit, rule.title)
         console.print(table)
         count = f"{len(rules)} rule{'' if len(rules) == 1 else 's'}"
-        console.print(f"{count}; `caselint explain RULE` gives the rationale, source and "
+        console.print(f"{count}; the limits are those of each rule's main grade; `caselint "
+                      "explain RULE` gives the rationale, source, every grade and the "
                       "parameters of one.")
 
     emit(sys.stdout, render_rich(draw))
@@ -228,7 +228,9 @@ def _limits_sentence(rule: Rule, limits: Limits) -> str:
              for grade, value in (("warning", limits.warn), ("error", limits.error))
              if value is not None]
     if parts:
-        return "; ".join(parts)
+        return "; ".join(parts) + f" (grade {rule.main_grade})"
+    if rule.main_description:
+        return f"chosen per case (grade {rule.main_grade}: {rule.main_description})"
     if rule.parameters:
         return "chosen per case from the parameters below"
     return "none (the rule only reports its measurement)"

@@ -21,7 +21,8 @@ EXPECTED = {"Supply-Duct": "inlet", "exhaust_2": "outlet", "symmetry-mid": "symm
     ("outlet", "outlet"), ("fan-exhaust", "outlet"), ("return-grille", "outlet"),
     ("extract", "outlet"), ("sym-plane", "symmetry"), ("periodic-left", "periodic"),
     ("cyclic_a", "periodic"), ("open-top", "open"), ("far-field", "open"),
-    ("atmosphere", "open"), ("slip-top", "slip-wall"), ("inviscid-side", "slip-wall"), ("interface-rotor", "interface"), ("interior-3", "interface"),
+    ("atmosphere", "open"), ("slip-top", "slip-wall"), ("inviscid-side", "slip-wall"),
+    ("interface-rotor", "interface"), ("interior-3", "interface"),
     ("floor", "wall"), ("loading-door", "wall"),
 ])
 def test_guess_role(name, role):

@@ -24,7 +24,8 @@ from dataclasses import dataclass
 from typing import Any, Mapping
 
 from caselint.errors import CaseFileError
-from caselint.model import ENTRY_KEYS, SEVERITIES, Grade, Limits, Rule, _number_or_none
+from caselint.declarations import finite_number
+from caselint.model import ENTRY_KEYS, SEVERITIES, Grade, Limits, Rule
 
 #: Settings of one grade in an entry's ``grades``.
 GRADE_KEYS: tuple[str, ...] = ("warn", "error", "beyond")
@@ -81,7 +82,7 @@ def check_entry(rule: Rule, entry: Mapping[str, Any], file: str, lines: Mapping[
     for key, value in entry.items():
         where = f"{prefix}.{key}"
         if key in ("warn", "error"):
-            if value is not None and _number_or_none(value) is None:
+            if value is not None and finite_number(value) is None:
                 raise fail(where, f"{key} of rule {rule.id!r} must be a finite number in "
                                   f"{rule.unit or 'the rule unit'} or null, got {value!r}")
         elif key == "enabled":
@@ -124,7 +125,7 @@ def _check_grades(rule: Rule, value: Any, fail, where: str) -> None:
                 raise fail(f"{key}.{setting}", f"grade {name!r} of rule {rule.id!r} has no "
                                                f"setting {setting!r}; it takes "
                                                f"{', '.join(allowed)}")
-            if number is not None and _number_or_none(number) is None:
+            if number is not None and finite_number(number) is None:
                 raise fail(f"{key}.{setting}", f"{setting} of grade {name!r} of rule "
                                                f"{rule.id!r} must be a finite number or null, "
                                                f"got {number!r}")

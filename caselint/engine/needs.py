@@ -1,11 +1,12 @@
 """What a rule needs before it can run, checked by the engine: ``Rule.needs``.
 
 A need is ``"mesh"`` (the case's mesh, with volume cells), a condition named in
-:data:`CONDITIONS` (``"transient"``, ``"compressible"``, ``"walls"``, ``"viscosity"``), or a dotted key of the
-case file (``"time.step"``, ``"regions"``, a plugin's ``"quillfen.supply_flow"``), which is
-met when the case gives it (not null, not empty; read from the :class:`Case`, so plugin
-sections from ``Case.extensions``). The first need not met skips the
-rule, with one wording for every rule; rules check only what their needs cannot say.
+:data:`CONDITIONS` (``"transient"``, ``"compressible"``, ``"walls"``, ``"viscosity"``), or a
+dotted key of the case file (``"time.step"``, ``"regions"``, a plugin's
+``"quillfen.supply_flow"``), which is met when the case gives it (not null, not empty; read
+from the :class:`Case`, so plugin sections from ``Case.extensions``). The first need not
+met skips the rule, with one wording for every rule; rules check only what their needs
+cannot say.
 """
 
 from __future__ import annotations

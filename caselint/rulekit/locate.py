@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.model import MAX_LISTED_IDS, Limits, Where
+from caselint.model import MAX_LISTED_IDS, Limits
 
 if TYPE_CHECKING:
     from caselint.mesh.model import Mesh

@@ -9,8 +9,6 @@ cover one wall. ``wall-yplus`` reads the same stacks and lives in :mod:`caselint
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import numpy as np
 
 from caselint import hookimpl

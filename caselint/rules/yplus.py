@@ -11,8 +11,6 @@ depends on the declared wall treatment: each side of each band is a grade of the
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import numpy as np
 
 from caselint import hookimpl
