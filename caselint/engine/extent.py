@@ -104,14 +104,19 @@ def _share(rule: Rule, grade: Grade, main: Grade, extent: Extent, values: np.nda
         where=dataclasses.replace(located.where, place=place_label(grade.places)))
 
 
+def _arrays(m: Measurement) -> tuple[Extent, np.ndarray, np.ndarray, np.ndarray | None]:
+    """``m``'s extent and its values, place codes and weights as arrays."""
+    extent = m.extent
+    if extent is None:
+        raise ValueError("the measurement has no extent to grade by place")
+    weights = None if extent.weights is None else np.asarray(extent.weights, dtype=np.float64)
+    return extent, np.asarray(extent.values, dtype=np.float64), np.asarray(extent.places), weights
+
+
 def expand(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> list[Measurement]:
     """The measurements of ``m``'s extent, one per place grade of the rule that has entities
     in its places, each naming its grade (in the order the rule declares its grades)."""
-    extent = m.extent
-    assert extent is not None
-    values = np.asarray(extent.values, dtype=np.float64)
-    places = np.asarray(extent.places)
-    weights = None if extent.weights is None else np.asarray(extent.weights, dtype=np.float64)
+    extent, values, places, weights = _arrays(m)
     main = grades[rule.main_grade]
     out = []
     for grade in (g for g in grades.values() if g.places):
@@ -148,11 +153,7 @@ def _weighted_percentiles(values: np.ndarray, weights: np.ndarray | None) -> lis
 def distribution(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> Distribution:
     """How ``m``'s extent is spread: percentiles, shares beyond the limits of the rule's
     place grades, per place, and where the worst value sits."""
-    extent = m.extent
-    assert extent is not None
-    values = np.asarray(extent.values, dtype=np.float64)
-    places = np.asarray(extent.places)
-    weights = None if extent.weights is None else np.asarray(extent.weights, dtype=np.float64)
+    extent, values, places, weights = _arrays(m)
     worse = m.worse or rule.worse
     main = grades[rule.main_grade]
     limits: set[float] = set()

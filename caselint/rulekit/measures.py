@@ -10,7 +10,7 @@ and place (:mod:`caselint.engine.extent`) and locate the worst of each place the
 from __future__ import annotations
 
 import dataclasses
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -35,7 +35,7 @@ from caselint.rulekit.locate import (
     touched_cell_count,
     worst_ids,
 )
-from caselint.rulekit.places import cell_places, face_places
+from caselint.rulekit.places import NEAR_WALL_PARAMETER, cell_places, face_places
 from caselint.rulekit.words import plural
 
 if TYPE_CHECKING:
@@ -125,17 +125,20 @@ def cell_extent(ctx: "RuleContext", values: np.ndarray, fmt: str) -> Extent:
                                                                   fmt))
 
 
-def place_grades(*, elsewhere: Limits, share_warn: float | None, share_error: float | None,
-                 elsewhere_source: str) -> tuple[Grade, ...]:
-    """The grades of a metric graded by place, beside its main grade (which judges
-    regions of interest and the band near no-slip walls, :data:`STRICT_PLACES`):
+def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: float = 1.0,
+                    share_error: float = 10.0) -> dict[str, Any]:
+    """The :class:`~caselint.model.Rule` settings of a metric graded by place: its main grade
+    ``strict`` judges the worst value in regions of interest and near no-slip walls
+    (:data:`STRICT_PLACES`) against the rule's limits, and
 
-    - ``elsewhere``: the worst value in the rest of the mesh (what breaks a solver there);
-    - ``elsewhere-share``: the share of the entities elsewhere beyond the main warning
+    - ``elsewhere`` the worst value in the rest of the mesh (what breaks a solver there);
+    - ``elsewhere-share`` the share of the entities elsewhere beyond the main warning
       limit, in percent (caselint default: a warning above ``share_warn``, an error above
-      ``share_error``).
+      ``share_error``);
+
+    with the parameter ``near_wall_layers``. Use as ``Rule(..., **graded_by_place(...))``.
     """
-    return (
+    grades = (
         Grade("elsewhere", elsewhere.warn, elsewhere.error, places=("elsewhere",),
               description="worst value away from regions of interest and no-slip walls",
               source=elsewhere_source),
@@ -147,11 +150,9 @@ def place_grades(*, elsewhere: Limits, share_warn: float | None, share_error: fl
               source="caselint default: a few per cent of compromise cells far from the "
                      "resolved flow is the usual cost of a mesh, a tenth of the mesh is not"),
     )
-
-
-#: The places the main grade of a metric graded by place judges, and what it judges there.
-MAIN_PLACES = STRICT_PLACES
-STRICT_WORDS = "worst value in regions of interest and near no-slip walls"
+    return {"main_grade": "strict", "main_places": STRICT_PLACES, "grades": grades,
+            "main_description": "worst value in regions of interest and near no-slip walls",
+            "parameters": (NEAR_WALL_PARAMETER,)}
 
 
 def with_histogram(result: RuleResult, limits: Limits, values: np.ndarray, edges: np.ndarray,

@@ -26,17 +26,14 @@ from caselint.mesh import quality
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
 from caselint.rulekit import RuleContext, cell_names, finite_point, plural, worst_ids
 from caselint.rulekit.measures import (
-    MAIN_PLACES,
-    STRICT_WORDS,
     cell_extent,
     cell_measurement,
     face_extent,
     face_measurement,
+    graded_by_place,
     nonfinite_skip,
-    place_grades,
     with_histogram,
 )
-from caselint.rulekit.places import NEAR_WALL_PARAMETER
 
 _VERDICT = "Verdict geometric quality library (Stimpson et al., SAND2007-1751, 2007)"
 #: Most bins of a histogram a rule attaches (growth ratio: 0.05 wide up to 1.5x the limit).
@@ -188,14 +185,9 @@ NON_ORTHOGONALITY = Rule(
           "blocks, align block edges with each other, smooth the mesh near sharp corners."),
     check=check_non_orthogonality,
     measures="largest face non-orthogonality (angle between face area vector and cell-centre line)",
-    main_grade="strict",
-    main_places=MAIN_PLACES,
-    main_description=STRICT_WORDS,
-    grades=place_grades(elsewhere=Limits(warn=None, error=85.0), share_warn=1.0,
-                        share_error=10.0,
-                        elsewhere_source="common practice (the error limit, where the "
-                                         "non-orthogonal correction breaks down)"),
-    parameters=(NEAR_WALL_PARAMETER,),
+    **graded_by_place(elsewhere=Limits(warn=None, error=85.0),
+                      elsewhere_source="common practice (the error limit, where the "
+                                       "non-orthogonal correction breaks down)"),
 )
 
 SKEWNESS = Rule(
@@ -219,13 +211,8 @@ SKEWNESS = Rule(
           "block spacing and stretched cells that meet at a kink."),
     check=check_skewness,
     measures="largest face skewness (|x_f - x_i| / |d|, internal faces)",
-    main_grade="strict",
-    main_places=MAIN_PLACES,
-    main_description=STRICT_WORDS,
-    grades=place_grades(elsewhere=Limits(warn=None, error=1.0), share_warn=1.0,
-                        share_error=10.0,
-                        elsewhere_source="common practice (the error limit)"),
-    parameters=(NEAR_WALL_PARAMETER,),
+    **graded_by_place(elsewhere=Limits(warn=None, error=1.0),
+                      elsewhere_source="common practice (the error limit)"),
 )
 
 ASPECT_RATIO = Rule(
@@ -247,12 +234,8 @@ ASPECT_RATIO = Rule(
           "wall layers high ratios are expected, so only act when they appear away from walls."),
     check=check_aspect_ratio,
     measures="largest cell edge ratio (longest over shortest edge)",
-    main_grade="strict",
-    main_places=MAIN_PLACES,
-    main_description=STRICT_WORDS,
-    grades=place_grades(elsewhere=Limits(), share_warn=1.0, share_error=10.0,
-                        elsewhere_source="caselint default (reported, not graded)"),
-    parameters=(NEAR_WALL_PARAMETER,),
+    **graded_by_place(elsewhere=Limits(),
+                      elsewhere_source="caselint default (reported, not graded)"),
 )
 
 GROWTH_RATIO = Rule(
@@ -274,12 +257,8 @@ GROWTH_RATIO = Rule(
           "cells), and blend refinement zones over several cells rather than one."),
     check=check_growth_ratio,
     measures="largest volume ratio of two neighbouring cells",
-    main_grade="strict",
-    main_places=MAIN_PLACES,
-    main_description=STRICT_WORDS,
-    grades=place_grades(elsewhere=Limits(), share_warn=1.0, share_error=10.0,
-                        elsewhere_source="caselint default (reported, not graded)"),
-    parameters=(NEAR_WALL_PARAMETER,),
+    **graded_by_place(elsewhere=Limits(),
+                      elsewhere_source="caselint default (reported, not graded)"),
 )
 
 RULES: tuple[Rule, ...] = (INVERTED_CELLS, NON_ORTHOGONALITY, SKEWNESS, ASPECT_RATIO, GROWTH_RATIO)
