@@ -211,3 +211,47 @@ def test_a_place_with_no_entity_gives_no_measurement():
     m = Measurement(1.0, extent=_extent([1.0, 1.5], ["near-wall", "near-wall"]))
     (only,) = expand(rule, resolve(rule).grades, m)
     assert only.grade == "strict"
+
+
+# -- the band near the walls, and findings that keep their identity ---------------------------
+
+
+@pytest.mark.parametrize("walls, layers, expected", [
+    (("zmin",), 3, 3 * 8 * 8),                       # three slabs of 8 x 8 cells [computed]
+    (("ymin", "ymax", "zmin", "zmax"), 2, 8 * (8 * 8 - 4 * 4)),    # a frame 2 cells thick
+    (("zmin",), 0, 0),
+    (("zmin", "zmax"), 5, 8 * 8 * 8),                # the bands meet: every cell
+])
+def test_the_near_wall_band_counts_layers_through_the_faces(walls, layers, expected):
+    from caselint.rulekit.places import near_wall_cells
+
+    mesh = mesh_from_meshio(structured_hex(*(np.arange(9.0),) * 3))
+    faces = np.concatenate([mesh.group_faces(name) for name in walls])
+    band = near_wall_cells(mesh, faces, layers)
+    assert int(band.sum()) == expected
+    if walls == ("zmin",) and layers:
+        assert mesh.cell_centroids[band, 2].max() == layers - 0.5    # the last layer's centre
+
+
+def test_findings_graded_by_place_have_fingerprints_of_their_own(tmp_path):
+    from caselint.baseline import finding_fingerprint
+
+    # the region holds the four cells behind the node; the four ahead (0.875 m^3) meet unit
+    # cells elsewhere across faces of growth 8/7 = 1.143, beyond 1.1
+    case = write(tmp_path, 13.0, """\
+        regions:
+          - {name: dryer-outlet, box: {min: [7.2, 7.2, 12.2], max: [7.8, 8.8, 13.8]}}
+        """, growth="warn: 1.25, grades: {elsewhere-share: {warn: 0.01, beyond: 1.1}}")
+    report = lint_case(case)
+    findings = [f for f in report.findings if f.rule == "growth-ratio"]
+    assert sorted(f.where.place for f in findings) == ["elsewhere", "near-wall+region"]
+    prints = {finding_fingerprint(str(case), f) for f in findings}
+    assert len(prints) == 2
+    # a finding that is not graded by place keeps the fingerprint it had before
+    plain = [f for f in report.findings if f.where.place is None][0]
+    import hashlib
+
+    old = hashlib.sha256(json.dumps(
+        [plain.rule, str(case).replace("\\", "/"), plain.where.boundary or "",
+         plain.where.region or "", plain.where.key or ""], separators=(",", ":")).encode())
+    assert finding_fingerprint(str(case), plain) == old.hexdigest()
