@@ -32,18 +32,20 @@ _EPILOG = (
 
 
 def _block_option(parser: argparse.ArgumentParser, dest: str, default: object) -> None:
-    """``-p no:NAME``: do not load the plugin NAME (a built-in module or an installed pack)."""
+    """``--no-plugin NAME``: do not load the plugin NAME (a built-in module or an installed
+    pack). The old spelling ``-p no:NAME`` is refused with a message giving the new one."""
     parser.add_argument(
-        "-p", dest=dest, action="append", default=default, metavar="no:NAME",
-        type=_blocked_name,
+        "--no-plugin", dest=dest, action="append", default=default, metavar="NAME",
         help="do not load plugin NAME (repeatable); `caselint plugins` lists the names",
     )
+    parser.add_argument("-p", dest=f"{dest}_old", action="append", type=_old_block_option,
+                        default=argparse.SUPPRESS, help=argparse.SUPPRESS)
 
 
-def _blocked_name(value: str) -> str:
-    if not value.startswith("no:") or not value[3:]:
-        raise argparse.ArgumentTypeError(f"expected no:NAME (a plugin to block), got {value!r}")
-    return value[3:]
+def _old_block_option(value: str) -> str:
+    name = value[3:] if value.startswith("no:") else value
+    raise argparse.ArgumentTypeError(f"-p {value} is no longer an option; block a plugin with "
+                                     f"--no-plugin {name or 'NAME'}")
 
 
 def _report_options(parser: argparse.ArgumentParser, *, demo: bool = False) -> None:

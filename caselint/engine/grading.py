@@ -51,6 +51,10 @@ def message(rule: Rule, m: Measurement, severity: str, limit: float | None) -> s
         scope = f" on boundary '{m.where.boundary}'"
     elif m.where.region:
         scope = f" in region '{m.where.region}'"
+    elif m.where.place:
+        from caselint.engine.extent import place_words
+
+        scope = " " + place_words(tuple(m.where.place.split("+")))
     grade_word = "error" if severity == "error" else "warning"
     relation = "above" if (m.worse or rule.worse) == "higher" else "below"
     if limit is None:

@@ -15,6 +15,7 @@ problem is not checked further (its values are not what the later checks expect)
 
 from __future__ import annotations
 
+import copy
 import datetime as _dt
 import math
 import re
@@ -24,8 +25,8 @@ from typing import Any, Callable
 
 from caselint.errors import CaseFileError, CaseFileErrors
 from caselint.manifest.case import (
-    SCHEME_INTEGRATION, Case, CaseInfo, Checks, Flow, Fluid, GridStudy, MeshSpec, Physics,
-    Region, Review, TimeSpec, Turbulence, Waiver,
+    METHOD_ALIASES, RENAMED_VALUES, SCHEME_INTEGRATION, Case, CaseInfo, Checks, Flow, Fluid,
+    GridStudy, MeshSpec, Physics, Region, Review, TimeSpec, Turbulence, Waiver,
 )
 from caselint.manifest.messages import describe
 from caselint.manifest.schema import case_schema, schema_problems
@@ -39,19 +40,24 @@ FORMAT_VERSION = 1
 FLUID_CONSISTENCY = 0.01
 
 
-def load_case(path: str | Path, *, extensions: Mapping[str, dict] | None = None) -> Case:
+def load_case(path: str | Path, *, extensions: Mapping[str, dict] | None = None,
+              quantities: Mapping[str, Mapping[str, str]] | None = None) -> Case:
     """Load and validate a case file; ``extensions`` maps plugin sections to schema fragments.
+
+    ``quantities`` maps a plugin section to its quantities (dotted key in the section ->
+    dimension name), which are converted to SI like the case file's own.
 
     :raises CaseFileError: every problem found (a :class:`CaseFileErrors` when several).
     """
     case_path = Path(path)
     doc = load_yaml(case_path, keep_problems=True)
     _check_version(doc)
+    _check_renamed(doc)
     data, problems = schema_problems(doc, case_schema(extensions))
     problems = [*doc.problems, *problems]
     broken = {_section(p.key) for p in problems}
     builder = _CaseBuilder(case_path, doc, skip=broken)   # problems there: no Case is built
-    case = builder.build(data, extensions or {})
+    case = builder.build(data, extensions or {}, quantities or {})
     problems += builder.problems
     if problems or case is None:
         raise CaseFileErrors.of(problems)
@@ -80,6 +86,29 @@ def _check_version(doc: YamlDoc) -> None:
                         column=doc.column_of("caselint"), key="caselint")
 
 
+def _check_renamed(doc: YamlDoc) -> None:
+    """A value an earlier format spelt differently names its new spelling (exit 2)."""
+    data = doc.data if isinstance(doc.data, dict) else {}
+    found: list[tuple[str, str, Any]] = []
+    mesh = data.get("mesh")
+    boundaries = mesh.get("boundaries") if isinstance(mesh, dict) else None
+    for name, role in (boundaries.items() if isinstance(boundaries, dict) else ()):
+        if isinstance(role, dict):
+            found.append(("boundary role", f"mesh.boundaries.{name}.type", role.get("type")))
+        else:
+            found.append(("boundary role", f"mesh.boundaries.{name}", role))
+    physics = data.get("physics")
+    turbulence = physics.get("turbulence") if isinstance(physics, dict) else None
+    if isinstance(turbulence, dict):
+        found.append(("turbulence model", "physics.turbulence.model", turbulence.get("model")))
+    for what, key, value in found:
+        for kind, old, new in RENAMED_VALUES:
+            if kind == what and value == old:
+                raise CaseFileError(doc.file, f"the {what} '{old}' is now called '{new}'; "
+                                    f"write {new}", line=doc.line_of(key),
+                                    column=doc.column_of(key), key=key)
+
+
 class _CaseBuilder(ValueReader):
     """Turns validated case-file data into a Case, pointing any error at its line."""
 
@@ -89,7 +118,8 @@ class _CaseBuilder(ValueReader):
 
     # -- sections ----------------------------------------------------------------------
 
-    def build(self, data: dict[str, Any], extensions: Mapping[str, dict]) -> Case | None:
+    def build(self, data: dict[str, Any], extensions: Mapping[str, dict],
+              quantities: Mapping[str, Mapping[str, str]]) -> Case | None:
         """The Case, or None when a problem was found (each is kept in ``problems``).
 
         A top-level section with a schema problem, or a required one that is missing, is
@@ -120,7 +150,8 @@ class _CaseBuilder(ValueReader):
             version=data["caselint"],
             info=CaseInfo(**data["case"]),
             regions=regions,
-            extensions={name: data[name] for name in sorted(extensions) if name in data},
+            extensions={name: self.section(name, data[name], quantities.get(name, {}))
+                        for name in sorted(extensions) if name in data},
             document=data,
             lines=dict(self.doc.lines),
             **built,
@@ -129,6 +160,21 @@ class _CaseBuilder(ValueReader):
     def grid_study(self, spec: dict[str, Any]) -> GridStudy:
         return GridStudy(tuple(self.mesh_file(m, f"grid_study.meshes[{i}]")
                                for i, m in enumerate(spec.get("meshes", []))))
+
+    def section(self, name: str, data: Any, quantities: Mapping[str, str]) -> Any:
+        """A plugin section's data with its declared quantities in SI (the rest as written)."""
+        if not quantities or not isinstance(data, dict):
+            return data
+        out = copy.deepcopy(data)
+        for key, dimension in sorted(quantities.items()):
+            *parents, last = key.split(".")
+            holder = out
+            for part in parents:
+                holder = holder.get(part) if isinstance(holder, dict) else None
+            if isinstance(holder, dict) and last in holder:
+                path = ".".join([name, *parents])
+                holder[last] = self.quantity(holder, last, dimension, path, positive=False)
+        return out
 
     def mesh(self, spec: dict[str, Any]) -> MeshSpec:
         units = spec.get("units", "m")
@@ -170,7 +216,8 @@ class _CaseBuilder(ValueReader):
             strouhal=self.finite(flow_spec, "strouhal", p),
         )
         turbulence = Turbulence(**spec["turbulence"]) if "turbulence" in spec else Turbulence()
-        return Physics(method=spec.get("method", "finite-volume"), fluid=fluid, flow=flow,
+        method = spec.get("method", "cell-centred")
+        return Physics(method=METHOD_ALIASES.get(method, method), fluid=fluid, flow=flow,
                        turbulence=turbulence, compressible=spec.get("compressible", False))
 
     @collects

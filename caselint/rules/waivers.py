@@ -7,15 +7,13 @@ from __future__ import annotations
 
 import difflib
 
-from caselint.engine.context import RuleContext
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
 from caselint.model import Limits, Measurement, Rule, RuleResult, Where
+from caselint.rulekit import RuleContext
 
 
 def _check(ctx: RuleContext) -> RuleResult:
     waivers = ctx.case.checks.waivers
-    if not waivers:
-        return RuleResult.skip("the case file has no waivers")
     expired = [(i, w) for i, w in enumerate(waivers) if w.expires < ctx.today]
     if not expired:
         soonest = min(w.expires for w in waivers)

@@ -50,7 +50,7 @@ def read_cgns(path: Path, options: ReadOptions) -> MeshData:
         dim = int(dims.ravel()[0])
         families = {node_name(fam): text(child(fam, "FamilyBC_t"))
                     for fam in children(base, "Family_t")}
-        zones = _zones(name, base, dim, families, options.zone)
+        zones = _zones(name, base, dim, families, options.zone, options.memory_limit)
     if len(bases) > 1:
         notes.append(f"the first of {len(bases)} bases read ({node_name(base)})")
     if options.zone is not None:
@@ -75,7 +75,8 @@ def read_cgns(path: Path, options: ReadOptions) -> MeshData:
     return _vertex_groups(mesh, zones, maps, names)
 
 
-def _zones(path: str, base, dim: int, families: dict, wanted: str | None) -> list[Zone]:
+def _zones(path: str, base, dim: int, families: dict, wanted: str | None,
+           limit=None) -> list[Zone]:
     nodes = children(base, "Zone_t")
     if not nodes:
         raise MeshReadError(path, f"{base.name} holds no Zone_t node (no mesh)")
@@ -99,7 +100,7 @@ def _zones(path: str, base, dim: int, families: dict, wanted: str | None) -> lis
                                       "Structured or Unstructured")
         sizes = sizes.reshape(3, -1).astype(np.int64)     # rows: vertices, cells, boundary
         declared += int(np.prod(sizes[1][:dim])) if kind == "Structured" else int(sizes[1][0])
-        check_memory(path, {"cell": declared}, "the zone sizes")   # before reading the zone
+        check_memory(path, {"cell": declared}, "the zone sizes", limit)   # before reading the zone
         if kind == "Structured":
             z = structured(path, zn, dim, sizes)
             shape = tuple(int(v) for v in sizes[0][:dim])[::-1]

@@ -159,7 +159,8 @@ def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
     no_zones(path, options)       # cell zones are regions of one mesh, read together
     g = _collect(name, sections(name, path.read_bytes()))
     if 12 in g.totals:                      # before the faces are built
-        check_memory(name, {"cell": g.totals[12][0]}, "the file header")
+        check_memory(name, {"cell": g.totals[12][0]}, "the file header",
+                     options.memory_limit)
     if not g.faces or not g.nodes:
         missing = " and ".join(w for w, have in (("node", g.nodes), ("face", g.faces))
                                if not have)

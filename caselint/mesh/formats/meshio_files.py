@@ -75,7 +75,7 @@ def read_meshio(path: Path, options: ReadOptions) -> MeshData:
 
     declared = header_cell_count(name)
     if declared is not None:           # refuse before meshio fills the memory
-        check_memory(name, {"element": declared}, "the file header")
+        check_memory(name, {"element": declared}, "the file header", options.memory_limit)
     sink = io.StringIO()
     try:
         with _READ_LOCK, contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink), \
@@ -96,7 +96,7 @@ def read_meshio(path: Path, options: ReadOptions) -> MeshData:
     counts: dict[str, int] = {}
     for block in raw.cells:
         counts[block.type] = counts.get(block.type, 0) + len(block.data)
-    check_memory(name, counts, "the cells read")       # before the faces are built
+    check_memory(name, counts, "the cells read", options.memory_limit)       # before the faces are built
     sides = []
     if path.suffix.lower() in EXODUS_SUFFIXES and options.tag_array is None:
         from caselint.mesh.formats.exodus_sides import side_sets

@@ -256,7 +256,8 @@ def read_su2(path: Path, options: ReadOptions) -> MeshData:
         _check_zone(name, z, f"zone {z.number}: " if len(zones) > 1 else "")
     zone, label = _choose(name, zones, n_zone, options.zone)
     types, by_type = zone.elements
-    check_memory(name, {t: len(ids) for t, (ids, _) in by_type.items()}, "the file")
+    check_memory(name, {t: len(ids) for t, (ids, _) in by_type.items()}, "the file",
+                 options.memory_limit)
     n_points = len(zone.points)
     blocks, order = _blocks(name, types, by_type, n_points)
     group_names = tuple(sorted({m for m, _ in zone.markers}))
