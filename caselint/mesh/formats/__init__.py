@@ -5,6 +5,6 @@
 chosen for a path).
 """
 
-from caselint.mesh.formats import meshio_files
+from caselint.mesh.formats import face_folder, meshio_files
 
-BUILTIN_READERS = (meshio_files.READER,)
+BUILTIN_READERS = (face_folder.READER, meshio_files.READER)
