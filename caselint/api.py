@@ -90,6 +90,17 @@ def load_case_mesh(case: "Case", readers: "Iterable[MeshReader] | None" = None) 
             raise CaseFileError(str(case.path), f"boundary group {name!r} is not in the mesh "
                                 f"{spec.file.name}{hint}; the mesh has: {known}",
                                 line=case.line_of(key), key=key)
+    zones = mesh.data.zone_names
+    for i, region in enumerate(case.regions):
+        zone = region.geometry.get("zone") if region.shape == "zone" else None
+        if zone is not None and zone not in zones:
+            close = difflib.get_close_matches(str(zone), zones, n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            key = f"regions[{i}].zone"
+            raise CaseFileError(str(case.path), f"cell zone {zone!r} is not in the mesh "
+                                f"{spec.file.name}{hint}; the mesh has: "
+                                f"{', '.join(zones) or 'no cell zones'}",
+                                line=case.line_of(key), key=key)
     return mesh
 
 
@@ -125,18 +136,39 @@ def lint_case(
 
     :raises UsageError: bad case file, rule set or mesh; the message names file, line and key.
     """
+    from caselint.mesh.readers import mesh_sha256
+
     pm = pm if pm is not None else get_plugin_manager()
     case = load_case(path, pm)
     selection = select_for_case(case, pm, rule_sets)
     needs_mesh = any("mesh" in a.rule.needs for a in selection.rules)
     readers = tuple(collect_mesh_readers(pm).values())
     mesh = load_case_mesh(case, readers) if needs_mesh else None
+    if mesh is not None:
+        case = with_declared_roles(case, mesh)
     report = run_case(case, selection.rules,
                       lambda: mesh if mesh is not None else load_case_mesh(case, readers),
                       label=str(path), rule_sets=selection.rule_sets,
                       checklist=selection.checklist, today=today)
     return dataclasses.replace(report, case_sha256=file_sha256(case.path),
-                               mesh_sha256=file_sha256(case.mesh.file))
+                               mesh_sha256=mesh_sha256(case.mesh.file, readers))
+
+
+def with_declared_roles(case: "Case", mesh: "Mesh") -> "Case":
+    """``case`` with a role for each mesh group the case file leaves out whose declared
+    type implies one (a ``wall`` patch is a wall; :mod:`caselint.mesh.roles`); the case
+    file's roles win."""
+    from caselint.mesh.roles import default_roles
+
+    implied = default_roles({name: kind for name, kind in mesh.data.group_types.items()
+                             if name in mesh.group_names})
+    missing = {name: role for name, role in implied.items()
+               if name not in case.mesh.boundaries}
+    if not missing:
+        return case
+    roles = {**case.mesh.boundaries, **missing}
+    return dataclasses.replace(case, mesh=dataclasses.replace(
+        case.mesh, boundaries=dict(sorted(roles.items()))))
 
 
 def file_sha256(path: Path) -> str:

@@ -178,8 +178,10 @@ def _same_file(a: Path, b: Path) -> bool:
 
 
 def _protect_inputs(path: Path, what: str, inputs: list[Path], kind: str) -> None:
-    """Refuse to write a report or baseline over an input file."""
-    if any(_same_file(path, p) for p in inputs):
+    """Refuse to write a report or baseline over an input file, or into an input folder
+    (a mesh folder)."""
+    if any(_same_file(path, p) or (p.is_dir() and path.resolve().is_relative_to(p.resolve()))
+           for p in inputs):
         raise UsageError(f"{what} {path} is {kind}; caselint never overwrites its inputs")
 
 

@@ -150,14 +150,13 @@ class _CaseBuilder:
         return (values[0] / norm, values[1] / norm, values[2] / norm)
 
     def mesh_file(self, text: str, key: str) -> Path:
-        """Absolute path of a mesh file named in the case file, which must exist."""
+        """Absolute path of a mesh file or mesh folder named in the case file, which must
+        exist (whether a reader takes a folder is found when the mesh is read)."""
         if "\0" in text:
             raise self.fail(key, "a file name cannot contain a NUL character")
         try:
             path = (self.folder / text).resolve()
-            if path.is_dir():
-                raise self.fail(key, f"mesh file is a folder, not a file: {path}")
-            if not path.is_file():
+            if not path.is_file() and not path.is_dir():
                 raise self.fail(key, f"mesh file not found: {path}")
         except OSError as exc:        # a name too long, a loop of links, no permission
             raise self.fail(key, f"cannot use {text!r} as a mesh file: "
@@ -276,7 +275,7 @@ class _CaseBuilder:
                 raise self.fail(f"{path}.name", f"region name '{name}' is used twice "
                                                 f"(also regions[{first[name]}])")
             first[name] = i
-            shape = next(s for s in ("box", "sphere", "cylinder") if s in spec)
+            shape = next(s for s in ("box", "sphere", "cylinder", "zone") if s in spec)
             out.append(Region(
                 name=name,
                 shape=shape,
@@ -285,7 +284,9 @@ class _CaseBuilder:
             ))
         return tuple(out)
 
-    def region_geometry(self, shape: str, spec: dict[str, Any], path: str) -> dict[str, object]:
+    def region_geometry(self, shape: str, spec: Any, path: str) -> dict[str, object]:
+        if shape == "zone":
+            return {"zone": spec}
         if shape == "box":
             lo = self.point(spec["min"], f"{path}.min")
             hi = self.point(spec["max"], f"{path}.max")

@@ -58,7 +58,9 @@ class MeshReader:
     (``(".su2",)``); ``folders`` says the reader reads folders. ``accepts(path)`` is an
     optional cheap look at the content (a header, a sub-folder) for suffixes or folders
     that other formats share. ``read(path, options)`` returns the mesh data or raises
-    :class:`~caselint.errors.MeshReadError` naming the file and what is wrong.
+    :class:`~caselint.errors.MeshReadError` naming the file and what is wrong. A folder
+    reader's ``files(path)`` lists the files a read uses, for the mesh's fingerprint
+    (:func:`mesh_sha256`).
     """
 
     name: str
@@ -67,6 +69,7 @@ class MeshReader:
     suffixes: tuple[str, ...] = ()
     folders: bool = False
     accepts: Callable[[Path], bool] | None = None
+    files: Callable[[Path], list[Path]] | None = None
 
     def __post_init__(self) -> None:
         import re
@@ -120,6 +123,33 @@ def choose_reader(path: Path, readers: Iterable[MeshReader]) -> MeshReader:
                             f"{path.suffix} file (tried {', '.join(shared)})")
     raise MeshReadError(str(path), f"unknown mesh format {path.suffix or '(no extension)'!r}; "
                         f"expected one of {', '.join(suffixes)}, or a mesh folder")
+
+
+def mesh_sha256(path: Path, readers: Iterable[MeshReader] | None = None) -> str:
+    """SHA-256 of a mesh file's bytes; for a mesh folder, over the relative path and the
+    bytes of each file its reader reads (``MeshReader.files``), in name order; "" when
+    that reader does not list them."""
+    import hashlib
+
+    path = Path(path)
+    digest = hashlib.sha256()
+    if path.is_dir():
+        reader = choose_reader(path, builtin_readers() if readers is None else readers)
+        if reader.files is None:
+            return ""
+        for file in sorted(reader.files(path)):
+            name = file.relative_to(path).as_posix()
+            digest.update(f"{name}\0{file.stat().st_size}\0".encode())
+            _update(digest, file)
+        return digest.hexdigest()
+    _update(digest, path)
+    return digest.hexdigest()
+
+
+def _update(digest, file: Path) -> None:
+    with open(file, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
 
 
 def checked_points(path: str, points: np.ndarray, scale_to_m: float) -> np.ndarray:

@@ -1,7 +1,8 @@
 """Built-in rule ``region-cell-size``: are the cells in each region of interest small enough?
 
 A region of the case file (``regions``: a box, a sphere or a cylinder, in metres) holds the
-cells whose centroid lies inside it. The size of a cell is the cube root of its volume
+cells whose centroid lies inside it; a region naming a cell zone of the mesh (``zone``)
+holds that zone's cells. The size of a cell is the cube root of its volume
 (the square root of its area on a 2-D mesh); the rule reports, per region, the largest size
 against the region's ``max_cell_size``, and how many cells and which exceed it.
 
@@ -69,6 +70,16 @@ def inside(region: Region, points: np.ndarray, dim: int = 3) -> np.ndarray:
     return (along >= 0) & (along <= length) & ((radial**2).sum(axis=1) <= radius**2)
 
 
+def region_cells(region: Region, mesh: "Mesh") -> np.ndarray:
+    """Ids of the cells of ``region``: the zone's cells, or those whose centroid is inside."""
+    if region.shape == "zone":
+        zones = mesh.data.zone_names
+        if mesh.data.cell_zone is None or region.geometry["zone"] not in zones:
+            return np.zeros(0, dtype=np.int64)
+        return np.flatnonzero(mesh.data.cell_zone == zones.index(region.geometry["zone"]))
+    return np.flatnonzero(inside(region, mesh.cell_centroids, mesh.dim))
+
+
 def _scaled(limits: Limits, size: float) -> Limits:
     """The rule's limits (multiples of max_cell_size) in metres for one region."""
     return Limits(warn=None if limits.warn is None else limits.warn * size,
@@ -81,8 +92,12 @@ def _region_measurement(mesh: "Mesh", index: int, region: Region, sizes: np.ndar
     target = float(region.max_cell_size)
     key = f"regions[{index}]"
     m_limits = _scaled(limits, target)
-    cells = np.flatnonzero(inside(region, mesh.cell_centroids, mesh.dim))
+    cells = region_cells(region, mesh)
     nearest = ""
+    if cells.size == 0 and region.shape == "zone":
+        return Note(f"region '{region.name}': the mesh's cell zone "
+                    f"'{region.geometry['zone']}' holds no cell", where=Where(region=region.name,
+                                                                               key=key))
     if cells.size == 0:
         lo, hi = mesh.bounds
         centre = region_centre(region)

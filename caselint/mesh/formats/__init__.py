@@ -5,6 +5,7 @@
 chosen for a path).
 """
 
-from caselint.mesh.formats import face_folder, meshio_files
+from caselint.mesh.formats import face_folder, meshio_files, vtk_legacy, vtu_files
 
-BUILTIN_READERS = (face_folder.READER, meshio_files.READER)
+BUILTIN_READERS = (face_folder.READER, meshio_files.READER, vtk_legacy.READER,
+                   vtu_files.READER)

@@ -343,5 +343,5 @@ READER = MeshReader(
     name="face-folder",
     description="face-based mesh folder (constant/polyMesh: points, faces, owner, neighbour, "
                 "boundary), ASCII, binary or gzip, also decomposed into processor folders",
-    read=read_face_folder, folders=True, accepts=accepts)
+    read=read_face_folder, folders=True, accepts=accepts, files=input_files)
 
