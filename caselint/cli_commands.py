@@ -177,6 +177,15 @@ def _same_file(a: Path, b: Path) -> bool:
     return a.resolve() == b.resolve()
 
 
+def mesh_input_folders(mesh: Path) -> list[Path]:
+    """A mesh file, or the folders holding the files a mesh folder is read from."""
+    if not mesh.is_dir():
+        return [mesh]
+    from caselint.mesh.readers import mesh_files
+
+    return sorted({file.parent for file in mesh_files(mesh)}) or [mesh]
+
+
 def _protect_inputs(path: Path, what: str, inputs: list[Path], kind: str) -> None:
     """Refuse to write a report or baseline over an input file, or into an input folder
     (a mesh folder)."""
@@ -221,6 +230,7 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
     cases = tuple(case for _, case in checked)
     # CaseReport.mesh is relative to the case file's folder.
     meshes = [Path(path).parent / case.mesh for path, case in checked if case.mesh]
+    meshes = [folder for mesh in meshes for folder in mesh_input_folders(mesh)]
     for path, option in written:
         _protect_inputs(path, option, meshes, "a mesh file of a case")
     report = build_report(cases, pm, rule_sets)

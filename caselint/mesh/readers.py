@@ -125,6 +125,16 @@ def choose_reader(path: Path, readers: Iterable[MeshReader]) -> MeshReader:
                         f"expected one of {', '.join(suffixes)}, or a mesh folder")
 
 
+def mesh_files(path: Path, readers: Iterable[MeshReader] | None = None) -> list[Path]:
+    """The files a read of the mesh folder ``path`` uses (its reader's ``files``), sorted;
+    [] when no reader takes it or the reader does not list them."""
+    try:
+        reader = choose_reader(path, builtin_readers() if readers is None else readers)
+    except MeshReadError:
+        return []
+    return sorted(reader.files(path)) if reader.files is not None else []
+
+
 def mesh_sha256(path: Path, readers: Iterable[MeshReader] | None = None) -> str:
     """SHA-256 of a mesh file's bytes; for a mesh folder, over the relative path and the
     bytes of each file its reader reads (``MeshReader.files``), in name order; "" when
@@ -134,10 +144,10 @@ def mesh_sha256(path: Path, readers: Iterable[MeshReader] | None = None) -> str:
     path = Path(path)
     digest = hashlib.sha256()
     if path.is_dir():
-        reader = choose_reader(path, builtin_readers() if readers is None else readers)
-        if reader.files is None:
+        files = mesh_files(path, readers)
+        if not files:
             return ""
-        for file in sorted(reader.files(path)):
+        for file in files:
             name = file.relative_to(path).as_posix()
             digest.update(f"{name}\0{file.stat().st_size}\0".encode())
             _update(digest, file)

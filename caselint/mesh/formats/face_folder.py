@@ -313,9 +313,9 @@ def folder_data(raw: FolderMesh, options: ReadOptions, *, path: str,
         group_types=types, cell_zone=cell_zone,
         zone_names=zone_names, notes=notes)
     flat = flat_case(data)
-    if flat is not None:
+    if flat is not None and flat.dim == 2:
         return flat
-    return with_shapes(data)
+    return with_shapes(flat or data)
 
 
 def read_face_folder(path: Path, options: ReadOptions) -> MeshData:
