@@ -323,7 +323,8 @@ def _vtu_array(values: np.ndarray, name: str, vtk_type: str, fmt: str, component
 
 def write_vtu_22(path, points: np.ndarray, cells: list[tuple[int, list]], *,
                  fmt: str = "binary", compress: bool = True,
-                 cell_data: dict[str, np.ndarray] | None = None) -> Path:
+                 cell_data: dict[str, np.ndarray] | None = None,
+                 field_data: dict[str, np.ndarray] | None = None) -> Path:
     """A VTU file in the 2.2 polyhedron layout.
 
     ``cells``: (VTK type, nodes) pairs; for a polyhedron (type 42) ``nodes`` is its list of
@@ -353,11 +354,14 @@ def write_vtu_22(path, points: np.ndarray, cells: list[tuple[int, list]], *,
     cell_arrays = "".join(_vtu_array(np.asarray(v), k, "Int32" if np.asarray(v).dtype.kind in "iu"
                                      else "Float64", fmt, compress=compress)
                           for k, v in (cell_data or {}).items())
+    fields = "".join(_vtu_array(np.asarray(v), k, "Int32", fmt, compress=compress)
+                     for k, v in (field_data or {}).items())
     text = (
         '<?xml version="1.0"?>\n<VTKFile type="UnstructuredGrid" version="2.2" '
         'byte_order="LittleEndian" header_type="UInt64"'
         + (' compressor="vtkZLibDataCompressor"' if compress and fmt == "binary" else "")
-        + f'>\n<UnstructuredGrid>\n<Piece NumberOfPoints="{len(points)}" '
+        + f'>\n<UnstructuredGrid>\n<FieldData>\n{fields}</FieldData>\n'
+        f'<Piece NumberOfPoints="{len(points)}" '
         f'NumberOfCells="{len(cells)}">\n<CellData>\n{cell_arrays}</CellData>\n<Points>\n'
         + _vtu_array(np.asarray(points, np.float64), "Points", "Float64", fmt, 3, compress)
         + "</Points>\n<Cells>\n"

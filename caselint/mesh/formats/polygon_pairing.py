@@ -10,9 +10,12 @@ Matching, vectorised per polygon size ``k``: every cycle is written in a canonic
 (rotated to start at its smallest point id, then turned so that the second point is the
 smaller of that point's two neighbours); rows are sorted (two packed int64 keys for
 ``k <= 4``, all columns otherwise) and equal neighbours in the sorted order are the same
-polygon. A pair whose cycles run the same way round in both cells (*clashing*: one cell
-lists the face inwards) gets its owner from the geometry: the cell whose vertex mean lies
-behind the face. Three or more half-faces with one cycle are kept as separate boundary
+polygon. A pair whose cycles run the same way round in both cells is *clashing*: one
+cell lists the face inwards. Where a polyhedron is involved (its faces are listed by the
+file, often carelessly turned) the owner comes from the geometry: the cell whose centre
+lies behind the face; between two cells of known shape it stays as found and is reported,
+as in an element file (an inverted element is a finding, not something to repair). Three
+or more half-faces with one cycle are kept as separate boundary
 faces and reported as non-manifold.
 """
 
@@ -29,6 +32,8 @@ class HalfFaces:
 
     points: np.ndarray       # (n, k)
     cells: np.ndarray        # (n,)
+    #: Faces listed by the file (polyhedra): a clash may be settled by the geometry.
+    listed: bool = False
 
 
 @dataclass(frozen=True, eq=False)
@@ -88,6 +93,7 @@ def pair_polygons(groups: dict[int, list[HalfFaces]], points: np.ndarray,
     for k in sorted(groups):
         rows = np.concatenate([h.points for h in groups[k]]).astype(np.int64)
         cells = np.concatenate([h.cells for h in groups[k]]).astype(np.int64)
+        listed = np.concatenate([np.full(len(h.cells), h.listed) for h in groups[k]])
         canon, turned = canonical(rows)
         order = sort_rows(canon, len(points))
         starts, lengths = _runs(canon[order])
@@ -97,10 +103,11 @@ def pair_polygons(groups: dict[int, list[HalfFaces]], points: np.ndarray,
         swap = cells[b] < cells[a]
         a, b = np.where(swap, b, a), np.where(swap, a, b)
         clash = turned[a] == turned[b]
+        settle = clash & (listed[a] | listed[b])
         many = np.concatenate([order[s:s + n] for s, n in zip(starts[lengths > 2],
                                                               lengths[lengths > 2])]
                               ) if np.any(lengths > 2) else np.zeros(0, dtype=np.int64)
-        internal.append((rows[a], cells[a], cells[b], clash))
+        internal.append((rows[a], cells[a], cells[b], clash, settle))
         boundary.append((rows[one], cells[one], np.zeros(len(one), bool)))
         boundary.append((rows[many], cells[many], np.ones(len(many), bool)))
     return _assemble(internal, boundary, points, n_cells)
@@ -109,7 +116,7 @@ def pair_polygons(groups: dict[int, list[HalfFaces]], points: np.ndarray,
 def _assemble(internal, boundary, points, n_cells) -> PairedPolygons:
     """CSR faces from the per-size pieces, internal first, clashing faces turned to their
     owner by geometry."""
-    parts_in = [(r, o, nb, c) for r, o, nb, c in internal if len(r)]
+    parts_in = [part for part in internal if len(part[0])]
     parts_bd = [(r, o, m) for r, o, m in boundary if len(r)]
     owner = np.concatenate([p[1] for p in parts_in] + [p[1] for p in parts_bd]
                            or [np.zeros(0, np.int64)])
@@ -120,17 +127,18 @@ def _assemble(internal, boundary, points, n_cells) -> PairedPolygons:
                            or [np.zeros(0, np.int64)])
     flat = np.concatenate([p[0].ravel() for p in parts_in + parts_bd]
                           or [np.zeros(0, np.int64)])
-    clash = np.concatenate([p[3] for p in parts_in] + [np.zeros(len(p[1]), bool)
-                                                     for p in parts_bd]
-                           or [np.zeros(0, bool)])
+    clash, settle = (np.concatenate([p[i] for p in parts_in] + [np.zeros(len(p[1]), bool)
+                                                              for p in parts_bd]
+                                    or [np.zeros(0, bool)]) for i in (3, 4))
     many = np.concatenate([np.zeros(len(p[1]), bool) for p in parts_in]
                           + [p[2] for p in parts_bd] or [np.zeros(0, bool)])
     offsets = np.zeros(len(sizes) + 1, dtype=np.int64)
     np.cumsum(sizes, out=offsets[1:])
     n_int = sum(len(p[0]) for p in parts_in)
-    if clash.any():
+    if settle.any():
         owner, neighbour = _owner_by_geometry(points, offsets, flat, owner, neighbour,
-                                              np.flatnonzero(clash), n_cells)
+                                              np.flatnonzero(settle), n_cells)
+        clash &= ~settle
     # internal faces by (owner, neighbour), boundary faces by owner: stable and local
     inner = np.lexsort((neighbour[:n_int], owner[:n_int]))
     outer = n_int + np.argsort(owner[n_int:], kind="stable")

@@ -231,7 +231,7 @@ def _polyhedron_halves(halves, grid: VtkGrid, rows: np.ndarray, cells: np.ndarra
     for k in np.unique(size):
         sel = np.flatnonzero(size == k)
         pts = fp[fo[faces[sel]][:, None] + np.arange(int(k))[None, :]]
-        halves.setdefault(int(k), []).append(HalfFaces(pts, owner[sel]))
+        halves.setdefault(int(k), []).append(HalfFaces(pts, owner[sel], listed=True))
 
 
 def _groups(grid: VtkGrid, types, paired, options: ReadOptions, n_points: int):

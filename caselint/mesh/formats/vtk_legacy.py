@@ -44,7 +44,7 @@ class _Cursor:
         self.path, self.data, self.binary, self.pos = path, data, binary, pos
 
     def fail(self, message: str) -> MeshReadError:
-        line = self.data.count(b"\n", 0, self.pos) + 1
+        line = self.data[:self.pos].count(b"\n") + 1
         return MeshReadError(self.path, f"line {line}: {message}")
 
     def line(self) -> list[str]:
@@ -105,17 +105,21 @@ def _header(path: str, data: bytes) -> tuple[str, bool, int]:
 
 
 def accepts(path: Path) -> bool:
-    """Whether ``path`` is a legacy unstructured grid holding polyhedra or prisms."""
+    """Whether ``path`` is a legacy unstructured grid holding polyhedra or prisms; or one
+    whose cell types cannot be read (cut short), so that the damage is named precisely."""
     try:
         with path.open("rb") as handle, mmap.mmap(handle.fileno(), 0,
                                                   access=mmap.ACCESS_READ) as data:
             _, binary, _ = _header(str(path), data[:1024])
             at = data.find(b"CELL_TYPES")
             if at < 0:
-                return False
+                return True
             cursor = _Cursor(str(path), data, binary, at)
             words = cursor.line()
-            types = cursor.values(int(words[1]), "int", "CELL_TYPES")
+            try:
+                types = cursor.values(int(words[1]), "int", "CELL_TYPES")
+            except MeshReadError:
+                return True
             return bool(np.isin(types, _WANTED).any())
     except (OSError, ValueError, IndexError, MeshReadError):
         return False

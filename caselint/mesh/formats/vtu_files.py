@@ -1,7 +1,8 @@
 """Polyhedral VTU files (VTK XML unstructured grids): the ``vtu-polyhedra`` reader.
 
-meshio reads VTU files of ordinary cells; this reader takes the files that hold
-polyhedra (VTK cell type 42), in both layouts VTK has written:
+meshio reads VTU files of ordinary cells (file versions 0.1 and 1.0); this reader takes
+the files that hold polyhedra (VTK cell type 42), and those of later versions, in both
+layouts VTK has written:
 
 - file version 2.2 and before (VTK up to 9.3): ``faces`` holds, polyhedron after
   polyhedron, ``[n_faces, n_0, ids..., n_1, ids..., ...]``; ``faceoffsets`` gives for each
@@ -12,7 +13,7 @@ polyhedra (VTK cell type 42), in both layouts VTK has written:
 
 Data arrays may be ``ascii``, inline ``binary`` (base64) or ``appended`` (raw or base64),
 uncompressed or compressed (zlib or LZMA), with 32- or 64-bit headers, little- or
-big-endian; several pieces are joined. Everything is decoded with numpy; VTK is not
+big-endian; files of one piece (several pieces repeat their shared points: refused). Everything is decoded with numpy; VTK is not
 needed. Counts are checked against the file's own: ``NumberOfPoints`` and
 ``NumberOfCells`` of each piece against the arrays, offsets against the connectivity,
 each compressed block against its declared size. The cells become the face-based mesh
@@ -24,6 +25,7 @@ from __future__ import annotations
 import base64
 import lzma
 import mmap
+import re
 import xml.etree.ElementTree as ElementTree
 import zlib
 from pathlib import Path
@@ -41,12 +43,16 @@ _POLY_NAMES = (b'Name="faceoffsets"', b'Name="polyhedron_offsets"', b'Name="face
 
 
 def accepts(path: Path) -> bool:
-    """Whether ``path`` is a VTU unstructured grid with polyhedron arrays."""
+    """Whether ``path`` is a VTU unstructured grid with polyhedron arrays, or of a file
+    version meshio refuses (it reads versions 0.1 and 1.0)."""
     try:
         with path.open("rb") as handle, mmap.mmap(handle.fileno(), 0,
                                                   access=mmap.ACCESS_READ) as data:
             if data.find(b'type="UnstructuredGrid"', 0, 4096) < 0:
                 return False
+            version = re.search(rb'<VTKFile[^>]*\sversion="([^"]*)"', data[:4096])
+            if version is not None and version.group(1) not in (b"0.1", b"1.0"):
+                return True
             end = data.find(b"<AppendedData")
             end = len(data) if end < 0 else end
             return any(data.find(name, 0, end) >= 0 for name in _POLY_NAMES)
@@ -95,7 +101,8 @@ class _Arrays:
             else:
                 raise MeshReadError(self.path, f"array {what}: unknown format {fmt!r}")
         except (ValueError, zlib.error, lzma.LZMAError, base64.binascii.Error) as exc:
-            raise MeshReadError(self.path, f"array {what}: damaged data ({exc})") from None
+            raise MeshReadError(self.path, f"array {what}: damaged or truncated data "
+                                           f"({exc})") from None
         components = int(element.get("NumberOfComponents", "1"))
         values = values.astype(dtype.newbyteorder("="), copy=False)
         if components > 1:
@@ -115,24 +122,19 @@ class _Arrays:
         return self._blocks(self.appended[offset:], dtype, what, encoded=self.appended_base64)
 
     def _blocks(self, data: bytes, dtype: np.dtype, what: str, encoded: bool) -> np.ndarray:
-        """Header and data of one array (see :meth:`_split` for base64)."""
+        """Header and data of one array (see :meth:`_read` for base64)."""
         size = self.header.itemsize
         if self.decompress is None:
-            head, body = self._split(data, size, encoded)
-            n_bytes = int(np.frombuffer(head, self.header)[0])
-            if len(body) < n_bytes:
-                raise MeshReadError(self.path, f"array {what} declares {n_bytes} bytes but the "
-                                               f"file holds {len(body)} (truncated)")
+            n_bytes = int(np.frombuffer(self._read(data, 0, size, encoded, size), self.header)[0])
+            body = self._read(data, size, n_bytes, encoded, size)
             return np.frombuffer(body, dtype=dtype, count=n_bytes // dtype.itemsize)
-        head, _ = self._split(data, size, encoded, body=False)
-        n_blocks = int(np.frombuffer(head, self.header)[0])
-        head, body = self._split(data, size * (3 + n_blocks), encoded)
-        header = np.frombuffer(head, self.header).astype(np.int64)
+        n_blocks = int(np.frombuffer(self._read(data, 0, size, encoded, size), self.header)[0])
+        head_size = size * (3 + n_blocks)
+        header = np.frombuffer(self._read(data, 0, head_size, encoded, head_size),
+                               self.header).astype(np.int64)
         block, last, sizes = int(header[1]), int(header[2]), header[3:]
         ends = np.cumsum(sizes)
-        if n_blocks and int(ends[-1]) > len(body):
-            raise MeshReadError(self.path, f"array {what} declares {int(ends[-1])} compressed "
-                                           f"bytes but the file holds {len(body)} (truncated)")
+        body = self._read(data, head_size, int(ends[-1]) if n_blocks else 0, encoded, head_size)
         expected = block * (n_blocks - 1) + (last or block) if n_blocks else 0
         starts = np.concatenate([[0], ends[:-1]])
         raw = b"".join(self.decompress(body[int(a):int(b)]) for a, b in zip(starts, ends))
@@ -141,26 +143,33 @@ class _Arrays:
                                            f"hold {len(raw)}")
         return np.frombuffer(raw, dtype=dtype, count=len(raw) // dtype.itemsize)
 
-    def _split(self, data: bytes, n_bytes: int, encoded: bool,
-               body: bool = True) -> tuple[bytes, bytes]:
-        """The header (first ``n_bytes``) and the decoded bytes after it. VTK encodes the
-        header of base64 data on its own (it ends in padding) and the data after it; a
-        header without padding belongs to one stream with its data."""
+    def _read(self, data: bytes, start: int, n_bytes: int, encoded: bool,
+              header: int) -> bytes:
+        """Bytes ``start .. start + n_bytes`` of an array's stream (header included).
+
+        VTK encodes the header of base64 data on its own (its last group padded) and the
+        data after it; where the header's characters end without padding, header and
+        data are one stream.
+        """
         if not encoded:
-            if len(data) < n_bytes:
-                raise MeshReadError(self.path, "the file ends inside an array header "
-                                               "(truncated)")
-            return data[:n_bytes], data[n_bytes:]
-        chars = 4 * -(-n_bytes // 3)
-        head = base64.b64decode(data[:chars])
-        if len(head) < n_bytes:
-            raise MeshReadError(self.path, "the file ends inside an array header (truncated)")
-        if not body:
-            return head[:n_bytes], b""
-        if data[:chars].endswith(b"="):
-            return head[:n_bytes], base64.b64decode(data[chars:])
-        whole = base64.b64decode(data)
-        return whole[:n_bytes], whole[n_bytes:]
+            if start + n_bytes > len(data):
+                raise MeshReadError(self.path, f"an array declares {n_bytes} bytes but the file "
+                                               f"holds {max(len(data) - start, 0)} (truncated)")
+            return data[start:start + n_bytes]
+        head_chars = 4 * -(-header // 3)
+        if start >= header and data[:head_chars].endswith(b"="):
+            first, skip = head_chars, start - header     # the data's own stream
+        else:
+            first, skip = 0, start
+        chars = 4 * -(-(skip + n_bytes) // 3)
+        text = data[first:first + chars]
+        if len(text) < chars:
+            raise MeshReadError(self.path, "the base64 data ends inside an array (truncated)")
+        out = base64.b64decode(text, validate=True)[skip:skip + n_bytes]
+        if len(out) < n_bytes:
+            raise MeshReadError(self.path, f"an array declares {n_bytes} bytes but the file "
+                                           f"holds {len(out)} (truncated)")
+        return out
 
 
 def _parse(path: Path) -> tuple[ElementTree.Element, bytes | None, bool]:
@@ -199,7 +208,7 @@ def _parse(path: Path) -> tuple[ElementTree.Element, bytes | None, bool]:
 def _piece(arrays: _Arrays, piece: ElementTree.Element, index: int) -> VtkGrid:
     """One ``Piece``, its counts checked."""
     path = arrays.path
-    where = f"piece {index}: "
+    where = ""
     n_points = int(piece.get("NumberOfPoints", "-1"))
     n_cells = int(piece.get("NumberOfCells", "-1"))
     if n_points < 0 or n_cells < 0:
@@ -299,36 +308,6 @@ def _spread(grid: VtkGrid, poly: np.ndarray, faces_of: np.ndarray, face_offsets:
     grid.face_offsets, grid.face_points = face_offsets, face_points
 
 
-def join_pieces(grids: list[VtkGrid]) -> VtkGrid:
-    """Pieces joined into one grid: point ids, offsets and faces shifted."""
-    if len(grids) == 1:
-        return grids[0]
-    base = np.concatenate([[0], np.cumsum([len(g.points) for g in grids])])
-    conn_base = np.concatenate([[0], np.cumsum([len(g.connectivity) for g in grids])])
-    out = VtkGrid(grids[0].path, np.concatenate([g.points for g in grids]),
-                  np.concatenate([g.types for g in grids]),
-                  np.concatenate([[0]] + [g.offsets[1:] + conn_base[i]
-                                          for i, g in enumerate(grids)]),
-                  np.concatenate([g.connectivity + base[i] for i, g in enumerate(grids)]))
-    if any(g.cell_faces is not None for g in grids):
-        for g in grids:
-            if g.cell_faces is None:
-                g.cell_faces = np.zeros(len(g.types) + 1, dtype=np.int64)
-                g.face_offsets, g.face_points = np.zeros(1, np.int64), np.zeros(0, np.int64)
-        face_base = np.concatenate([[0], np.cumsum([len(g.face_offsets) - 1 for g in grids])])
-        fp_base = np.concatenate([[0], np.cumsum([len(g.face_points) for g in grids])])
-        out.cell_faces = np.concatenate([[0]] + [g.cell_faces[1:] + face_base[i]
-                                                 for i, g in enumerate(grids)])
-        out.face_offsets = np.concatenate([[0]] + [g.face_offsets[1:] + fp_base[i]
-                                                   for i, g in enumerate(grids)])
-        out.face_points = np.concatenate([g.face_points + base[i] for i, g in enumerate(grids)])
-    for attr in ("cell_data", "point_data"):
-        names = set.intersection(*(set(getattr(g, attr)) for g in grids))
-        getattr(out, attr).update({n: np.concatenate([getattr(g, attr)[n] for g in grids])
-                                   for n in sorted(names)})
-    return out
-
-
 def read_vtu(path: Path, options: ReadOptions) -> MeshData:
     """Read a polyhedral VTU file (see the module docstring)."""
     from caselint.mesh.limits import check_memory
@@ -340,9 +319,15 @@ def read_vtu(path: Path, options: ReadOptions) -> MeshData:
     pieces = grid_el.findall("Piece") if grid_el is not None else []
     if not pieces:
         raise MeshReadError(name, "no Piece in the UnstructuredGrid")
-    declared = sum(int(p.get("NumberOfCells", "0") or 0) for p in pieces)
+    if len(pieces) > 1:
+        # pieces written in parallel repeat the points they share: joining them would
+        # need those points merged, which caselint does not do
+        raise MeshReadError(name, f"holds {len(pieces)} pieces; caselint reads files of one "
+                                  "piece: merge the pieces into one (e.g. by writing the "
+                                  "whole grid from one process)")
+    declared = int(pieces[0].get("NumberOfCells", "0") or 0)
     check_memory(name, {"polyhedron": declared}, "the file's NumberOfCells")
-    grid = join_pieces([_piece(arrays, p, i) for i, p in enumerate(pieces)])
+    grid = _piece(arrays, pieces[0], 0)
     for el in grid_el.findall("FieldData/DataArray"):
         if el.get("type") in _TYPES:
             grid.field_data[el.get("Name", "?")] = arrays.read(el, el.get("Name", "?"))
