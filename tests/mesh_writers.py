@@ -8,18 +8,14 @@ vectorised so that a 1M-cell mesh writes in seconds:
   ``neighbour``, ``boundary``, ``cellZones``), ASCII or binary, plain or gzip, 32- or
   64-bit labels, faces as a list of faces or as offsets + points;
 - :func:`write_decomposed`: the same mesh split into ``processor<N>`` folders with
-  processor patches and (optionally) the addressing files;
-- :func:`write_vtu_22`: a VTU file with polyhedra in the ``faces``/``faceoffsets`` layout
-  (file version 2.2, what VTK wrote before 9.4), ASCII or base64 (zlib or none); VTK 9 itself
-  (the test dependency) writes the 2.3 layout and the legacy files.
+  processor patches and (optionally) the addressing files.
+
+The VTK formats are written by ``tests/vtk_writers.py``.
 """
 
 from __future__ import annotations
 
-import base64
 import gzip
-import struct
-import zlib
 from pathlib import Path
 
 import numpy as np
@@ -298,74 +294,3 @@ def _write_part(folder: Path, local: MeshData, patches, extra, options) -> None:
            + _labels(local.neighbour[:n_int], binary=binary, labels=labels), gz)
     _write(folder, "boundary", (_header("polyBoundaryMesh", "boundary", **opts)
                                 + boundary_text(patches, extra)).encode(), gz)
-
-
-# -- VTU 2.2 ----------------------------------------------------------------------------
-
-
-def _vtu_array(values: np.ndarray, name: str, vtk_type: str, fmt: str, components: int = 1,
-               compress: bool = True) -> str:
-    """A ``<DataArray>`` in ``ascii`` or ``binary`` (base64, UInt64 header, zlib or none)."""
-    head = (f'<DataArray type="{vtk_type}" Name="{name}" NumberOfComponents="{components}" '
-            f'format="{fmt}">')
-    if fmt == "ascii":
-        text = " ".join(repr(v) for v in values.ravel().tolist())
-        return f"{head}\n{text}\n</DataArray>\n"
-    raw = values.tobytes()
-    if compress:
-        block = zlib.compress(raw)
-        header = struct.pack("<4Q", 1, len(raw), len(raw), len(block))
-        payload = base64.b64encode(header) + base64.b64encode(block)
-    else:
-        payload = base64.b64encode(struct.pack("<Q", len(raw)) + raw)
-    return f"{head}\n{payload.decode()}\n</DataArray>\n"
-
-
-def write_vtu_22(path, points: np.ndarray, cells: list[tuple[int, list]], *,
-                 fmt: str = "binary", compress: bool = True,
-                 cell_data: dict[str, np.ndarray] | None = None,
-                 field_data: dict[str, np.ndarray] | None = None) -> Path:
-    """A VTU file in the 2.2 polyhedron layout.
-
-    ``cells``: (VTK type, nodes) pairs; for a polyhedron (type 42) ``nodes`` is its list of
-    faces (each a list of point ids, normals outward). ``faceoffsets`` holds the end of
-    each polyhedron's face stream in ``faces`` and -1 for other cells.
-    """
-    conn, offsets, types, faces, faceoffsets = [], [], [], [], []
-    for vtk_type, nodes in cells:
-        if vtk_type == 42:
-            unique = list(dict.fromkeys(p for face in nodes for p in face))
-            conn.extend(unique)
-            faces.append(len(nodes))
-            for face in nodes:
-                faces.extend([len(face), *face])
-            faceoffsets.append(len(faces))
-        else:
-            conn.extend(nodes)
-            faceoffsets.append(-1)
-        offsets.append(len(conn))
-        types.append(vtk_type)
-    arrays = [("connectivity", np.array(conn, np.int64), "Int64"),
-              ("offsets", np.array(offsets, np.int64), "Int64"),
-              ("types", np.array(types, np.uint8), "UInt8")]
-    if faces:
-        arrays += [("faces", np.array(faces, np.int64), "Int64"),
-                   ("faceoffsets", np.array(faceoffsets, np.int64), "Int64")]
-    cell_arrays = "".join(_vtu_array(np.asarray(v), k, "Int32" if np.asarray(v).dtype.kind in "iu"
-                                     else "Float64", fmt, compress=compress)
-                          for k, v in (cell_data or {}).items())
-    fields = "".join(_vtu_array(np.asarray(v), k, "Int32", fmt, compress=compress)
-                     for k, v in (field_data or {}).items())
-    text = (
-        '<?xml version="1.0"?>\n<VTKFile type="UnstructuredGrid" version="2.2" '
-        'byte_order="LittleEndian" header_type="UInt64"'
-        + (' compressor="vtkZLibDataCompressor"' if compress and fmt == "binary" else "")
-        + f'>\n<UnstructuredGrid>\n<FieldData>\n{fields}</FieldData>\n'
-        f'<Piece NumberOfPoints="{len(points)}" '
-        f'NumberOfCells="{len(cells)}">\n<CellData>\n{cell_arrays}</CellData>\n<Points>\n'
-        + _vtu_array(np.asarray(points, np.float64), "Points", "Float64", fmt, 3, compress)
-        + "</Points>\n<Cells>\n"
-        + "".join(_vtu_array(v, n, t, fmt, compress=compress) for n, v, t in arrays)
-        + "</Cells>\n</Piece>\n</UnstructuredGrid>\n</VTKFile>\n")
-    Path(path).write_text(text)
-    return Path(path)

@@ -35,7 +35,8 @@ from caselint.mesh.celltypes import FACES
 from caselint.mesh.formats.vtk_cells import VtkGrid, grid_data
 from caselint.mesh.model import MeshData
 from caselint.mesh.readers import ReadOptions
-from mesh_writers import write_decomposed, write_face_folder, write_vtu_22
+from mesh_writers import write_decomposed, write_face_folder
+from vtk_writers import write_vtu_22
 
 SIDES = ("xmin", "xmax", "ymin", "ymax", "zmin", "zmax")
 VTK_TYPE = {"tetra": 10, "hexahedron": 12, "wedge": 13, "pyramid": 14}

@@ -1,7 +1,7 @@
 """Polyhedral VTU and legacy VTK files: read without VTK, checked against VTK itself.
 
 References: files written by VTK 9 (the ``vtk`` PyPI package, a test dependency) and by the
-test writer of the 2.2 layout (``tests/mesh_writers.py``); cell volumes from VTK's
+test writer of the 2.2 layout (``tests/vtk_writers.py``); cell volumes from VTK's
 ``vtkCellSizeFilter`` on the same file, read by VTK's own reader.
 """
 

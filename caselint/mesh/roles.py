@@ -6,10 +6,10 @@ not (a plain ``patch``, an ``interior`` zone), the case file must say. The roles
 suggestions for ``caselint init`` and the defaults of groups the case file does not name
 (:func:`default_roles`); a role in the case file always wins.
 
-Types are matched lower-case. ``empty`` (the front and back of a 2-D case) implies no
-role: such a mesh is read as 2-D and the patches keep no faces
-(:mod:`caselint.mesh.formats.one_cell_thick`); where the mesh had to stay 3-D they act
-as symmetry planes.
+Types are matched lower-case. ``empty`` (the front and back of a 2-D case) implies
+``symmetry``: a 2-D case is read as a 2-D mesh whose ``empty`` patches keep no faces
+(:mod:`caselint.mesh.formats.one_cell_thick`), and where the mesh has to stay 3-D they
+act as symmetry planes (no flow through them, no wall).
 """
 
 from __future__ import annotations

@@ -64,7 +64,9 @@ def recognise_shapes(data: "MeshData") -> tuple[ShapeBlock, ...]:
         known[block.cells] = True
     cf = topology.cell_faces(data)
     counts = cf.counts()
-    sizes = np.diff(data.face_offsets)[cf.faces]
+    face_sizes = np.diff(data.face_offsets)
+    table = _face_table(data)
+    sizes = face_sizes[cf.faces]
     owner_of = np.repeat(np.arange(data.n_cells), counts)
     n_tri = np.bincount(owner_of, weights=sizes == 3, minlength=data.n_cells)
     n_quad = np.bincount(owner_of, weights=sizes == 4, minlength=data.n_cells)
@@ -75,7 +77,7 @@ def recognise_shapes(data: "MeshData") -> tuple[ShapeBlock, ...]:
         found_cells, found_corners = [], []
         for lo in range(0, len(cells), CHUNK):
             part = cells[lo:lo + CHUNK]
-            corners, ok = _corners(data, cf, part, shape, n_faces, base, off)
+            corners, ok = _corners(table, face_sizes, cf, part, shape, n_faces, base, off)
             found_cells.append(part[ok])
             found_corners.append(corners[ok])
         if found_cells and sum(len(c) for c in found_cells):
@@ -93,26 +95,36 @@ def with_shapes(data: "MeshData") -> "MeshData":
     return dataclasses.replace(data, shapes=shapes)
 
 
-def _outward_faces(data: "MeshData", cf: topology.CellFaces, cells: np.ndarray,
-                   n_faces: int) -> tuple[np.ndarray, np.ndarray]:
+def _face_table(data: "MeshData") -> np.ndarray:
+    """(F, 4) points of every triangle (last point repeated) and quadrilateral, in face
+    order (read once, in sequence); -1 rows for other faces."""
+    sizes = np.diff(data.face_offsets)
+    table = np.full((data.n_faces, 4), -1, dtype=data.face_points.dtype)
+    for k, slots in ((3, [0, 1, 2, 2]), (4, [0, 1, 2, 3])):
+        sel = np.flatnonzero(sizes == k)
+        table[sel] = data.face_points[data.face_offsets[sel][:, None] + np.array(slots)]
+    return table
+
+
+def _outward_faces(table: np.ndarray, sizes_all: np.ndarray, cf: topology.CellFaces,
+                   cells: np.ndarray, n_faces: int) -> tuple[np.ndarray, np.ndarray]:
     """(m, n_faces, 4) points of the cells' faces, each turned to point out of its cell
-    (triangles repeat their last point), and (m, n_faces) the face sizes."""
+    (reversed from its first point; triangles repeat their last point), and (m, n_faces)
+    the face sizes."""
     slots = cf.offsets[cells][:, None] + np.arange(n_faces)[None, :]
     faces = cf.faces[slots]
-    owned = cf.owned[slots]
-    start = data.face_offsets[faces]
-    size = (data.face_offsets[faces + 1] - start)[..., None]
-    k = np.arange(4)[None, None, :]
-    forward = np.minimum(k, size - 1)
-    # reversed from the first point, (p0, p_{n-1}, ..., p1), padded with p1
-    backward = np.where(k == 0, 0, np.where(k < size, size - k, 1))
-    index = np.where(owned[..., None], forward, backward)
-    return data.face_points[start[..., None] + index], size[..., 0]
+    pts = table[faces]
+    size = sizes_all[faces]
+    inward = ~cf.owned[slots]
+    for k, turned in ((4, [0, 3, 2, 1]), (3, [0, 2, 1, 1])):
+        flip = inward & (size == k)
+        pts[flip] = pts[flip][:, turned]
+    return pts, size
 
 
-def _corners(data, cf, cells, shape, n_faces, base, off) -> tuple[np.ndarray, np.ndarray]:
+def _corners(table, sizes_all, cf, cells, shape, n_faces, base, off):
     """Corner nodes (m, N) of ``cells`` as ``shape``, and which cells are that shape."""
-    pts, sizes = _outward_faces(data, cf, cells, n_faces)
+    pts, sizes = _outward_faces(table, sizes_all, cf, cells, n_faces)
     m = len(cells)
     rows = np.arange(m)
     wanted = {"pyramid": 4, "wedge": 3}.get(shape)
@@ -147,16 +159,28 @@ def _distinct(corners: np.ndarray) -> np.ndarray:
     return ~np.any(s[:, 1:] == s[:, :-1], axis=1)
 
 
+def _set_keys(faces: np.ndarray, sizes_3: np.ndarray, n_points: int):
+    """Two int64 keys of each face's point *set* ((..., 4) points; a triangle's padding
+    blanked to -1 where ``sizes_3``), from its points sorted by a min/max network."""
+    a, b, c, d = (faces[..., i].astype(np.int64) for i in range(4))
+    d = np.where(sizes_3, -1, d)
+    a, b = np.minimum(a, b), np.maximum(a, b)
+    c, d = np.minimum(c, d), np.maximum(c, d)
+    a, c = np.minimum(a, c), np.maximum(a, c)
+    b, d = np.minimum(b, d), np.maximum(b, d)
+    b, c = np.minimum(b, c), np.maximum(b, c)
+    p = np.int64(n_points + 1)
+    return (a + 1) * p + (b + 1), (c + 1) * p + (d + 1)
+
+
 def _same_faces(corners: np.ndarray, pts: np.ndarray, sizes: np.ndarray,
                 shape: str) -> np.ndarray:
     """(m,) whether the faces of ``shape`` on ``corners`` are the cells' faces (as sets)."""
     template = np.asarray(FACES[shape])
-    expected = corners[:, template]                          # (m, n_faces, 4)
-    # a triangle's padding (its last point repeated) depends on where it starts: blank it
-    expected[:, template[:, 3] == template[:, 2], 3] = -1
-    actual = pts.copy()
-    actual[..., 3][sizes == 3] = -1
-    expected.sort(axis=2)
-    actual.sort(axis=2)
-    match = np.all(expected[:, :, None, :] == actual[:, None, :, :], axis=3)
+    n_points = int(max(corners.max(initial=0), pts.max(initial=0))) + 1
+    tri = template[:, 3] == template[:, 2]
+    e1, e2 = _set_keys(corners[:, template], np.broadcast_to(tri, template.shape[:1])[None, :],
+                       n_points)
+    a1, a2 = _set_keys(pts, sizes == 3, n_points)
+    match = (e1[:, :, None] == a1[:, None, :]) & (e2[:, :, None] == a2[:, None, :])
     return np.all(np.any(match, axis=2), axis=1)

@@ -36,6 +36,7 @@ _OPEN_TO_BLANK = bytes.maketrans(b"(", b" ")
 _WORD = re.compile(rb'"(?:[^"\\]|\\.)*"|[()\[\]]|[^\s{}()\[\];"]+')
 _SPACE = re.compile(rb"(?:\s+|//[^\n]*|/\*.*?\*/)*", re.S)
 _INT = re.compile(rb"[0-9]+")
+_NON_BLANK = re.compile(rb"\S")
 _COMMENT = re.compile(rb"//[^\n]*|/\*.*?\*/", re.S)
 _ENTRY = re.compile(rb'([A-Za-z_]\w*)\s+("(?:[^"\\]|\\.)*"|[^;"]*)\s*;')
 
@@ -200,7 +201,7 @@ def _binary_items(lf: ListFile, pos: int, declared: int, dtype: np.dtype, what: 
 
 def _ascii_numbers(lf: ListFile, body: bytes, dtype, offset: int, what: str) -> np.ndarray:
     """All numbers of ``body`` (whitespace-separated) as ``dtype``."""
-    if not body.strip():
+    if _NON_BLANK.search(body) is None:          # (a strip() would copy the body)
         return np.zeros(0, dtype=dtype)
     with warnings.catch_warnings():
         warnings.simplefilter("error", DeprecationWarning)

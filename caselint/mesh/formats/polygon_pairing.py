@@ -51,16 +51,20 @@ class PairedPolygons:
 
 def canonical(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(n, k) cycles rotated to start at their smallest id and turned so the second id is
-    the smaller neighbour of the first; and whether each was turned."""
+    the smaller neighbour of the first; and whether each was turned. One masked copy per
+    rotation (k of them) rather than a gather with computed indices: faster and smaller."""
     n, k = rows.shape
     if n == 0:
         return rows.copy(), np.zeros(0, dtype=bool)
     start = np.argmin(rows, axis=1)
-    idx = (start[:, None] + np.arange(k)[None, :]) % k
-    rolled = np.take_along_axis(rows, idx, axis=1)
-    turned = rolled[:, 1] > rolled[:, k - 1]
-    out = np.where(turned[:, None], np.concatenate([rolled[:, :1], rolled[:, :0:-1]], axis=1),
-                   rolled)
+    out = rows.copy()
+    for shift in range(1, k):
+        at = start == shift
+        if at.any():
+            out[at] = np.roll(rows[at], -shift, axis=1)
+    turned = out[:, 1] > out[:, k - 1]
+    if turned.any():
+        out[turned, 1:] = out[turned, :0:-1]
     return out, turned
 
 
@@ -89,9 +93,10 @@ def _runs(sorted_rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 def pair_polygons(groups: dict[int, list[HalfFaces]], points: np.ndarray,
                   n_cells: int) -> PairedPolygons:
     """Pair the half-faces of every size into faces (see the module docstring)."""
-    internal, boundary, clashing, nonmanifold = [], [], [], []
+    internal, boundary = [], []
     for k in sorted(groups):
-        rows = np.concatenate([h.points for h in groups[k]]).astype(np.int64)
+        ids = np.int32 if len(points) < 2**31 else np.int64
+        rows = np.concatenate([h.points for h in groups[k]]).astype(ids)
         cells = np.concatenate([h.cells for h in groups[k]]).astype(np.int64)
         listed = np.concatenate([np.full(len(h.cells), h.listed) for h in groups[k]])
         canon, turned = canonical(rows)
@@ -203,7 +208,8 @@ def match_polygons(faces_offsets: np.ndarray, face_points: np.ndarray,
         k = rows.shape[1]
         ids = np.flatnonzero(sizes == k)
         table = face_points[faces_offsets[ids][:, None] + np.arange(k)[None, :]]
-        both = np.concatenate([canonical(table)[0], canonical(rows.astype(np.int64))[0]])
+        both = np.concatenate([canonical(table.astype(np.int64))[0],
+                               canonical(rows.astype(np.int64))[0]])
         source = np.concatenate([ids, -1 - np.arange(len(rows))])
         order = sort_rows(both, n_points)
         ordered, src = both[order], source[order]

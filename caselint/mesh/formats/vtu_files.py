@@ -13,11 +13,12 @@ layouts VTK has written:
 
 Data arrays may be ``ascii``, inline ``binary`` (base64) or ``appended`` (raw or base64),
 uncompressed or compressed (zlib or LZMA), with 32- or 64-bit headers, little- or
-big-endian; files of one piece (several pieces repeat their shared points: refused). Everything is decoded with numpy; VTK is not
-needed. Counts are checked against the file's own: ``NumberOfPoints`` and
-``NumberOfCells`` of each piece against the arrays, offsets against the connectivity,
-each compressed block against its declared size. The cells become the face-based mesh
-in :mod:`caselint.mesh.formats.vtk_cells` (groups from the boundary polygons' tags).
+big-endian; files of one piece (several pieces repeat their shared points: refused).
+Everything is decoded with numpy; VTK is not needed. Counts are checked against the
+file's own: ``NumberOfPoints`` and ``NumberOfCells`` against the arrays, offsets against
+the connectivity, each compressed block against its declared size. The cells become the
+face-based mesh in :mod:`caselint.mesh.formats.vtk_cells` (groups from the boundary
+polygons' tags).
 """
 
 from __future__ import annotations
