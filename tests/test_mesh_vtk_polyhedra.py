@@ -165,3 +165,16 @@ def test_legacy_42_cell_lengths_must_add_up(mixed, tmp_path):
     _fails(path, text.replace(head.group(0), b"CELLS %d %s" % (int(head.group(1)) - 1,
                                                                 head.group(2))),
            "the cell lengths do not add up")
+
+
+def test_memory_estimate_from_the_declared_cells(mixed, tmp_path, monkeypatch):
+    monkeypatch.setenv("CASELINT_MEMORY_LIMIT", "2GB")
+    path = write_vtu_vtk(mixed, tmp_path / "a.vtu", "ascii")
+    path.write_bytes(re.sub(rb'NumberOfCells="\d+"', b'NumberOfCells="90000000"',
+                            path.read_bytes()))
+    with pytest.raises(MeshReadError, match="counted from the file's NumberOfCells"):
+        read_mesh(path)
+    path = write_legacy_vtk(mixed, tmp_path / "a.vtk")
+    path.write_bytes(re.sub(rb"CELLS \d+", b"CELLS 90000000", path.read_bytes()))
+    with pytest.raises(MeshReadError, match="counted from the CELLS header"):
+        read_mesh(path)

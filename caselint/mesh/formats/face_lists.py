@@ -201,6 +201,8 @@ def _binary_items(lf: ListFile, pos: int, declared: int, dtype: np.dtype, what: 
 
 def _ascii_numbers(lf: ListFile, body: bytes, dtype, offset: int, what: str) -> np.ndarray:
     """All numbers of ``body`` (whitespace-separated) as ``dtype``."""
+    if b"/" in body:                             # comments inside a list (hand-edited)
+        body = _COMMENT.sub(b" ", body)
     if _NON_BLANK.search(body) is None:          # (a strip() would copy the body)
         return np.zeros(0, dtype=dtype)
     with warnings.catch_warnings():
