@@ -116,9 +116,12 @@ def _outward_faces(table: np.ndarray, sizes_all: np.ndarray, cf: topology.CellFa
     pts = table[faces]
     size = sizes_all[faces]
     inward = ~cf.owned[slots]
-    for k, turned in ((4, [0, 3, 2, 1]), (3, [0, 2, 1, 1])):
-        flip = inward & (size == k)
-        pts[flip] = pts[flip][:, turned]
+    # turned round from the first point: (a, d, c, b) and (a, c, b, b)
+    quad, tri = inward & (size == 4), inward & (size == 3)
+    p1, p2, p3 = pts[..., 1].copy(), pts[..., 2].copy(), pts[..., 3].copy()
+    pts[..., 1] = np.where(quad, p3, np.where(tri, p2, p1))
+    pts[..., 2] = np.where(tri, p1, p2)
+    pts[..., 3] = np.where(quad | tri, p1, p3)
     return pts, size
 
 
