@@ -85,6 +85,17 @@ def load_case_mesh(case: "Case", read_mesh: ReadMesh | None = None,
             problems.append(CaseFileError(str(case.path), f"boundary group {name!r} is not in "
                                           f"the mesh {spec.file.name}{hint}; the mesh has: "
                                           f"{known}", line=case.line_of(key), key=key))
+    zones = mesh.data.zone_names
+    for i, region in enumerate(case.regions):
+        zone = region.geometry.get("zone") if region.shape == "zone" else None
+        if zone is not None and zone not in zones:
+            close = difflib.get_close_matches(str(zone), zones, n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            key = f"regions[{i}].zone"
+            problems.append(CaseFileError(str(case.path), f"cell zone {zone!r} is not in the "
+                                          f"mesh {spec.file.name}{hint}; the mesh has: "
+                                          f"{', '.join(zones) or 'no cell zones'}",
+                                          line=case.line_of(key), key=key))
     if problems:
         raise CaseFileErrors.of(problems)
     return mesh
@@ -133,6 +144,8 @@ def lint_case(
     ``label`` is how the report names the case file (default: the path as given).
     :raises UsageError: bad case file, rule set or mesh; the message names file, line and key.
     """
+    from caselint.mesh.reader import mesh_sha256
+
     registry = _registry(pm, registry)
     if isinstance(case, (str, Path)):
         label = str(case) if label is None else label
@@ -147,12 +160,29 @@ def lint_case(
         return loaded[0]
 
     if any("mesh" in a.rule.needs for a in selection.rules):
-        mesh()                     # a bad mesh is bad input before any rule runs
+        case = with_declared_roles(case, mesh())   # a bad mesh is bad input before any rule
     report = run_case(case, selection.rules, mesh, label=label, rule_sets=selection.rule_sets,
                       checklist=selection.checklist, today=today, read_mesh=read_mesh)
     return dataclasses.replace(report, case_sha256=file_sha256(case.path),
-                               mesh_sha256=file_sha256(case.mesh.file),
+                               mesh_sha256=mesh_sha256(case.mesh.file, readers),
                                rule_set_files=selection.files)
+
+
+def with_declared_roles(case: "Case", mesh: "Mesh") -> "Case":
+    """``case`` with a role for each mesh group the case file leaves out whose declared
+    type implies one (a ``wall`` patch is a wall; :mod:`caselint.mesh.roles`); the case
+    file's roles win."""
+    from caselint.mesh.roles import default_roles
+
+    implied = default_roles({name: kind for name, kind in mesh.data.group_types.items()
+                             if name in mesh.group_names})
+    missing = {name: role for name, role in implied.items()
+               if name not in case.mesh.boundaries}
+    if not missing:
+        return case
+    roles = {**case.mesh.boundaries, **missing}
+    return dataclasses.replace(case, mesh=dataclasses.replace(
+        case.mesh, boundaries=dict(sorted(roles.items()))))
 
 
 def lint(

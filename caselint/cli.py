@@ -133,14 +133,15 @@ def build_parser() -> argparse.ArgumentParser:
 
     mesh = command("mesh", commands.cmd_mesh,
                    "summarise a mesh: size, cell types, boundary groups, quality spread")
-    mesh.add_argument("mesh", metavar="MESH", help="mesh file (any format meshio reads)")
+    mesh.add_argument("mesh", metavar="MESH",
+                      help="mesh file or mesh folder (see the formats in the README)")
     mesh.add_argument("--units", choices=sorted(commands.LENGTH_UNITS), default="m",
                       help="length unit of the mesh coordinates (default: m)")
     mesh.add_argument("--format", choices=("text", "json"), default="text",
                       help="output format (default: text)")
 
     init = command("init", commands.cmd_init, "write a starter case file for a mesh")
-    init.add_argument("mesh", metavar="MESH", help="mesh file the case will use")
+    init.add_argument("mesh", metavar="MESH", help="mesh file or folder the case will use")
     init.add_argument("--output", "-o", metavar="FILE",
                       help="case file to write (default: case.yaml beside the mesh); "
                            "an existing file is never overwritten")

@@ -85,9 +85,21 @@ def fails(report: Report, fail_on: str) -> bool:
 
 
 def _protect_inputs(path: Path, what: str, inputs: list[Path], kind: str) -> None:
-    """Refuse to write a report or baseline over an input file."""
-    if any(path.resolve() == p.resolve() for p in inputs):
+    """Refuse to write a report or baseline over an input file, or into an input folder
+    (a mesh folder)."""
+    target = path.resolve()
+    if any(target == p.resolve() or (p.is_dir() and target.is_relative_to(p.resolve()))
+           for p in inputs):
         raise UsageError(f"{what} {path} is {kind}; caselint never overwrites its inputs")
+
+
+def mesh_input_folders(mesh: Path) -> list[Path]:
+    """A mesh file, or the folders holding the files a mesh folder is read from."""
+    if not mesh.is_dir():
+        return [mesh]
+    from caselint.mesh.reader import mesh_files
+
+    return sorted({file.parent for file in mesh_files(mesh)}) or [mesh]
 
 
 def pick_reporter(registry: "Registry", name: str) -> "Reporter":
@@ -158,6 +170,7 @@ def run_check(options: CheckOptions, pm: "pluggy.PluginManager | None" = None) -
     cases = tuple(case for _, case in checked)
     # CaseReport.mesh is relative to the case file's folder.
     meshes = [Path(path).parent / case.mesh for path, case in checked if case.mesh]
+    meshes = [folder for mesh in meshes for folder in mesh_input_folders(mesh)]
     for path, option in written:
         _protect_inputs(path, option, meshes, "a mesh file of a case")
     report = build_report(cases, registry, options.rule_sets)

@@ -199,10 +199,10 @@ def test_bad_waiver_dates(tmp_path: Path, value: str, message: str) -> None:
 
 def test_region_shape_must_be_exactly_one(tmp_path: Path) -> None:
     err, text, _ = error_of(tmp_path, ("    max_cell_size: 5 mm", "    sphere: {center: [0, 0, 0], radius: 1}"))
-    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder'; found 'box', 'sphere'"
+    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder', 'zone'; found 'box', 'sphere'"
     assert (err.key, err.line) == ("regions[0]", line_of(text, "- name: diffuser-jet"))
     err, _, _ = error_of(tmp_path, ("    sphere: {center: [1.5, 1.0, 0.8], radius: 10 cm}\n", ""))
-    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder'" and err.key == "regions[1]"
+    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder', 'zone'" and err.key == "regions[1]"
 
 
 def test_region_checks_beyond_the_schema(tmp_path: Path) -> None:

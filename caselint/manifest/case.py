@@ -135,11 +135,12 @@ class TimeSpec:
 
 @dataclass(frozen=True)
 class Region:
-    """A region of interest: one of box, sphere or cylinder, with a cell-size target."""
+    """A region of interest: a box, sphere or cylinder, or a cell zone of the mesh, with a
+    cell-size target."""
 
     name: str
-    shape: str                                   # box | sphere | cylinder
-    geometry: dict[str, object]                  # SI: box {min, max}; sphere {center, radius}; ...
+    shape: str                                   # box | sphere | cylinder | zone
+    geometry: dict[str, object]                  # SI: box {min, max}; sphere {center, radius}; zone {zone}
     max_cell_size: float | None = None           # m
 
 

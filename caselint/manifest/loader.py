@@ -268,7 +268,7 @@ class _CaseBuilder(ValueReader):
                                              f"(also regions[{first[name]}])")
                 continue
             first[name] = i
-            shape = next(s for s in ("box", "sphere", "cylinder") if s in spec)
+            shape = next(s for s in ("box", "sphere", "cylinder", "zone") if s in spec)
             out.append(Region(
                 name=name,
                 shape=shape,
@@ -277,7 +277,9 @@ class _CaseBuilder(ValueReader):
             ))
         return tuple(out)
 
-    def region_geometry(self, shape: str, spec: dict[str, Any], path: str) -> dict[str, object]:
+    def region_geometry(self, shape: str, spec: Any, path: str) -> dict[str, object]:
+        if shape == "zone":
+            return {"zone": spec}
         if shape == "box":
             lo = self.point(spec["min"], f"{path}.min")
             hi = self.point(spec["max"], f"{path}.max")

@@ -140,14 +140,13 @@ class ValueReader:
 
     @collects
     def mesh_file(self, text: str, key: str) -> Path:
-        """Absolute path of a mesh file named in the case file, which must exist."""
+        """Absolute path of a mesh file or mesh folder named in the case file, which must
+        exist (whether a reader takes a folder is found when the mesh is read)."""
         if "\0" in text:
             raise self.fail(key, "a file name cannot contain a NUL character")
         try:
             path = (self.folder / text).resolve()
-            if path.is_dir():
-                raise self.fail(key, f"mesh file is a folder, not a file: {path}")
-            if not path.is_file():
+            if not path.is_file() and not path.is_dir():
                 raise self.fail(key, f"mesh file not found: {path}")
         except OSError as exc:        # a name too long, a loop of links, no permission
             raise self.fail(key, f"cannot use {text!r} as a mesh file: "

@@ -181,6 +181,48 @@ def check_memory(path: str, cell_counts: dict[str, int], source: str,
         "check off), or check the case on a machine with more memory")
 
 
+def face_mesh_counts(n_cells: int, n_faces: int) -> dict[str, int]:
+    """Cell counts of a face-based mesh for :func:`check_memory`: charged as hexahedra, at
+    least one per three faces (a hexahedral mesh has about three faces per cell; the face
+    arrays dominate the memory of cells with more faces). An estimate, not measured on
+    polyhedral meshes."""
+    return {"hexahedron": max(int(n_cells), int(n_faces) // 3)}
+
+
+def check_folder_memory(path: str, folders: list[Path]) -> None:
+    """Refuse (MeshReadError) a face-based mesh folder (or the processor folders of one
+    decomposed mesh) whose declared counts would pass the memory limit, before reading
+    its lists. Counts come from the owner file's header note (nCells, nFaces); a folder
+    without one is checked once read."""
+    cells = faces = 0
+    for folder in folders:
+        counts = _folder_counts(folder)
+        if counts is None:
+            return
+        cells, faces = cells + counts[0], faces + counts[1]
+    check_memory(path, face_mesh_counts(cells, faces), "the mesh files' headers")
+
+
+def _folder_counts(folder: Path) -> tuple[int, int] | None:
+    """(cells, faces) that a mesh folder's owner file declares in its header note."""
+    import zlib
+
+    for name, gz in (("owner", False), ("owner.gz", True)):
+        file = folder / name
+        if not file.is_file():
+            continue
+        try:
+            with file.open("rb") as handle:
+                head = handle.read(8192)
+            if gz:
+                head = zlib.decompressobj(wbits=31).decompress(head, 8192)
+        except (OSError, zlib.error):
+            return None
+        note = re.search(rb"nCells\s*:\s*(\d+).*?nFaces\s*:\s*(\d+)", head, re.S)
+        return (int(note.group(1)), int(note.group(2))) if note else None
+    return None
+
+
 def _linear(meshio_type: str) -> str:
     from caselint.mesh.celltypes import linear_type
 

@@ -58,7 +58,9 @@ class MeshReader:
     (``(".su2",)``); ``folders`` says the reader reads folders. ``accepts(path)`` is an
     optional cheap look at the content (a header, a sub-folder) for suffixes or folders
     that other formats share. ``read(path, options)`` returns the mesh data or raises
-    :class:`~caselint.errors.MeshReadError` naming the file and what is wrong.
+    :class:`~caselint.errors.MeshReadError` naming the file and what is wrong. A folder
+    reader's ``files(path)`` lists the files a read uses, for the mesh's fingerprint
+    (:func:`mesh_sha256`).
     """
 
     name: str
@@ -67,6 +69,7 @@ class MeshReader:
     suffixes: tuple[str, ...] = ()
     folders: bool = False
     accepts: Callable[[Path], bool] | None = None
+    files: Callable[[Path], list[Path]] | None = None
 
     def __post_init__(self) -> None:
         import re

@@ -1,7 +1,8 @@
 """Regions of interest of a case file: which points lie inside, and the size of cells.
 
 A region (``regions`` of the case file: a box, a sphere or a cylinder, in metres) holds the
-cells whose centroid lies inside it. On a 2-D mesh the z coordinate is ignored: a box is
+cells whose centroid lies inside it; a region naming a cell zone of the mesh holds that
+zone's cells. On a 2-D mesh the z coordinate is ignored: a box is
 its x-y rectangle, a sphere its circle around the centre's x and y, a cylinder its shape
 in the x-y plane.
 """
@@ -59,9 +60,20 @@ def inside(region: "Region", points: np.ndarray, dim: int = 3) -> np.ndarray:
     return (along >= 0) & (along <= length) & ((radial**2).sum(axis=1) <= radius**2)
 
 
+def cells_of_region(region: "Region", mesh: "Mesh") -> np.ndarray:
+    """Ids of the cells of ``region``: the cell zone's cells for a region naming one (none
+    when the mesh lacks it), else those whose centroid lies inside."""
+    if region.shape == "zone":
+        zones = mesh.data.zone_names
+        if mesh.data.cell_zone is None or region.geometry["zone"] not in zones:
+            return np.zeros(0, dtype=np.int64)
+        return np.flatnonzero(mesh.data.cell_zone == zones.index(region.geometry["zone"]))
+    return np.flatnonzero(inside(region, mesh.cell_centroids, mesh.dim))
+
+
 def region_cells(case: "Case", mesh: "Mesh") -> np.ndarray:
-    """(C,) bool: cells whose centroid lies inside any region of interest of the case."""
+    """(C,) bool: cells of any region of interest of the case."""
     out = np.zeros(mesh.n_cells, dtype=bool)
     for region in case.regions:                     # a few regions per case
-        out |= inside(region, mesh.cell_centroids, mesh.dim)
+        out[cells_of_region(region, mesh)] = True
     return out

@@ -1,7 +1,8 @@
 """Built-in rule ``region-cell-size``: are the cells in each region of interest small enough?
 
 A region of the case file (``regions``: a box, a sphere or a cylinder, in metres) holds the
-cells whose centroid lies inside it. The size of a cell is the cube root of its volume
+cells whose centroid lies inside it; a region naming a cell zone of the mesh (``zone``)
+holds that zone's cells. The size of a cell is the cube root of its volume
 (the square root of its area on a 2-D mesh); the rule reports, per region, the largest size
 against the region's ``max_cell_size``, and how many cells and which exceed it.
 
@@ -21,7 +22,7 @@ from caselint import hookimpl
 from caselint.manifest.case import Region
 from caselint.model import Limits, Measurement, Note, Rule, RuleResult, Where
 from caselint.rulekit import RuleContext, cell_names, finite_point, first_limit, plural, worst_ids
-from caselint.rulekit.regions import cell_sizes, inside, region_centre
+from caselint.rulekit.regions import cell_sizes, cells_of_region, inside, region_centre
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
@@ -39,8 +40,12 @@ def _region_measurement(mesh: "Mesh", index: int, region: Region, sizes: np.ndar
     target = float(region.max_cell_size)
     key = f"regions[{index}]"
     m_limits = _scaled(limits, target)
-    cells = np.flatnonzero(inside(region, mesh.cell_centroids, mesh.dim))
+    cells = cells_of_region(region, mesh)
     nearest = ""
+    if cells.size == 0 and region.shape == "zone":
+        return Note(f"region '{region.name}': the mesh's cell zone "
+                    f"'{region.geometry['zone']}' holds no cell", where=Where(region=region.name,
+                                                                               key=key))
     if cells.size == 0:
         lo, hi = mesh.bounds
         centre = region_centre(region)

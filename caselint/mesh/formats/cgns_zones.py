@@ -38,7 +38,7 @@ BC_ROLES: dict[str, str] = {
     "BCAxisymmetricWedge": "symmetry", "BCInflow": "inlet", "BCInflowSubsonic": "inlet",
     "BCInflowSupersonic": "inlet", "BCTunnelInflow": "inlet", "BCOutflow": "outlet",
     "BCOutflowSubsonic": "outlet", "BCOutflowSupersonic": "outlet",
-    "BCTunnelOutflow": "outlet", "BCFarfield": "opening",
+    "BCTunnelOutflow": "outlet", "BCFarfield": "open",
 }
 
 

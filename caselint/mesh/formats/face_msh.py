@@ -29,7 +29,7 @@ is negative the whole file is read with the faces turned round and a note says s
 Groups and roles: every face zone that holds boundary faces is a group named by its
 zone name (``zone-ID`` without a name section); its type (from the name section, or the
 bc-type number) gives a role word in ``group_types`` (``wall``, ``inlet``, ``outlet``,
-``symmetry``, ``periodic``, ``opening``, ``interface``). Interior face zones are not
+``symmetry``, ``periodic``, ``open``, ``interface``). Interior face zones are not
 groups. Cell zones become the mesh's cell zones. Cells are general polyhedra here (the
 element type of a cell section does not give its corner order). Zones of parent faces
 (hanging-node refinement history, bc-type 31) are left out with a note.
@@ -64,7 +64,7 @@ ROLES: dict[str, str] = {
     "velocity-inlet": "inlet", "pressure-inlet": "inlet", "mass-flow-inlet": "inlet",
     "inlet-vent": "inlet", "intake-fan": "inlet", "pressure-outlet": "outlet",
     "outflow": "outlet", "outlet-vent": "outlet", "exhaust-fan": "outlet",
-    "periodic": "periodic", "periodic-shadow": "periodic", "pressure-far-field": "opening",
+    "periodic": "periodic", "periodic-shadow": "periodic", "pressure-far-field": "open",
     "interface": "interface", "fan": "interface", "porous-jump": "interface",
     "radiator": "interface",
 }
