@@ -25,6 +25,7 @@ sys.path.insert(0, str(HERE))
 
 import bench_meshes  # noqa: E402
 from bench_check import parse_size, worker  # noqa: E402
+from bench_table import write_readme  # noqa: E402
 
 START, END = "<!-- large-results:start -->", "<!-- large-results:end -->"
 
@@ -73,10 +74,7 @@ def main() -> None:
             "|---|---|---:|---:|---:|---:|---:|---:|---:|\n" + row + "\n")
     print(text)
     if not args.no_readme:
-        readme = HERE / "README.md"
-        old = readme.read_text()
-        before, rest = old.split(START, 1)
-        readme.write_text(f"{before}{START}\n{text}{END}{rest.split(END, 1)[1]}")
+        write_readme(HERE / "README.md", text, START, END)
 
 
 if __name__ == "__main__":

@@ -159,11 +159,12 @@ def render_tables(rows: list[dict], meta: dict) -> str:
     return "\n".join(parts) + "\n"
 
 
-def write_readme(readme: Path, text: str) -> None:
-    """Replace the text between the check-result markers of ``readme`` (appended if absent)."""
+def write_readme(readme: Path, text: str, start: str = START, end: str = END) -> None:
+    """Replace the text between the markers ``start`` and ``end`` of ``readme`` (the
+    check-result markers by default; appended if absent)."""
     old = readme.read_text() if readme.exists() else "# Benchmarks\n"
-    if START not in old:
-        old = f"{old.rstrip()}\n\n{START}\n{END}\n"
-    before, rest = old.split(START, 1)
-    after = rest.split(END, 1)[1]
-    readme.write_text(f"{before}{START}\n{text}{END}{after}")
+    if start not in old:
+        old = f"{old.rstrip()}\n\n{start}\n{end}\n"
+    before, rest = old.split(start, 1)
+    after = rest.split(end, 1)[1]
+    readme.write_text(f"{before}{start}\n{text}{end}{after}")

@@ -70,12 +70,9 @@ def main() -> None:
     text = "\n".join(lines) + "\n"
     print(text)
     if not args.no_readme:
-        readme = HERE / "README.md"
-        old = readme.read_text()
-        if START not in old:
-            old = f"{old.rstrip()}\n\n{START}\n{END}\n"
-        before, rest = old.split(START, 1)
-        readme.write_text(f"{before}{START}\n{text}{END}{rest.split(END, 1)[1]}")
+        from bench_table import write_readme
+
+        write_readme(HERE / "README.md", text, START, END)
 
 
 if __name__ == "__main__":

@@ -3,8 +3,9 @@
 A legacy library of cases may hold hundreds of known findings; ``--write-baseline FILE``
 records them and ``--baseline FILE`` leaves them out of later reports, so CI fails only on
 what is new or has got worse. A finding is identified by a fingerprint of its rule id, the
-case-file path (as given, with ``/`` separators), its scope (boundary, region) and the
-case-file key it concerns: not by its message, whose numbers change with every mesh edit.
+case-file path (as given, with ``/`` separators), its scope (boundary, region, the places
+a rule graded by place judges) and the case-file key it concerns: not by its message,
+whose numbers change with every mesh edit.
 The baseline also keeps each finding's severity, so a warning that becomes an error is
 reported again. Waived findings and faults of a rule itself are never recorded.
 
@@ -39,10 +40,12 @@ def case_path_key(path: str) -> str:
 
 
 def finding_fingerprint(case_path: str, finding: Finding) -> str:
-    """SHA-256 (hex) of rule id, case path, scope and case-file key of a finding."""
+    """SHA-256 (hex) of rule id, case path, scope and case-file key of a finding, and the
+    places it judges when graded by place (left out otherwise, so that fingerprints
+    recorded before grading by place still match)."""
     where = finding.where
     parts = [finding.rule, case_path_key(case_path), where.boundary or "", where.region or "",
-             where.key or ""]
+             where.key or ""] + ([where.place] if where.place else [])
     return hashlib.sha256(json.dumps(parts, separators=(",", ":")).encode()).hexdigest()
 
 

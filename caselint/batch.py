@@ -1,8 +1,9 @@
 """Checking many case files: serially, in parallel processes, or on a Dask cluster.
 
-Cases are grouped by the mesh they read (file and read settings): a group is one task,
-whose worker reads (or takes from the mesh cache, :mod:`caselint.cache`) each mesh once
-and checks all the group's cases on it. Results come back in the order the cases were
+Each case file is parsed once, here, and cases are grouped by the mesh they read (file
+and read settings): a group is one task, whose worker reads (or takes from the mesh
+cache, :mod:`caselint.cache`) each mesh once, under the run's memory limit, and checks all
+the group's cases on it. Results come back in the order the cases were
 given, whatever order the tasks finish in, so a parallel or distributed run's report is
 byte-identical to the serial one's. Parallel and distributed workers judge waivers on the
 parent's date.
@@ -30,6 +31,8 @@ if TYPE_CHECKING:
     import pluggy
 
     from caselint.cache import MeshCache
+    from caselint.engine.registry import Registry
+    from caselint.manifest.case import Case
     from caselint.model import CaseReport
 
 
@@ -52,50 +55,59 @@ class _Task:
 
     indices: tuple[int, ...]
     paths: tuple[str, ...]
+    cases: tuple["Case", ...]
     rule_sets: tuple[str, ...] | None
     blocked: tuple[str, ...]
     cache: "MeshCache | None"
+    memory_limit: tuple[int | None, str] | None
     today: dt.date | None
 
 
-def _run_task(task: _Task, pm: "pluggy.PluginManager | None" = None) -> list[tuple[int, CaseOutcome]]:
+def _run_task(task: _Task,
+              registry: "Registry | None" = None) -> list[tuple[int, CaseOutcome]]:
     """Check a task's cases, reading each mesh once (runs in a worker, or in process)."""
     from caselint import api
-    from caselint.cache import MeshStore, using_store
+    from caselint.cache import MeshStore
     from caselint.engine.plugins import get_plugin_manager
+    from caselint.engine.registry import Registry
 
-    pm = pm if pm is not None else get_plugin_manager(blocked=task.blocked)
-    store = MeshStore(task.cache)
+    if registry is None:
+        registry = Registry(get_plugin_manager(blocked=task.blocked))
+    store = MeshStore(task.cache, task.memory_limit)
     extra = {} if task.today is None else {"today": task.today}
     out = []
-    with using_store(store):
-        for index, path in zip(task.indices, task.paths):
-            try:
-                report = api.lint_case(path, rule_sets=task.rule_sets, pm=pm, **extra)
-                out.append((index, CaseOutcome(path, report=report)))
-            except UsageError as exc:
-                out.append((index, CaseOutcome(path, error=str(exc))))
+    for index, path, case in zip(task.indices, task.paths, task.cases):
+        try:
+            report = api.lint_case(case, rule_sets=task.rule_sets, registry=registry,
+                                   read_mesh=store.read, label=path, **extra)
+            out.append((index, CaseOutcome(path, report=report)))
+        except UsageError as exc:
+            out.append((index, CaseOutcome(path, error=str(exc))))
     store.save()
     return out
 
 
-def _group_by_mesh(paths: list[str], pm: "pluggy.PluginManager") -> list[list[int]]:
-    """Indices of the cases grouped by the mesh they read, in order of first appearance.
-
-    A case file that cannot be read here forms a group of its own; its worker reports it.
-    """
+def _load_and_group(paths: list[str], registry: "Registry"
+                    ) -> tuple[list[list[int]], dict[int, "Case"], dict[int, str]]:
+    """Each case file parsed once; the indices of the readable ones grouped by the mesh they
+    read (in order of first appearance), and the errors of the others."""
     from caselint.api import load_case
 
     groups: dict[object, list[int]] = {}
+    cases: dict[int, "Case"] = {}
+    errors: dict[int, str] = {}
     for i, path in enumerate(paths):
         try:
-            spec = load_case(path, pm).mesh
-            key: object = (os.path.abspath(spec.file), repr(spec.scale_to_m), spec.tag_array,
-                           tuple(sorted(spec.tags.items())))
-        except Exception:  # noqa: BLE001 - the worker reports it, with the serial message
-            key = ("unreadable", i)
+            case = load_case(path, registry=registry)
+        except UsageError as exc:
+            errors[i] = str(exc)
+            continue
+        spec = case.mesh
+        key = (os.path.abspath(spec.file), repr(spec.scale_to_m), spec.tag_array,
+               tuple(sorted(spec.tags.items())), spec.zone)
+        cases[i] = case
         groups.setdefault(key, []).append(i)
-    return list(groups.values())
+    return list(groups.values()), cases, errors
 
 
 def lint_batch(
@@ -103,31 +115,40 @@ def lint_batch(
     *,
     rule_sets: Iterable[str] | None = None,
     pm: "pluggy.PluginManager | None" = None,
+    registry: "Registry | None" = None,
     blocked: Iterable[str] = (),
     jobs: int = 1,
     scheduler: str | None = None,
     cache: "MeshCache | None" = None,
+    memory_limit: tuple[int | None, str] | None = None,
     today: dt.date | None = None,
     progress: Callable[[int], None] | None = None,
 ) -> list[CaseOutcome]:
     """Check every case file; one outcome per path, in the order given.
 
     ``progress(n)`` is called as each group of n cases finishes. Internal errors in a
-    worker are raised here; bad input becomes the outcome's ``error``.
+    worker are raised here; bad input becomes the outcome's ``error``. ``memory_limit`` (a
+    :data:`caselint.mesh.limits.MemoryLimit`) holds for every mesh the workers read.
     :raises UsageError: ``jobs`` below 1, or the Dask scheduler cannot be used.
     """
     from caselint.engine.plugins import get_plugin_manager
+    from caselint.engine.registry import Registry
 
     if jobs < 1:
         raise UsageError(f"--jobs must be at least 1, got {jobs}")
     paths = [str(p) for p in paths]
-    pm = pm if pm is not None else get_plugin_manager(blocked=tuple(blocked))
+    if registry is None:
+        registry = Registry(pm if pm is not None else get_plugin_manager(blocked=tuple(blocked)))
     rule_sets = tuple(rule_sets) if rule_sets else None
     if today is None and (scheduler is not None or jobs > 1):
         today = dt.date.today()     # every worker judges waivers on the parent's date
-    tasks = [_Task(tuple(g), tuple(paths[i] for i in g), rule_sets, tuple(blocked), cache, today)
-             for g in _group_by_mesh(paths, pm)]
-    results: dict[int, CaseOutcome] = {}
+    groups, cases, errors = _load_and_group(paths, registry)
+    results: dict[int, CaseOutcome] = {i: CaseOutcome(paths[i], error=message)
+                                       for i, message in errors.items()}
+    if errors and progress is not None:
+        progress(len(errors))
+    tasks = [_Task(tuple(g), tuple(paths[i] for i in g), tuple(cases[i] for i in g),
+                   rule_sets, tuple(blocked), cache, memory_limit, today) for g in groups]
 
     def collect(done: list[tuple[int, CaseOutcome]]) -> None:
         results.update(done)
@@ -152,7 +173,7 @@ def lint_batch(
                 collect(future.result())
     else:
         for task in tasks:
-            collect(_run_task(task, pm))
+            collect(_run_task(task, registry))
     return [results[i] for i in range(len(paths))]
 
 

@@ -8,9 +8,8 @@ caselint's version and a fingerprint of the mesh code that computed the entry (s
 changed formula never serves old geometry). A later run, or another process of the same
 batch, reads that file instead of the mesh.
 
-- Folder: ``CASELINT_CACHE_DIR``, else ``~/.cache/caselint`` (``XDG_CACHE_HOME`` honoured);
-  ``CASELINT_CACHE_DIR=off`` turns every on-disk cache of caselint off (this one and the
-  parsed unit definitions of :mod:`caselint.manifest.units`).
+- Folder: :func:`caselint.cachedir.cache_dir` (``CASELINT_CACHE_DIR``, else
+  ``~/.cache/caselint``; ``off`` turns every on-disk cache of caselint off).
 - Entries are written to a temporary file in the folder and renamed into place, so a
   process never sees half an entry; an unreadable entry is ignored and rebuilt.
 - Meshes below :data:`MIN_CELLS` cells are not cached (reading them is quicker than the
@@ -23,7 +22,6 @@ batch, reads that file instead of the mesh.
 from __future__ import annotations
 
 import contextlib
-import contextvars
 import hashlib
 import json
 import os
@@ -33,14 +31,11 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from caselint import __version__
+from caselint.files import file_sha256
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
 
-#: Environment variable naming the cache folder.
-ENV_DIR = "CASELINT_CACHE_DIR"
-#: Value of ``CASELINT_CACHE_DIR`` (any case) that turns caselint's on-disk caches off.
-OFF = "off"
 #: Environment variable with the most the folder may hold, in GB.
 ENV_MAX_GB = "CASELINT_CACHE_MAX_GB"
 #: Smallest mesh (cells) worth caching.
@@ -49,23 +44,8 @@ MIN_CELLS = 100_000
 MAX_GB = 10.0
 
 
-def default_cache_dir() -> Path:
-    """``CASELINT_CACHE_DIR``, else ``$XDG_CACHE_HOME/caselint`` or ``~/.cache/caselint``."""
-    if os.environ.get(ENV_DIR):
-        return Path(os.environ[ENV_DIR]).expanduser()
-    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
-    return Path(base) / "caselint"
-
-
-def cache_dir() -> Path | None:
-    """The folder of caselint's on-disk caches, or None when ``CASELINT_CACHE_DIR`` is ``off``."""
-    if os.environ.get(ENV_DIR, "").strip().lower() == OFF:
-        return None
-    return default_cache_dir()
-
-
 def mesh_key(mesh_sha256: str, scale_to_m: float, tag_array: str | None,
-             tags: dict[int, str] | None) -> str:
+             tags: dict[int, str] | None, zone: str | None = None) -> str:
     """Cache key of a mesh file read with these settings by this caselint version and this
     mesh code (:func:`caselint.mesh.fingerprint.code_fingerprint`)."""
     from caselint.mesh.arrays import FORMAT
@@ -74,6 +54,7 @@ def mesh_key(mesh_sha256: str, scale_to_m: float, tag_array: str | None,
     settings = {"sha256": mesh_sha256, "scale_to_m": repr(float(scale_to_m)),
                 "tag_array": tag_array, "tags": sorted((int(k), str(v)) for k, v in
                                                        (tags or {}).items()),
+                "zone": zone,
                 "caselint": __version__, "format": FORMAT, "code": code_fingerprint()}
     return hashlib.sha256(json.dumps(settings, sort_keys=True).encode()).hexdigest()
 
@@ -150,56 +131,40 @@ class MeshCache:
                 total -= size
 
 
-_ACTIVE: contextvars.ContextVar["MeshStore | None"] = contextvars.ContextVar(
-    "caselint_mesh_store", default=None)
-
-
-def active_store() -> "MeshStore | None":
-    """The mesh store of the batch running in this thread, if any (see :func:`using_store`)."""
-    return _ACTIVE.get()
-
-
-@contextlib.contextmanager
-def using_store(store: "MeshStore"):
-    """Within the block, :func:`caselint.api.load_case_mesh` reads meshes through ``store``."""
-    token = _ACTIVE.set(store)
-    try:
-        yield store
-    finally:
-        _ACTIVE.reset(token)
-
-
 class MeshStore:
     """The meshes of one batch worker: each read (or taken from the cache) once.
 
-    :meth:`read` has the signature of :func:`caselint.mesh.read_mesh`; :meth:`save` writes
-    the meshes this store read from their files to the cache, once their cases have run
-    (so that their topology and geometry are in the entry).
+    :meth:`read` has the signature of :func:`caselint.mesh.read_mesh` and is what the
+    worker passes to :func:`caselint.api.lint_case` as its mesh reader; every mesh is read
+    under ``memory_limit`` (None: the reader's default). :meth:`save` writes the meshes this
+    store read from their files to the cache, once their cases have run (so that their
+    topology and geometry are in the entry).
     """
 
-    def __init__(self, cache: MeshCache | None = None) -> None:
+    def __init__(self, cache: MeshCache | None = None,
+                 memory_limit: tuple[int | None, str] | None = None) -> None:
         self.cache = cache
+        self.memory_limit = memory_limit
         self._meshes: dict[tuple, Mesh] = {}
         self._fresh: dict[tuple, str] = {}      # read from file: settings -> cache key
 
     def read(self, path, *, scale_to_m: float = 1.0, tag_array: str | None = None,
-             tags: dict[int, str] | None = None, readers=None) -> "Mesh":
+             tags: dict[int, str] | None = None, zone: str | None = None,
+             readers=None) -> "Mesh":
         """The mesh of ``path`` read with these settings; raises MeshReadError like read_mesh."""
         from caselint.mesh import read_mesh
 
         settings = (os.path.abspath(path), repr(float(scale_to_m)), tag_array,
-                    tuple(sorted((tags or {}).items())))
+                    tuple(sorted((tags or {}).items())), zone)
         if settings in self._meshes:
             return self._meshes[settings]
         key = mesh = None
         if self.cache is not None and os.path.isfile(path):
-            from caselint.api import file_sha256
-
-            key = mesh_key(file_sha256(Path(path)), scale_to_m, tag_array, tags)
+            key = mesh_key(file_sha256(Path(path)), scale_to_m, tag_array, tags, zone)
             mesh = self.cache.load(key, str(path))
         if mesh is None:
             mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags,
-                             readers=readers)
+                             zone=zone, readers=readers, memory_limit=self.memory_limit)
             if key is not None:
                 self._fresh[settings] = key
         self._meshes[settings] = mesh

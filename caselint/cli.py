@@ -32,18 +32,20 @@ _EPILOG = (
 
 
 def _block_option(parser: argparse.ArgumentParser, dest: str, default: object) -> None:
-    """``-p no:NAME``: do not load the plugin NAME (a built-in module or an installed pack)."""
+    """``--no-plugin NAME``: do not load the plugin NAME (a built-in module or an installed
+    pack). The old spelling ``-p no:NAME`` is refused with a message giving the new one."""
     parser.add_argument(
-        "-p", dest=dest, action="append", default=default, metavar="no:NAME",
-        type=_blocked_name,
+        "--no-plugin", dest=dest, action="append", default=default, metavar="NAME",
         help="do not load plugin NAME (repeatable); `caselint plugins` lists the names",
     )
+    parser.add_argument("-p", dest=f"{dest}_old", action="append", type=_old_block_option,
+                        default=argparse.SUPPRESS, help=argparse.SUPPRESS)
 
 
-def _blocked_name(value: str) -> str:
-    if not value.startswith("no:") or not value[3:]:
-        raise argparse.ArgumentTypeError(f"expected no:NAME (a plugin to block), got {value!r}")
-    return value[3:]
+def _old_block_option(value: str) -> str:
+    name = value[3:] if value.startswith("no:") else value
+    raise argparse.ArgumentTypeError(f"-p {value} is no longer an option; block a plugin with "
+                                     f"--no-plugin {name or 'NAME'}")
 
 
 def _report_options(parser: argparse.ArgumentParser, *, demo: bool = False) -> None:
@@ -131,14 +133,15 @@ def build_parser() -> argparse.ArgumentParser:
 
     mesh = command("mesh", commands.cmd_mesh,
                    "summarise a mesh: size, cell types, boundary groups, quality spread")
-    mesh.add_argument("mesh", metavar="MESH", help="mesh file (any format meshio reads)")
+    mesh.add_argument("mesh", metavar="MESH",
+                      help="mesh file or mesh folder (see the formats in the README)")
     mesh.add_argument("--units", choices=sorted(commands.LENGTH_UNITS), default="m",
                       help="length unit of the mesh coordinates (default: m)")
     mesh.add_argument("--format", choices=("text", "json"), default="text",
                       help="output format (default: text)")
 
     init = command("init", commands.cmd_init, "write a starter case file for a mesh")
-    init.add_argument("mesh", metavar="MESH", help="mesh file the case will use")
+    init.add_argument("mesh", metavar="MESH", help="mesh file or folder the case will use")
     init.add_argument("--output", "-o", metavar="FILE",
                       help="case file to write (default: case.yaml beside the mesh); "
                            "an existing file is never overwritten")

@@ -10,14 +10,12 @@ from __future__ import annotations
 
 import argparse
 import contextlib
-import difflib
 import json
 import os
 import shutil
 import sys
-import tempfile
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable, Iterable, TextIO
+from typing import TYPE_CHECKING, Callable, TextIO
 
 from rich import box
 from rich.console import Console
@@ -25,8 +23,7 @@ from rich.table import Table
 from rich.text import Text
 
 from caselint.errors import ExitCode, UsageError
-from caselint.model import SEVERITY_RANK, Limits, Report, Rule
-from caselint.report.base import RenderOptions, Reporter
+from caselint.model import Limits, Rule
 
 if TYPE_CHECKING:
     import pluggy
@@ -99,200 +96,74 @@ def _table(plain: bool, *columns: str) -> Table:
     return table
 
 
-def write_atomically(path: Path, text: str) -> None:
-    """Write ``text`` to ``path`` through a temporary file in the same folder and a rename.
-
-    A reader never sees a half-written report, and an interrupted run leaves the old file.
-    """
-    if not path.parent.is_dir():
-        raise UsageError(f"cannot write {path}: folder {path.parent} does not exist")
-    if path.is_dir():
-        raise UsageError(f"cannot write {path}: it is a folder")
-    umask = os.umask(0)
-    os.umask(umask)
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    except OSError as exc:
-        raise UsageError(f"cannot write {path}: {exc.strerror}") from exc
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as handle:
-            handle.write(text)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; a report is an ordinary file
-        os.replace(tmp, path)
-    except BaseException as exc:
-        # Whatever stopped the write (a full disk, Ctrl-C, text that cannot be encoded),
-        # no temporary file is left beside the report.
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        if isinstance(exc, OSError):
-            raise UsageError(f"cannot write {path}: {exc.strerror or exc}") from exc
-        raise
-
-
 # -- plugins and formats ---------------------------------------------------------------
 
 
 def plugin_manager(args: argparse.Namespace) -> "pluggy.PluginManager":
-    """The plugin manager with the plugins named by ``-p no:NAME`` blocked."""
+    """The plugin manager with the plugins named by ``--no-plugin NAME`` blocked."""
     from caselint.engine.plugins import get_plugin_manager
 
     return get_plugin_manager(blocked=tuple(args.blocked))
 
 
-def did_you_mean(name: str, known: Iterable[str]) -> str:
-    """`` (did you mean 'x'?)`` for the closest known name, or an empty string."""
-    close = difflib.get_close_matches(name, list(known), n=1)
-    return f" (did you mean {close[0]!r}?)" if close else ""
-
-
-def pick_reporter(pm: "pluggy.PluginManager", name: str) -> Reporter:
-    """The output format called ``name``; a usage error listing the known ones otherwise."""
-    from caselint.engine.registry import collect_reporters
-
-    reporters = collect_reporters(pm)
-    if name not in reporters:
-        raise UsageError(f"unknown output format {name!r}{did_you_mean(name, reporters)}; "
-                         f"available: {', '.join(reporters) or 'none'}")
-    return reporters[name]
-
-
 # -- check and demo --------------------------------------------------------------------
 
 
-def fails(report: Report, fail_on: str) -> bool:
-    """True when an open finding is at or above ``fail_on``, or a rule could not run."""
-    threshold = SEVERITY_RANK[fail_on]
-    for case in report.cases:
-        if any(c.outcome == "error" for c in case.checks):
-            return True
-        if any(not f.waived and SEVERITY_RANK[f.severity] >= threshold for f in case.findings):
-            return True
-    return False
+def _memory_limit(args: argparse.Namespace) -> tuple[int | None, str]:
+    """``--memory-limit``, else ``CASELINT_MEMORY_LIMIT``, else the library's default."""
+    from caselint.mesh.limits import ENV_LIMIT, memory_limit
+
+    given = getattr(args, "memory_limit", None)
+    if given is not None:
+        return memory_limit(given, "--memory-limit")
+    return memory_limit(os.environ.get(ENV_LIMIT), ENV_LIMIT)
 
 
-def _same_file(a: Path, b: Path) -> bool:
-    """Whether two paths name the same file (after resolving links and ``..``)."""
-    return a.resolve() == b.resolve()
-
-
-def _protect_inputs(path: Path, what: str, inputs: list[Path], kind: str) -> None:
-    """Refuse to write a report or baseline over an input file."""
-    if any(_same_file(path, p) for p in inputs):
-        raise UsageError(f"{what} {path} is {kind}; caselint never overwrites its inputs")
-
-
-def run_check(args: argparse.Namespace, paths: list[str]) -> int:
-    """Lint each case file, report the ones that could be read, and pick the exit code.
-
-    Folders expand to the case files below them; each ``--format`` is rendered and written
-    to its ``--output``; ``--baseline`` leaves out known findings, ``--write-baseline``
-    records this run's.
-    """
-    import datetime as dt
-
-    from caselint.api import build_report
-    from caselint.baseline import apply_baseline, baseline_text, load_baseline
-    from caselint.manifest.discovery import expand_case_paths
-    from caselint.report.outputs import pair_outputs
-
-    pm = plugin_manager(args)
-    targets = [(pick_reporter(pm, d.format), d.path)
-               for d in pair_outputs(args.format, args.output)]
-    paths = expand_case_paths(paths)
-    written = [(p, "--output") for _, p in targets if p is not None]
-    if args.write_baseline:
-        written.append((Path(args.write_baseline), "--write-baseline"))
-    for path, option in written:
-        _protect_inputs(path, option, [Path(p) for p in paths], "one of the case files")
-    baseline = load_baseline(args.baseline) if args.baseline else None
-    rule_sets = tuple(args.rule_set or ())
-    checked, bad_input = [], False
-    for outcome in _lint_all(args, paths, rule_sets, pm):
-        if outcome.error is not None:
-            # One bad case file must not hide the findings of the others.
-            message(f"error: {outcome.error}")
-            bad_input = True
-        else:
-            checked.append((outcome.path, outcome.report))
-    cases = tuple(case for _, case in checked)
-    # CaseReport.mesh is relative to the case file's folder.
-    meshes = [Path(path).parent / case.mesh for path, case in checked if case.mesh]
-    for path, option in written:
-        _protect_inputs(path, option, meshes, "a mesh file of a case")
-    report = build_report(cases, pm, rule_sets)
-    if args.write_baseline:
-        if bad_input:
-            message(f"baseline {args.write_baseline} not written: a case file could not be "
-                    "checked, so the baseline would miss its findings")
-        else:
-            text = baseline_text(report)
-            write_atomically(Path(args.write_baseline), text)
-            count = len(json.loads(text)["findings"])
-            message(f"wrote baseline {args.write_baseline} ({count} open finding"
-                    f"{'' if count == 1 else 's'})")
-    if baseline is not None:
-        report = apply_baseline(report, baseline)
-        hidden = sum(case.baselined for case in report.cases)
-        message(f"{hidden} known finding{'' if hidden == 1 else 's'} left out (recorded in "
-                f"baseline {baseline.path})")
-    if cases or not bad_input:
-        stamp = dt.date.today().isoformat() if args.stamp else ""
-        rendered = []
-        for reporter, path in targets:  # render every format before writing any
-            if path is None:
-                options = RenderOptions(color=use_color(sys.stdout),
-                                        width=output_width(sys.stdout), fail_on=args.fail_on,
-                                        stamp=stamp)
-            else:
-                options = RenderOptions(color=False, width=DEFAULT_WIDTH, fail_on=args.fail_on,
-                                        stamp=stamp)
-            rendered.append((path, reporter.render(report, options)))
-        for path, text in rendered:
-            if path is None:
-                emit(sys.stdout, text)
-            else:
-                write_atomically(path, text)
-    if bad_input:
-        return ExitCode.USAGE
-    return ExitCode.FINDINGS if fails(report, args.fail_on) else ExitCode.OK
-
-
-def _lint_all(args: argparse.Namespace, paths: list[str], rule_sets: tuple[str, ...],
-              pm: "pluggy.PluginManager") -> list:
-    """Check the case files (``--jobs``, ``--scheduler``, mesh cache), in the order given.
-
-    A progress bar goes to stderr when it is a terminal and there is more than one case.
-    """
-    from caselint.batch import lint_batch
-    from caselint.cache import MeshCache, cache_dir
-
-    jobs, scheduler = getattr(args, "jobs", 1), getattr(args, "scheduler", None)
-    if scheduler is not None and jobs != 1:
-        raise UsageError("give either --jobs or --scheduler, not both (the scheduler's "
-                         "workers decide how many cases run at once)")
-    folder = None if getattr(args, "no_cache", True) else cache_dir()
-    cache = None if folder is None else MeshCache(folder)
-    options = dict(rule_sets=rule_sets or None, pm=pm, blocked=tuple(args.blocked), jobs=jobs,
-                   scheduler=scheduler, cache=cache)
-    if len(paths) < 2 or not _is_terminal(sys.stderr):
-        return lint_batch(paths, **options)
+@contextlib.contextmanager
+def _progress_bar(total: int):
+    """A progress bar on stderr while the case files are checked, when it is a terminal."""
+    if not _is_terminal(sys.stderr):
+        yield lambda n: None
+        return
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeElapsedColumn
 
     console = Console(file=sys.stderr, no_color=not use_color(sys.stderr))
     with Progress("checking", BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
                   console=console, transient=True) as bar:
-        task = bar.add_task("cases", total=len(paths))
-        return lint_batch(paths, progress=lambda n: bar.advance(task, n), **options)
+        task = bar.add_task("cases", total=total)
+        yield lambda n: bar.advance(task, n)
+
+
+def run_check(args: argparse.Namespace, paths: list[str]) -> int:
+    """Run the check pipeline (:func:`caselint.pipeline.run_check`), print what it produced
+    and pick the exit code."""
+    import datetime as dt
+
+    from caselint.pipeline import CheckOptions
+    from caselint.pipeline import run_check as check
+
+    options = CheckOptions(
+        paths=tuple(paths), formats=tuple(args.format or ()), outputs=tuple(args.output or ()),
+        fail_on=args.fail_on, rule_sets=tuple(args.rule_set or ()), baseline=args.baseline,
+        write_baseline=args.write_baseline,
+        stamp=dt.date.today().isoformat() if args.stamp else "",
+        jobs=getattr(args, "jobs", 1), scheduler=getattr(args, "scheduler", None),
+        use_cache=not getattr(args, "no_cache", True), memory_limit=_memory_limit(args),
+        blocked=tuple(args.blocked), stdout_color=use_color(sys.stdout),
+        stdout_width=output_width(sys.stdout), progress=_progress_bar)
+    run = check(options)
+    for text in run.messages:
+        message(text)
+    for text in run.stdout:
+        emit(sys.stdout, text)
+    if run.bad_input:
+        return ExitCode.USAGE
+    return ExitCode.FINDINGS if run.failed else ExitCode.OK
 
 
 def cmd_check(args: argparse.Namespace) -> int:
     """``caselint check``: lint the case files given."""
-    from caselint.mesh.limits import limit_option
-
-    with limit_option(getattr(args, "memory_limit", None)):
-        return run_check(args, list(args.cases))
+    return run_check(args, list(args.cases))
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
@@ -324,23 +195,24 @@ def _limit_text(rule: Rule, value: float | None) -> str:
 
 def cmd_rules(args: argparse.Namespace) -> int:
     """``caselint rules``: every registered rule with its default limits and source."""
-    from caselint.engine.registry import collect_rules
+    from caselint.engine.registry import Registry
 
-    rules = collect_rules(plugin_manager(args))
+    rules = Registry(plugin_manager(args)).rules
 
     def draw(console: Console, plain: bool) -> None:
         table = _table(plain, "Rule", "Warning", "Error", "Unit", "Title")
         table.columns[0].no_wrap = True
         for rule in rules.values():
             per_case = (rule.limits.warn is None and rule.limits.error is None
-                        and bool(rule.parameters))
+                        and (bool(rule.parameters) or rule.main_description != ""))
             warn, error = (("per case", "per case") if per_case else
                            (_limit_text(rule, rule.limits.warn),
                             _limit_text(rule, rule.limits.error)))
             table.add_row(rule.id, warn, error, rule.unit, rule.title)
         console.print(table)
         count = f"{len(rules)} rule{'' if len(rules) == 1 else 's'}"
-        console.print(f"{count}; `caselint explain RULE` gives the rationale, source and "
+        console.print(f"{count}; the limits are those of each rule's main grade; `caselint "
+                      "explain RULE` gives the rationale, source, every grade and the "
                       "parameters of one.")
 
     emit(sys.stdout, render_rich(draw))
@@ -356,23 +228,56 @@ def _limits_sentence(rule: Rule, limits: Limits) -> str:
              for grade, value in (("warning", limits.warn), ("error", limits.error))
              if value is not None]
     if parts:
-        return "; ".join(parts)
+        return "; ".join(parts) + f" (grade {rule.main_grade})"
+    if rule.main_description:
+        return f"chosen per case (grade {rule.main_grade}: {rule.main_description})"
     if rule.parameters:
         return "chosen per case from the parameters below"
     return "none (the rule only reports its measurement)"
 
 
+def _grade_rows(rule: Rule) -> list[tuple[str, ...]]:
+    """One row per grade: name, what it judges, warning, error, unit, source."""
+    from caselint.engine.extent import place_words
+
+    rows = []
+    for grade in rule.all_grades:
+        worse = grade.worse or rule.worse
+        unit = grade.unit if grade.unit is not None else rule.unit
+        sign = ">" if worse == "higher" else "<"
+        judges = grade.description
+        if grade.places:
+            judges = ("share beyond the quality limit" if grade.share else "worst value") + \
+                f" {place_words(grade.places)}"
+            if grade.share:
+                beyond = "main warning limit" if grade.beyond is None else f"{grade.beyond:g}"
+                judges += f" (beyond: {beyond})"
+
+        def limit(value: float | None) -> str:
+            from caselint.report.text import format_number
+
+            return "off" if value is None else f"{sign} {format_number(value)}"
+
+        rows.append((grade.name + (" (main)" if grade.name == rule.main_grade else ""),
+                     judges or "", limit(grade.warn), limit(grade.error), unit,
+                     grade.source or rule.source))
+    return rows
+
+
 def cmd_explain(args: argparse.Namespace) -> int:
-    """``caselint explain RULE``: what a rule measures, why, its limits, parameters and source."""
-    from caselint.engine.registry import collect_rules, rule_origins
+    """``caselint explain RULE``: what a rule measures, why, its grades, parameters, source."""
+    from caselint.engine.entries import suggest
+    from caselint.engine.needs import describe
+    from caselint.engine.registry import Registry
 
     pm = plugin_manager(args)
-    rules = collect_rules(pm)
+    registry = Registry(pm)
+    rules = registry.rules
     rule = rules.get(args.rule)
     if rule is None:
-        raise UsageError(f"unknown rule {args.rule!r}{did_you_mean(args.rule, rules)}; "
+        raise UsageError(f"unknown rule {args.rule!r}{suggest(args.rule, rules)}; "
                          "`caselint rules` lists the rules")
-    origin = rule_origins(pm).get(rule.id, "")
+    origin = registry.rule_origins.get(rule.id, "")
     dist = getattr(pm, "distributions", {}).get(origin)
     provided = f"{origin} ({dist[0]} {dist[1]})".strip() if dist else origin
 
@@ -389,19 +294,27 @@ def cmd_explain(args: argparse.Namespace) -> int:
         grid.add_row("worse when", "higher (limits are maxima)" if rule.worse == "higher"
                      else "lower (limits are minima)")
         grid.add_row("default limits", _limits_sentence(rule, rule.limits))
-        grid.add_row("case data needed", ", ".join(rule.needs) or "none")
+        grid.add_row("case data needed", ", ".join(describe(n) for n in rule.needs) or "none")
         grid.add_row("fix hint", rule.hint)
         grid.add_row("source", rule.source)
         grid.add_row("provided by", provided or "(unknown plugin)")
         console.print(grid)
         console.print()
+        table = _table(plain, "Grade", "Judges", "Warning", "Error", "Unit", "Source")
+        for row in _grade_rows(rule):
+            table.add_row(*row)
+        console.print(table)
+        console.print("A rule set or case file overrides a grade by name: "
+                      f"{rule.id}: {{grades: {{{rule.all_grades[-1].name}: {{warn: ...}}}}}}; "
+                      "warn and error alone set the main grade.")
+        console.print()
         if rule.parameters:
-            table = _table(plain, "Parameter", "Default", "Unit", "Meaning")
+            table = _table(plain, "Parameter", "Default", "Unit", "Takes", "Meaning")
             for p in rule.parameters:
-                table.add_row(p.name, str(p.default), p.unit, p.description)
+                table.add_row(p.name, str(p.default), p.unit, p.expected(), p.description)
             console.print(table)
         else:
-            console.print("Parameters: none beyond the warning and error limits.")
+            console.print("Parameters: none beyond the grades.")
 
     emit(sys.stdout, render_rich(draw))
     return ExitCode.OK
@@ -460,7 +373,7 @@ def cmd_mesh(args: argparse.Namespace) -> int:
     """``caselint mesh``: size, cell types, boundary groups and quality spread of a mesh."""
     from caselint.mesh.summary import mesh_summary, render_summary_text
 
-    summary = mesh_summary(args.mesh, LENGTH_UNITS[args.units])
+    summary = mesh_summary(args.mesh, LENGTH_UNITS[args.units], memory_limit=_memory_limit(args))
     if args.format == "json":
         text = json.dumps(summary, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False)
     else:

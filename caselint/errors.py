@@ -76,6 +76,45 @@ class CaseFileError(UsageError):
         return f"{where}:{key} {self.message}"
 
 
+#: Most problems of one file reported in one run; the rest are counted.
+MAX_REPORTED_PROBLEMS = 20
+
+
+@dataclass
+class CaseFileErrors(CaseFileError):
+    """Every problem found in one file, reported together (see :meth:`of`).
+
+    The fields of :class:`CaseFileError` are those of the first problem by line, so code
+    that reads one error still finds the first; ``problems`` holds them all, in line
+    order, at most :data:`MAX_REPORTED_PROBLEMS`; ``more`` counts those left out.
+    """
+
+    problems: tuple[CaseFileError, ...] = ()
+    more: int = 0
+
+    @classmethod
+    def of(cls, problems: "list[CaseFileError]") -> CaseFileError:
+        """One error for ``problems`` (at least one): itself when there is only one."""
+        unique = list({str(e): e for e in reversed(problems)}.values())[::-1]
+        unique.sort(key=lambda e: (e.line or 0, e.column or 0, e.key, e.message))
+        if len(unique) == 1:
+            return unique[0]
+        first = unique[0]
+        return cls(first.file, first.message, first.line, first.column, first.key,
+                   problems=tuple(unique[:MAX_REPORTED_PROBLEMS]),
+                   more=max(0, len(unique) - MAX_REPORTED_PROBLEMS))
+
+    def __str__(self) -> str:
+        count = len(self.problems) + self.more
+        lines = [f"{self.file}: {count} problems"]
+        # one line each: a key or value quoted in a message may hold a line break
+        lines += [f"  {printable(str(problem))}" for problem in self.problems]
+        if self.more:
+            lines.append(f"  ... and {self.more} more (the first {len(self.problems)} are "
+                         "listed; fix these and run again)")
+        return "\n".join(lines)
+
+
 class MeshReadError(UsageError):
     """A mesh file is missing, unreadable, or holds nothing caselint can check."""
 

@@ -10,82 +10,27 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any, Callable, Literal
+from typing import Any, Callable
 
-Outcome = Literal["pass", "fail", "skipped", "waived", "error"]
-Severity = Literal["error", "warning", "note"]
-Worse = Literal["higher", "lower"]
-
-OUTCOMES: tuple[str, ...] = ("pass", "fail", "skipped", "waived", "error")
-SEVERITIES: tuple[str, ...] = ("error", "warning", "note")
-#: Rank of each severity; a larger number is more severe.
-SEVERITY_RANK: dict[str, int] = {"note": 0, "warning": 1, "error": 2}
-
-#: How many cell or face ids a finding lists; the count is always given in full.
-MAX_LISTED_IDS = 10
-
-
-def _require_finite(record: Any, names: tuple[str, ...]) -> None:
-    """Refuse NaN and infinity in the named optional number fields of a record."""
-    for name in names:
-        value = getattr(record, name)
-        if value is not None and not math.isfinite(value):
-            raise ValueError(f"{type(record).__name__}.{name} must be finite, got {value!r}")
-
-
-@dataclass(frozen=True)
-class Limits:
-    """Warning and error limits of a graded rule; ``None`` disables that grade."""
-
-    warn: float | None = None
-    error: float | None = None
-
-    def __post_init__(self) -> None:
-        _require_finite(self, ("warn", "error"))
-
-
-@dataclass(frozen=True)
-class Where:
-    """Where a finding is: a scope (boundary or region) and a few cells, faces and a point."""
-
-    boundary: str | None = None
-    region: str | None = None
-    cells: tuple[int, ...] = ()
-    cell_count: int | None = None
-    faces: tuple[int, ...] = ()
-    face_count: int | None = None
-    point: tuple[float, float, float] | None = None
-    key: str | None = None       # case-file key path the finding concerns, e.g. "time.step"
-    line: int | None = None      # its 1-based line in the case file (filled in by the engine)
-
-    def __post_init__(self) -> None:
-        if len(self.cells) > MAX_LISTED_IDS or len(self.faces) > MAX_LISTED_IDS:
-            raise ValueError(
-                f"a finding lists at most {MAX_LISTED_IDS} ids; got {len(self.cells)} cells "
-                f"and {len(self.faces)} faces (give the full number as a count)"
-            )
-        if self.point is not None and not all(math.isfinite(v) for v in self.point):
-            raise ValueError(f"a finding's point must be finite, got {self.point}")
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain-data form with empty fields left out.
-
-        Listed ids always come with their full count (the count defaults to the number
-        listed), so a reader never mistakes a capped list for all of them.
-        """
-        out: dict[str, Any] = {}
-        for key in ("boundary", "region", "key", "line"):
-            if getattr(self, key) is not None:
-                out[key] = getattr(self, key)
-        for kind, ids, count in (("cells", self.cells, self.cell_count),
-                                 ("faces", self.faces, self.face_count)):
-            if ids or count is not None:
-                out[kind] = [int(i) for i in ids]
-                out[f"{kind[:-1]}_count"] = int(count if count is not None else len(ids))
-        if self.point is not None:
-            out["point"] = [float(v) for v in self.point]
-        return out
-
+# Parts of the model live in leaf modules; import every record from here.
+from caselint.declarations import PARAMETER_KINDS, Grade, Parameter  # noqa: F401
+from caselint.extents import Distribution, Extent, PlaceSpread  # noqa: F401
+from caselint.plotdata import PlotData, PlotSeries, log_bin_edges  # noqa: F401
+from caselint.values import (  # noqa: F401
+    ENTRY_KEYS,
+    MAX_LISTED_IDS,
+    OUTCOMES,
+    PLACES,
+    SEVERITIES,
+    SEVERITY_RANK,
+    STRICT_PLACES,
+    Limits,
+    Outcome,
+    Severity,
+    Where,
+    Worse,
+    _require_finite,
+)
 
 @dataclass(frozen=True)
 class Measurement:
@@ -103,6 +48,13 @@ class Measurement:
     that sets them reads them from its parameters (``ctx.params``).
     ``statement``, when given, is the finding's whole sentence (for yes/no conditions,
     where "1 above the limit 0" would say nothing).
+
+    ``grade`` names the rule's grade (:class:`Grade`) the measurement is graded against
+    (None: the rule's main grade); the engine resolves it with the rule-set and case-file
+    overrides, and takes the grade's direction and unit where the measurement leaves them
+    unset. ``limits`` set here replace the grade's (a rule deriving them per case from its
+    resolved grade, ``ctx.grades``). A measurement with an ``extent`` is graded by extent
+    and place instead: the engine grades it once per place grade of the rule.
     """
 
     value: float
@@ -114,6 +66,8 @@ class Measurement:
     worse: Worse | None = None
     limits: Limits | None = None
     statement: str = ""
+    grade: str | None = None
+    extent: Extent | None = None
 
     def __post_init__(self) -> None:
         if not math.isfinite(self.value):
@@ -133,92 +87,6 @@ class Note:
 
     message: str
     where: Where = field(default_factory=Where)
-
-
-@dataclass(frozen=True)
-class PlotSeries:
-    """One data series of a plot: a histogram's bin edges and counts, or a line's points.
-
-    For a histogram ``x`` holds the n+1 increasing bin edges and ``y`` the n counts;
-    ``below`` and ``above`` count the values outside the edges, so nothing is hidden.
-    For a line ``x`` and ``y`` are the points. ``label`` names the series (a boundary).
-    """
-
-    x: tuple[float, ...]
-    y: tuple[float, ...]
-    label: str = ""
-    below: int = 0
-    above: int = 0
-
-    def __post_init__(self) -> None:
-        if not all(math.isfinite(v) for v in (*self.x, *self.y)):
-            raise ValueError(f"plot series {self.label!r} holds a non-finite number")
-        if self.below < 0 or self.above < 0:
-            raise ValueError(f"plot series {self.label!r}: counts outside the edges are >= 0")
-
-    @classmethod
-    def histogram(cls, values: Any, edges: Any, label: str = "") -> "PlotSeries":
-        """Count finite ``values`` into bins between ``edges`` (numpy, no loop over values)."""
-        import numpy as np
-
-        values = np.asarray(values, dtype=np.float64).ravel()
-        values = values[np.isfinite(values)]
-        edges = np.asarray(edges, dtype=np.float64)
-        counts, _ = np.histogram(values, bins=edges)
-        return cls(x=tuple(float(e) for e in edges), y=tuple(float(c) for c in counts),
-                   label=label, below=int(np.count_nonzero(values < edges[0])),
-                   above=int(np.count_nonzero(values > edges[-1])))
-
-
-def log_bin_edges(values: Any, per_decade: int = 4, max_bins: int = 200) -> Any:
-    """Log-spaced histogram edges on whole fractions of a decade covering the positive,
-    finite ``values`` (numbers spanning decades: y+, Courant numbers)."""
-    import numpy as np
-
-    values = np.asarray(values, dtype=np.float64).ravel()
-    values = values[np.isfinite(values) & (values > 0)]
-    lo, hi = (float(values.min()), float(values.max())) if values.size else (1.0, 1.0)
-    low = math.floor(math.log10(max(lo, 1e-12)) * per_decade) / per_decade
-    high = math.ceil(math.log10(max(hi, 1e-12)) * per_decade) / per_decade
-    high = max(high, low + 1.0 / per_decade)
-    bins = min(int(round((high - low) * per_decade)), max_bins)
-    return np.logspace(low, high, bins + 1)
-
-
-@dataclass(frozen=True)
-class PlotData:
-    """Data a rule attaches for the review reports to draw (reporters compute nothing).
-
-    ``kind`` is ``"histogram"`` (each series: bin edges and counts) or ``"line"``
-    (each series: points, e.g. layer height against layer number). ``limits`` (with
-    ``worse``), when given, are drawn as marks on the x axis of a histogram. ``rule`` is
-    filled in by the engine with the id of the rule that attached the plot.
-    """
-
-    title: str
-    x_label: str
-    y_label: str
-    series: tuple[PlotSeries, ...]
-    kind: Literal["histogram", "line"] = "histogram"
-    limits: Limits | None = None
-    worse: Worse = "higher"
-    x_log: bool = False
-    y_log: bool = False
-    rule: str = ""
-
-    def __post_init__(self) -> None:
-        if self.kind not in ("histogram", "line"):
-            raise ValueError(f"plot kind must be 'histogram' or 'line', got {self.kind!r}")
-        if not self.series:
-            raise ValueError(f"plot {self.title!r} has no series")
-        for s in self.series:
-            if self.kind == "line" and len(s.x) != len(s.y):
-                raise ValueError(f"plot {self.title!r}: series {s.label!r} has {len(s.x)} x "
-                                 f"and {len(s.y)} y values")
-            if self.kind == "histogram" and (len(s.x) != len(s.y) + 1 or len(s.y) < 1
-                                             or any(b <= a for a, b in zip(s.x, s.x[1:]))):
-                raise ValueError(f"plot {self.title!r}: series {s.label!r} needs n >= 1 counts "
-                                 f"and n + 1 increasing edges, got {len(s.y)} and {len(s.x)}")
 
 
 @dataclass(frozen=True)
@@ -245,29 +113,19 @@ class RuleResult:
 
 
 @dataclass(frozen=True)
-class Parameter:
-    """A rule parameter beyond its limits, with its default and unit.
-
-    A rule set may set it to a value of the default's kind (a number, a flag, text), or
-    to null where ``nullable`` (always so when the default itself is None).
-    """
-
-    name: str
-    default: Any
-    unit: str = ""
-    description: str = ""
-    nullable: bool = False
-
-
-@dataclass(frozen=True)
 class Rule:
     """A check: its id, what it measures and why, its default limits, and its function.
 
     ``check`` is a pure function ``check(ctx) -> RuleResult`` of a
     :class:`caselint.engine.context.RuleContext`; it never prints, exits or writes files.
-    ``needs`` names the case data the rule reads (``"mesh"``, ``"physics.flow"``...),
-    shown by ``caselint explain``. ``worse`` says which direction of the measured value
-    crosses a limit: ``"higher"`` (a maximum) or ``"lower"`` (a minimum).
+    ``needs`` names the case data the rule cannot run without (``"mesh"``, a case-file
+    key such as ``"physics.flow.length"``, or a condition of
+    :data:`caselint.engine.needs.CONDITIONS` such as ``"transient"``); the engine skips the
+    rule, with one wording, when one is missing. ``worse`` says which direction of the
+    measured value crosses a limit: ``"higher"`` (a maximum) or ``"lower"`` (a minimum).
+    ``limits`` are the defaults of the main grade (named ``main_grade``, described by
+    ``main_description``, judging the places ``main_places`` when the rule grades by place);
+    ``grades`` declares the others (see :class:`Grade`).
     """
 
     id: str
@@ -282,6 +140,10 @@ class Rule:
     needs: tuple[str, ...] = ("mesh",)
     parameters: tuple[Parameter, ...] = ()
     measures: str = ""
+    grades: tuple[Grade, ...] = ()
+    main_grade: str = "main"
+    main_places: tuple[str, ...] = ()
+    main_description: str = ""
 
     def __post_init__(self) -> None:
         import re
@@ -291,11 +153,35 @@ class Rule:
         for attr in ("title", "rationale", "source", "hint"):
             if not getattr(self, attr).strip():
                 raise ValueError(f"rule {self.id!r} has no {attr}")
+        names = [g.name for g in self.all_grades]
+        if len(set(names)) < len(names):
+            raise ValueError(f"rule {self.id!r} declares a grade twice: {names}")
+        params = [p.name for p in self.parameters]
+        if len(set(params)) < len(params) or set(params) & set(ENTRY_KEYS):
+            raise ValueError(f"rule {self.id!r}: parameter names must be unique and not one of "
+                             f"{', '.join(ENTRY_KEYS)}: {params}")
+
+    @property
+    def all_grades(self) -> tuple[Grade, ...]:
+        """The main grade (from ``limits``), then the declared ones."""
+        main = Grade(self.main_grade, self.limits.warn, self.limits.error,
+                     description=self.main_description or "the rule's main limits",
+                     source=self.source, worse=self.worse, unit=self.unit,
+                     places=self.main_places)
+        return (main, *self.grades)
+
+    @property
+    def place_grades(self) -> tuple[Grade, ...]:
+        """The grades judging places (grading by extent and place)."""
+        return tuple(g for g in self.all_grades if g.places)
 
 
 @dataclass(frozen=True)
 class Check:
-    """The outcome of one rule on one case, with its extreme measured value."""
+    """The outcome of one rule on one case, with its extreme measured value.
+
+    ``distributions`` describe the spread of a rule graded by extent and place.
+    """
 
     rule: str
     title: str
@@ -306,9 +192,13 @@ class Check:
     unit: str
     reason: str = ""
     limits: Limits = field(default_factory=Limits)
+    worse: Worse = "higher"      # direction of the deciding value: its limits are maxima or minima
+    distributions: tuple[Distribution, ...] = ()
 
     def __post_init__(self) -> None:
         _require_finite(self, ("measured", "limit"))
+        if self.worse not in ("higher", "lower"):
+            raise ValueError(f"worse must be 'higher' or 'lower', got {self.worse!r}")
 
 
 @dataclass(frozen=True)
@@ -334,10 +224,18 @@ class Finding:
 
 @dataclass(frozen=True)
 class CaseSection:
-    """A top-level case-file section that a plugin adds, with its JSON Schema (2020-12)."""
+    """A top-level case-file section that a plugin adds, with its JSON Schema (2020-12).
+
+    ``quantities`` maps the dotted keys of the section that hold physical quantities to
+    their dimension (a name of ``caselint.manifest.units.DIMENSIONS``: ``"length"``,
+    ``"volume_flow"``...). The loader converts them to SI like every quantity of the case
+    file (a wrong unit is an error at its line), so rules read plain SI numbers from
+    ``ctx.case.extensions[name]``.
+    """
 
     name: str
     schema: dict[str, Any]
+    quantities: dict[str, str] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -381,6 +279,8 @@ class CaseReport:
     ``checklist`` holds the manual checks of the rule sets used. ``plots`` are the data
     the rules attached for the review reports (ordered by rule id). ``baselined`` counts
     findings left out because a baseline file (``--baseline``) records them as known.
+    ``rule_set_files`` pairs each rule set used with its file, and ``rule_info`` describes
+    the rules that ran (the run's :class:`Report` gathers both).
     """
 
     case: str
@@ -399,6 +299,8 @@ class CaseReport:
     review: ReviewInfo = field(default_factory=ReviewInfo)
     plots: tuple[PlotData, ...] = ()
     baselined: int = 0
+    rule_set_files: tuple[tuple[str, Any], ...] = field(default=(), compare=False)
+    rule_info: tuple["RuleInfo", ...] = field(default=(), compare=False)
 
 
 @dataclass(frozen=True)

@@ -1,12 +1,21 @@
 """Shared test set-up: installed rule packs never leak into the tests, and the tests never
-read or write the user's mesh cache."""
+read or write the user's mesh cache.
+
+Autoloading of installed packs is switched off when this file is imported, before any test
+module is collected: test modules build plugin managers at collection time (to
+parametrise over the registered rules), and an installed pack must not add rules there.
+"""
 
 from __future__ import annotations
 
+import os
+
 import pytest
 
-from caselint.cache import ENV_DIR as CACHE_DIR_ENV
+from caselint.cachedir import ENV_DIR as CACHE_DIR_ENV
 from caselint.engine.plugins import DISABLE_AUTOLOAD_ENV
+
+os.environ[DISABLE_AUTOLOAD_ENV] = "1"
 
 
 @pytest.fixture(autouse=True)

@@ -54,7 +54,22 @@ def check_load(path: Path) -> str:
 
 
 def assert_good_error(exc: Any, path: Path, text: str) -> None:
-    """A CaseFileError names the file, a line inside it and, past the syntax, a key."""
+    """A CaseFileError names the file, a line inside it and, past the syntax, a key;
+    several problems are each such an error, listed one per line under a count."""
+    from caselint.errors import MAX_REPORTED_PROBLEMS, CaseFileErrors
+
+    if isinstance(exc, CaseFileErrors):
+        from caselint.errors import printable
+
+        lines = str(exc).split("\n")     # one line a problem, whatever its keys hold
+        assert lines[0] == f"{path}: {len(exc.problems) + exc.more} problems", lines[0]
+        assert len(lines) == 1 + len(exc.problems) + (1 if exc.more else 0), lines
+        assert 2 <= len(exc.problems) <= MAX_REPORTED_PROBLEMS
+        assert (exc.line, exc.key) == (exc.problems[0].line, exc.problems[0].key)
+        for problem, line in zip(exc.problems, lines[1:]):
+            assert line == f"  {printable(str(problem))}"
+            assert_good_error(problem, path, text)
+        return
     message = str(exc)
     assert exc.file == str(path), exc.file
     assert message.startswith(str(path)), message
@@ -117,8 +132,16 @@ def check_cli(path: Path, run_cli: Any, validator: Any) -> int:
         rest_of_first = match["rest"]
         assert rest_of_first.startswith(f"{path}:"), err
         after = rest_of_first[len(str(path)) + 1:]
-        assert re.match(r"\d+:", after) or any(w in after for w in WHOLE_FILE), \
-            f"no line in: {first}"
+        several = re.fullmatch(r" (\d+) problems", after)
+        if several:     # then one located problem per indented line
+            listed = err.rstrip("\n").split("\n")[1:]
+            assert 2 <= len(listed) <= int(several[1]) + 1, err
+            for line in listed[:int(several[1])]:
+                assert re.match(rf"  {re.escape(str(path))}:\d+:", line) or \
+                    line.startswith("  ... and "), f"no line in: {line}"
+        else:
+            assert re.match(r"\d+:", after) or any(w in after for w in WHOLE_FILE), \
+                f"no line in: {first}"
         # Control characters from the case file are escaped, never sent to the terminal;
         # newlines stay (a validation error lists further problems on indented lines).
         assert all(c == "\n" or c.isprintable() or unicodedata.category(c) == "Zs"

@@ -10,7 +10,8 @@ import pytest
 
 import caselint.mesh
 from caselint import cache as cache_mod
-from caselint.cache import MeshCache, MeshStore, default_cache_dir, mesh_key
+from caselint.cache import MeshCache, MeshStore, mesh_key
+from caselint.cachedir import default_cache_dir
 from caselint.mesh import Mesh, mesh_from_meshio, quality
 from caselint.mesh.arrays import mesh_from_arrays, mesh_to_arrays
 from caselint.mesh.blocks import shuffled, structured_hex, structured_quad, write_gmsh22

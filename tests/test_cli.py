@@ -11,13 +11,14 @@ import contextlib
 import io
 import json
 import re
+from pathlib import Path
 
 import pytest
 from jsonschema import Draft202012Validator
 
 from caselint import __version__, hookimpl
 from caselint.cli import main
-from caselint.errors import CaseFileError
+from caselint.errors import CaseFileError, UsageError
 from caselint.model import CaseReport, Check, Finding, Limits, Parameter, Rule, RuleResult, Where
 from caselint.report.json_report import report_schema, report_schema_text
 
@@ -108,19 +109,34 @@ def _finding(severity: str, waived: bool = False) -> Finding:
 
 @pytest.fixture
 def fake_lint(monkeypatch):
-    """Replace lint_case; ``cases[path]`` is the report (or the exception) for a path."""
+    """Replace load_case and lint_case; ``cases[path]`` is the report (or the exception) for
+    a path: a usage error is raised when the case file is read, anything else when it is
+    checked. ``calls`` records each case file read, with the plugins and rule sets used."""
+    import types
+
     import caselint.api as api
 
     cases: dict[str, object] = {}
     calls: list[dict] = []
 
-    def lint_case(path, *, rule_sets=None, pm=None):
-        calls.append({"path": str(path), "rule_sets": rule_sets, "pm": pm})
+    def load_case(path, pm=None, *, registry=None):
+        calls.append({"path": str(path), "rule_sets": None, "pm": registry.pm})
         result = cases[str(path)]
+        if isinstance(result, UsageError):
+            raise result
+        mesh = types.SimpleNamespace(file=Path(f"{path}.msh"), scale_to_m=1.0, tag_array=None,
+                                     tags={}, zone=None)
+        return types.SimpleNamespace(path=Path(path), mesh=mesh)
+
+    def lint_case(case, *, rule_sets=None, registry=None, read_mesh=None, label=None, **kw):
+        call = [c for c in calls if c["path"] == label][-1]
+        call["rule_sets"] = rule_sets
+        result = cases[label]
         if isinstance(result, BaseException):
             raise result
         return result
 
+    monkeypatch.setattr(api, "load_case", load_case)
     monkeypatch.setattr(api, "lint_case", lint_case)
     return cases, calls
 
@@ -225,10 +241,21 @@ def test_unknown_format_is_a_usage_error_with_a_suggestion(fake_lint):
 def test_blocking_a_plugin_removes_what_it_registers(fake_lint):
     cases, _ = fake_lint
     cases["a.yaml"] = _case("a.yaml")
-    for args in (("-p", "no:caselint.report.json_report", "check", "a.yaml", "--format", "json"),
-                 ("check", "-p", "no:caselint.report.json_report", "a.yaml", "--format", "json")):
+    for args in (("--no-plugin", "caselint.report.json_report", "check", "a.yaml", "--format",
+                  "json"),
+                 ("check", "--no-plugin", "caselint.report.json_report", "a.yaml", "--format",
+                  "json")):
         code, _, err = run_cli(*args)
         assert code == 2 and "unknown output format 'json'" in err
+
+
+@pytest.mark.parametrize("args", [("-p", "no:quillfen", "plugins"),
+                                  ("plugins", "-p", "no:x")])
+def test_the_old_plugin_blocking_option_names_the_new_one(args):
+    code, out, err = run_cli(*args)
+    assert (code, out) == (2, "")
+    name = args[args.index("-p") + 1][3:]
+    assert f"--no-plugin {name}" in err
 
 
 # -- check: output ---------------------------------------------------------------------
@@ -292,9 +319,12 @@ def test_explain_shows_everything_about_a_rule(probe_pack):
     for expected in ("probe-spacing: Probe spacing in the test pack",
                      "sample the same eddies", "measures cells between neighbouring probes",
                      "warning below 3 cells; error below 1 cells", "lower (limits are minima)",
-                     "case data needed mesh, probes", "fix hint Move the probes apart.",
+                     "case data needed the mesh (with volume cells), probes",
+                     "fix hint Move the probes apart.",
                      "source common practice", "provided by probe-pack",
-                     "| min_gap | 0.05 | m | smallest probe gap considered |"):
+                     "| main (main) | the rule's main limits | < 3 | < 1 | cells | common practice",
+                     "| min_gap | 0.05 | m | a finite number (in m) | smallest probe gap "
+                     "considered |"):
         assert expected in text
 
 
@@ -311,7 +341,7 @@ def test_plugins_lists_builtins_and_packs_and_leaves_out_blocked_ones(probe_pack
     assert re.search(r"caselint\.report\.json_report\s*\|\s*caselint " + re.escape(__version__)
                      + r"\s*\|\s*reporters: json", out)
     assert re.search(r"probe-pack\s*\|.*\|\s*rules: probe-spacing", out)
-    code, out, _ = run_cli("-p", "no:probe-pack", "plugins")
+    code, out, _ = run_cli("--no-plugin", "probe-pack", "plugins")
     assert code == 0 and "probe-pack |" not in out and "Blocked: probe-pack" in out
 
 

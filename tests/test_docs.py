@@ -39,9 +39,13 @@ def test_every_built_in_rule_explains_itself(rule_id):
     rule = collect_rules(get_plugin_manager())[rule_id]
     assert len(rule.rationale.split()) >= 15, f"{rule_id}: rationale is too short"
     assert rule.source.strip() and rule.hint.strip() and rule.title.strip()
-    # graded by its own limits, or by limits chosen per case from documented parameters
-    assert (rule.limits.warn is not None or rule.limits.error is not None
-            or all(p.description for p in rule.parameters) and rule.parameters)
+    # graded by limits of its own grades, or by limits chosen per case that each grade
+    # describes; every grade names its source, every parameter says what it is
+    grades = rule.all_grades
+    assert (any(g.warn is not None or g.error is not None for g in grades)
+            or all(g.description != "the rule's main limits" for g in grades))
+    assert all(g.source or rule.source for g in grades)
+    assert all(p.description for p in rule.parameters)
     code, out, err = run_cli("explain", rule_id)
     assert code == 0, err
     assert rule.title in out and rule.source.split(";")[0][:30] in " ".join(out.split())

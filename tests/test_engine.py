@@ -39,7 +39,7 @@ def _case(tmp_path: Path, waivers=(), safety="none") -> Case:
 
 
 def _active(rule, limits=None, severity=None):
-    from caselint.engine.rulesets import ActiveRule
+    from caselint.engine.entries import ActiveRule
 
     return ActiveRule(rule, limits or rule.limits, {}, severity)
 
@@ -348,8 +348,8 @@ def test_rule_parameters_are_type_checked_against_their_defaults(tmp_path):
                 "rules:\n  p: {min_steps: 30, strict: true, cap: null, st: null}\n")
     (active,) = select_rules(("ok",), {"ok": ok}, {"p": rule}).rules
     assert active.params == {"min_steps": 30, "strict": True, "cap": None, "st": None}
-    for text, expected in [("min_steps: many", "must be a finite number in steps"),
-                           ("min_steps: null", "must be a finite number in steps"),
+    for text, expected in [("min_steps: many", r"must be a finite number \(in steps\)"),
+                           ("min_steps: null", r"must be a finite number \(in steps\)"),
                            ("strict: 1", "must be true or false"),
                            ("min_steps: .nan", "must be a finite number")]:
         bad = _write(tmp_path / "bad.yaml", f"rules:\n  p:\n    {text}\n")

@@ -54,6 +54,8 @@ def load(folder: Path, text: str) -> Path:
               "{strouhal: 1e400}}\n")                                 # infinity accepted
 @example(text="a: " + "[" * 3000 + "]" * 3000 + "\n")                 # deep: no line given
 @example(text="caselint: 1\n'': 1\n")                                 # an empty key
+@example(text="case: {name: x}\nmesh: {file: m.msh}\n\"\\r\": null\n")     # a key "\r", 2 problems
+@example(text="case: {name: x}\nmesh: {file: m.msh}\n? '\n\n  '\n: null\n")  # a key "\n"
 def test_loading_any_text_ends_in_a_case_or_a_located_error(folder, text):
     fp.check_load(load(folder, text))
 

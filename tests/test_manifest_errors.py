@@ -6,7 +6,13 @@ from pathlib import Path
 
 import pytest
 
-from caselint.errors import CaseFileError, ExitCode, UsageError
+from caselint.errors import (
+    MAX_REPORTED_PROBLEMS,
+    CaseFileError,
+    CaseFileErrors,
+    ExitCode,
+    UsageError,
+)
 from caselint.manifest import load_case
 
 DATA = Path(__file__).parent / "data" / "cases" / "proofing-room.yaml"
@@ -193,10 +199,10 @@ def test_bad_waiver_dates(tmp_path: Path, value: str, message: str) -> None:
 
 def test_region_shape_must_be_exactly_one(tmp_path: Path) -> None:
     err, text, _ = error_of(tmp_path, ("    max_cell_size: 5 mm", "    sphere: {center: [0, 0, 0], radius: 1}"))
-    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder'; found 'box', 'sphere'"
+    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder', 'zone'; found 'box', 'sphere'"
     assert (err.key, err.line) == ("regions[0]", line_of(text, "- name: diffuser-jet"))
     err, _, _ = error_of(tmp_path, ("    sphere: {center: [1.5, 1.0, 0.8], radius: 10 cm}\n", ""))
-    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder'" and err.key == "regions[1]"
+    assert err.message == "needs exactly one of 'box', 'sphere', 'cylinder', 'zone'" and err.key == "regions[1]"
 
 
 def test_region_checks_beyond_the_schema(tmp_path: Path) -> None:
@@ -229,9 +235,102 @@ def test_bad_rule_ids_and_parameter_values(tmp_path: Path) -> None:
 
 
 def test_several_problems_are_listed_first_by_line(tmp_path: Path) -> None:
-    err, text, _ = error_of(tmp_path, ("  safety: none", "  safety: nah"), ("    density: 1.2", "    densty: 1.2"))
+    err, text, path = error_of(tmp_path, ("  safety: none", "  safety: nah"),
+                               ("    density: 1.2", "    densty: 1.2"))
+    assert isinstance(err, CaseFileErrors)
     assert err.key == "case.safety" and err.line == line_of(text, "safety: nah")
-    assert f"also line {line_of(text, 'densty')}: [physics.fluid.densty] unknown key 'densty'" in err.message
+    lines = str(err).splitlines()
+    assert lines[0] == f"{path}: 2 problems"
+    assert lines[2] == (f"  {path}:{line_of(text, 'densty')}:5: [physics.fluid.densty] "
+                        "unknown key 'densty' (did you mean 'density'?)")
+
+
+def test_every_mistake_of_a_case_file_is_reported_in_one_run(tmp_path: Path) -> None:
+    # six mistakes found by three stages: the YAML reader (a duplicate key), the schema
+    # (an unknown key, a misspelt value) and the checks after it (a unit, a sign, a file,
+    # the end time before the first step)
+    err, text, path = error_of(
+        tmp_path,
+        ("  safety: none", "  safety: none\n  name: Proofing room P3"),   # duplicate key
+        ("  prepared_by: J. Lind", "  prepared_bye: J. Lind"),              # unknown key
+        ("model: k-omega-sst", "model: k-omega-sts"),                       # misspelt value
+        ("velocity: 30 km/h", "velocity: 30 kg"),                           # wrong dimension
+        ("density: 1.2 kg/m^3", "density: -1.2 kg/m^3"),                    # not positive
+        ("file: room.msh", "file: gone.msh"),                               # missing mesh
+    )
+    # the turbulence model's schema problem sits in physics: physics is not checked further,
+    # so the velocity and density mistakes there wait for the next run
+    assert isinstance(err, CaseFileErrors)
+    found = {(p.key, p.line) for p in err.problems}
+    assert found == {
+        ("case.name", line_of(text, "name: Proofing room P3")),
+        ("review.prepared_bye", line_of(text, "prepared_bye")),
+        ("physics.turbulence.model", line_of(text, "k-omega-sts")),
+        ("mesh.file", line_of(text, "gone.msh")),
+    }
+    lines = str(err).splitlines()
+    assert lines[0] == f"{path}: 4 problems"
+    assert [p.line for p in err.problems] == sorted(p.line for p in err.problems)
+    for problem, line in zip(err.problems, lines[1:]):
+        assert line.startswith(f"  {path}:{problem.line}:{problem.column}: [{problem.key}] ")
+
+
+def test_problems_in_sections_the_schema_accepts_are_all_reported(tmp_path: Path) -> None:
+    err, text, _ = error_of(
+        tmp_path,
+        ("velocity: 30 km/h", "velocity: 30 kg"),
+        ("density: 1.2 kg/m^3", "density: -1.2 kg/m^3"),
+        ("end: 5 s", "end: 0.1 ms"),
+        ("radius: 10 cm", "radius: 10 kg"),
+        ("max: [0.6, 0.6, 2.7]", "max: [0.6, 0.6, 2.4]"),
+        ("region: diffuser-jet", "region: diffuser-jets"),
+        ("room-coarse.msh", "room-gone.msh"),
+    )
+    assert [(p.key, p.line) for p in err.problems] == [
+        ("physics.fluid.density", line_of(text, "density:")),
+        ("physics.flow.velocity", line_of(text, "velocity:")),
+        ("time.end", line_of(text, "end: 0.1 ms")),
+        ("regions[0].box.max", line_of(text, "max: [0.6")),
+        ("regions[1].sphere.radius", line_of(text, "radius: 10 kg")),
+        ("grid_study.meshes[2]", line_of(text, "room-gone.msh")),
+        ("checks.waivers[0].region", line_of(text, "diffuser-jets")),
+    ]
+    assert "which is a mass" in err.problems[1].message
+
+
+def test_all_duplicate_keys_are_reported_with_the_schema_problems(tmp_path: Path) -> None:
+    err, text, _ = error_of(tmp_path, ("  units: mm", "  units: mm\n  units: m"),
+                            ("  mode: transient", "  mode: transient\n  mode: steady"),
+                            ("  safety: none", "  safety: nah"))
+    assert [p.message.split(" (")[0] for p in err.problems] == [
+        "'nah' is not allowed here; expected one of: 'none', 'structural-wind', 'fire-smoke', "
+        "'life-safety', 'medical', 'pressure-equipment'",
+        "duplicate key 'units'", "duplicate key 'mode'"]
+
+
+def test_a_long_list_of_problems_is_capped(tmp_path: Path) -> None:
+    extra = "".join(f"  colour{i}: blue\n" for i in range(MAX_REPORTED_PROBLEMS + 5))
+    err, _, path = error_of(tmp_path, ("  safety: none\n", "  safety: none\n" + extra))
+    assert len(err.problems) == MAX_REPORTED_PROBLEMS and err.more == 5
+    lines = str(err).splitlines()
+    assert lines[0] == f"{path}: {MAX_REPORTED_PROBLEMS + 5} problems"
+    assert lines[-1] == (f"  ... and 5 more (the first {MAX_REPORTED_PROBLEMS} are listed; "
+                         "fix these and run again)")
+
+
+def test_an_unclosed_bracket_names_where_it_opened_and_where_parsing_stopped(
+        tmp_path: Path) -> None:
+    err, text, path = error_of(tmp_path, ("    sound_speed: 343 m/s\n", ""),
+                               ("    density: 1.2 kg/m^3\n    viscosity: 1.81e-5 Pa*s",
+                                "    {density: 1.2 kg/m^3,\n    viscosity: 1.81e-5 Pa*s"))
+    opened = line_of(text, "{density")
+    stopped = line_of(text, "thermal_diffusivity")
+    column = text.splitlines()[opened - 1].index("{") + 1
+    assert opened < stopped and (err.line, err.column) == (stopped, 24)
+    assert str(err) == (
+        f"{path}:{stopped}:24: YAML syntax error: expected ',' or '}}', but got ':' at line "
+        f"{stopped}, column 24; the mapping '{{' opened on line {opened}, column {column} is "
+        "not closed (a missing '}' or ',')")
 
 
 def test_missing_and_unreadable_case_files(tmp_path: Path) -> None:
@@ -246,3 +345,22 @@ def test_missing_and_unreadable_case_files(tmp_path: Path) -> None:
     (tmp_path / "list.yaml").write_text("- caselint: 1\n")
     with pytest.raises(CaseFileError, match="top level must be a mapping of keys, got a list"):
         load_case(tmp_path / "list.yaml")
+
+
+def test_the_command_line_lists_every_problem_and_exits_2(tmp_path: Path) -> None:
+    from test_cli import run_cli
+
+    path, text = write_case(tmp_path, (("velocity: 30 km/h", "velocity: 30 kg"),
+                                       ("end: 5 s", "end: 0.1 ms"),
+                                       ("  prepared_by: J. Lind", "  prepared_bye: J. Lind")))
+    code, out, err = run_cli("check", str(path))
+    assert (code, out) == (ExitCode.USAGE, "")
+    assert err.splitlines() == [
+        f"caselint: error: {path}: 3 problems",
+        f"  {path}:{line_of(text, 'velocity:')}:5: [physics.flow.velocity] expected a velocity "
+        "such as '2.5 m/s', got '30 kg', which is a mass",
+        f"  {path}:{line_of(text, 'end: 0.1 ms')}:3: [time.end] the end time 0.0001 s is "
+        "shorter than one time step (0.0002 s)",
+        f"  {path}:{line_of(text, 'prepared_bye')}:3: [review.prepared_bye] unknown key "
+        "'prepared_bye' (did you mean 'prepared_by'?)",
+    ]

@@ -68,6 +68,7 @@ def test_no_open_objects_except_free_form_maps() -> None:
         "/properties/mesh/properties/tags",
         "/properties/checks/properties/rules",
         "/properties/checks/properties/rules/additionalProperties",
+        "/properties/checks/properties/rules/additionalProperties/properties/grades",
     ])
 
 

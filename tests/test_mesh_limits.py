@@ -59,14 +59,14 @@ def test_estimate_is_the_measured_cost_per_cell_plus_the_fixed_part():
     assert 898 < per_hex <= 1.15 * 898 and 600 < per_tet <= 1.15 * 600
 
 
-def test_limit_comes_from_the_environment_else_a_share_of_the_available_memory(monkeypatch):
+def test_limit_is_the_size_given_else_a_share_of_the_available_memory(monkeypatch):
     monkeypatch.setattr(limits, "available_memory", lambda: 8_000_000_000)
     assert limits.memory_limit() == (6_800_000_000, "85% of the 8 GB available")
+    assert limits.memory_limit("2GB") == (2_000_000_000, "set by --memory-limit")
+    assert limits.memory_limit("off", limits.ENV_LIMIT) == (None, f"set by {limits.ENV_LIMIT}")
+    # the library never reads the environment: the command line passes the variable on
     monkeypatch.setenv(limits.ENV_LIMIT, "2GB")
-    assert limits.memory_limit()[0] == 2_000_000_000
-    monkeypatch.setenv(limits.ENV_LIMIT, "off")
-    assert limits.memory_limit()[0] is None
-    monkeypatch.delenv(limits.ENV_LIMIT)
+    assert limits.memory_limit() == (6_800_000_000, "85% of the 8 GB available")
     monkeypatch.setattr(limits, "available_memory", lambda: None)
     assert limits.memory_limit() == (None, "unknown")
 
@@ -80,14 +80,13 @@ def test_available_memory_is_read_from_the_system():
     assert 0 < available <= total
 
 
-def test_limit_option_is_passed_on_and_restored():
-    with limits.limit_option("3GB"):
-        assert os.environ[limits.ENV_LIMIT] == "3GB"         # processes of --jobs see it
-        assert limits.memory_limit()[0] == 3_000_000_000
-    assert limits.ENV_LIMIT not in os.environ
+def test_the_limit_is_passed_to_the_reader_explicitly(tmp_path):
+    write_gmsh22(structured_hex([0.0, 1.0], [0.0, 1.0], [0.0, 1.0]), tmp_path / "one.msh")
+    with pytest.raises(MeshReadError, match=r"the limit is 100 MB \(set by --memory-limit\)"):
+        read_mesh(tmp_path / "one.msh", memory_limit=limits.memory_limit("100MB"))
+    assert read_mesh(tmp_path / "one.msh", memory_limit=(None, "off")).n_cells == 1
     with pytest.raises(UsageError, match="--memory-limit"):
-        with limits.limit_option("many"):
-            pass
+        limits.memory_limit("many")
 
 
 @pytest.fixture
@@ -167,10 +166,10 @@ def test_header_refusal_comes_before_meshio_reads(tmp_path, monkeypatch):
         raise AssertionError("meshio read a file the header said was too large")
 
     monkeypatch.setattr(meshio, "read", never)
-    monkeypatch.setenv(limits.ENV_LIMIT, str(limits.FIXED_BYTES + 100))
+    limit = limits.memory_limit(str(limits.FIXED_BYTES + 100))
     for name, count in _files(tmp_path).items():
         with pytest.raises(MeshReadError) as info:
-            read_mesh(tmp_path / name)
+            read_mesh(tmp_path / name, memory_limit=limit)
         assert f"({count} cells, counted from the file header)" in str(info.value), name
 
 

@@ -340,7 +340,8 @@ def test_meshio_suffixes_are_meshios_own():
 
 def test_a_reader_with_a_content_check_is_asked_first(tmp_path):
     from caselint.mesh.build import mesh_from_faces
-    from caselint.mesh.readers import MeshReader, builtin_readers, choose_reader
+    from caselint.mesh.formats import BUILTIN_READERS
+    from caselint.mesh.readers import MeshReader, choose_reader
 
     def one_tet(path, options):
         pts = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)
@@ -355,7 +356,7 @@ def test_a_reader_with_a_content_check_is_asked_first(tmp_path):
     ours, other = tmp_path / "a.msh", tmp_path / "b.msh"
     ours.write_text("TET\n")
     other.write_text("$MeshFormat\n")
-    readers = (*builtin_readers(), mine)
+    readers = (*BUILTIN_READERS, mine)
     assert choose_reader(ours, readers) is mine
     assert choose_reader(other, readers).name == "meshio"
     mesh = read_mesh(ours, scale_to_m=2.0, readers=readers)

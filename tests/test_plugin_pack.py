@@ -133,7 +133,7 @@ def test_a_pack_that_fails_to_import_stops_the_run_naming_its_distribution(tmp_p
     monkeypatch.syspath_prepend(str(site))
     monkeypatch.delenv(DISABLE_AUTOLOAD_ENV, raising=False)
     with pytest.raises(PluginLoadError, match=r"broken-rules 0\.3\.1 failed to load.*"
-                                              r"ModuleNotFoundError.*-p no:broken"):
+                                              r"ModuleNotFoundError.*--no-plugin broken"):
         get_plugin_manager()
     # the command line turns it into exit 2 with the same message
     from test_cli import run_cli

@@ -77,17 +77,21 @@ def test_page_is_well_formed_and_self_contained():
 def test_every_check_shows_its_outcome_and_measured_value():
     text = render_html(sample_report(), RenderOptions())
     hood = text.split('<section id="case-1">')[0]
-    for rule, outcome, measured in (("non-orthogonality", "FAIL (warning)", "72.5"),
-                                    ("growth-ratio", "pass", "1.18"),
-                                    ("inverted-cells", "FAIL (error)", "3"),
-                                    ("time-step", "FAIL (error)", "0.5"),
-                                    ("aspect-ratio", "waived (warning)", "1200"),
-                                    ("wall-yplus", "not checked", "-"),
-                                    ("gap-cells", "ERROR (rule fault)", "-")):
-        row = re.search(rf"<tr><td><strong>{rule}</strong>.*?</tr>", hood)
+    expected = (("inverted-cells", "FAIL (error)", "3 cells", "<= 0 cells"),
+                ("time-step", "FAIL (error)", "0.5 s", "<= 0.1 s"),
+                ("non-orthogonality", "FAIL (warning)", "72.5 deg", "<= 70 deg"),
+                ("gap-cells", "RULE FAULT", "-", "-"),
+                ("aspect-ratio", "waived (warning)", "1200", "<= 1000"),
+                ("growth-ratio", "pass", "1.18", "<= 1.3"),
+                ("wall-yplus", "not checked", "-", "-"))
+    for rule, outcome, measured, limit in expected:
+        row = re.search(rf"<tr><td><strong class=\"id\">{rule}</strong>.*?</tr>", hood)
         assert row, rule
         cells = _parse(row.group(0)).cells
-        assert cells[1:3] == [outcome, measured], rule
+        assert cells[1:4] == [outcome, measured, limit], rule
+    # failures first (errors, then warnings), rule faults, waived, passed, not checked
+    order = [hood.index(f'<tr><td><strong class="id">{rule}</strong>') for rule, *_ in expected]
+    assert order == sorted(order)
 
 
 def test_plots_are_inline_svg_with_titles_and_limit_marks():

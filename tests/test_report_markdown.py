@@ -36,17 +36,20 @@ def test_every_check_appears_with_its_outcome_measured_value_and_limit():
     rows = _rows(text.split("## Sign-off checklist: ")[1])   # the hood
     hood = sample_report().cases[0]
     assert {c.rule for c in hood.checks} <= set(rows)
-    # rule, outcome, measured, limit, unit, hint or reason
-    assert rows["non-orthogonality"][1:5] == ["**FAIL (warning)**", "72.5", "70", "deg"]
-    assert rows["non-orthogonality"][5] == "Reduce the skew of the cells at the hood lip."
-    assert rows["growth-ratio"][1:4] == ["pass", "1.18", "1.3"]
-    assert rows["inverted-cells"][1:5] == ["**FAIL (error)**", "3", "0", "cells"]
-    assert rows["time-step"][1:5] == ["**FAIL (error)**", "0.5", "0.1", "s"]
+    # rule, outcome, measured, limit (values with units, limits with direction), hint
+    assert rows["non-orthogonality"][1:4] == ["**FAIL (warning)**", "72.5 deg", "<= 70 deg"]
+    assert rows["non-orthogonality"][4] == "Reduce the skew of the cells at the hood lip."
+    assert rows["growth-ratio"][1:4] == ["pass", "1.18", "<= 1.3"]
+    assert rows["inverted-cells"][1:4] == ["**FAIL (error)**", "3 cells", "<= 0 cells"]
+    assert rows["time-step"][1:4] == ["**FAIL (error)**", "0.5 s", "<= 0.1 s"]
     assert rows["wall-yplus"][1] == "not checked"
-    assert "no reference speed" in rows["wall-yplus"][5]
+    assert "no reference speed" in rows["wall-yplus"][4]
     assert rows["aspect-ratio"][1:3] == ["waived (warning)", "1200"]
-    assert "R. Quill" in rows["aspect-ratio"][5]
-    assert rows["gap-cells"][1] == "**ERROR (rule fault)**"
+    assert "R. Quill" in rows["aspect-ratio"][4]
+    assert rows["gap-cells"][1] == "**RULE FAULT**"
+    # summary order: failures (errors, then warnings), rule faults, waived, pass, not checked
+    assert list(rows) == ["inverted-cells", "time-step", "non-orthogonality", "gap-cells",
+                          "aspect-ratio", "growth-ratio", "wall-yplus"]
 
 
 def test_header_holds_inputs_versions_and_no_date_unless_stamped():
@@ -99,15 +102,18 @@ def test_manual_checklist_items_are_tick_boxes_and_sign_off_lines_follow():
 
 def test_several_cases_get_a_summary_table_and_findings_say_where():
     text = render_markdown(sample_report(), RenderOptions())
-    assert ("| Invented kiln exhaust hood | `cases/kiln-hood/case.yaml` | 1 | 3 | 1 | 1 | 1 "
+    assert ("| Case | File | Fail | Rule fault | Waived | Pass | Not checked | "
+            "Worst open finding |") in text
+    assert ("| Invented kiln exhaust hood | `cases/kiln-hood/case.yaml` | 3 | 1 | 1 | 1 | 1 "
             "| error |") in text
-    assert "| Invented test duct | `cases/duct/case.yaml` | 1 | 0 | 0 | 0 | 0 | none |" in text
-    assert "case-file key time.step, line 17" in text
+    assert "| Invented test duct | `cases/duct/case.yaml` | 0 | 0 | 0 | 1 | 0 | none |" in text
+    assert "case file time.step (line 17)" in text
     assert "boundary 'hood-wall'; 2 cells (ids 3, 4); 14 faces" in text
 
 
 def test_markdown_specials_in_case_text_are_escaped():
     assert md("a|b *c* <x> [y] `z`\nnext") == r"a\|b \*c\* \<x\> \[y\] \`z\` next"
+    assert md("<= 1.3, >= 5 cells, <b>=") == r"<= 1.3, >= 5 cells, \<b>="   # no tag opens
 
 
 def test_output_is_stable_and_empty_report_is_said():
@@ -125,9 +131,11 @@ def test_end_to_end_values_from_a_real_mesh(tmp_path, review_formats):  # noqa: 
     code, out, err = run_cli("check", *TEST_SET, str(case), "--format", "markdown")
     assert code == 1, err
     rows = _rows(out)
-    assert rows["growth-ratio"][1:4] == ["**FAIL (error)**", "2.5", "2"]
+    assert rows["growth-ratio"][1:4] == ["**FAIL (error)**", "2.5", "<= 2"]
     # an axis-aligned hex block is orthogonal: 0 deg up to round-off
-    assert rows["non-orthogonality"][1] == "pass" and float(rows["non-orthogonality"][2]) < 1e-9
+    measured = rows["non-orthogonality"][2]
+    assert rows["non-orthogonality"][1] == "pass" and measured.endswith(" deg")
+    assert float(measured.split()[0]) < 1e-9
     _, js, _ = run_cli("check", *TEST_SET, str(case), "--format", "json")
     document = json.loads(js)["cases"][0]
     assert f"| Case file SHA-256 | `{document['case_sha256']}` |" in out

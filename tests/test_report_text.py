@@ -12,6 +12,7 @@ from caselint.report.text import (
     caselint_register_reporters,
     format_number,
     format_where,
+    MIN_WIDTH,
     render_text,
     summary_line,
 )
@@ -72,17 +73,19 @@ def test_where_names_scope_count_first_ids_and_point():
     assert format_where(WARN.where) == (
         "boundary 'duct-wall'; 14 faces (ids 0, 1, 2, 3, 4, ...); near (0.1, 0.25, 0.001) m")
     assert format_where(ERR.where) == "3 cells (ids 5, 9, 12)"
-    assert format_where(Where(cells=(8,), cell_count=1)) == "1 cell (ids 8)"
+    assert format_where(Where(cells=(8,), cell_count=1)) == "1 cell (id 8)"
     assert format_where(Where()) == "whole case"
 
 
 def test_text_shows_measured_values_limits_units_and_hints():
     text = plain(FULL)
-    table_row = next(line for line in text.splitlines() if "non-orthogonality" in line
-                     and "|" in line)
-    assert re.search(r"fail \(warning\)\s*\|\s*72\.5\s*\|\s*70\s*\|\s*deg", table_row)
-    growth_row = next(line for line in text.splitlines() if line.startswith("| growth-ratio"))
-    assert re.search(r"pass\s*\|\s*1\.18\s*\|\s*1\.3\s*\|", growth_row)
+    rows = {line.split()[0]: line for line in text.splitlines()
+            if line.split() and line.split()[0] in ("non-orthogonality", "growth-ratio",
+                                                     "inverted-cells")}
+    # the measured value with its unit, the limit with its direction and unit
+    assert re.search(r"fail \(warning\)\s+72\.5 deg\s+<= 70 deg$", rows["non-orthogonality"])
+    assert re.search(r"pass\s+1\.18\s+<= 1\.3$", rows["growth-ratio"])
+    assert re.search(r"fail \(error\)\s+3 cells\s+<= 0 cells$", rows["inverted-cells"])
     for expected in (WARN.message, WARN.hint, ERR.hint, YPLUS.reason,
                      "14 faces (ids 0, 1, 2, 3, 4, ...)", "rooms/plant-room/case.yaml",
                      "plant-room.msh", "Invented plant room", WAIVED.waiver,
@@ -121,20 +124,24 @@ def test_colour_output_uses_escape_codes():
     assert "72.5" in ANSI.sub("", text)
 
 
-@pytest.mark.parametrize("width", [60, 100])
+@pytest.mark.parametrize("width", [72, 80, 100, 120])
 def test_lines_fit_the_width_except_the_one_line_summary(width):
     lines = plain(FULL, width).splitlines()
     assert all(len(line) <= width for line in lines[:-1])
     assert lines[-1].startswith("Result for 1 case:")
 
 
+def test_a_narrower_terminal_gets_the_narrowest_layout():
+    assert plain(FULL, 40) == plain(FULL, MIN_WIDTH)
+
+
 def test_summary_counts_outcomes_and_ignores_waived_findings_for_the_worst():
     assert plain(FULL).splitlines()[-1] == (
-        "Result for 1 case: 1 pass, 2 fail, 1 skipped, 0 waived, 0 error; "
+        "Result for 1 case: 2 failed, 0 rule faults, 0 waived, 1 passed, 1 skipped; "
         "worst severity: error (fail level: error)")
     waived_only = report_with(WAIVED, NOTE, checks=(GROWTH,))
     assert summary_line(waived_only, "warning") == (
-        "Result for 1 case: 1 pass, 0 fail, 0 skipped, 0 waived, 0 error; "
+        "Result for 1 case: 0 failed, 0 rule faults, 0 waived, 1 passed, 0 skipped; "
         "worst severity: note (fail level: warning)")
     assert "worst severity: none" in summary_line(report_with(checks=(GROWTH,)))
 

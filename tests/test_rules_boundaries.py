@@ -10,7 +10,7 @@ import meshio
 import numpy as np
 import pytest
 
-from caselint.engine.context import RuleContext
+from caselint.engine.runner import check_rule
 from caselint.manifest.case import Case, CaseInfo, MeshSpec
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import HEX_SIDES, structured_hex
@@ -35,8 +35,7 @@ def case(roles: dict[str, str]) -> Case:
 
 
 def run(mesh, roles):
-    ctx = RuleContext(case=case(roles), limits=UNASSIGNED_BOUNDARY.limits, params={}, _mesh=mesh)
-    return UNASSIGNED_BOUNDARY.check(ctx)
+    return check_rule(UNASSIGNED_BOUNDARY, case(roles), mesh)
 
 
 def without_side(m: meshio.Mesh, side: str) -> meshio.Mesh:
@@ -103,7 +102,7 @@ def test_rule_is_registered_with_an_error_limit_of_zero():
     assert [r.id for r in rules] == ["unassigned-boundary"]
     rule = rules[0]
     assert (rule.limits.warn, rule.limits.error) == (None, 0)
-    assert rule.source == "common practice" and "mesh.boundaries" in rule.needs
+    assert rule.source == "common practice" and rule.needs == ("mesh",)
 
 
 def test_group_on_internal_faces_needs_a_role_and_stray_elements_give_a_note():
@@ -130,7 +129,5 @@ def test_group_on_internal_faces_needs_a_role_and_stray_elements_give_a_note():
     assert f"0 exposed faces, {NY * NZ} more on internal faces" in group.detail
     # the stray element is unmatched-boundary-elements' business, not repeated here
     assert result.notes == ()
-    ctx = RuleContext(case=case(ALL_ROLES), limits=UNMATCHED_BOUNDARY_ELEMENTS.limits,
-                      params={}, _mesh=mesh)
-    (stray,) = UNMATCHED_BOUNDARY_ELEMENTS.check(ctx).measurements
+    (stray,) = check_rule(UNMATCHED_BOUNDARY_ELEMENTS, case(ALL_ROLES), mesh).measurements
     assert (stray.value, stray.where.boundary) == (1.0, "baffle")

@@ -18,7 +18,7 @@ import pytest
 from scipy.spatial import ConvexHull
 
 from caselint.api import lint_case
-from caselint.engine.context import RuleContext
+from caselint.engine.runner import check_rule
 from caselint.engine.grading import grade
 from caselint.engine.hookspecs import hookimpl
 from caselint.engine.plugins import get_plugin_manager
@@ -42,18 +42,14 @@ def cube_in_box(x=(-4, 11), y=(-3, 4), z=(0, 6), h=0.5):
 
 
 def run(mesh, direction=(1.0, 0.0, 0.0), up=None, body=("cube",), kind="external",
-        safety="none", params=None, limits=None):
+        safety="none", settings=None):
     norm = np.linalg.norm(direction)
     case = Case(path=Path("case.yaml"), version=1, info=CaseInfo(name="t", safety=safety),
                 mesh=MeshSpec(file=Path("mesh.msh")),
                 physics=Physics(flow=Flow(kind=kind,
                                           direction=tuple(np.asarray(direction) / norm))),
                 domain=Domain(body=tuple(body), up=up))
-    return DOMAIN_EXTENT.check(RuleContext(
-        case=case, limits=limits or DOMAIN_EXTENT.limits,
-        params=params if params is not None else {p.name: p.default
-                                                  for p in DOMAIN_EXTENT.parameters},
-        _mesh=mesh))
+    return check_rule(DOMAIN_EXTENT, case, mesh, settings=settings)
 
 
 @pytest.fixture(scope="module")
@@ -170,23 +166,24 @@ def test_two_d_body_uses_y_up_and_has_no_lateral_distance():
 def test_guidelines_for_an_aerodynamic_rule_set(roomy):
     # a rule set may lower the guidelines (values here invented for the test)
     params = {"inflow_h": 3, "outflow_h": 8, "lateral_h": 2, "top_h": 2, "blockage_percent": 5}
-    result = run(roomy, params=params)
+    result = run(roomy, settings=params)
     limits = {m.label.split(" ")[-2] if m.unit == "H" else "blockage": m.limits
               for m in result.measurements}
     assert limits == {"inflow": Limits(3, 1.5), "outflow": Limits(8, 4), "side": Limits(2, 1),
                       "top": Limits(2, 1), "blockage": Limits(5, 10)}
     assert all(grade(m.value, m.limits, m.worse) is None for m in result.measurements)
-    bad = run(roomy, params={**params, "top_h": -1})
-    assert bad.skipped == "parameter top_h must be a number greater than zero, got -1"
+    with pytest.raises(CaseFileError, match="parameter 'top_h' of rule 'domain-extent' must be "
+                                            r"a finite number, above 0 \(in H\), got -1"):
+        run(roomy, settings={**params, "top_h": -1})
 
 
 def test_error_grade_can_be_disabled(roomy):
-    result = run(roomy, limits=Limits(warn=1.0, error=None))
+    result = run(roomy, settings={"error": None})
     assert all(m.limits.error is None for m in result.measurements)
 
 
 def test_missing_or_wrong_case_data(roomy):
-    assert run(roomy, body=()).skipped.startswith("domain.body is not given")
+    assert run(roomy, body=()).skipped == "the case file gives no domain.body"
     assert run(roomy, kind="internal").skipped.startswith("physics.flow.kind is internal")
     with pytest.raises(CaseFileError) as info:
         run(roomy, body=("cub",))

@@ -14,9 +14,10 @@ import numpy as np
 import pytest
 
 from caselint.api import lint_case
-from caselint.engine.context import RuleContext
 from caselint.engine.hookspecs import hookimpl
 from caselint.engine.plugins import get_plugin_manager
+from caselint.engine.runner import check_rule
+from caselint.errors import CaseFileError
 from caselint.manifest.case import Case, CaseInfo, MeshSpec
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import structured_hex, structured_quad, write_gmsh22
@@ -34,9 +35,9 @@ def case_with(boundaries: dict[str, str]) -> Case:
                 mesh=MeshSpec(file=Path("mesh.msh"), boundaries=boundaries))
 
 
-def run(mesh, boundaries, params=None) -> RuleResult:
-    return GAP_CELLS.check(RuleContext(case=case_with(boundaries), limits=GAP_CELLS.limits,
-                                       params=params or {"max_steps": 10_000}, _mesh=mesh))
+def run(mesh, boundaries, settings=None) -> RuleResult:
+    """The rule run as the engine runs it, with a case file's ``settings`` for it."""
+    return check_rule(GAP_CELLS, case_with(boundaries), mesh, settings=settings)
 
 
 def channel(n_across: int, length: float = 100.0, n_along: int = 200):
@@ -168,13 +169,16 @@ def test_a_corner_where_walls_meet_at_an_angle_is_not_a_passage():
     wide = run(mesh, roles, {"max_steps": 10_000, "facing_angle_deg": 70})
     (m,) = wide.measurements
     assert m.detail.startswith("narrowest gap between 'floor' and 'left': 1 cell across")
-    assert "facing_angle_deg" in run(mesh, roles, {"facing_angle_deg": 95}).skipped
+    with pytest.raises(CaseFileError, match="parameter 'facing_angle_deg' of rule 'gap-cells' "
+                                            "must be a finite number, above 0 and at most 90 "
+                                            r"\(in deg\), got 95"):
+        run(mesh, roles, {"facing_angle_deg": 95})
 
 
 def test_no_walls_or_no_wall_to_wall_ray_is_skipped_with_the_reason():
     mesh = mesh_from_meshio(channel(4, length=2.0, n_along=4))
     no_walls = run(mesh, {k: ("symmetry" if v == "wall" else v) for k, v in CHANNEL.items()})
-    assert no_walls.skipped.startswith("no boundary group has the role wall")
+    assert no_walls.skipped == "no boundary has role wall in mesh.boundaries"
     # only the floor is a wall: every ray leaves through the (symmetry) ceiling
     open_top = run(mesh, {**CHANNEL, "ceiling": "symmetry"})
     assert open_top.skipped == ("no passage between walls: the 8 rays cast from the walls "
@@ -182,11 +186,13 @@ def test_no_walls_or_no_wall_to_wall_ray_is_skipped_with_the_reason():
                                 "boundaries")
 
 
-def test_bad_max_steps_is_a_skip_and_a_small_one_is_a_note():
+def test_bad_max_steps_is_a_case_file_error_and_a_small_one_is_a_note():
     mesh = mesh_from_meshio(channel(4, length=2.0, n_along=4))
-    assert "max_steps" in run(mesh, CHANNEL, {"max_steps": 0}).skipped
-    assert "max_steps" in run(mesh, CHANNEL, {"max_steps": 2.5}).skipped
-    assert "max_steps" in run(mesh, CHANNEL, {"max_steps": float("inf")}).skipped
+    for bad in (0, 2.5, float("inf"), "many", None):
+        with pytest.raises(CaseFileError, match="parameter 'max_steps' of rule 'gap-cells' must "
+                                                "be a whole number, at least 1") as err:
+            run(mesh, CHANNEL, {"max_steps": bad})
+        assert err.value.key == "checks.rules.gap-cells.max_steps"
     result = run(mesh, CHANNEL, {"max_steps": 3})
     assert result.skipped is not None               # every ray stopped after 3 cells
     (note,) = result.notes

@@ -14,16 +14,16 @@ import pytest
 
 from caselint import hookimpl
 from caselint.api import lint_case
-from caselint.engine.context import RuleContext
+from caselint.engine.entries import resolve
 from caselint.engine.plugins import get_plugin_manager
+from caselint.engine.runner import graded_measurements, run_rule
 from caselint.errors import CaseFileError
 from caselint.manifest.case import Case, CaseInfo, GridStudy, MeshSpec, Physics, Turbulence
 from caselint.mesh import read_mesh
 from caselint.mesh.blocks import structured_hex, structured_quad, write_gmsh22
-from caselint.rules.grid_refinement import GRID_REFINEMENT_RATIO, check_grid_refinement
+from caselint.rules.grid_refinement import GRID_REFINEMENT_RATIO
 
 RULE = GRID_REFINEMENT_RATIO
-DEFAULTS = {p.name: p.default for p in RULE.parameters}
 
 
 def cube(folder: Path, n: int, *, size=(1.0, 1.0, 1.0), name=None, scale=1.0) -> Path:
@@ -56,13 +56,18 @@ def make_case(meshes, *, main=None, units="m", scale=1.0, wall_treatment=None,
     )
 
 
-def run(case: Case, load_mesh=None, **params):
-    """The rule on ``case``; the case's own mesh (a family member here) is read on demand."""
+def run(case: Case, load_mesh=None, **settings):
+    """The rule on ``case`` with a case file's ``settings``, its measurements as the engine
+    grades them; the case's own mesh (a family member here) is read on demand."""
+    import dataclasses
+
     spec = case.mesh
     load_mesh = load_mesh or (lambda: read_mesh(spec.file, scale_to_m=spec.scale_to_m))
-    ctx = RuleContext(case=case, limits=RULE.limits, params={**DEFAULTS, **params},
-                      _load_mesh=load_mesh)
-    return check_grid_refinement(ctx)
+    result = run_rule(resolve(RULE, settings), case, load_mesh)
+    if result.skipped is not None:
+        return result
+    return dataclasses.replace(result,
+                               measurements=tuple(graded_measurements(RULE, result, settings)))
 
 
 def grade(value: float) -> str | None:
@@ -91,7 +96,7 @@ def test_ratio_1_5_family_passes(tmp_path):
     paths = [cube(tmp_path, n) for n in (9, 6, 4)]
     result = run(make_case(paths))
     m = result.measurements[0]
-    assert m.value == pytest.approx(1.5, rel=1e-12) and m.label == "" and not m.own_scale
+    assert m.value == pytest.approx(1.5, rel=1e-12) and m.label == "" and m.grade is None
     assert grade(m.value) is None
     assert m.where.key == "grid_study.meshes"
     assert "1.5 (cube9.msh -> cube6.msh), 1.5 (cube6.msh -> cube4.msh)" in m.detail
@@ -155,7 +160,7 @@ def test_two_meshes_and_different_domains_warn(tmp_path):
     assert volume.where.key == "grid_study.meshes[1]"
     assert result.notes == ()
     # a tolerance of 3 % accepts it
-    result = run(make_case([fine, coarse]), volume_tolerance_percent=3.0)
+    result = run(make_case([fine, coarse]), grades={"volume-difference": {"warn": 3.0}})
     assert severity(concern(result, "domain-volume difference")) is None
 
 
@@ -182,7 +187,7 @@ def test_first_layer_refined_with_the_rest_under_wall_functions(tmp_path):
     assert layer.value == pytest.approx(0.0, abs=1e-9) and severity(layer) is None
     # a stricter share flags even a partly refined first layer; 1.0 accepts the scaled one
     result = run(make_case(scaled, wall_treatment="wall-function", boundaries=roles),
-                 first_layer_share=1.0)
+                 grades={"first-layer-share": {"warn": 1.0}})
     assert severity(concern(result, "first-layer")) is None
 
 
@@ -216,7 +221,7 @@ def test_the_case_mesh_is_not_read_twice(tmp_path):
 def test_skips_with_reasons(tmp_path):
     case = make_case([cube(tmp_path, 4)])
     no_study = Case(path=case.path, version=1, info=case.info, mesh=case.mesh)
-    assert "no grid_study.meshes" in run(no_study).skipped
+    assert run(no_study).skipped == "the case file gives no grid_study.meshes"
     assert "one mesh" in run(case).skipped
     flat = tmp_path / "flat.msh"
     write_gmsh22(structured_quad(np.linspace(0, 1, 4), np.linspace(0, 1, 4)), flat)

@@ -15,7 +15,7 @@ import meshio
 import numpy as np
 import pytest
 
-from caselint.engine.context import RuleContext
+from caselint.engine.runner import check_rule
 from caselint.manifest.case import Case, CaseInfo, MeshSpec
 from caselint.mesh import Mesh, MeshData, mesh_from_meshio
 from caselint.mesh.blocks import graded, structured_hex, tetrahedralise
@@ -30,8 +30,10 @@ CASE = Case(path=Path("case.yaml"), version=1, info=CaseInfo(name="test"),
 
 
 def run(rule: Rule, mesh: Mesh, limits: Limits | None = None) -> RuleResult:
-    """Run one rule's check as the engine would, with the rule's default limits."""
-    return rule.check(RuleContext(case=CASE, limits=limits or rule.limits, params={}, _mesh=mesh))
+    """Run one rule's check as the engine would, with the rule's default limits (or
+    ``limits`` for its main grade)."""
+    settings = {} if limits is None else {"warn": limits.warn, "error": limits.error}
+    return check_rule(rule, CASE, mesh, settings=settings)
 
 
 def only(result: RuleResult):

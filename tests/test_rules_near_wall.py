@@ -2,8 +2,9 @@
 
 Hand computations [computed] use the published formulas directly (Schlichting 1979 Cf,
 Colebrook 1939, delta = 0.37 x Re_x^-1/5 [memory], Blasius): u_tau = U sqrt(Cf/2) or
-U sqrt(f/8), y+ = y u_tau / nu with y half the first-layer height in a finite-volume case
-(the centre of a right prism) and the whole first-layer height in a finite-element one.
+U sqrt(f/8), y+ = y u_tau / nu with y half the first-layer height in a cell-centred case
+(the centre of a right prism) and the whole first-layer height in a vertex-centred or
+finite-element one (the first node).
 Air: nu = 1.5e-5 m^2/s, U = 10 m/s, x = 1 m gives u_tau = 0.44873 m/s (REFERENCES.md §2).
 """
 
@@ -15,7 +16,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from caselint.engine.rulesets import ActiveRule
+from caselint.engine.entries import resolve
 from caselint.engine.runner import run_case
 from caselint.manifest.case import (
     Case, CaseInfo, Flow, Fluid, MeshSpec, Physics, Turbulence,
@@ -23,17 +24,20 @@ from caselint.manifest.case import (
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import structured_hex, tetrahedralise
 from caselint.rules.near_wall import (
-    BOUNDARY_LAYER_CELLS, LAYER_GROWTH, RULES, WALL_SPACING_UNIFORMITY, WALL_YPLUS,
+    BOUNDARY_LAYER_CELLS, LAYER_GROWTH, WALL_SPACING_UNIFORMITY,
 )
+from caselint.rules.near_wall import RULES as NEAR_WALL_RULES
+from caselint.rules.yplus import WALL_YPLUS
 from near_wall_meshes import geometric, layer_block, prism_block
 
 NU, U, L = 1.5e-5, 10.0, 1.0
 RE_L = U * L / NU
 CF = (2 * math.log10(RE_L) - 0.65) ** -2.3            # Schlichting, by hand
 U_TAU = U * math.sqrt(CF / 2)
+RULES = (*NEAR_WALL_RULES, WALL_YPLUS)
 
 
-def make_case(*, model="k-omega-sst", treatment="resolved", method="finite-volume",
+def make_case(*, model="k-omega-sst", treatment="resolved", method="cell-centred",
               kind="external", velocity=U, length=L, nu=NU, density=1.2, leading_edge=None,
               direction=None, walls=("zmin",)) -> Case:
     roles = {name: "wall" for name in walls}
@@ -50,11 +54,10 @@ def make_case(*, model="k-omega-sst", treatment="resolved", method="finite-volum
     )
 
 
-def grade(rule, mesh, case, **params):
-    """Run one rule through the engine: (check, findings, notes)."""
-    values = {p.name: p.default for p in rule.parameters}
-    values.update(params)
-    report = run_case(case, (ActiveRule(rule, rule.limits, values),), lambda: mesh)
+def grade(rule, mesh, case, **settings):
+    """Run one rule through the engine, with a case file's ``settings``: (check, findings,
+    notes)."""
+    report = run_case(case, (resolve(rule, settings),), lambda: mesh)
     (check,) = report.checks
     findings = [f for f in report.findings if f.severity != "note"]
     notes = [f.message for f in report.findings if f.severity == "note"]
@@ -120,6 +123,23 @@ def test_yplus_matches_the_hand_computation_and_doubles_for_finite_elements():
     assert any("Schlichting" in n and "first cell centre" in n for n in notes)
     assert any("y+ of the first cell centre on 'zmin' by area" in n and "100 % below 5" in n
                for n in notes)
+    # a vertex-centred finite-volume solver stores its unknowns at the nodes: its first wall
+    # distance is the first node's, the whole first-layer height, as in finite elements
+    vc, _, vc_notes = grade(WALL_YPLUS, mesh, make_case(method="vertex-centred"))
+    assert vc.measured == pytest.approx(2 * fv.measured, rel=1e-12)
+    assert any("first node (vertex-centred storage)" in n for n in vc_notes)
+
+
+def test_vertex_centred_first_node_yplus_doubles_on_a_prism_layer():
+    # right prisms on a 4e-5 m first layer: the cell centroid sits at half the height
+    # (prism centroid at the mid-height of a right prism [computed]), the node at the top
+    heights = geometric(4e-5, 1.2, 6)
+    mesh = mesh_from_meshio(prism_block(heights, [0.05, 0.05]))
+    cc, _, _ = grade(WALL_YPLUS, mesh, make_case(method="cell-centred"))
+    vc, _, _ = grade(WALL_YPLUS, mesh, make_case(method="vertex-centred"))
+    assert cc.measured == pytest.approx(2e-5 * U_TAU / NU, rel=1e-9)
+    assert vc.measured == pytest.approx(4e-5 * U_TAU / NU, rel=1e-9)
+    assert vc.measured == pytest.approx(2 * cc.measured, rel=1e-12)
 
 
 TABLE = {  # expected (outcome, severity) at y+ = 0.5, 15, 60 for each wall treatment
@@ -204,9 +224,7 @@ def test_wall_resolved_les_checks_wall_spacings():
     case = make_case(model="les", direction=(1.0, 0.0, 0.0))
     check, findings, _ = grade(WALL_YPLUS, mesh, case)
     assert check.outcome == "pass"
-    report = run_case(case, (ActiveRule(WALL_YPLUS, WALL_YPLUS.limits,
-                                        {p.name: p.default for p in WALL_YPLUS.parameters}),),
-                      lambda: mesh)
+    report = run_case(case, (resolve(WALL_YPLUS),), lambda: mesh)
     assert report.checks[0].outcome == "pass"
     coarse = block(first_height_for(0.5), n=6, nx=3, ny=2, dx=0.02, dy=1e-3)
     check, findings, _ = grade(WALL_YPLUS, coarse, case)
@@ -307,11 +325,11 @@ def test_tetrahedral_walls_have_nothing_to_grow():
 
 
 def test_all_rules_are_registered_with_documented_parameters():
-    from caselint.rules import near_wall
+    from caselint.rules import near_wall, yplus
 
     ids = sorted(r.id for r in near_wall.caselint_register_rules())
-    assert ids == ["boundary-layer-cells", "layer-growth", "wall-spacing-uniformity",
-                   "wall-yplus"]
+    assert ids == ["boundary-layer-cells", "layer-growth", "wall-spacing-uniformity"]
+    assert [r.id for r in yplus.caselint_register_rules()] == ["wall-yplus"]
     for rule in RULES:
         assert rule.source and rule.rationale
         for p in rule.parameters:
@@ -333,7 +351,7 @@ def test_lint_case_runs_the_near_wall_rules_from_a_rule_set(tmp_path):
     (tmp_path / "near-wall.yaml").write_text(
         "description: near-wall checks\nrules:\n  wall-yplus: {}\n"
         "  wall-spacing-uniformity: {}\n  boundary-layer-cells: {warn: 12}\n"
-        "  layer-growth: {core_jump_error: 3.0}\n")
+        "  layer-growth: {grades: {core-jump: {error: 3.0}}}\n")
     (tmp_path / "case.yaml").write_text(
         "caselint: 1\ncase: {name: Tunnel floor T1}\nmesh:\n  file: floor.msh\n"
         "  boundaries: {zmin: wall, zmax: symmetry, xmin: inlet, xmax: outlet, "

@@ -14,7 +14,7 @@ import pytest
 import vtk
 from vtk.util.numpy_support import numpy_to_vtk, numpy_to_vtkIdTypeArray, vtk_to_numpy
 
-from caselint.engine.context import RuleContext
+from caselint.engine.runner import check_rule
 from caselint.manifest.case import Case, CaseInfo, MeshSpec, Region
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import structured_hex, structured_quad, tetrahedralise
@@ -33,8 +33,8 @@ def block():
 def run(mesh, regions, limits: Limits | None = None) -> RuleResult:
     case = Case(path=Path("case.yaml"), version=1, info=CaseInfo(name="t"),
                 mesh=MeshSpec(file=Path("mesh.msh")), regions=tuple(regions))
-    return REGION_CELL_SIZE.check(RuleContext(case=case, limits=limits or REGION_CELL_SIZE.limits,
-                                              params={}, _mesh=mesh))
+    settings = {} if limits is None else {"warn": limits.warn, "error": limits.error}
+    return check_rule(REGION_CELL_SIZE, case, mesh, settings=settings)
 
 
 def box(name, lo, hi, size):
@@ -91,7 +91,7 @@ def test_region_smaller_than_a_cell_measures_the_cell_around_it(block):
 
 
 def test_missing_data_gives_notes_and_skips(block):
-    assert run(block, []).skipped == "the case file defines no regions"
+    assert run(block, []).skipped == "the case file gives no regions"
     no_size = run(block, [box("a", (0, 0, 0), (1, 1, 1), None)])
     assert no_size.skipped == "no region sets max_cell_size"
     assert no_size.notes[0].message == "region 'a' has no max_cell_size and is not checked"

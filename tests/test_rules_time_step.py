@@ -15,7 +15,9 @@ import meshio
 import numpy as np
 import pytest
 
-from caselint.engine.context import RuleContext
+import dataclasses
+
+from caselint.engine.runner import check_rule, graded_measurements
 from caselint.errors import CaseFileError
 from caselint.manifest.case import (
     Case, CaseInfo, Flow, Fluid, MeshSpec, Physics, TimeSpec, Turbulence,
@@ -23,7 +25,7 @@ from caselint.manifest.case import (
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import graded, structured_hex
 from caselint.model import Limits, Rule, RuleResult
-from caselint.rules import time_step
+from caselint.rules import time_resolution, time_step
 from caselint.rules.time_resolution import TIME_RESOLUTION
 from caselint.rules.time_step import ACOUSTIC_COURANT, COURANT, DIFFUSION_NUMBER
 
@@ -54,12 +56,14 @@ def make_case(*, time=None, flow=None, fluid=None, model=None, compressible=Fals
     )
 
 
-def run(rule: Rule, mesh, case: Case, limits: Limits | None = None, **params) -> RuleResult:
-    """Run a rule's check as the engine would: default parameters, then ``params``."""
-    merged = {p.name: p.default for p in rule.parameters}
-    merged.update(params)
-    return rule.check(RuleContext(case=case, limits=limits or rule.limits, params=merged,
-                                  _mesh=mesh))
+def run(rule: Rule, mesh, case: Case, **settings) -> RuleResult:
+    """Run a rule as the engine would, with a case file's ``settings`` for it; its
+    measurements as the engine grades them (each with its grade's limits)."""
+    result = check_rule(rule, case, mesh, settings=settings)
+    if result.skipped is not None:
+        return result
+    graded = graded_measurements(rule, result, settings)
+    return dataclasses.replace(result, measurements=tuple(graded))
 
 
 def only(result: RuleResult):
@@ -79,16 +83,19 @@ def test_steady_case_skips_every_time_step_rule(rule, box):
 
 def test_registered_rules_and_their_defaults():
     rules = {r.id: r for r in time_step.caselint_register_rules()}
-    assert sorted(rules) == ["acoustic-courant", "courant", "diffusion-number", "time-resolution"]
+    assert sorted(rules) == ["acoustic-courant", "courant", "diffusion-number"]
+    assert [r.id for r in time_resolution.caselint_register_rules()] == ["time-resolution"]
     assert rules["diffusion-number"].limits == Limits(warn=None, error=0.5)
-    assert rules["time-resolution"].worse == "lower"
-    params = {p.name: p.default for p in rules["courant"].parameters}
-    assert params == {"implicit_warn": 5.0, "implicit_scale_resolving_warn": 1.0,
-                      "explicit_error": None}
+    assert TIME_RESOLUTION.worse == "lower"
+    grades = {g.name: g.limits for g in rules["courant"].all_grades}
+    assert grades == {"implicit": Limits(warn=5.0, error=None),
+                      "implicit.scale-resolving": Limits(warn=1.0, error=None),
+                      "explicit": Limits(warn=None, error=None)}
+    assert rules["courant"].parameters == ()
 
 
 @pytest.mark.parametrize("change, reason", [
-    ({"time": {"step": None}}, "time.step is not given"),
+    ({"time": {"step": None}}, "the case file gives no time.step"),
     ({"flow": {"velocity": None}}, "no flow velocity"),
     ({"flow": {"direction": None}}, "physics.flow.direction is not given"),
 ])
@@ -155,11 +162,11 @@ def test_forward_euler_with_central_advection_is_never_stable(box):
     assert "unstable at any time step" in m.fix
 
 
-def test_explicit_error_parameter_replaces_the_scheme_limit(box):
+def test_explicit_grade_replaces_the_scheme_limit(box):
     case = make_case(time={"integration": "explicit", "scheme": "rk4"})
-    m = only(run(COURANT, box, case, explicit_error=0.8))
+    m = only(run(COURANT, box, case, grades={"explicit": {"error": 0.8}}))
     assert m.limits == Limits(warn=None, error=0.8)
-    assert "explicit_error parameter 0.8" in m.detail
+    assert "error limit 0.8 of the rule set's explicit grade" in m.detail
 
 
 @pytest.mark.parametrize("model, warn", [("les", 1.0), ("ddes", 1.0), ("dns", 1.0),
@@ -170,12 +177,18 @@ def test_implicit_courant_warning_depends_on_the_model(box, model, warn):
     assert m.limits == Limits(warn=warn, error=None)
 
 
-def test_a_grade_set_in_a_rule_set_replaces_the_regime_grade(box):
+def test_a_grade_set_by_name_replaces_that_regime_grade(box):
     case = make_case(time={"integration": "explicit"})
-    m = only(run(COURANT, box, case, limits=Limits(warn=0.5, error=None)))
-    assert m.limits == Limits(warn=0.5, error=1.0)
-    m = only(run(COURANT, box, make_case(model="les"), limits=Limits(warn=None, error=3.0)))
+    m = only(run(COURANT, box, case, grades={"explicit": {"warn": 0.5}}))
+    assert m.limits == Limits(warn=0.5, error=1.0)        # the error: the scheme's limit
+    m = only(run(COURANT, box, make_case(model="les"),
+                 grades={"implicit.scale-resolving": {"error": 3.0}}))
     assert m.limits == Limits(warn=1.0, error=3.0)
+    # warn and error alone set the main grade (implicit), not the others
+    m = only(run(COURANT, box, make_case(), warn=2.0))
+    assert m.limits == Limits(warn=2.0, error=None)
+    m = only(run(COURANT, box, make_case(model="les"), warn=2.0))
+    assert m.limits == Limits(warn=1.0, error=None)
 
 
 def test_undeclared_integration_is_graded_as_implicit_with_a_note(box):
@@ -187,9 +200,14 @@ def test_undeclared_integration_is_graded_as_implicit_with_a_note(box):
     assert declared.notes == ()
 
 
-def test_bad_parameter_is_a_clear_case_file_error(box):
-    with pytest.raises(CaseFileError, match="implicit_warn must be a positive number"):
-        run(COURANT, box, make_case(), implicit_warn="five")
+def test_bad_grade_is_a_clear_case_file_error(box):
+    with pytest.raises(CaseFileError, match="warn of grade 'implicit' of rule 'courant' must be "
+                                            "a finite number or null, got 'five'") as err:
+        run(COURANT, box, make_case(), grades={"implicit": {"warn": "five"}})
+    assert err.value.key == "checks.rules.courant.grades.implicit.warn"
+    with pytest.raises(CaseFileError, match="has no grade 'implict' \\(did you mean "
+                                            "'implicit'\\?\\)"):
+        run(COURANT, box, make_case(), grades={"implict": {"warn": 2}})
 
 
 # -- courant: where the offending cells are -------------------------------------------------
@@ -291,10 +309,11 @@ def test_a_field_with_nan_skips_with_the_reason():
 
 @pytest.mark.parametrize("change, reason", [
     ({}, "the case does not declare compressible flow"),
-    ({"compressible": True, "time": {"integration": "implicit"}}, "implicit integration: the"),
-    ({"compressible": True}, "time.integration is not given"),
+    ({"compressible": True, "time": {"integration": "implicit"}, "fluid": {"sound_speed": 340}},
+     "implicit integration: the"),
+    ({"compressible": True, "fluid": {"sound_speed": 340}}, "time.integration is not given"),
     ({"compressible": True, "time": {"integration": "explicit"}},
-     "physics.fluid.sound_speed is not given"),
+     "the case file gives no physics.fluid.sound_speed"),
 ])
 def test_acoustic_courant_skips(box, change, reason):
     assert run(ACOUSTIC_COURANT, box, make_case(**change)).skipped.startswith(reason)
@@ -436,6 +455,9 @@ def test_time_resolution_skips_or_notes_what_is_missing(box):
 
 def test_rule_set_grades_apply_to_the_steps_only(box):
     case = make_case(time={"step": 5e-4, "end": 1.0}, flow=CYLINDER, fluid=AIR)
-    got = measurements(run(TIME_RESOLUTION, box, case, limits=Limits(warn=150.0, error=30.0)))
+    got = measurements(run(TIME_RESOLUTION, box, case, warn=150.0, error=30.0))
     assert got["time steps per period"].limits == Limits(warn=150.0, error=30.0)
     assert got["flow-throughs"].limits == Limits(warn=3.0, error=None)
+    got = measurements(run(TIME_RESOLUTION, box, case, grades={"flow-throughs": {"warn": 40}}))
+    assert got["flow-throughs"].limits == Limits(warn=40.0, error=None)
+    assert got["flow-throughs"].fix == "Run to time.end >= 2 s for 40 flow-throughs."

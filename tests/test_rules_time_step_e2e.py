@@ -48,16 +48,29 @@ checks:
 RULE_SET = """\
 description: time-step rules under test
 rules:
-  courant: {implicit_warn: 5, implicit_scale_resolving_warn: 1, explicit_error: null}
-  acoustic-courant: {explicit_error: null}
+  courant:
+    warn: 5                      # grade implicit (the main grade)
+    grades:
+      implicit.scale-resolving: {warn: 1}
+      explicit: {error: null}    # null: the stability limit of the declared scheme
+  acoustic-courant: {}
   diffusion-number: {error: 0.5}
   time-resolution:
-    min_steps_per_period: 20
-    min_steps_per_period_scale_resolving: 50
-    min_samples_per_period: 2
-    min_flow_throughs: 3
+    warn: 20                     # grade steps: time steps per period (URANS, laminar)
+    grades:
+      steps.scale-resolving: {warn: 50}
+      samples: {warn: 2}
+      flow-throughs: {warn: 3}
     bluff_body_strouhal: 0.2
 """
+
+
+def test_the_rule_set_is_the_one_shipped_in_general():
+    from caselint.resources import shipped_dir
+
+    general = (shipped_dir("rules") / "general.yaml").read_text(encoding="utf-8")
+    for line in RULE_SET.splitlines()[2:]:
+        assert line in general, line
 
 
 @pytest.fixture

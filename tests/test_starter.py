@@ -13,15 +13,16 @@ from caselint.mesh.blocks import structured_hex, write_gmsh22
 
 NAMES = ("Supply-Duct", "exhaust_2", "symmetry-mid", "farfield", "wall 1", "yes")
 EXPECTED = {"Supply-Duct": "inlet", "exhaust_2": "outlet", "symmetry-mid": "symmetry",
-            "farfield": "opening", "wall 1": "wall", "yes": "wall"}
+            "farfield": "open", "wall 1": "wall", "yes": "wall"}
 
 
 @pytest.mark.parametrize("name, role", [
     ("inlet", "inlet"), ("air-supply", "inlet"), ("INTAKE_1", "inlet"),
     ("outlet", "outlet"), ("fan-exhaust", "outlet"), ("return-grille", "outlet"),
     ("extract", "outlet"), ("sym-plane", "symmetry"), ("periodic-left", "periodic"),
-    ("cyclic_a", "periodic"), ("open-top", "opening"), ("far-field", "opening"),
-    ("atmosphere", "opening"), ("interface-rotor", "interface"), ("interior-3", "interface"),
+    ("cyclic_a", "periodic"), ("open-top", "open"), ("far-field", "open"),
+    ("atmosphere", "open"), ("slip-top", "slip-wall"), ("inviscid-side", "slip-wall"),
+    ("interface-rotor", "interface"), ("interior-3", "interface"),
     ("floor", "wall"), ("loading-door", "wall"),
 ])
 def test_guess_role(name, role):
@@ -54,7 +55,7 @@ def test_face_counts_are_written_beside_each_group(mesh_file):
     text = write_starter(mesh_file).read_text(encoding="utf-8")
     # structured_hex sides: x sides 2 x 2 faces, y sides 3 x 2, z sides 3 x 2
     assert "Supply-Duct:" in text and "inlet      # 4 faces" in text
-    assert "farfield:" in text and "opening    # 6 faces" in text
+    assert "farfield:" in text and "open       # 6 faces" in text
 
 
 def test_mesh_path_is_relative_to_the_output(mesh_file, tmp_path):

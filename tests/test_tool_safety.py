@@ -109,7 +109,7 @@ def test_a_case_file_cannot_name_code_to_load(tmp_path, monkeypatch):
     code, _, err = run_cli("check", str(case))
     assert code == 2 and "unknown key 'plugins'" in err
     case = write_block(tmp_path, extra="checks: {rule_sets: [os.path]}\n")
-    code, _, err = run_cli("check", str(case), "-p", "no:subprocess")
+    code, _, err = run_cli("check", str(case), "--no-plugin", "subprocess")
     assert code == 2 and "unknown rule set 'os.path'" in err
     # only caselint's own built-in plugin modules were imported
     assert all(name.startswith("caselint.") for name in imported), imported
@@ -135,7 +135,7 @@ def test_a_poisoned_cache_entry_is_not_unpickled(tmp_path, monkeypatch):
 
     monkeypatch.setattr(cache, "MIN_CELLS", 0)
     folder = tmp_path / "cache"
-    monkeypatch.setenv(cache.ENV_DIR, str(folder))
+    monkeypatch.setenv("CASELINT_CACHE_DIR", str(folder))
     case = write_block(tmp_path)
     assert run_cli("check", str(case), "--format", "json")[0] in (0, 1)
     (entry,) = folder.glob("mesh-*.npz")
@@ -284,7 +284,7 @@ def test_checking_never_modifies_the_inputs(tmp_path, monkeypatch):
     (damaged / "broken.msh").write_text(text[: len(text) // 2], encoding="ascii")
     broken.write_text(CASE.format(name="broken", mesh="broken.msh", extra=""), encoding="utf-8")
     monkeypatch.setattr(cache, "MIN_CELLS", 0)
-    monkeypatch.setenv(cache.ENV_DIR, str(tmp_path / "cache"))
+    monkeypatch.setenv("CASELINT_CACHE_DIR", str(tmp_path / "cache"))
     before = fingerprint(inputs)
     reports = tmp_path / "reports"
     reports.mkdir()

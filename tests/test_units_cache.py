@@ -16,7 +16,7 @@ from pathlib import Path
 import pint
 import pytest
 
-from caselint import cache
+from caselint import cachedir as cache
 from caselint.manifest import units
 from caselint.manifest.units import build_registry, registry_folder_name, to_si, unit_registry
 
@@ -233,7 +233,9 @@ def test_check_with_caching_off_leaves_no_files(tmp_path, monkeypatch, fresh_reg
     monkeypatch.setenv(cache.ENV_DIR, "off" if setting == "off" else str(tmp_path / "cache"))
     monkeypatch.setenv("HOME", str(tmp_path / "home"))
     monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "xdg"))
-    monkeypatch.setattr(cache, "MIN_CELLS", 0)
+    import caselint.cache as mesh_cache
+
+    monkeypatch.setattr(mesh_cache, "MIN_CELLS", 0)
     monkeypatch.chdir(work)
     with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(io.StringIO()):
         code = main(["check", "box.caselint.yaml", "--format", "json", "-o", "report.json"])

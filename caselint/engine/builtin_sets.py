@@ -12,9 +12,9 @@ from caselint.resources import shipped_dir
 @hookimpl
 def caselint_register_mesh_readers() -> list:
     """The mesh readers caselint ships (:mod:`caselint.mesh.formats`)."""
-    from caselint.mesh.readers import builtin_readers
+    from caselint.mesh.formats import BUILTIN_READERS
 
-    return list(builtin_readers())
+    return list(BUILTIN_READERS)
 
 
 @hookimpl

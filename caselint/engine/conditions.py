@@ -72,7 +72,7 @@ def _rule(condition: dict[str, Any], file: str) -> Rule:
         rationale=condition.get("rationale", condition["message"]) + f" (declared in {file})",
         source=condition["source"], unit="", limits=limits, hint=condition["hint"],
         check=_make_check(condition), measures="condition violated (1) or not (0)",
-        needs=("case file",),
+        needs=(),
     )
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from caselint.model import SEVERITY_RANK, Limits, Measurement, Rule
+from caselint.wording import apart, quantity
 
 
 def grade(value: float, limits: Limits, worse: str) -> str | None:
@@ -39,19 +40,6 @@ def limit_for(severity: str | None, limits: Limits) -> float | None:
     return limits.warn if limits.warn is not None else limits.error
 
 
-def number(value: float) -> str:
-    """A measured value for a sentence: four significant digits, no exponent where avoidable."""
-    if value == int(value) and abs(value) < 1e9:
-        return str(int(value))
-    text = f"{value:.4g}"
-    return text
-
-
-def with_unit(value: float, unit: str) -> str:
-    """``78.2 deg``, ``1.45`` (no unit), ``12 cells``."""
-    return f"{number(value)} {unit}".rstrip()
-
-
 def message(rule: Rule, m: Measurement, severity: str, limit: float | None) -> str:
     """The finding's sentence: what was measured, where, against which limit, and detail."""
     if m.statement:
@@ -63,11 +51,19 @@ def message(rule: Rule, m: Measurement, severity: str, limit: float | None) -> s
         scope = f" on boundary '{m.where.boundary}'"
     elif m.where.region:
         scope = f" in region '{m.where.region}'"
+    elif m.where.place:
+        from caselint.engine.extent import place_words
+
+        scope = " " + place_words(tuple(m.where.place.split("+")))
     grade_word = "error" if severity == "error" else "warning"
     relation = "above" if (m.worse or rule.worse) == "higher" else "below"
-    text = f"{what}{scope} is {with_unit(m.value, unit)}"
-    if limit is not None:
-        text += f", {relation} the {grade_word} limit {with_unit(limit, unit)}"
+    if limit is None:
+        text = f"{what}{scope} is {quantity(m.value, unit)}"
+    else:
+        # written apart: a value never reads equal to the limit it crosses
+        shown, limit_shown = apart(m.value, limit)
+        text = (f"{what}{scope} is {quantity(m.value, unit, shown)}, {relation} the "
+                f"{grade_word} limit {quantity(limit, unit, limit_shown)}")
     if m.detail:
         text += f"; {m.detail}"
     return text

@@ -1,7 +1,7 @@
 """The plugin manager: built-in plugins, installed rule packs, blocking, listing.
 
 Built-in rules and reporters are plugins registered exactly like installed packs, so any
-of them can be blocked by name (``-p no:NAME``). Installed packs come from the entry-point
+of them can be blocked by name (``--no-plugin NAME``). Installed packs come from the entry-point
 group ``caselint``; setting ``CASELINT_DISABLE_PLUGIN_AUTOLOAD`` skips them.
 """
 
@@ -29,11 +29,13 @@ BUILTIN_PLUGINS: tuple[str, ...] = (
     "caselint.rules.mesh_integrity",
     "caselint.rules.waivers",
     "caselint.rules.near_wall",
+    "caselint.rules.yplus",
     "caselint.rules.gaps",
     "caselint.rules.regions",
     "caselint.rules.scale",
     "caselint.rules.domain",
     "caselint.rules.time_step",
+    "caselint.rules.time_resolution",
     "caselint.rules.grid_refinement",
     "caselint.report.text",
     "caselint.report.json_report",
@@ -108,7 +110,7 @@ def _load_entry_points(pm: CaselintPluginManager) -> None:
             raise PluginLoadError(
                 f"rule pack {ep.name!r} from distribution {dist_name} {dist_version} failed to "
                 f"load ({type(exc).__name__}: {exc}); fix or uninstall it, or block it with "
-                f"-p no:{ep.name}"
+                f"--no-plugin {ep.name}"
             ) from exc
         try:
             pm.register(plugin, name=ep.name)
@@ -121,9 +123,9 @@ def _load_entry_points(pm: CaselintPluginManager) -> None:
 
 def plugin_listing(pm: CaselintPluginManager) -> list[dict[str, Any]]:
     """One entry per registered plugin: name, distribution, version and what it adds."""
-    from caselint.engine.registry import contributions
+    from caselint.engine.registry import Registry
 
-    added = contributions(pm)
+    added = Registry(pm).contributions()
     rows = []
     for name, plugin in sorted(pm.list_name_plugin(), key=lambda item: item[0]):
         if plugin is None:  # blocked

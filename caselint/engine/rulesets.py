@@ -1,34 +1,38 @@
 """Rule sets: which rules run, with which limits and parameters, and manual checklist items.
 
-A rule set is a YAML file registered by a plugin (the shipped ones live in ``rules/``)::
+A rule set is a YAML file, registered by a plugin (the shipped ones live in ``rules/``) or
+named by its path in a case file's ``checks.rule_sets`` (relative to the case file) or on
+the command line (``--rule-set``, relative to the current folder)::
 
     description: General mesh-quality checks for any CFD case
-    extends: other-set              # or a list; parents are applied first
+    extends: other-set              # or a list; names of registered sets, or paths
     conditions: [...]               # declarative rules, see caselint.engine.conditions
     rules:
       growth-ratio: {warn: 1.3, error: 2.0}
       aspect-ratio: {enabled: false}
+      wall-yplus: {grades: {wall-function.low: {error: 25}}}
     checklist:
       - {id: fluid-data, text: "Fluid properties verified against the project's data source"}
 
-A rule entry may set ``enabled``, ``warn`` and ``error`` (``null`` disables that grade),
-``severity`` (the highest severity the rule may report) and the rule's own parameters.
-The case file's ``checks.rules`` overrides entries the same way and may add rules.
+A rule entry is described in :mod:`caselint.engine.entries`. The case file's
+``checks.rules`` overrides entries the same way and may add rules. A set's ``extends``
+resolves a path relative to the set's own file, and every error names the file that holds it.
 """
 
 from __future__ import annotations
 
-import difflib
-import math
+import os
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
 
+from caselint.engine.entries import ActiveRule, activate, check_entry, line_of, merge, suggest
 from caselint.errors import CaseFileError
-from caselint.model import SEVERITIES, ChecklistItem, Limits, Rule
+from caselint.model import ChecklistItem, Rule
 
-_ENTRY_KEYS = ("enabled", "warn", "error", "severity")
 _TOP_KEYS = ("description", "extends", "rules", "checklist", "conditions")
+#: Endings that mark a rule-set entry as a file path rather than a registered set's name.
+PATH_SUFFIXES: tuple[str, ...] = (".yaml", ".yml")
 
 
 @dataclass(frozen=True)
@@ -45,27 +49,16 @@ class RuleSet:
 
 
 @dataclass(frozen=True)
-class ActiveRule:
-    """A rule that will run on a case, with its resolved limits and parameters."""
-
-    rule: Rule
-    limits: Limits
-    params: dict[str, Any]
-    max_severity: str | None = None
-
-
-@dataclass(frozen=True)
 class Selection:
-    """The rules a case runs and the manual checklist of the rule sets it uses."""
+    """The rules a case runs and the manual checklist of the rule sets it uses.
+
+    ``files`` pairs each rule set used (name or path as written) with its file.
+    """
 
     rule_sets: tuple[str, ...]
     rules: tuple[ActiveRule, ...]
     checklist: tuple[ChecklistItem, ...]
-
-
-def _suggest(word: str, choices: Any) -> str:
-    close = difflib.get_close_matches(word, list(choices), n=1)
-    return f" (did you mean {close[0]!r}?)" if close else ""
+    files: tuple[tuple[str, Path], ...] = ()
 
 
 def load_rule_set(name: str, path: Path) -> RuleSet:
@@ -77,20 +70,20 @@ def load_rule_set(name: str, path: Path) -> RuleSet:
     file = str(path)
 
     def fail(key: str, message: str) -> CaseFileError:
-        return CaseFileError(file, message, line=_line(lines, key), key=key)
+        return CaseFileError(file, message, line=line_of(lines, key), key=key)
 
     if not isinstance(data, dict):
         raise fail("", "a rule set must be a mapping with 'rules' and optional "
                    "'description', 'extends', 'checklist'")
     for key in data:
         if key not in _TOP_KEYS:
-            raise fail(str(key), f"unknown key {key!r}{_suggest(str(key), _TOP_KEYS)}; "
+            raise fail(str(key), f"unknown key {key!r}{suggest(str(key), _TOP_KEYS)}; "
                        f"expected one of {', '.join(_TOP_KEYS)}")
     extends = data.get("extends") or ()
     if isinstance(extends, str):
         extends = (extends,)
     if not isinstance(extends, (list, tuple)) or not all(isinstance(e, str) for e in extends):
-        raise fail("extends", "expected a rule-set name or a list of names")
+        raise fail("extends", "expected a rule-set name or path, or a list of them")
     rules = data.get("rules") or {}
     if not isinstance(rules, dict):
         raise fail("rules", "expected a mapping of rule id to settings")
@@ -117,94 +110,56 @@ def load_rule_set(name: str, path: Path) -> RuleSet:
     return RuleSet(name, Path(path), description, tuple(extends), entries, tuple(checklist), lines)
 
 
-def _finite_number(value: Any) -> bool:
-    """A number (not true/false) that a float holds finitely; huge whole numbers are not."""
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        return False
-    try:
-        return math.isfinite(value)
-    except OverflowError:             # an int beyond the float range
-        return False
+def is_path(name: str) -> bool:
+    """True when a rule-set entry names a file (``*.yaml``, ``*.yml``, or a path)."""
+    return name.endswith(PATH_SUFFIXES) or "/" in name or os.sep in name
 
 
-def _line(lines: Mapping[str, int], key: str) -> int | None:
-    while key:
-        if key in lines:
-            return lines[key]
-        key = key.rpartition(".")[0]
-    return lines.get("")
+@dataclass(frozen=True)
+class _Where:
+    """Who names a rule set: the file, its lines and the key (for errors), and the folder
+    that a path is relative to."""
+
+    file: str
+    lines: Mapping[str, int]
+    key: str
+    base: Path
+
+    def fail(self, message: str) -> CaseFileError:
+        return CaseFileError(self.file, message, line=line_of(self.lines, self.key),
+                             key=self.key)
 
 
-def _chain(name: str, files: Mapping[str, Path], seen: tuple[str, ...] = ()) -> list[RuleSet]:
+def _locate(name: str, files: Mapping[str, Path], named_by: _Where) -> tuple[str, Path]:
+    """(name, file) of a rule set named by a registered name or a path."""
+    if is_path(name):
+        path = (named_by.base / name).resolve()
+        if not path.is_file():
+            raise named_by.fail(f"rule-set file not found: {path}"
+                                + (" (it is a folder)" if path.is_dir() else ""))
+        return name, path
+    if name not in files:
+        raise named_by.fail(f"unknown rule set {name!r}{suggest(name, files)}; known: "
+                            f"{', '.join(files) or 'none'}, or a path to a .yaml file")
+    return name, files[name]
+
+
+def _chain(name: str, path: Path, files: Mapping[str, Path],
+           seen: tuple[Path, ...] = ()) -> list[RuleSet]:
     """The set and its ancestors, parents first, each once."""
-    if name in seen:
-        raise CaseFileError(str(files[name]), "rule sets extend each other in a loop: "
-                            + " -> ".join(seen + (name,)), key="extends")
-    rule_set = load_rule_set(name, files[name])
+    if path in seen:
+        raise CaseFileError(str(path), "rule sets extend each other in a loop: "
+                            + " -> ".join(str(p) for p in seen + (path,)), key="extends")
+    rule_set = load_rule_set(name, path)
     out: list[RuleSet] = []
+    named_by = _Where(str(path), rule_set.lines, "extends", path.parent)
     for parent in rule_set.extends:
-        if parent not in files:
-            raise CaseFileError(str(rule_set.path), f"extends unknown rule set {parent!r}"
-                                f"{_suggest(parent, files)}; known: {', '.join(files)}",
-                                line=_line(rule_set.lines, "extends"), key="extends")
-        for ancestor in _chain(parent, files, seen + (name,)):
-            if ancestor.name not in {s.name for s in out}:
+        parent_name, parent_path = _locate(parent, files, named_by)
+        for ancestor in _chain(parent_name, parent_path, files, seen + (path,)):
+            if ancestor.path not in {s.path for s in out}:
                 out.append(ancestor)
     out.append(rule_set)
     return out
-
-
-def _check_entry(
-    rule: Rule, entry: Mapping[str, Any], file: str, lines: Mapping[str, int], prefix: str
-) -> None:
-    """Refuse settings the rule does not have, or of the wrong type."""
-    param_names = [p.name for p in rule.parameters]
-    for key, value in entry.items():
-        where = f"{prefix}.{key}"
-        if key in ("warn", "error"):
-            ok = value is None or _finite_number(value)
-            if not ok:
-                raise CaseFileError(file, f"{key} must be a finite number in {rule.unit or 'the rule unit'}"
-                                    f" or null, got {value!r}", line=_line(lines, where), key=where)
-        elif key == "enabled":
-            if not isinstance(value, bool):
-                raise CaseFileError(file, f"enabled must be true or false, got {value!r}",
-                                    line=_line(lines, where), key=where)
-        elif key == "severity":
-            if value not in SEVERITIES:
-                raise CaseFileError(file, f"severity must be one of {', '.join(SEVERITIES)}, got "
-                                    f"{value!r}", line=_line(lines, where), key=where)
-        elif key not in param_names:
-            allowed = list(_ENTRY_KEYS) + param_names
-            raise CaseFileError(file, f"rule {rule.id!r} has no setting {key!r}"
-                                f"{_suggest(key, allowed)}; it takes {', '.join(allowed)}",
-                                line=_line(lines, where), key=where)
-        else:
-            _check_parameter(rule, next(p for p in rule.parameters if p.name == key), value,
-                             file, lines, where)
-
-
-def _check_parameter(
-    rule: Rule, param: Any, value: Any, file: str, lines: Mapping[str, int], where: str
-) -> None:
-    """A parameter value must have the kind of its default: a finite number, a flag, text;
-    null only where the parameter allows it (see :class:`caselint.model.Parameter`)."""
-    default = param.default
-    unit = f" in {param.unit}" if param.unit else ""
-    if value is None and (param.nullable or default is None):
-        return
-    if isinstance(default, bool):
-        ok, expected = isinstance(value, bool), "true or false"
-    elif isinstance(default, (int, float)) or default is None:
-        ok = _finite_number(value)
-        expected = f"a finite number{unit}" + (" or null" if default is None else "")
-    elif isinstance(default, str):
-        ok, expected = isinstance(value, str), "text"
-    else:
-        ok, expected = True, ""
-    if not ok:
-        raise CaseFileError(file, f"parameter {param.name!r} of rule {rule.id!r} must be "
-                            f"{expected}, got {value!r}", line=_line(lines, where), key=where)
 
 
 def select_rules(
@@ -215,53 +170,55 @@ def select_rules(
     *,
     case_file: str = "",
     case_lines: Mapping[str, int] | None = None,
+    base: Path | None = None,
+    from_command_line: bool = False,
 ) -> Selection:
     """Resolve rule sets (with ``extends``) and the case file's overrides into active rules.
 
+    ``set_names`` are registered names or paths (relative to ``base``: the case file's
+    folder, or the current one for sets from the command line).
     :raises CaseFileError: unknown set, unknown rule id or setting, naming file and line.
     """
+    from caselint.engine.conditions import conditions_of
+
+    rules = dict(rules)
     merged: dict[str, dict[str, Any]] = {}
     checklist: dict[str, ChecklistItem] = {}
-    seen_sets: list[str] = []
-    for name in set_names:
-        if name not in files:
-            raise CaseFileError(case_file or "<command line>", f"unknown rule set {name!r}"
-                                f"{_suggest(name, files)}; known: {', '.join(files) or 'none'}",
-                                line=_line(case_lines or {}, "checks.rule_sets"),
-                                key="checks.rule_sets")
-        for rule_set in _chain(name, files):
-            if rule_set.name in seen_sets:
+    used: list[RuleSet] = []
+    named_by = _Where("<command line>" if from_command_line else case_file or "<command line>",
+                      {} if from_command_line else case_lines or {},
+                      "--rule-set" if from_command_line else "checks.rule_sets",
+                      base if base is not None else Path.cwd())
+    for entry_name in set_names:
+        name, path = _locate(entry_name, files, named_by)
+        for rule_set in _chain(name, path, files):
+            if rule_set.path in {s.path for s in used}:
                 continue
-            seen_sets.append(rule_set.name)
+            used.append(rule_set)
+            if rule_set.path not in files.values():     # a file's own declarative rules
+                for rule_id, rule in conditions_of(rule_set.path).items():
+                    if rule_id in rules and rules[rule_id] is not rule:
+                        raise CaseFileError(str(rule_set.path), f"condition {rule_id!r} has the "
+                                            "id of a registered rule", key="conditions")
+                    rules[rule_id] = rule
             for rule_id, entry in rule_set.rules.items():
+                key = f"rules.{rule_id}"
                 if rule_id not in rules:
                     raise CaseFileError(str(rule_set.path), f"unknown rule {rule_id!r}"
-                                        f"{_suggest(rule_id, rules)}",
-                                        line=_line(rule_set.lines, f"rules.{rule_id}"),
-                                        key=f"rules.{rule_id}")
-                _check_entry(rules[rule_id], entry, str(rule_set.path), rule_set.lines,
-                             f"rules.{rule_id}")
-                merged.setdefault(rule_id, {}).update(entry)
+                                        f"{suggest(rule_id, rules)}",
+                                        line=line_of(rule_set.lines, key), key=key)
+                check_entry(rules[rule_id], entry, str(rule_set.path), rule_set.lines, key)
+                merge(rules[rule_id], merged.setdefault(rule_id, {}), entry)
             for item in rule_set.checklist:
                 checklist[item.id] = item
     for rule_id, entry in (overrides or {}).items():
         key = f"checks.rules.{rule_id}"
         if rule_id not in rules:
-            raise CaseFileError(case_file, f"unknown rule {rule_id!r}{_suggest(rule_id, rules)}",
-                                line=_line(case_lines or {}, key), key=key)
-        _check_entry(rules[rule_id], entry, case_file, case_lines or {}, key)
-        merged.setdefault(rule_id, {}).update(entry)
-    active = []
-    for rule_id in sorted(merged):
-        entry = merged[rule_id]
-        if not entry.get("enabled", True):
-            continue
-        rule = rules[rule_id]
-        limits = Limits(
-            warn=entry["warn"] if "warn" in entry else rule.limits.warn,
-            error=entry["error"] if "error" in entry else rule.limits.error,
-        )
-        params = {p.name: p.default for p in rule.parameters}
-        params.update({k: v for k, v in entry.items() if k not in _ENTRY_KEYS})
-        active.append(ActiveRule(rule, limits, params, entry.get("severity")))
-    return Selection(tuple(seen_sets), tuple(active), tuple(checklist.values()))
+            raise CaseFileError(case_file, f"unknown rule {rule_id!r}{suggest(rule_id, rules)}",
+                                line=line_of(case_lines or {}, key), key=key)
+        check_entry(rules[rule_id], entry, case_file, case_lines or {}, key)
+        merge(rules[rule_id], merged.setdefault(rule_id, {}), entry)
+    active = tuple(activate(rules[rule_id], merged[rule_id]) for rule_id in sorted(merged)
+                   if merged[rule_id].get("enabled", True))
+    return Selection(tuple(s.name for s in used), active, tuple(checklist.values()),
+                     tuple((s.name, s.path) for s in used))

@@ -1,10 +1,14 @@
-"""Run the selected rules on one case: grade, apply waivers, build the case report.
+"""Run the selected rules on one case: check needs, grade, apply waivers, build the report.
 
-A rule that raises is reported as an ``error`` outcome with an internal-error finding for
-that rule; the other rules still run. Bad input found while a rule runs (a mesh that
-cannot be read) is not a rule fault: it propagates as a :class:`UsageError`.
-Plots a rule attaches to its result (``RuleResult.plots``) are kept in the case report,
-stamped with the rule's id, for the review reports to draw.
+A rule whose needs (``Rule.needs``, :mod:`caselint.engine.needs`) the case does not meet
+is skipped without being called. Each measurement is graded against its grade, resolved
+from the rule's declaration and the rule-set and case-file overrides; a measurement with
+an extent is graded per place (:mod:`caselint.engine.extent`). A rule that raises is
+reported as an ``error`` outcome with an internal-error finding for that rule; the other
+rules still run. Bad input found while a rule runs (a mesh that cannot be read) is not a
+rule fault: it propagates as a :class:`UsageError`. Plots a rule attaches to its result
+(``RuleResult.plots``) are kept in the case report, stamped with the rule's id, for the
+review reports to draw.
 """
 
 from __future__ import annotations
@@ -16,9 +20,9 @@ import os
 import traceback
 from typing import TYPE_CHECKING, Callable
 
-from caselint.engine import grading
+from caselint.engine import extent, grading, needs
 from caselint.engine.context import RuleContext
-from caselint.engine.rulesets import ActiveRule
+from caselint.engine.entries import ActiveRule, resolve
 from caselint.engine.safety import finding_caution, safety_note
 from caselint.errors import UsageError
 from caselint.model import (
@@ -27,9 +31,12 @@ from caselint.model import (
     Check,
     ChecklistItem,
     Finding,
+    Limits,
     Measurement,
     PlotData,
     ReviewInfo,
+    Rule,
+    RuleInfo,
     RuleResult,
     WaiverStatus,
     Where,
@@ -86,7 +93,7 @@ def _crash(active: ActiveRule, exc: BaseException, case: "Case") -> tuple[Check,
     at = f" at {last.filename}:{last.lineno}" if last else ""
     reason = f"internal error in rule: {type(exc).__name__}: {exc}{at}"
     check = Check(rule.id, rule.title, "error", "error", None, None, rule.unit, reason,
-                  active.limits)
+                  active.limits, rule.worse)
     finding = Finding(
         rule=rule.id, severity="error", message=f"the rule could not run: {reason}",
         measured=None, limit=None, unit=rule.unit, where=Where(), source=rule.source,
@@ -95,6 +102,31 @@ def _crash(active: ActiveRule, exc: BaseException, case: "Case") -> tuple[Check,
         safety=finding_caution(case.info.safety),
     )
     return check, finding
+
+
+def _graded_measurements(active: ActiveRule, result: RuleResult):
+    """Each measurement to grade, resolved against its grade (limits, direction, unit),
+    and the distributions of those graded by extent and place."""
+    rule = active.rule
+    out, distributions = [], []
+    for m in result.measurements:
+        parts = [m]
+        if m.extent is not None and rule.place_grades:
+            parts = extent.expand(rule, active.grades, m)
+            distributions.append(extent.distribution(rule, active.grades, m))
+        for part in parts:
+            name = part.grade or rule.main_grade
+            if name not in active.grades:
+                raise ValueError(f"measurement names grade {name!r}, which rule {rule.id!r} "
+                                 f"does not declare (it has {', '.join(active.grades)})")
+            grade = active.grades[name]
+            out.append(dataclasses.replace(
+                part, extent=None,
+                limits=part.limits if part.limits is not None else grade.limits,
+                worse=part.worse or grade.worse or rule.worse,
+                unit=part.unit if part.unit is not None else
+                (grade.unit if grade.unit is not None else rule.unit)))
+    return out, tuple(distributions)
 
 
 def _grade(
@@ -109,25 +141,26 @@ def _grade(
     ]
     if result.skipped is not None:
         check = Check(rule.id, rule.title, "skipped", None, None, None, rule.unit,
-                      result.skipped, limits)
+                      result.skipped, limits, rule.worse)
         return check, findings
+    measurements, distributions = _graded_measurements(active, result)
+    if not measurements:
+        raise ValueError("the rule's extent holds no entity in any place it grades")
     worst_open: str | None = None
     worst_waived: str | None = None
     graded: list[tuple[Measurement, str | None]] = []
-    for m in result.measurements:
-        m_limits = m.limits or limits
-        severity = grading.cap(grading.grade(m.value, m_limits, m.worse or rule.worse),
-                               active.max_severity)
+    for m in measurements:
+        severity = grading.cap(grading.grade(m.value, m.limits, m.worse), active.max_severity)
         graded.append((m, severity))
         if severity is None:
             continue
         where = _with_line(m.where, case)
-        limit = grading.limit_for(severity, m_limits)
+        limit = grading.limit_for(severity, m.limits)
         waiver = _matching_waiver(rule.id, where, case.checks.waivers, today, used)
         findings.append(Finding(
             rule=rule.id, severity=severity, message=grading.message(rule, m, severity, limit),
-            measured=m.value, limit=limit, unit=m.unit if m.unit is not None else rule.unit,
-            where=where, hint=m.fix or rule.hint, source=rule.source, waived=waiver is not None,
+            measured=m.value, limit=limit, unit=m.unit, where=where, hint=m.fix or rule.hint,
+            source=rule.source, waived=waiver is not None,
             waiver=(f"waived by {waiver.approved_by} until {waiver.expires}: {waiver.reason}"
                     if waiver else ""),
             safety=caution,
@@ -136,32 +169,39 @@ def _grade(
             worst_open = _more_severe(worst_open, severity)
         else:
             worst_waived = _more_severe(worst_waived, severity)
-    deciding, deciding_severity = _deciding(graded, rule.worse)
+    deciding, deciding_severity = _deciding(graded, rule)
     if worst_open is not None:
         outcome, severity = "fail", worst_open
     elif worst_waived is not None:
         outcome, severity = "waived", worst_waived
     else:
         outcome, severity = "pass", None
-    d_limits = deciding.limits or limits
+    d_limits = deciding.limits
+    if d_limits == Limits() and _on_rule_scale(deciding, rule):
+        d_limits = limits       # a value only reported in its place: show the main limits
     check = Check(rule.id, rule.title, outcome, severity, deciding.value,
-                  grading.limit_for(deciding_severity, d_limits),
-                  deciding.unit if deciding.unit is not None else rule.unit, "", d_limits)
+                  grading.limit_for(deciding_severity, d_limits), deciding.unit, "", d_limits,
+                  deciding.worse or rule.worse, distributions)
     return check, findings
 
 
+def _on_rule_scale(m: Measurement, rule: Rule) -> bool:
+    """True when a (resolved) measurement has the rule's own direction and unit."""
+    return m.worse == rule.worse and m.unit == rule.unit
+
+
 def _deciding(
-    graded: list[tuple[Measurement, str | None]], worse: str
+    graded: list[tuple[Measurement, str | None]], rule: Rule
 ) -> tuple[Measurement, str | None]:
     """The measurement a check reports: the most severe; among equals, the worst value of
     those on the rule's own scale, else the first one the rule gave."""
     top = max(-1 if s is None else SEVERITY_RANK[s] for _, s in graded)
     tied = [(m, s) for m, s in graded if (-1 if s is None else SEVERITY_RANK[s]) == top]
-    own = [(m, s) for m, s in tied if not m.own_scale]
+    own = [(m, s) for m, s in tied if _on_rule_scale(m, rule) and not m.statement]
     if not own:
         return tied[0]
     values = [m.value for m, _ in own]
-    pick = values.index(grading.worst(values, worse))
+    pick = values.index(grading.worst(values, rule.worse))
     return own[pick]
 
 
@@ -192,10 +232,12 @@ def run_case(
     rule_sets: tuple[str, ...] = (),
     checklist: "tuple[ChecklistItem, ...]" = (),
     today: dt.date | None = None,
+    read_mesh: "Callable[..., Mesh] | None" = None,
 ) -> CaseReport:
     """Run every active rule on ``case`` and collect checks and findings, sorted.
 
-    ``label`` is how the report names the case file (the path as the user gave it).
+    ``label`` is how the report names the case file (the path as the user gave it);
+    ``read_mesh`` is the mesh reader rules use for other mesh files (a grid study's).
     """
     today = today or dt.date.today()
     mesh_once = functools.lru_cache(maxsize=1)(load_mesh)
@@ -204,12 +246,8 @@ def run_case(
     plots: list[PlotData] = []
     used: set[int] = set()
     for active in sorted(active_rules, key=lambda a: a.rule.id):
-        ctx = RuleContext(case=case, limits=active.limits, params=dict(active.params),
-                          today=today, _load_mesh=mesh_once)
         try:
-            result = active.rule.check(ctx)
-            if not isinstance(result, RuleResult):
-                raise TypeError(f"rule returned {type(result).__name__}, not RuleResult")
+            result = run_rule(active, case, mesh_once, today=today, read_mesh=read_mesh)
             check, found = _grade(active, result, case, today, used)
             plots.extend(_rule_plots(active, result))
         except UsageError:
@@ -234,4 +272,44 @@ def run_case(
         review=ReviewInfo(case.review.prepared_by, tuple(case.review.reviewers),
                           case.review.approved_by),
         plots=tuple(plots),
+        rule_info=tuple(RuleInfo.of(a.rule) for a in sorted(active_rules,
+                                                             key=lambda a: a.rule.id)),
     )
+
+
+def run_rule(active: ActiveRule, case: "Case", load_mesh: "Callable[[], Mesh]", *,
+             today: dt.date | None = None,
+             read_mesh: "Callable[..., Mesh] | None" = None) -> RuleResult:
+    """One rule's result on ``case``: skipped when a need is not met, else its check's."""
+    rule = active.rule
+    reason = needs.missing_case_data(rule.needs, case) or needs.missing_mesh_data(rule.needs,
+                                                                                  load_mesh)
+    if reason is not None:
+        return RuleResult.skip(reason)
+    ctx = RuleContext(case=case, limits=active.limits, params=dict(active.params),
+                      today=today or dt.date.today(), grades=dict(active.grades),
+                      read_mesh=read_mesh, _load_mesh=load_mesh)
+    result = rule.check(ctx)
+    if not isinstance(result, RuleResult):
+        raise TypeError(f"rule returned {type(result).__name__}, not RuleResult")
+    return result
+
+
+def check_rule(rule: Rule, case: "Case", mesh: "Mesh | None" = None, *,
+               settings: dict | None = None, today: dt.date | None = None) -> RuleResult:
+    """Run one rule on ``case`` as the engine would: ``settings`` as a case file's
+    ``checks.rules`` entry (checked), needs checked, the mesh given. For tests and tools."""
+    def load() -> "Mesh":
+        if mesh is None:
+            raise RuntimeError("this rule was run without a mesh")
+        return mesh
+
+    return run_rule(resolve(rule, settings, file=str(case.path), lines=case.lines), case, load,
+                    today=today)
+
+
+def graded_measurements(rule: Rule, result: RuleResult,
+                        settings: dict | None = None) -> list[Measurement]:
+    """The measurements of ``result`` as the engine grades them: each with the limits,
+    direction and unit of its grade, a measurement with an extent expanded per place."""
+    return _graded_measurements(resolve(rule, settings), result)[0]

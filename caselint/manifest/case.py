@@ -12,15 +12,34 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 BOUNDARY_ROLES: tuple[str, ...] = (
-    "wall", "inlet", "outlet", "symmetry", "periodic", "opening", "interface",
+    "wall", "slip-wall", "inlet", "outlet", "open", "symmetry", "periodic", "interface",
+)
+#: ``physics.method`` values: where the unknowns are stored. ``finite-volume`` is another
+#: name for ``cell-centred`` (the loader turns it into that).
+METHODS: tuple[str, ...] = ("cell-centred", "vertex-centred", "finite-element")
+METHOD_ALIASES: dict[str, str] = {"finite-volume": "cell-centred"}
+#: Names an earlier case-file format used, and the names that replace them: (key, old, new).
+RENAMED_VALUES: tuple[tuple[str, str, str], ...] = (
+    ("boundary role", "opening", "open"),
+    ("turbulence model", "transition-sst", "gamma-retheta-sst"),
 )
 SAFETY_CLASSES: tuple[str, ...] = (
     "none", "structural-wind", "fire-smoke", "life-safety", "medical", "pressure-equipment",
 )
+#: Length units accepted for ``mesh.units``, with their size in metres (exact by definition).
+LENGTH_UNITS: dict[str, float] = {
+    "m": 1.0,
+    "cm": 1e-2,
+    "mm": 1e-3,
+    "um": 1e-6,
+    "in": 0.0254,
+    "ft": 0.3048,
+}
 #: ``physics.turbulence.model`` values (the schema's enum; a test keeps the two equal).
 TURBULENCE_MODELS: tuple[str, ...] = (
     "laminar", "k-epsilon", "rng-k-epsilon", "realizable-k-epsilon", "k-omega", "k-omega-sst",
-    "spalart-allmaras", "transition-sst", "reynolds-stress", "les", "des", "ddes", "iddes", "dns",
+    "spalart-allmaras", "gamma-retheta-sst", "reynolds-stress", "les", "des", "ddes", "iddes",
+    "dns",
 )
 #: ``time.scheme`` values and the time integration (explicit or implicit) each belongs to.
 SCHEME_INTEGRATION: dict[str, str] = {
@@ -49,6 +68,7 @@ class MeshSpec:
     tag_array: str | None = None     # cell-data array with an integer tag per boundary face
     tags: dict[int, str] = field(default_factory=dict)         # tag -> group name
     velocity_field: str | None = None  # point/cell-data array with the flow velocity (m/s)
+    zone: str | None = None          # the zone to check in a file of several zones
 
 
 @dataclass(frozen=True)
@@ -87,7 +107,7 @@ class Turbulence:
 
 @dataclass(frozen=True)
 class Physics:
-    method: str = "finite-volume"                # or finite-element
+    method: str = "cell-centred"                 # or vertex-centred, finite-element (METHODS)
     fluid: Fluid = field(default_factory=Fluid)
     flow: Flow = field(default_factory=Flow)
     turbulence: Turbulence = field(default_factory=Turbulence)
@@ -115,11 +135,12 @@ class TimeSpec:
 
 @dataclass(frozen=True)
 class Region:
-    """A region of interest: one of box, sphere or cylinder, with a cell-size target."""
+    """A region of interest: a box, sphere or cylinder, or a cell zone of the mesh, with a
+    cell-size target."""
 
     name: str
-    shape: str                                   # box | sphere | cylinder
-    geometry: dict[str, object]                  # SI: box {min, max}; sphere {center, radius}; ...
+    shape: str                                   # box | sphere | cylinder | zone
+    geometry: dict[str, object]                  # SI: box {min, max}; sphere {center, radius}; zone {zone}
     max_cell_size: float | None = None           # m
 
 

@@ -1,49 +1,72 @@
 """Read a case file into a :class:`~caselint.manifest.case.Case`: YAML, schema, units, paths.
 
-The steps, each raising :class:`~caselint.errors.CaseFileError` with file, line, key and
-what was expected: parse the YAML keeping lines (:mod:`.yamlnodes`), check the format
-version, validate against the JSON Schema (:mod:`.schema`), convert quantities to SI
+The steps: parse the YAML keeping lines (:mod:`.yamlnodes`), check the format version,
+validate against the JSON Schema (:mod:`.schema`), convert quantities to SI
 (:mod:`.units`), check what a schema cannot (positive sizes, consistent fluid data,
 regions named once, mesh files that exist). The mesh itself is not read here.
+
+Every problem is a :class:`~caselint.errors.CaseFileError` with file, line, key and what
+was expected, and all found in one run are raised together, so a case file with several
+mistakes is fixed in one pass: duplicate keys, schema problems and the problems of the
+later checks. A YAML syntax error or a format version this caselint does not read stops
+at once (nothing after it can be read reliably), and a top-level section with a schema
+problem is not checked further (its values are not what the later checks expect).
 """
 
 from __future__ import annotations
 
+import copy
 import datetime as _dt
 import math
+import re
 from collections.abc import Mapping
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
-from caselint.errors import CaseFileError
+from caselint.errors import CaseFileError, CaseFileErrors
 from caselint.manifest.case import (
-    SCHEME_INTEGRATION, Case, CaseInfo, Checks, Flow, Fluid, GridStudy, MeshSpec, Physics,
-    Region, Review, TimeSpec, Turbulence, Waiver,
+    METHOD_ALIASES, RENAMED_VALUES, SCHEME_INTEGRATION, Case, CaseInfo, Checks, Flow, Fluid,
+    GridStudy, MeshSpec, Physics, Region, Review, TimeSpec, Turbulence, Waiver,
 )
 from caselint.manifest.messages import describe
-from caselint.manifest.schema import validate_case
-from caselint.manifest.units import DIMENSIONS, scale_to_m, to_si
+from caselint.manifest.schema import case_schema, schema_problems
+from caselint.manifest.units import scale_to_m
+from caselint.manifest.values import ValueReader, collects
 from caselint.manifest.yamlnodes import YamlDoc, load_yaml
 
 #: The case-file format version this loader reads.
 FORMAT_VERSION = 1
 #: Largest relative disagreement allowed between kinematic_viscosity and viscosity/density.
 FLUID_CONSISTENCY = 0.01
-#: Smallest and largest magnitude (SI) of a quantity, a coordinate (largest only) or a
-#: plain number such as the Strouhal number. Far outside any CFD case, so a value beyond
-#: is a typo or a wrong unit; within, the products and quotients of a few quantities that
-#: rules form (Reynolds numbers, Courant numbers, y+) stay well inside the float range.
-MIN_MAGNITUDE = 1e-12
-MAX_MAGNITUDE = 1e12
 
 
-def load_case(path: str | Path, *, extensions: Mapping[str, dict] | None = None) -> Case:
-    """Load and validate a case file; ``extensions`` maps plugin sections to schema fragments."""
+def load_case(path: str | Path, *, extensions: Mapping[str, dict] | None = None,
+              quantities: Mapping[str, Mapping[str, str]] | None = None) -> Case:
+    """Load and validate a case file; ``extensions`` maps plugin sections to schema fragments.
+
+    ``quantities`` maps a plugin section to its quantities (dotted key in the section ->
+    dimension name), which are converted to SI like the case file's own.
+
+    :raises CaseFileError: every problem found (a :class:`CaseFileErrors` when several).
+    """
     case_path = Path(path)
-    doc = load_yaml(case_path)
+    doc = load_yaml(case_path, keep_problems=True)
     _check_version(doc)
-    data = validate_case(doc, extensions)
-    return _CaseBuilder(case_path, doc).build(data, extensions or {})
+    _check_renamed(doc)
+    data, problems = schema_problems(doc, case_schema(extensions))
+    problems = [*doc.problems, *problems]
+    broken = {_section(p.key) for p in problems}
+    builder = _CaseBuilder(case_path, doc, skip=broken)   # problems there: no Case is built
+    case = builder.build(data, extensions or {}, quantities or {})
+    problems += builder.problems
+    if problems or case is None:
+        raise CaseFileErrors.of(problems)
+    return case
+
+
+def _section(key: str) -> str:
+    """The top-level section of a key path: ``physics`` of ``physics.fluid.density``."""
+    return re.split(r"[.\[]", key, maxsplit=1)[0]
 
 
 def _check_version(doc: YamlDoc) -> None:
@@ -63,130 +86,95 @@ def _check_version(doc: YamlDoc) -> None:
                         column=doc.column_of("caselint"), key="caselint")
 
 
-def _floats(values: list[Any]) -> list[float]:
-    """Numbers as floats; a whole number too large for a float becomes infinity."""
-    out = []
-    for v in values:
-        try:
-            out.append(float(v))
-        except OverflowError:
-            out.append(math.inf)
-    return out
+def _check_renamed(doc: YamlDoc) -> None:
+    """A value an earlier format spelt differently names its new spelling (exit 2)."""
+    data = doc.data if isinstance(doc.data, dict) else {}
+    found: list[tuple[str, str, Any]] = []
+    mesh = data.get("mesh")
+    boundaries = mesh.get("boundaries") if isinstance(mesh, dict) else None
+    for name, role in (boundaries.items() if isinstance(boundaries, dict) else ()):
+        if isinstance(role, dict):
+            found.append(("boundary role", f"mesh.boundaries.{name}.type", role.get("type")))
+        else:
+            found.append(("boundary role", f"mesh.boundaries.{name}", role))
+    physics = data.get("physics")
+    turbulence = physics.get("turbulence") if isinstance(physics, dict) else None
+    if isinstance(turbulence, dict):
+        found.append(("turbulence model", "physics.turbulence.model", turbulence.get("model")))
+    for what, key, value in found:
+        for kind, old, new in RENAMED_VALUES:
+            if kind == what and value == old:
+                raise CaseFileError(doc.file, f"the {what} '{old}' is now called '{new}'; "
+                                    f"write {new}", line=doc.line_of(key),
+                                    column=doc.column_of(key), key=key)
 
 
-class _CaseBuilder:
+class _CaseBuilder(ValueReader):
     """Turns validated case-file data into a Case, pointing any error at its line."""
 
-    def __init__(self, case_path: Path, doc: YamlDoc) -> None:
-        self.case_path = case_path
-        self.folder = case_path.parent
-        self.doc = doc
-
-    def fail(self, key: str, message: str) -> CaseFileError:
-        return CaseFileError(self.doc.file, message, line=self.doc.line_of(key),
-                             column=self.doc.column_of(key), key=key)
-
-    # -- values ------------------------------------------------------------------------
-
-    def quantity(self, section: dict[str, Any], name: str, dimension: str, path: str,
-                 *, positive: bool = True) -> float | None:
-        """SI value of ``section[name]`` (None when absent); positive unless told otherwise."""
-        if name not in section:
-            return None
-        key = f"{path}.{name}"
-        raw = section[name]
-        try:
-            value = to_si(raw, dimension, key)
-        except CaseFileError as exc:
-            raise self.fail(key, exc.message) from None
-        shown = f"'{raw}'" if isinstance(raw, str) else f"{raw} {DIMENSIONS[dimension].si_unit}"
-        if positive and not value > 0:
-            raise self.fail(key, f"must be greater than zero, got {shown}")
-        self.check_magnitude(key, value, shown, DIMENSIONS[dimension].si_unit)
-        return value
-
-    def check_magnitude(self, key: str, value: float, shown: str, si_unit: str) -> None:
-        """Refuse a non-zero value outside MIN_MAGNITUDE..MAX_MAGNITUDE (SI)."""
-        if value != 0.0 and not MIN_MAGNITUDE <= abs(value) <= MAX_MAGNITUDE:
-            unit = f" {si_unit}" if si_unit else ""
-            raise self.fail(key, f"{shown} is outside the range caselint accepts "
-                                 f"({MIN_MAGNITUDE:g} to {MAX_MAGNITUDE:g}{unit}, either "
-                                 "sign); check the number and its unit")
-
-    def finite(self, section: dict[str, Any], name: str, path: str) -> float | None:
-        """A plain finite number (None when absent); the schema has checked its type."""
-        if name not in section:
-            return None
-        try:
-            value = float(section[name])
-        except OverflowError:         # a whole number with hundreds of digits
-            value = math.inf
-        if not math.isfinite(value):
-            raise self.fail(f"{path}.{name}", f"expected a finite number, got {section[name]!r}")
-        self.check_magnitude(f"{path}.{name}", value, repr(section[name]), "")
-        return value
-
-    def point(self, values: list[Any], path: str) -> tuple[float, float, float]:
-        """A point [x, y, z] in metres."""
-        out = []
-        for i, value in enumerate(values):
-            try:
-                out.append(to_si(value, "length", f"{path}[{i}]"))
-            except CaseFileError as exc:
-                raise self.fail(exc.key, exc.message) from None
-            if abs(out[-1]) > MAX_MAGNITUDE:   # tiny coordinates are as good as zero
-                shown = f"'{value}'" if isinstance(value, str) else f"{value} m"
-                self.check_magnitude(f"{path}[{i}]", out[-1], shown, "m")
-        return (out[0], out[1], out[2])
-
-    def direction(self, values: list[float], path: str) -> tuple[float, float, float]:
-        """A unit vector from three finite numbers, not all zero."""
-        if not all(math.isfinite(v) for v in _floats(values)):
-            raise self.fail(path, f"expected three finite numbers, got {values}")
-        values = _floats(values)
-        norm = math.hypot(*values)    # no overflow for components near 1e308
-        if norm == 0.0:
-            raise self.fail(path, "the direction [0, 0, 0] has no direction; give e.g. [1, 0, 0]")
-        return (values[0] / norm, values[1] / norm, values[2] / norm)
-
-    def mesh_file(self, text: str, key: str) -> Path:
-        """Absolute path of a mesh file named in the case file, which must exist."""
-        if "\0" in text:
-            raise self.fail(key, "a file name cannot contain a NUL character")
-        try:
-            path = (self.folder / text).resolve()
-            if path.is_dir():
-                raise self.fail(key, f"mesh file is a folder, not a file: {path}")
-            if not path.is_file():
-                raise self.fail(key, f"mesh file not found: {path}")
-        except OSError as exc:        # a name too long, a loop of links, no permission
-            raise self.fail(key, f"cannot use {text!r} as a mesh file: "
-                                 f"{exc.strerror or exc}") from None
-        return path
+    def __init__(self, case_path: Path, doc: YamlDoc, skip: set[str] = frozenset()) -> None:
+        super().__init__(case_path, doc)
+        self.skip = skip             # top-level sections with schema problems
 
     # -- sections ----------------------------------------------------------------------
 
-    def build(self, data: dict[str, Any], extensions: Mapping[str, dict]) -> Case:
-        regions = self.regions(data.get("regions", []))
+    def build(self, data: dict[str, Any], extensions: Mapping[str, dict],
+              quantities: Mapping[str, Mapping[str, str]]) -> Case | None:
+        """The Case, or None when a problem was found (each is kept in ``problems``).
+
+        A top-level section with a schema problem, or a required one that is missing, is
+        left out: its values are not what the steps below expect. The others are checked.
+        """
+        def section(name: str) -> Any:
+            if name in self.skip or (name in ("case", "mesh") and name not in data):
+                return None
+            return data.get(name, {})
+
+        regions_spec, physics_spec = section("regions"), section("physics")
+        regions = self.regions(regions_spec or [])
+        # the checks of waiver regions and of the up direction need what they refer to
+        region_names = None if regions_spec is None else {r.name for r in regions}
+        direction = (physics_spec or {}).get("flow", {}).get("direction")
+        steps: dict[str, Callable[[Any], Any]] = {
+            "mesh": self.mesh, "physics": self.physics, "time": self.time,
+            "grid_study": self.grid_study, "review": self.review,
+            "checks": lambda spec: self.checks(spec, region_names),
+            "domain": lambda spec: self.domain(spec, direction),
+        }
+        built = {name: step(spec) for name, step in steps.items()
+                 if (spec := section(name)) is not None}
+        if self.problems or self.skip or len(built) < len(steps):
+            return None
         return Case(
             path=self.case_path,
             version=data["caselint"],
             info=CaseInfo(**data["case"]),
-            mesh=self.mesh(data["mesh"]),
-            physics=self.physics(data.get("physics", {})),
-            time=self.time(data.get("time", {})),
             regions=regions,
-            grid_study=GridStudy(tuple(
-                self.mesh_file(m, f"grid_study.meshes[{i}]")
-                for i, m in enumerate(data.get("grid_study", {}).get("meshes", [])))),
-            checks=self.checks(data.get("checks", {}), {r.name for r in regions}),
-            review=self.review(data.get("review", {})),
-            domain=self.domain(data.get("domain", {}),
-                               data.get("physics", {}).get("flow", {}).get("direction")),
-            extensions={name: data[name] for name in sorted(extensions) if name in data},
+            extensions={name: self.section(name, data[name], quantities.get(name, {}))
+                        for name in sorted(extensions) if name in data},
             document=data,
             lines=dict(self.doc.lines),
+            **built,
         )
+
+    def grid_study(self, spec: dict[str, Any]) -> GridStudy:
+        return GridStudy(tuple(self.mesh_file(m, f"grid_study.meshes[{i}]")
+                               for i, m in enumerate(spec.get("meshes", []))))
+
+    def section(self, name: str, data: Any, quantities: Mapping[str, str]) -> Any:
+        """A plugin section's data with its declared quantities in SI (the rest as written)."""
+        if not quantities or not isinstance(data, dict):
+            return data
+        out = copy.deepcopy(data)
+        for key, dimension in sorted(quantities.items()):
+            *parents, last = key.split(".")
+            holder = out
+            for part in parents:
+                holder = holder.get(part) if isinstance(holder, dict) else None
+            if isinstance(holder, dict) and last in holder:
+                path = ".".join([name, *parents])
+                holder[last] = self.quantity(holder, last, dimension, path, positive=False)
+        return out
 
     def mesh(self, spec: dict[str, Any]) -> MeshSpec:
         units = spec.get("units", "m")
@@ -200,6 +188,7 @@ class _CaseBuilder:
             tag_array=spec.get("tag_array"),
             tags={int(tag): name for tag, name in spec.get("tags", {}).items()},
             velocity_field=spec.get("velocity_field"),
+            zone=None if spec.get("zone") is None else str(spec["zone"]),
         )
 
     def physics(self, spec: dict[str, Any]) -> Physics:
@@ -227,9 +216,11 @@ class _CaseBuilder:
             strouhal=self.finite(flow_spec, "strouhal", p),
         )
         turbulence = Turbulence(**spec["turbulence"]) if "turbulence" in spec else Turbulence()
-        return Physics(method=spec.get("method", "finite-volume"), fluid=fluid, flow=flow,
+        method = spec.get("method", "cell-centred")
+        return Physics(method=METHOD_ALIASES.get(method, method), fluid=fluid, flow=flow,
                        turbulence=turbulence, compressible=spec.get("compressible", False))
 
+    @collects
     def check_fluid(self, fluid: Fluid) -> None:
         """Viscosity, density and kinematic viscosity, when all given, must agree."""
         if fluid.density is None or fluid.viscosity is None or fluid.kinematic_viscosity is None:
@@ -247,14 +238,14 @@ class _CaseBuilder:
         step = self.quantity(spec, "step", "time", "time")
         end = self.quantity(spec, "end", "time", "time")
         if step is not None and end is not None and end < step:
-            raise self.fail("time.end", f"the end time {end:g} s is shorter than one time step "
-                                        f"({step:g} s)")
+            self.problem("time.end", f"the end time {end:g} s is shorter than one time step "
+                                     f"({step:g} s)")
         integration, scheme = spec.get("integration"), spec.get("scheme")
         if integration is not None and scheme is not None \
                 and SCHEME_INTEGRATION[scheme] != integration:
-            raise self.fail("time.scheme", f"the scheme {scheme} is {SCHEME_INTEGRATION[scheme]}, "
-                                           f"but time.integration says {integration}; make them "
-                                           "agree or leave one out")
+            self.problem("time.scheme", f"the scheme {scheme} is {SCHEME_INTEGRATION[scheme]}, "
+                                        f"but time.integration says {integration}; make them "
+                                        "agree or leave one out")
         return TimeSpec(
             mode=spec.get("mode", "steady"),
             step=step,
@@ -273,10 +264,11 @@ class _CaseBuilder:
             path = f"regions[{i}]"
             name = spec["name"]
             if name in first:
-                raise self.fail(f"{path}.name", f"region name '{name}' is used twice "
-                                                f"(also regions[{first[name]}])")
+                self.problem(f"{path}.name", f"region name '{name}' is used twice "
+                                             f"(also regions[{first[name]}])")
+                continue
             first[name] = i
-            shape = next(s for s in ("box", "sphere", "cylinder") if s in spec)
+            shape = next(s for s in ("box", "sphere", "cylinder", "zone") if s in spec)
             out.append(Region(
                 name=name,
                 shape=shape,
@@ -285,33 +277,38 @@ class _CaseBuilder:
             ))
         return tuple(out)
 
-    def region_geometry(self, shape: str, spec: dict[str, Any], path: str) -> dict[str, object]:
+    def region_geometry(self, shape: str, spec: Any, path: str) -> dict[str, object]:
+        if shape == "zone":
+            return {"zone": spec}
         if shape == "box":
             lo = self.point(spec["min"], f"{path}.min")
             hi = self.point(spec["max"], f"{path}.max")
-            for axis, a, b in zip("xyz", lo, hi):
-                if not a < b:
-                    raise self.fail(f"{path}.max", f"the box's max {axis} ({b:g} m) must be "
-                                                   f"greater than its min {axis} ({a:g} m)")
+            bad = [(axis, a, b) for axis, a, b in zip("xyz", lo or (), hi or ()) if not a < b]
+            if bad:
+                axis, a, b = bad[0]
+                self.problem(f"{path}.max", f"the box's max {axis} ({b:g} m) must be greater "
+                                            f"than its min {axis} ({a:g} m)")
             return {"min": lo, "max": hi}
         radius = self.quantity(spec, "radius", "length", path)
         if shape == "sphere":
             return {"center": self.point(spec["center"], f"{path}.center"), "radius": radius}
         start = self.point(spec["start"], f"{path}.start")
         end = self.point(spec["end"], f"{path}.end")
-        if start == end:
-            raise self.fail(f"{path}.end", "the cylinder's start and end are the same point")
+        if start is not None and start == end:
+            self.problem(f"{path}.end", "the cylinder's start and end are the same point")
         return {"start": start, "end": end, "radius": radius}
 
-    def checks(self, spec: dict[str, Any], region_names: set[str]) -> Checks:
+    def checks(self, spec: dict[str, Any], region_names: set[str] | None) -> Checks:
+        """Rule sets, overrides and waivers; a waiver's region must be one of
+        ``region_names`` (None when the regions could not be read)."""
         waivers = []
         for i, item in enumerate(spec.get("waivers", [])):
             key = f"checks.waivers[{i}]"
             region = item.get("region")
-            if region is not None and region not in region_names:
+            if region is not None and region_names is not None and region not in region_names:
                 known = ", ".join(sorted(region_names)) or "none defined"
-                raise self.fail(f"{key}.region", f"waiver names region '{region}', which is not "
-                                                 f"in regions (known: {known})")
+                self.problem(f"{key}.region", f"waiver names region '{region}', which is not "
+                                              f"in regions (known: {known})")
             waivers.append(Waiver(
                 rule=item["rule"],
                 reason=item["reason"],
@@ -332,15 +329,16 @@ class _CaseBuilder:
         from caselint.manifest.case import Domain
 
         up = self.direction(spec["up"], "domain.up") if "up" in spec else None
-        if up is not None and flow_direction is not None:
-            flow = self.direction(flow_direction, "physics.flow.direction")
+        flow = (self.direction(flow_direction, "physics.flow.direction")
+                if flow_direction is not None else None)
+        if up is not None and flow is not None:
             cross = (up[1] * flow[2] - up[2] * flow[1], up[2] * flow[0] - up[0] * flow[2],
                      up[0] * flow[1] - up[1] * flow[0])
             # within about 0.6 deg of the flow direction there is no usable height axis
             if math.sqrt(sum(c * c for c in cross)) < 0.01:
-                raise self.fail("domain.up", f"up {list(spec['up'])} lies along the flow "
-                                f"direction {list(flow_direction)}; give the vertical direction, "
-                                "e.g. [0, 0, 1]")
+                self.problem("domain.up", f"up {list(spec['up'])} lies along the flow direction "
+                                          f"{list(flow_direction)}; give the vertical direction, "
+                                          "e.g. [0, 0, 1]")
         return Domain(body=tuple(spec.get("body", ())), up=up)
 
     def review(self, spec: dict[str, Any]) -> Review:

@@ -14,6 +14,7 @@ from typing import Any
 from jsonschema.exceptions import ValidationError
 
 from caselint.manifest.yamlnodes import child_path
+from caselint.wording import plural
 
 _TYPE_WORDS = {
     "object": "a mapping of keys",
@@ -45,7 +46,7 @@ def describe(value: Any) -> str:
     if isinstance(value, dict):
         return "a mapping"
     if isinstance(value, list):
-        return f"a list of {len(value)} item{'s' if len(value) != 1 else ''}"
+        return f"a list of {plural(len(value), 'item')}"
     return repr(value)
 
 
@@ -67,20 +68,31 @@ def _unknown_keys(error: ValidationError) -> list[str]:
             if k not in allowed and not any(re.search(p, k) for p in patterns)]
 
 
+def describe_errors(error: ValidationError) -> list[tuple[str, str]]:
+    """Message and key path of each problem in one validation error: one per unknown
+    key of a mapping (jsonschema reports them together), else the one."""
+    schema = error.schema if isinstance(error.schema, dict) else {}
+    if error.validator == "additionalProperties" and schema.get("additionalProperties") is False:
+        return [_unknown_key(error, key) for key in _unknown_keys(error) or [""]]
+    return [describe_error(error)]
+
+
+def _unknown_key(error: ValidationError, key: str) -> tuple[str, str]:
+    allowed = sorted(error.schema.get("properties", {}))
+    hint = _did_you_mean(key, allowed)
+    if not hint:
+        hint = "; allowed here: " + ", ".join(allowed) if allowed else "; no keys are allowed here"
+    return f"unknown key '{key}'{hint}", child_path(key_path(error.absolute_path), key)
+
+
 def describe_error(error: ValidationError) -> tuple[str, str]:
-    """Message and key path for one validation error."""
+    """Message and key path for one validation error (its first unknown key, if several)."""
     path = key_path(error.absolute_path)
     kind = error.validator
     schema = error.schema if isinstance(error.schema, dict) else {}
     value = error.instance
     if kind == "additionalProperties" and schema.get("additionalProperties") is False:
-        allowed = sorted(schema.get("properties", {}))
-        unknown = _unknown_keys(error)
-        key = unknown[0] if unknown else ""
-        hint = _did_you_mean(key, allowed)
-        if not hint:
-            hint = "; allowed here: " + ", ".join(allowed) if allowed else "; no keys are allowed here"
-        return f"unknown key '{key}'{hint}", child_path(path, key)
+        return describe_errors(error)[0]
     if kind == "required":
         missing = [r for r in error.validator_value if r not in value]
         name = missing[0] if missing else "?"
@@ -117,9 +129,11 @@ def describe_error(error: ValidationError) -> tuple[str, str]:
     if kind == "minLength" and error.validator_value == 1:
         return "must not be empty", path
     if kind == "minItems":
-        return f"expected at least {error.validator_value} items, got {describe(value)}", path
+        return (f"expected at least {plural(error.validator_value, 'item')}, got "
+                f"{describe(value)}"), path
     if kind == "maxItems":
-        return f"expected at most {error.validator_value} items, got {describe(value)}", path
+        return (f"expected at most {plural(error.validator_value, 'item')}, got "
+                f"{describe(value)}"), path
     if kind == "uniqueItems":
         return "the items must all be different", path
     if kind == "format":

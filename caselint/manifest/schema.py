@@ -1,11 +1,12 @@
 """The case-file JSON Schema (shipped as package data) and validation against it.
 
 Validation runs jsonschema's Draft 2020-12 validator with an explicit
-``referencing.Registry``, so no ``$ref`` is ever fetched over the network. Errors become
-one :class:`~caselint.errors.CaseFileError` pointing at the first problem by line; further
-problems are listed in its message. Plugin sections (``extensions``) are validated with
-the rest; their fragments may refer to the built-in definitions as
-``urn:caselint:schema:case-v1#/$defs/length`` (and ``velocity``, ``time``, ``point``...).
+``referencing.Registry``, so no ``$ref`` is ever fetched over the network. Every problem
+becomes a :class:`~caselint.errors.CaseFileError` at its line and key; they are raised
+together (:class:`~caselint.errors.CaseFileErrors`), first by line. Plugin sections
+(``extensions``) are validated with the rest; their fragments may refer to the built-in
+definitions as ``urn:caselint:schema:case-v1#/$defs/length`` (and ``velocity``, ``time``,
+``point``...).
 """
 
 from __future__ import annotations
@@ -24,14 +25,12 @@ from referencing import Registry, Resource
 from referencing.exceptions import Unresolvable
 from referencing.jsonschema import DRAFT202012
 
-from caselint.errors import CaseFileError, PluginLoadError
-from caselint.manifest.messages import describe_error
+from caselint.errors import CaseFileError, CaseFileErrors, PluginLoadError
+from caselint.manifest.messages import describe_errors
 from caselint.manifest.yamlnodes import YamlDoc, child_path
 
 #: ``$id`` of the case-file schema, format version 1.
 SCHEMA_ID = "urn:caselint:schema:case-v1"
-#: How many problems beyond the first a validation error lists.
-MAX_LISTED_PROBLEMS = 5
 
 
 def schema_text() -> str:
@@ -115,28 +114,27 @@ def validate_case(doc: YamlDoc, extensions: Mapping[str, dict] | None = None) ->
 def validate_document(doc: YamlDoc, schema: dict[str, Any]) -> Any:
     """Validate any parsed YAML (a rule set, say) against a Draft 2020-12 schema.
 
-    Returns the JSON-like data; raises CaseFileError pointing at the first problem by
-    line, with the others listed in its message.
+    Returns the JSON-like data; raises every problem together, first by line.
     """
+    data, problems = schema_problems(doc, schema)
+    if problems:
+        raise CaseFileErrors.of(problems)
+    return data
+
+
+def schema_problems(doc: YamlDoc, schema: dict[str, Any]) -> tuple[Any, list[CaseFileError]]:
+    """The JSON-like data and every schema problem, each at its line and key."""
     data = json_like(doc)
     validator = _validator(schema)
     problems = []
     try:
         for error in validator.iter_errors(data):
-            message, key = describe_error(error)
-            problems.append((doc.line_of(key) or 0, doc.column_of(key) or 0, key, message))
+            problems += [CaseFileError(doc.file, message, line=doc.line_of(key),
+                                       column=doc.column_of(key), key=key)
+                         for message, key in describe_errors(error)]
     except Unresolvable as exc:
         # only a plugin's fragment can hold such a $ref; nothing is fetched over the network
         raise PluginLoadError(f"a case-file schema fragment refers to {exc.ref!r}, which cannot "
                               "be resolved offline; refer to urn:caselint:schema:case-v1 "
                               "definitions or inline the schema") from None
-    if not problems:
-        return data
-    problems = sorted(set(problems))
-    line, column, key, message = problems[0]
-    for other in problems[1 : 1 + MAX_LISTED_PROBLEMS]:
-        o_line, _, o_key, o_message = other
-        message += f"\n  also line {o_line}: [{o_key}] {o_message}"
-    if len(problems) > 1 + MAX_LISTED_PROBLEMS:
-        message += f"\n  ... and {len(problems) - 1 - MAX_LISTED_PROBLEMS} more problems"
-    raise CaseFileError(doc.file, message, line=line or None, column=column or None, key=key)
+    return data, problems

@@ -1,8 +1,11 @@
 """Write a commented starter case file for a mesh, so a new case begins from its real groups.
 
-The starter lists every boundary group of the mesh with a role guessed from its name,
-points ``mesh.file`` at the mesh relative to the new file, and leaves the physics and
-time sections as commented examples to fill in. It never overwrites a file.
+The starter lists every boundary group of the mesh with a role: the one its declared type
+implies where the file gives one (a ``wall`` patch, a ``symmetry`` zone:
+:mod:`caselint.mesh.roles`), else one guessed from its name; points ``mesh.file`` at the
+mesh relative to the new file, and leaves the physics and time sections as commented
+examples to fill in. For a mesh folder (a face-based case) the starter goes into the case
+folder. It never overwrites a file.
 """
 
 from __future__ import annotations
@@ -22,15 +25,22 @@ ROLE_HINTS: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("outlet", ("outlet", "exhaust", "return", "extract")),
     ("symmetry", ("sym",)),
     ("periodic", ("periodic", "cyclic")),
-    ("opening", ("open", "far", "atmos")),
+    ("open", ("open", "far", "atmos")),
+    ("slip-wall", ("slip", "inviscid")),
     ("interface", ("interface", "interior")),
 )
 
 _PLAIN = re.compile(r"[A-Za-z0-9_.][A-Za-z0-9_./\-]*")
 
 
-def guess_role(group: str) -> str:
-    """Boundary role suggested by a group's name (``wall`` when nothing matches)."""
+def guess_role(group: str, group_type: str | None = None) -> str:
+    """Boundary role implied by a group's declared type, else suggested by its name
+    (``wall`` when nothing matches)."""
+    from caselint.mesh.roles import role_of_type
+
+    implied = role_of_type(group_type)
+    if implied is not None:
+        return implied
     lower = group.lower()
     for role, fragments in ROLE_HINTS:
         if any(fragment in lower for fragment in fragments):
@@ -57,15 +67,31 @@ def _relative(target: Path, start: Path) -> str:
     return Path(os.path.relpath(target, start)).as_posix()
 
 
-def starter_text(mesh_file: str, case_name: str, groups: list[tuple[str, int]],
+def _group_comment(count: int, group_type: str | None) -> str:
+    """What the starter says about a group: its faces, its declared type and whether the
+    role comes from that type or from the name."""
+    from caselint.mesh.roles import role_of_type
+
+    text = f"{count} faces"
+    if group_type == "empty" and count == 0:
+        return "front and back of the 2-D case (type empty): no faces in 2-D"
+    if group_type:
+        implied = role_of_type(group_type)
+        text += f", type {group_type}" + ("" if implied else ": role guessed from the name")
+    return text
+
+
+def starter_text(mesh_file: str, case_name: str, groups: list[tuple],
                  extent: tuple[float, float, float]) -> str:
-    """The starter case file's text for a mesh with these ``(group, face count)`` pairs."""
-    width = max((len(_scalar(name)) for name, _ in groups), default=0) + 1
+    """The starter case file's text for a mesh with these ``(group, face count)`` or
+    ``(group, face count, declared type)`` tuples."""
+    width = max((len(_scalar(g[0])) for g in groups), default=0) + 1
     if groups:
-        boundary_lines = [
-            f"    {(_scalar(name) + ':').ljust(width)} {guess_role(name):<9}  # {count} faces"
-            for name, count in groups
-        ]
+        boundary_lines = []
+        for name, count, *kind in groups:
+            kind = kind[0] if kind else None
+            boundary_lines.append(f"    {(_scalar(name) + ':').ljust(width)} "
+                                  f"{guess_role(name, kind):<9}  # {_group_comment(count, kind)}")
     else:
         boundary_lines = ["    {}   # none found: name the boundary faces in the mesher"]
     size = " x ".join(f"{v:.4g}" for v in extent)
@@ -85,13 +111,15 @@ def starter_text(mesh_file: str, case_name: str, groups: list[tuple[str, int]],
         f"  file: {_scalar(mesh_file)}",
         f"  # The mesh spans {size} in its own coordinates. CHECK the unit it was exported in:",
         "  units: m       # m, cm, mm, um, in or ft",
-        "  # Boundary group -> role (wall, inlet, outlet, symmetry, periodic, opening, interface).",
-        "  # Roles are GUESSED from the group names: CHECK each one.",
+        "  # Boundary group -> role (wall, slip-wall, inlet, outlet, open, symmetry, periodic,",
+        "  # interface).",
+        "  # Roles come from the group types the mesh declares, else are GUESSED from the",
+        "  # group names: CHECK each one.",
         "  boundaries:",
         *boundary_lines,
         "",
         "physics:",
-        "  method: finite-volume   # or finite-element (vertex-based)",
+        "  method: cell-centred    # or vertex-centred, finite-element (where y+ is measured)",
         "  # fluid:                  # give viscosity with density, or kinematic_viscosity",
         "  #   density: 1.2 kg/m^3",
         "  #   viscosity: 1.81e-5 Pa*s",
@@ -123,6 +151,15 @@ def starter_text(mesh_file: str, case_name: str, groups: list[tuple[str, int]],
     return "\n".join(lines)
 
 
+def _case_folder(folder: Path) -> Path:
+    """The case folder of a mesh folder: ``case`` for ``case/constant/polyMesh`` (and for
+    ``case/constant/<region>/polyMesh``), else the folder itself."""
+    parts = folder.parts
+    if folder.name == "polyMesh" and "constant" in parts[-3:-1]:
+        return Path(*parts[:len(parts) - 1 - parts[::-1].index("constant")])
+    return folder
+
+
 def write_starter(mesh_path: str | Path, out_path: str | Path | None = None) -> Path:
     """Write a starter case file for ``mesh_path`` (default: ``case.yaml`` beside it).
 
@@ -136,17 +173,20 @@ def write_starter(mesh_path: str | Path, out_path: str | Path | None = None) -> 
     from caselint.mesh import read_mesh
 
     mesh_path = Path(mesh_path).resolve()
-    target = Path(out_path) if out_path is not None else mesh_path.parent / "case.yaml"
+    home = _case_folder(mesh_path) if mesh_path.is_dir() else mesh_path.parent
+    target = Path(out_path) if out_path is not None else home / "case.yaml"
     target = target.resolve()
     if target.exists():
         raise UsageError(f"{target}: already exists; caselint never overwrites a file "
                          "(choose another output path or move the file away)")
     mesh = read_mesh(mesh_path)
     counts = np.bincount(mesh.face_group[mesh.face_group >= 0], minlength=len(mesh.group_names))
-    groups = [(name, int(counts[i])) for i, name in enumerate(mesh.group_names)]
+    types = mesh.data.group_types
+    groups = [(name, int(counts[i]), types.get(name)) for i, name in enumerate(mesh.group_names)]
     lo, hi = mesh.bounds
     extent = tuple(float(b - a) for a, b in zip(lo, hi))
-    text = starter_text(_relative(mesh_path, target.parent), mesh_path.stem, groups, extent)
+    name = (_case_folder(mesh_path) if mesh_path.is_dir() else mesh_path).stem
+    text = starter_text(_relative(mesh_path, target.parent), name, groups, extent)
     target.parent.mkdir(parents=True, exist_ok=True)
     try:
         # "x" mode: fails rather than overwrite a file created since the check above

@@ -6,7 +6,7 @@ A quantity is written either as a plain number, which is taken to be in SI units
 
 Text is read by pint, whose registry is built once, on first use. Parsing pint's unit
 definitions takes ~0.1 s, so the parsed definitions are kept in caselint's cache folder
-(:func:`caselint.cache.cache_dir`) by pint's own disk cache; a cache that cannot be used
+(:func:`caselint.cachedir.cache_dir`) by pint's own disk cache; a cache that cannot be used
 (``CASELINT_CACHE_DIR=off``, a read-only, damaged or shared folder) gives a registry
 built from the definitions as if there were no cache.
 """
@@ -27,19 +27,11 @@ from pathlib import Path
 from typing import Any
 
 from caselint.errors import CaseFileError
+from caselint.manifest.case import LENGTH_UNITS
 
 #: ``file`` of the errors raised here; the loader fills in the real file and line.
 UNKNOWN_FILE = "<case file>"
 
-#: Length units accepted for ``mesh.units``, with their size in metres (exact by definition).
-LENGTH_UNITS: dict[str, float] = {
-    "m": 1.0,
-    "cm": 1e-2,
-    "mm": 1e-3,
-    "um": 1e-6,
-    "in": 0.0254,
-    "ft": 0.3048,
-}
 
 
 @dataclass(frozen=True)
@@ -88,7 +80,7 @@ _WHAT_IT_IS: dict[str, str] = {
 @functools.cache
 def unit_registry() -> Any:
     """The one pint UnitRegistry of caselint, built on first use (see the module docstring)."""
-    from caselint.cache import cache_dir
+    from caselint.cachedir import cache_dir
 
     return build_registry(cache_dir())
 

@@ -6,7 +6,11 @@ dotted (``physics.fluid.density``), list items indexed (``checks.waivers[0].expi
 ``""`` is the document itself.
 
 Beyond what ``yaml.safe_load`` does, this loader
-- refuses duplicate keys (naming both lines), where PyYAML silently keeps the last;
+- refuses duplicate keys (naming both lines), where PyYAML silently keeps the last; all
+  of them are reported together, and a caller that collects problems
+  (``keep_problems=True``) gets them in :attr:`YamlDoc.problems` with the first value kept;
+- names, for a syntax error inside a bracket or a quote, both where that construct
+  opened and where parsing stopped (an unclosed ``{`` is found lines later);
 - reads ``2e-4`` and ``1e5`` as numbers (YAML 1.2), where PyYAML 1.1 rules read text;
 - allows anchors, aliases and ``<<`` merge keys, but refuses a document that expands to
   more than :data:`MAX_VALUES` values (the "billion laughs" attack builds 10^9 values
@@ -24,7 +28,7 @@ from typing import Any
 import yaml
 from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
 
-from caselint.errors import CaseFileError
+from caselint.errors import CaseFileError, CaseFileErrors
 
 #: Most values (scalars, lists, mappings; every alias use counted again) a document may hold.
 MAX_VALUES = 100_000
@@ -42,12 +46,16 @@ _NULL_TAG = "tag:yaml.org,2002:null"
 
 @dataclass(frozen=True)
 class YamlDoc:
-    """A parsed YAML mapping with the 1-based line and column of each key path."""
+    """A parsed YAML mapping with the 1-based line and column of each key path.
+
+    ``problems`` are the duplicate keys found, when the caller asked to keep them.
+    """
 
     data: dict[Any, Any]
     lines: dict[str, int]
     columns: dict[str, int] = field(default_factory=dict)
     file: str = ""
+    problems: tuple[CaseFileError, ...] = ()
 
     def line_of(self, key: str) -> int | None:
         """1-based line of a key path, or of its nearest parent that has one."""
@@ -102,8 +110,12 @@ def child_path(path: str, key: object) -> str:
     return f"{path}.{key}" if path else str(key)
 
 
-def load_yaml(path: str | Path) -> YamlDoc:
-    """Read a YAML file whose top level is a mapping; raise CaseFileError on any problem."""
+def load_yaml(path: str | Path, *, keep_problems: bool = False) -> YamlDoc:
+    """Read a YAML file whose top level is a mapping; raise CaseFileError on any problem.
+
+    With ``keep_problems`` duplicate keys are returned in :attr:`YamlDoc.problems` rather
+    than raised, so that they can be reported with the problems found later.
+    """
     file = str(path)
     try:
         with open(path, "rb") as handle:
@@ -122,10 +134,10 @@ def load_yaml(path: str | Path) -> YamlDoc:
     except UnicodeDecodeError as exc:
         line = raw[: exc.start].count(b"\n") + 1
         raise CaseFileError(file, "the file is not UTF-8 text", line=line) from None
-    return parse_yaml(text, file)
+    return parse_yaml(text, file, keep_problems=keep_problems)
 
 
-def parse_yaml(text: str, file: str = "<string>") -> YamlDoc:
+def parse_yaml(text: str, file: str = "<string>", *, keep_problems: bool = False) -> YamlDoc:
     """Parse YAML text (see :func:`load_yaml`); ``file`` is only used in messages."""
     loader = None
     try:
@@ -143,22 +155,19 @@ def parse_yaml(text: str, file: str = "<string>") -> YamlDoc:
                 line=root.start_mark.line + 1, column=root.start_mark.column + 1,
             )
         data = builder.build(root, "")
-        return YamlDoc(data, builder.lines, builder.columns, file)
+        if builder.problems and not keep_problems:
+            raise CaseFileErrors.of(builder.problems)
+        return YamlDoc(data, builder.lines, builder.columns, file, tuple(builder.problems))
     except _TooDeep as exc:
         mark = exc.problem_mark
         raise CaseFileError(file, exc.problem, line=mark.line + 1,
                             column=mark.column + 1) from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
-        problem = exc.problem or exc.context or "invalid YAML"
-        if exc.context and exc.problem:
-            problem = (f"{exc.context}, {exc.problem}" if exc.problem.startswith("but ")
-                       else f"{exc.problem} ({exc.context})")
         if mark is None:
-            raise CaseFileError(file, f"YAML syntax error: {problem}") from None
-        raise CaseFileError(
-            file, f"YAML syntax error: {problem}", line=mark.line + 1, column=mark.column + 1,
-        ) from None
+            raise CaseFileError(file, f"YAML syntax error: {syntax_problem(exc)}") from None
+        raise CaseFileError(file, f"YAML syntax error: {syntax_problem(exc)}",
+                            line=mark.line + 1, column=mark.column + 1) from None
     except yaml.reader.ReaderError as exc:
         line = text[: exc.position].count("\n") + 1
         raise CaseFileError(file, f"unreadable character: {exc.reason}", line=line) from None
@@ -169,6 +178,54 @@ def parse_yaml(text: str, file: str = "<string>") -> YamlDoc:
     finally:
         if loader is not None:
             loader.dispose()
+
+
+#: PyYAML's contexts, as the construct a syntax error happened in and whether the error
+#: means the construct was left open (a bracket or quote without its end).
+_CONSTRUCTS = {
+    "while parsing a flow mapping": ("the mapping '{' opened", True),
+    "while parsing a flow sequence": ("the list '[' opened", True),
+    "while scanning a quoted scalar": ("the quoted text opened", True),
+    "while parsing a block mapping": ("the block of keys that starts", False),
+    "while parsing a block collection": ("the list that starts", False),
+    "while scanning a simple key": ("the key that starts", False),
+    "while parsing a flow node": ("the value that starts", False),
+    "while parsing a block node": ("the value that starts", False),
+}
+#: PyYAML's token names, as words.
+_TOKENS = {
+    "<stream end>": "the end of the file", "<block end>": "the end of an indented block",
+    "<block mapping start>": "a key at a new indentation", "<scalar>": "a plain value",
+    "<block sequence start>": "a list item at a new indentation",
+    "<flow mapping start>": "'{'", "<flow sequence start>": "'['",
+}
+
+
+def _at(mark: yaml.Mark) -> str:
+    return f"line {mark.line + 1}, column {mark.column + 1}"
+
+
+def syntax_problem(exc: yaml.MarkedYAMLError) -> str:
+    """What went wrong, where parsing stopped and, inside a bracket, a quote or a block,
+    where that construct began: an unclosed ``{`` is only noticed lines later."""
+    problem = exc.problem or exc.context or "invalid YAML"
+    problem = re.sub(r"'?(<[a-z ]+>)'?", lambda m: _TOKENS.get(m.group(1), m.group(1)),
+                     problem).replace("end of stream", "end of the file")
+    construct, can_be_open = _CONSTRUCTS.get(exc.context or "", (None, False))
+    start, stop = exc.context_mark, exc.problem_mark
+    if construct is None or start is None or stop is None or not exc.problem:
+        if exc.context and exc.problem and exc.context not in _CONSTRUCTS:
+            return f"{problem} ({exc.context})"
+        return problem
+    text = f"{problem} at {_at(stop)}; "
+    unclosed = can_be_open and ("expected ','" in exc.problem or "end of stream" in exc.problem
+                                or "<stream end>" in exc.problem)
+    if unclosed:
+        closer = {"mapping": "'}'", "list": "']'"}.get(construct.split()[1], "quote")
+        text += f"{construct} on {_at(start)} is not closed (a missing {closer}"
+        text += " or ','" if closer != "quote" else ""
+        return text + ")"
+    return text + f"the error is in {construct} on {_at(start)}"
 
 
 def _bad_tag(node: Node) -> str:
@@ -185,6 +242,7 @@ class _Builder:
         self.lines: dict[str, int] = {}
         self.columns: dict[str, int] = {}
         self.count = 0
+        self.problems: list[CaseFileError] = []
         self.open: set[int] = set()   # ids of collections being built: an alias back to one is a cycle
 
     def record(self, path: str, node: Node) -> None:
@@ -252,8 +310,11 @@ class _Builder:
             except TypeError:
                 raise self.fail(key_node, "a key must be a plain value", sub) from None
             if seen is not None:
-                raise self.fail(key_node, f"duplicate key '{key}' (first on line {seen}, "
-                                          f"again on line {line})", sub)
+                # kept to be reported with the rest; the first value stays
+                self.problems.append(self.fail(key_node, f"duplicate key '{key}' (first on "
+                                                         f"line {seen}, again on line {line})",
+                                               sub))
+                continue
             first_line[key] = line
             self.record(sub, key_node)
             out[key] = self.build(value_node, sub)

@@ -18,7 +18,7 @@ from typing import Any, Callable, TypeVar
 
 import numpy as np
 
-from caselint.mesh import topology
+import caselint.mesh.topology as topology
 from caselint.mesh.geometry import Geometry, compute_geometry
 from caselint.mesh.model import MeshData
 

@@ -25,6 +25,7 @@ from caselint.mesh import kernels
 from caselint.mesh.groups import BoundaryElements, match_groups
 from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
 from caselint.mesh.ordering import spatial_order
+from caselint.mesh.orientation import oriented_blocks
 from caselint.mesh.pairing import ElementBlock, pair_faces
 
 
@@ -106,6 +107,9 @@ def mesh_from_elements(
                              f"{block.type!r} starts at {block.start}, expected {expected}")
         expected = block.stop
     n_cells, n_points = expected, len(points)
+    # A block written in the mirrored node order is read the other way round (with a note).
+    blocks, flipped = oriented_blocks(points, blocks, dim)
+    notes = (*notes, *flipped)
     boundary = boundary or BoundaryElements.empty(4 if dim == 3 else 2)
     point_data, cell_data = dict(point_data or {}), dict(cell_data or {})
     file_cells = file_points = None
@@ -187,6 +191,10 @@ def mesh_from_faces(
         raise ValueError(f"{len(neighbour)} neighbour entries for {n_faces} faces")
     if face_offsets.shape != (n_faces + 1,):
         raise ValueError(f"{len(face_offsets) - 1} faces listed for {n_faces} owner entries")
+    if n_faces and (int(face_offsets[-1]) != len(face_points)
+                    or bool(np.any(np.diff(face_offsets) < 1))):
+        raise ValueError(f"face offsets must rise from 0 to the {len(face_points)} face "
+                         f"points, got {int(face_offsets[0])} .. {int(face_offsets[-1])}")
     if n_cells is None:
         n_cells = int(max(owner.max(initial=-1), neighbour.max(initial=-1))) + 1
     if face_group is None:

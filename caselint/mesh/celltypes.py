@@ -14,8 +14,8 @@ Reference cells (positive volume, checked in ``tests/test_mesh_celltypes.py``):
   normal of (0, 1, 2) points *towards* (3, 4, 5), exactly like the hexahedron. This is the
   ordering gmsh writes for prisms and the one for which VTK 9.7's ``vtkMeshQuality`` and
   ``vtkCellSizeFilter`` report a positive volume. Older VTK documentation describes the
-  (0, 1, 2) normal as pointing away from (3, 4, 5); a file written in that convention
-  shows every wedge as inverted, which caselint reports rather than guesses around.
+  (0, 1, 2) normal as pointing away from (3, 4, 5); a block written in that convention
+  is read in the mirrored order, with a note (:mod:`caselint.mesh.orientation`).
 """
 
 from __future__ import annotations

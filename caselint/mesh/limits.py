@@ -8,11 +8,12 @@ header before meshio reads it (gmsh 2.2 and 4.1, VTU; files above
 :class:`~caselint.mesh.model.Mesh` and its topology are built. Over the limit, it raises
 :class:`~caselint.errors.MeshReadError` with the estimate, the limit and how to raise it.
 
-The limit, first found wins: ``check --memory-limit SIZE`` (:func:`limit_option`), the
-environment variable ``CASELINT_MEMORY_LIMIT``, else :data:`DEFAULT_FRACTION` of the
-memory available now (``MemAvailable`` of /proc/meminfo, capped by a cgroup limit).
-``off`` (or ``0``) switches the check off. Sizes are bytes unless they carry a unit:
-``8GB`` = 8e9 bytes, ``8GiB`` = 8 x 2^30 bytes.
+The limit is passed in by the caller (:func:`memory_limit` turns a size into one); when
+none is passed it is :data:`DEFAULT_FRACTION` of the memory available now (``MemAvailable``
+of /proc/meminfo, capped by a cgroup limit). The command line takes it from ``check
+--memory-limit SIZE``, else from the environment variable ``CASELINT_MEMORY_LIMIT``; the
+library never reads that variable. ``off`` (or ``0``) switches the check off. Sizes are
+bytes unless they carry a unit: ``8GB`` = 8e9 bytes, ``8GiB`` = 8 x 2^30 bytes.
 """
 
 from __future__ import annotations
@@ -22,11 +23,11 @@ import os
 import re
 import struct
 from pathlib import Path
-from typing import Iterator
 
 from caselint.errors import MeshReadError, UsageError
 
-#: Environment variable with the memory limit (e.g. ``8GB``; ``off`` disables the check).
+#: Environment variable the command line reads the memory limit from when ``--memory-limit``
+#: is not given (e.g. ``8GB``; ``off`` disables the check).
 ENV_LIMIT = "CASELINT_MEMORY_LIMIT"
 #: Share of the available memory used as the limit when none is given: enough headroom for
 #: the estimate's error (below) and the rest of the system, while a 20M-hexahedron mesh
@@ -116,34 +117,18 @@ def available_memory() -> int | None:
     return min(found) if found else None
 
 
-@contextlib.contextmanager
-def limit_option(text: str | None) -> Iterator[None]:
-    """Within the block the limit is ``text`` (``--memory-limit``); None leaves it as it is.
+#: A memory limit: bytes (None: no check) and where it comes from, for the message.
+MemoryLimit = tuple[int | None, str]
 
-    It is passed on as :data:`ENV_LIMIT`, so processes started for ``--jobs`` inherit it;
-    the variable's old value is restored afterwards.
+
+def memory_limit(text: str | None = None, name: str = "--memory-limit") -> MemoryLimit:
+    """The limit of the size ``text``, set by the option or variable ``name``; without one,
+    a share of the memory available now.
+
+    :raises UsageError: ``text`` is not a size; the message names ``name``.
     """
-    if text is None:
-        yield
-        return
-    parse_size(text, "--memory-limit")            # a bad size is a usage error now
-    old = os.environ.get(ENV_LIMIT)
-    os.environ[ENV_LIMIT] = text
-    try:
-        yield
-    finally:
-        if old is None:
-            os.environ.pop(ENV_LIMIT, None)
-        else:
-            os.environ[ENV_LIMIT] = old
-
-
-def memory_limit() -> tuple[int | None, str]:
-    """The limit in bytes (None: no check) and where it comes from, for the message."""
-    env = os.environ.get(ENV_LIMIT, "").strip()
-    if env:
-        return (parse_size(env, f"{ENV_LIMIT} (or --memory-limit)"),
-                f"set by --memory-limit or {ENV_LIMIT}")
+    if text is not None and text.strip():
+        return parse_size(text, name), f"set by {name}"
     available = available_memory()
     if available is None:
         return None, "unknown"
@@ -171,12 +156,14 @@ def estimate_bytes(cell_counts: dict[str, int], volume: bool = True) -> int:
     return total
 
 
-def check_memory(path: str, cell_counts: dict[str, int], source: str) -> None:
-    """Refuse (MeshReadError) when checking these cells would pass the memory limit.
+def check_memory(path: str, cell_counts: dict[str, int], source: str,
+                 limit: MemoryLimit | None = None) -> None:
+    """Refuse (MeshReadError) when checking these cells would pass the memory ``limit``
+    (None: :func:`memory_limit`'s default).
 
     ``source`` says where the counts come from ("the file header", "the cells read").
     """
-    limit, origin = memory_limit()
+    limit, origin = limit if limit is not None else memory_limit()
     if limit is None:
         return
     volume = any((_linear(t) in BYTES_PER_CELL) for t in cell_counts)
@@ -192,6 +179,48 @@ def check_memory(path: str, cell_counts: dict[str, int], source: str) -> None:
         f"cells, counted from {source}); the limit is {format_size(limit)} ({origin}). Raise it "
         f"with --memory-limit {suggestion} or {ENV_LIMIT}={suggestion} ('off' turns the "
         "check off), or check the case on a machine with more memory")
+
+
+def face_mesh_counts(n_cells: int, n_faces: int) -> dict[str, int]:
+    """Cell counts of a face-based mesh for :func:`check_memory`: charged as hexahedra, at
+    least one per three faces (a hexahedral mesh has about three faces per cell; the face
+    arrays dominate the memory of cells with more faces). An estimate, not measured on
+    polyhedral meshes."""
+    return {"hexahedron": max(int(n_cells), int(n_faces) // 3)}
+
+
+def check_folder_memory(path: str, folders: list[Path]) -> None:
+    """Refuse (MeshReadError) a face-based mesh folder (or the processor folders of one
+    decomposed mesh) whose declared counts would pass the memory limit, before reading
+    its lists. Counts come from the owner file's header note (nCells, nFaces); a folder
+    without one is checked once read."""
+    cells = faces = 0
+    for folder in folders:
+        counts = _folder_counts(folder)
+        if counts is None:
+            return
+        cells, faces = cells + counts[0], faces + counts[1]
+    check_memory(path, face_mesh_counts(cells, faces), "the mesh files' headers")
+
+
+def _folder_counts(folder: Path) -> tuple[int, int] | None:
+    """(cells, faces) that a mesh folder's owner file declares in its header note."""
+    import zlib
+
+    for name, gz in (("owner", False), ("owner.gz", True)):
+        file = folder / name
+        if not file.is_file():
+            continue
+        try:
+            with file.open("rb") as handle:
+                head = handle.read(8192)
+            if gz:
+                head = zlib.decompressobj(wbits=31).decompress(head, 8192)
+        except (OSError, zlib.error):
+            return None
+        note = re.search(rb"nCells\s*:\s*(\d+).*?nFaces\s*:\s*(\d+)", head, re.S)
+        return (int(note.group(1)), int(note.group(2))) if note else None
+    return None
 
 
 def _linear(meshio_type: str) -> str:

@@ -3,8 +3,8 @@
 A :class:`MeshReader` turns one mesh format into a :class:`~caselint.mesh.model.MeshData`
 (points in metres, polygonal faces with owner and neighbour, named boundary groups, cell
 zones where the format has them). Built-in readers are registered through the hook
-``caselint_register_mesh_readers`` like any plugin's (:mod:`caselint.mesh.formats`);
-meshio is one of them.
+``caselint_register_mesh_readers`` like any plugin's (:data:`caselint.mesh.formats.
+BUILTIN_READERS`); meshio is one of them.
 
 Choosing a reader for a path (:func:`choose_reader`): a folder goes to the readers that
 read folders, a file to the readers whose suffixes end its name (case-insensitive); among
@@ -38,15 +38,15 @@ class ReadOptions:
     ``scale_to_m`` multiplies the coordinates; ``tag_array`` and ``tags`` name boundary
     groups in formats that only number them (meshio cell data); ``zone`` picks one zone of
     a file that holds several (None: the reader refuses such a file, listing the zones);
-    ``memory_limit`` is the most bytes the check may use (None: the default limit, see
-    :mod:`caselint.mesh.limits`).
+    ``memory_limit`` is a :data:`caselint.mesh.limits.MemoryLimit`, the most bytes the check
+    may use and where that limit comes from (None: the default limit).
     """
 
     scale_to_m: float = 1.0
     tag_array: str | None = None
     tags: dict[int, str] = field(default_factory=dict)
     zone: str | None = None
-    memory_limit: int | None = None
+    memory_limit: tuple[int | None, str] | None = None
 
 
 @dataclass(frozen=True)
@@ -58,7 +58,9 @@ class MeshReader:
     (``(".su2",)``); ``folders`` says the reader reads folders. ``accepts(path)`` is an
     optional cheap look at the content (a header, a sub-folder) for suffixes or folders
     that other formats share. ``read(path, options)`` returns the mesh data or raises
-    :class:`~caselint.errors.MeshReadError` naming the file and what is wrong.
+    :class:`~caselint.errors.MeshReadError` naming the file and what is wrong. A folder
+    reader's ``files(path)`` lists the files a read uses, for the mesh's fingerprint
+    (:func:`mesh_sha256`).
     """
 
     name: str
@@ -67,6 +69,7 @@ class MeshReader:
     suffixes: tuple[str, ...] = ()
     folders: bool = False
     accepts: Callable[[Path], bool] | None = None
+    files: Callable[[Path], list[Path]] | None = None
 
     def __post_init__(self) -> None:
         import re
@@ -88,13 +91,6 @@ class MeshReader:
         elif not self.suffixes or not path.name.lower().endswith(self.suffixes):
             return False
         return self.accepts is None or bool(self.accepts(path))
-
-
-def builtin_readers() -> tuple[MeshReader, ...]:
-    """The readers caselint ships (what the built-in plugin registers)."""
-    from caselint.mesh.formats import BUILTIN_READERS
-
-    return BUILTIN_READERS
 
 
 def choose_reader(path: Path, readers: Iterable[MeshReader]) -> MeshReader:
@@ -120,6 +116,15 @@ def choose_reader(path: Path, readers: Iterable[MeshReader]) -> MeshReader:
                             f"{path.suffix} file (tried {', '.join(shared)})")
     raise MeshReadError(str(path), f"unknown mesh format {path.suffix or '(no extension)'!r}; "
                         f"expected one of {', '.join(suffixes)}, or a mesh folder")
+
+
+def no_zones(path: Path, options: ReadOptions) -> None:
+    """Refuse ``mesh.zone`` for a format that holds one mesh (MeshReadError), so that the
+    key is never ignored silently."""
+    if options.zone is not None:
+        raise MeshReadError(str(path), f"mesh.zone is {options.zone!r}, but this format "
+                                       "holds a single mesh (no zones to choose from); "
+                                       "remove mesh.zone from the case file")
 
 
 def checked_points(path: str, points: np.ndarray, scale_to_m: float) -> np.ndarray:

@@ -115,11 +115,13 @@ def summarize(mesh) -> dict[str, Any]:
 
 
 def mesh_summary(path: str | Path, scale_to_m: float = 1.0, *, tag_array: str | None = None,
-                 tags: dict[int, str] | None = None) -> dict[str, Any]:
+                 tags: dict[int, str] | None = None,
+                 memory_limit: tuple[int | None, str] | None = None) -> dict[str, Any]:
     """Read a mesh and summarise it; raises :class:`caselint.errors.MeshReadError` if unreadable."""
     from caselint.mesh import read_mesh
 
-    mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags)
+    mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags,
+                     memory_limit=memory_limit)
     out = summarize(mesh)
     out["scale_to_m"] = float(scale_to_m)
     return out

@@ -1,10 +1,12 @@
 """The ``html`` output format: the sign-off checklist as one self-contained web page.
 
 The same content as the ``markdown`` format (see :mod:`caselint.report.signoff`), plus
-the distributions the rules attached (histograms of non-orthogonality and growth ratio,
-y+ per wall boundary, layer heights, Courant numbers: whichever the case's rules gave),
-drawn by matplotlib as inline SVG. Styles are inline too: the file needs nothing else,
-prints cleanly, and the same report gives the same bytes.
+the pictures the rules attached (histograms of non-orthogonality and growth ratio, y+ per
+wall boundary, layer heights, Courant numbers: whichever the case's rules gave), drawn by
+matplotlib as inline SVG and grouped per rule, one ``<section class="rule-figures">``
+each, so a rule's figures stay together. Source keys ``[n]`` link to the list of sources
+at the end. Styles are inline too: the file needs nothing else, prints cleanly, and the
+same report gives the same bytes.
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ from caselint.engine.hookspecs import hookimpl
 from caselint.model import CaseReport, Report
 from caselint.report import signoff
 from caselint.report.base import RenderOptions, Reporter
+from caselint.report.presentation import SourceKeys
 
 _STYLE = """
 body { font-family: system-ui, sans-serif; max-width: 60rem; margin: 1.5rem auto;
@@ -31,8 +34,14 @@ code { font-size: 0.85rem; word-break: break-all; }
 .caution { border: 2px solid #b02a1e; background: #fff4f2; padding: 0.6rem 0.8rem; }
 .sign td { height: 2.2rem; }
 ul.checklist { list-style: none; padding-left: 0.3rem; }
-figure { margin: 1rem 0; } figure svg { max-width: 100%; height: auto; }
+figure { margin: 1rem 0; } figure svg { width: 100%; max-width: 46rem; height: auto; }
 figcaption { font-size: 0.85rem; color: #555; }
+.scope { font-size: 0.9rem; color: #333; border-left: 3px solid #c8c8cc;
+         padding-left: 0.6rem; }
+a.key { text-decoration: none; white-space: nowrap; }
+.id, td.pass, td.fail, td.error, td.waived, td.skipped { white-space: nowrap; }
+table.head td:first-child { white-space: nowrap; }
+h4 { font-size: 0.95rem; margin: 1rem 0 0.3rem; }
 footer { margin-top: 2rem; font-size: 0.85rem; color: #555; }
 @media print { body { max-width: none; } h2 { page-break-before: always; } }
 """
@@ -51,45 +60,67 @@ def _table(head: tuple[str, ...], rows: list[list[str]], css: str = "") -> list[
     return out + ["</table>"]
 
 
+def _key(key: str) -> str:
+    """A source key linking to its entry under Sources; nothing when there is none."""
+    return f' <a class="key" href="#source-{_e(key[1:-1])}">{_e(key)}</a>' if key else ""
+
+
+def _rule_figures(case: CaseReport, case_index: int, rule: str, first: int) -> list[str]:
+    """One rule's figures, numbered from ``first`` within the case."""
+    from caselint.report.plots import plot_svg
+
+    out = [f'<section class="rule-figures" id="figures-{case_index}-{_e(rule)}">',
+           f"<h4>{_e(rule)}</h4>"]
+    plots = sorted((p for p in case.plots if p.rule == rule), key=lambda p: p.title)
+    for index, plot in enumerate(plots, first):
+        svg = plot_svg(plot, salt=f"caselint-{case_index}-{index}")
+        out += [f'<figure id="plot-{case_index}-{index}">', svg,
+                f"<figcaption>{_e(plot.title)} (rule {_e(plot.rule)})</figcaption>",
+                "</figure>"]
+    return out + ["</section>"]
+
+
 def _plots(case: CaseReport, case_index: int) -> list[str]:
-    """The distributions the rules attached, as inline SVG figures."""
+    """The pictures the rules attached, as inline SVG figures grouped per rule."""
     if not case.plots:
         return []
-    from caselint.report.plots import matplotlib_available, plot_svg
+    from caselint.report.plots import matplotlib_available
 
     out = ["<h3>Distributions</h3>"]
     if not matplotlib_available():
         return out + ["<p>The rules attached plot data, but the plots were not drawn: "
                       "matplotlib is not installed (pip install matplotlib).</p>"]
-    for index, plot in enumerate(sorted(case.plots, key=lambda p: (p.rule, p.title))):
-        svg = plot_svg(plot, salt=f"caselint-{case_index}-{index}")
-        out += [f'<figure id="plot-{case_index}-{index}">', svg,
-                f"<figcaption>{_e(plot.title)} (rule {_e(plot.rule)})</figcaption>",
-                "</figure>"]
+    first = 0
+    for rule in sorted({p.rule for p in case.plots}):
+        out += _rule_figures(case, case_index, rule, first)
+        first += sum(p.rule == rule for p in case.plots)
     return out
 
 
-def _case(report: Report, case: CaseReport, index: int, stamp: str, tag: str) -> list[str]:
+def _case(report: Report, case: CaseReport, index: int, stamp: str, tag: str,
+          keys: SourceKeys) -> list[str]:
     sub = "h3" if tag == "h2" else "h2"
     out = [f'<section id="case-{index}">',
            f"<{tag}>Sign-off checklist: {_e(case.name or case.case)}</{tag}>"]
+    if tag == "h1":         # the only case: what caselint is goes under its title
+        out.append(_scope())
     rows = []
     for label, value in signoff.header_rows(report, case, stamp):
         cell = f"<code>{_e(value)}</code>" if "SHA-256" in label and "(" not in value \
             else _e(value)
         rows.append([_e(label), cell])
-    out += _table(("Item", "Value"), rows)
+    out += _table(("Item", "Value"), rows, css="head")
     if signoff.relevant(case):
         out.append(f'<p class="caution"><strong>Safety-relevant case ({_e(case.safety)}).'
                    f"</strong> {_e(case.safety_note or signoff.SCOPE_NOTE)}</p>")
     out.append(f"<{sub}>Automated checks</{sub}>")
-    checks = signoff.check_rows(report, case)
+    checks = signoff.check_rows(report, case, keys)
     if checks:
-        out += _table(("Rule", "Outcome", "Measured", "Limit", "Unit", "Hint or reason"), [
-            [f"<strong>{_e(r.rule)}</strong><br>{_e(r.title)}",
+        out += _table(("Rule", "Outcome", "Measured", "Limit", "Hint or reason"), [
+            [f'<strong class="id">{_e(r.rule)}</strong>{_key(r.source)}<br>{_e(r.title)}',
              f'<td class="{_e(r.outcome)}">{_e(r.label)}</td>',
              f'<td class="num">{_e(r.measured)}</td>', f'<td class="num">{_e(r.limit)}</td>',
-             _e(r.unit), _e(r.hint)] for r in checks])
+             _e(r.hint)] for r in checks])
     else:
         out.append("<p>No rules were selected for this case.</p>")
     out.append(f"<{sub}>Findings</{sub}>")
@@ -102,7 +133,7 @@ def _case(report: Report, case: CaseReport, index: int, stamp: str, tag: str) ->
             css = "waived" if finding.waived else ("fail" if finding.severity != "note" else "")
             out.append(f'<li><span class="{css}">{_e(tag_text)}</span> '
                        f"<strong>{_e(finding.rule)}</strong>: {_e(finding.message)} "
-                       f"({_e(where)}){waiver}</li>")
+                       f"({_e(where)}){waiver}{_key(keys.cite(finding))}</li>")
         out.append("</ul>")
     else:
         out.append("<p>No findings.</p>")
@@ -139,11 +170,25 @@ def _summary(report: Report) -> list[str]:
         counts = signoff.outcome_counts(case)
         rows.append([f'<a href="#case-{index}">{_e(case.name or case.case)}</a>',
                      f"<code>{_e(case.case)}</code>",
-                     *(f'<td class="num">{counts[o]}</td>'
-                       for o in ("pass", "fail", "skipped", "waived", "error")),
+                     *(f'<td class="num">{counts[o]}</td>' for o in signoff.COUNT_TITLES),
                      _e(signoff.worst_open(case))])
-    return ["<h2>Summary</h2>", *_table(("Case", "File", "Pass", "Fail", "Not checked",
-                                         "Waived", "Error", "Worst open finding"), rows)]
+    return ["<h2>Summary</h2>", *_table(("Case", "File", *signoff.COUNT_TITLES.values(),
+                                         "Worst open finding"), rows)]
+
+
+def _scope() -> str:
+    return f'<p class="scope">{_e(signoff.SCOPE_NOTE)}</p>'
+
+
+def _sources(keys: SourceKeys) -> list[str]:
+    """Each rule's sources once, as the targets of the keys."""
+    entries = keys.entries()
+    if not entries:
+        return []
+    out = ["<h2>Sources</h2>", '<ul class="sources">']
+    out += [f'<li id="source-{_e(key[1:-1])}">{_e(key)} <strong>{_e(rule)}</strong>: '
+            f"{_e(source)}</li>" for key, rule, source in entries]
+    return out + ["</ul>"]
 
 
 def render_html(report: Report, options: RenderOptions) -> str:
@@ -154,15 +199,17 @@ def render_html(report: Report, options: RenderOptions) -> str:
     out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
            f"<title>{_e(title)}</title>", f"<style>{_STYLE}</style>", "</head>", "<body>"]
     if several or not report.cases:
-        out.append(f"<h1>{_e(title)}</h1>")
+        out += [f"<h1>{_e(title)}</h1>", _scope()]
     if several:
         out += _summary(report)
     if not report.cases:
         out.append("<p>No case files were checked.</p>")
+    keys = SourceKeys()
     for index, case in enumerate(report.cases):
-        out += _case(report, case, index, options.stamp, "h2" if several else "h1")
-    out += [f"<footer><p>{_e(signoff.SCOPE_NOTE)}</p>",
-            f"<p>caselint {_e(report.caselint_version)}</p></footer>", "</body>", "</html>"]
+        out += _case(report, case, index, options.stamp, "h2" if several else "h1", keys)
+    out += _sources(keys)
+    out += [f"<footer><p>caselint {_e(report.caselint_version)}</p></footer>", "</body>",
+            "</html>"]
     return "\n".join(out) + "\n"
 
 

@@ -21,6 +21,7 @@ from caselint.model import (
     SEVERITY_RANK,
     CaseReport,
     Check,
+    Distribution,
     Finding,
     Limits,
     PlotData,
@@ -63,10 +64,28 @@ def _number(value: float | None, what: str) -> float | None:
     return number
 
 
-def check_to_dict(check: Check) -> dict[str, Any]:
-    """Plain-data form of one check, as the schema's ``check`` record."""
-    what = f"check {check.rule!r}"
+def distribution_to_dict(d: Distribution, what: str) -> dict[str, Any]:
+    """Plain-data form of a check's distribution, as the schema's ``distribution`` record."""
+    def shares(pairs) -> list[dict[str, float]]:
+        return [{"limit": _number(lim, what), "percent": _number(pct, what)} for lim, pct in pairs]
+
     return {
+        "entity": d.entity, "count": int(d.count),
+        "percentiles": [{"percent": _number(p, what), "value": _number(v, what)}
+                        for p, v in d.percentiles],
+        "beyond": shares(d.beyond),
+        "places": [{"place": s.place, "count": int(s.count), "worst": _number(s.worst, what),
+                    "beyond": shares(s.beyond)} for s in d.places],
+        "worst_place": d.worst_place, "worse": d.worse, "weighted": d.weighted,
+        "label": d.label,
+    }
+
+
+def check_to_dict(check: Check) -> dict[str, Any]:
+    """Plain-data form of one check, as the schema's ``check`` record (``distributions``
+    only for a rule graded by extent and place)."""
+    what = f"check {check.rule!r}"
+    out = {
         "rule": check.rule,
         "title": check.title,
         "outcome": check.outcome,
@@ -79,7 +98,12 @@ def check_to_dict(check: Check) -> dict[str, Any]:
             "warning": _number(check.limits.warn, f"{what} warning limit"),
             "error": _number(check.limits.error, f"{what} error limit"),
         },
+        "worse": check.worse,
     }
+    if check.distributions:
+        out["distributions"] = [distribution_to_dict(d, f"{what} distribution")
+                                for d in check.distributions]
+    return out
 
 
 def where_to_dict(where: Where) -> dict[str, Any]:

@@ -21,7 +21,7 @@ from caselint.engine.hookspecs import hookimpl
 from caselint.model import SEVERITY_RANK, CaseReport, Check, Finding, Report
 from caselint.report.base import RenderOptions, Reporter
 from caselint.report.json_report import check_sort_key, finding_sort_key
-from caselint.report.text import format_number, format_where
+from caselint.report.presentation import format_where, measured_and_limit
 
 
 def classname(case_path: str) -> str:
@@ -33,11 +33,8 @@ def classname(case_path: str) -> str:
 
 def _finding_text(finding: Finding) -> str:
     lines = [f"{finding.severity}: {finding.message}",
-             f"  where: {format_where(finding.where)}"]
-    if finding.where.key:
-        at = f" (line {finding.where.line})" if finding.where.line else ""
-        lines.append(f"  case-file key: {finding.where.key}{at}")
-    lines += [f"  fix: {finding.hint}", f"  source: {finding.source}"]
+             f"  where: {format_where(finding.where)}", f"  fix: {finding.hint}",
+             f"  source: {finding.source}"]
     if finding.safety:
         lines.append(f"  safety: {finding.safety}")
     if finding.waived:
@@ -53,8 +50,8 @@ def _testcase(parent: ET.Element, case: CaseReport, check: Check, findings: list
     threshold = SEVERITY_RANK[fail_on]
     failing = [f for f in own if not f.waived and SEVERITY_RANK[f.severity] >= threshold]
     others = [f for f in own if f not in failing]
-    measured = (f"{check.title}: measured {format_number(check.measured)} {check.unit}".rstrip()
-                + f", limit {format_number(check.limit)}")
+    value, limit = measured_and_limit(check)
+    measured = f"{check.title}: measured {value}, limit {limit}"
     state = "passed"
     if check.outcome == "error":
         error = ET.SubElement(element, "error", message=check.reason, type="rule-fault")

@@ -1,12 +1,14 @@
 """The ``markdown`` output format: the sign-off checklist of a design review, as Markdown.
 
-Per case: a header table (case, purpose, safety class, SHA-256 of the case file and the
-mesh, caselint and rule-set versions, and the date only when asked with ``--stamp``), the
-safety caution for a safety-relevant case, one table row per check (outcome, measured
-value, limit, unit, hint), the findings, the waivers with reason, approver, expiry and
-status, the rule sets' manual checks as tick boxes, and lines to sign. Several cases get
-a summary table first. Plain GitHub-flavoured Markdown; the same report gives the same
-text.
+What caselint does and does not check comes first. Per case: a header table (case,
+purpose, safety class, SHA-256 of the case file and the mesh, caselint and rule-set
+versions, and the date only when asked with ``--stamp``), the safety caution for a
+safety-relevant case, one table row per check in summary order (outcome, measured value
+and limit with units and direction, hint), the findings, the waivers with reason,
+approver, expiry and status, the rule sets' manual checks as tick boxes, and lines to
+sign. Several cases get a summary table first; each rule's sources are listed once at
+the end, and checks and findings point to them with a key ``[n]``. Plain
+GitHub-flavoured Markdown; the same report gives the same text.
 """
 
 from __future__ import annotations
@@ -17,8 +19,10 @@ from caselint.engine.hookspecs import hookimpl
 from caselint.model import CaseReport, Report
 from caselint.report import signoff
 from caselint.report.base import RenderOptions, Reporter
+from caselint.report.presentation import SourceKeys
 
-_SPECIAL = re.compile(r"([\\`*_\[\]<>|#])")
+#: Characters escaped in text; "<=" and ">=" (limits) stay as they are: no tag opens so.
+_SPECIAL = re.compile(r"([\\`*_\[\]|#]|[<>](?!=))")
 
 
 def md(text: str) -> str:
@@ -43,13 +47,18 @@ def _summary(report: Report) -> list[str]:
     for case in report.cases:
         counts = signoff.outcome_counts(case)
         rows.append((md(case.name or case.case), _code(case.case),
-                     *(str(counts[o]) for o in ("pass", "fail", "skipped", "waived", "error")),
+                     *(str(counts[o]) for o in signoff.COUNT_TITLES),
                      signoff.worst_open(case)))
-    return ["## Summary", "", *_table(("Case", "File", "Pass", "Fail", "Not checked",
-                                       "Waived", "Error", "Worst open finding"), rows), ""]
+    return ["## Summary", "", *_table(("Case", "File", *signoff.COUNT_TITLES.values(),
+                                       "Worst open finding"), rows), ""]
 
 
-def _case(report: Report, case: CaseReport, stamp: str, level: str) -> list[str]:
+def _cited(text: str, key: str) -> str:
+    return f"{text} {key}" if key else text
+
+
+def _case(report: Report, case: CaseReport, stamp: str, level: str,
+          keys: SourceKeys) -> list[str]:
     out = [f"{level} Sign-off checklist: {md(case.name or case.case)}", ""]
     rows = []
     for label, value in signoff.header_rows(report, case, stamp):
@@ -62,12 +71,12 @@ def _case(report: Report, case: CaseReport, stamp: str, level: str) -> list[str]
         out += [f"> **Safety-relevant case ({md(case.safety)}).** {md(caution)}", ""]
     sub = level + "#"
     out += [f"{sub} Automated checks", ""]
-    check_rows = signoff.check_rows(report, case)
+    check_rows = signoff.check_rows(report, case, keys)
     if check_rows:
-        out += _table(("Rule", "Outcome", "Measured", "Limit", "Unit", "Hint or reason"),
-                      [(f"{md(r.rule)}: {md(r.title)}", f"**{md(r.label)}**" if r.outcome in
-                        ("fail", "error") else md(r.label), r.measured, r.limit, md(r.unit),
-                        md(r.hint)) for r in check_rows])
+        out += _table(("Rule", "Outcome", "Measured", "Limit", "Hint or reason"),
+                      [(_cited(f"{md(r.rule)}: {md(r.title)}", r.source),
+                        f"**{md(r.label)}**" if r.outcome in ("fail", "error") else md(r.label),
+                        md(r.measured), md(r.limit), md(r.hint)) for r in check_rows])
     else:
         out.append("No rules were selected for this case.")
     out += ["", f"{sub} Findings", ""]
@@ -79,7 +88,7 @@ def _case(report: Report, case: CaseReport, stamp: str, level: str) -> list[str]
         line = f"- **{tag}** {md(finding.rule)}: {md(finding.message)} ({md(where)})"
         if finding.waived and finding.waiver:
             line += f"; {md(finding.waiver)}"
-        out.append(line)
+        out.append(_cited(line, keys.cite(finding)))
     out += ["", f"{sub} Waivers", ""]
     if case.waivers:
         out += _table(("Rule", "Scope", "Reason", "Approved by", "Expires", "Status"),
@@ -104,15 +113,25 @@ def _case(report: Report, case: CaseReport, stamp: str, level: str) -> list[str]
 
 def render_markdown(report: Report, options: RenderOptions) -> str:
     """The sign-off checklist of every case in the report, as Markdown."""
-    out: list[str] = []
     several = len(report.cases) > 1
+    if several or not report.cases:
+        out = ["# caselint sign-off checklists" if several else "# caselint sign-off checklist",
+               "", md(signoff.SCOPE_NOTE), ""]
     if several:
-        out += ["# caselint sign-off checklists", "", *_summary(report)]
+        out += _summary(report)
     if not report.cases:
-        out += ["# caselint sign-off checklist", "", "No case files were checked.", ""]
-    for case in report.cases:
-        out += _case(report, case, options.stamp, "##" if several else "#")
-    out += ["---", "", md(signoff.SCOPE_NOTE)]
+        out += ["No case files were checked.", ""]
+    keys = SourceKeys()
+    for index, case in enumerate(report.cases):
+        case_lines = _case(report, case, options.stamp, "##" if several else "#", keys)
+        if not several:     # the scope note goes under the one title
+            case_lines[2:2] = [md(signoff.SCOPE_NOTE), ""]
+        out = case_lines if index == 0 and not several else out + case_lines
+    entries = keys.entries()
+    if entries:
+        out += ["## Sources", ""]
+        out += [f"- {key} {md(rule)}: {md(source)}" for key, rule, source in entries]
+        out.append("")
     return "\n".join(out) + "\n"
 
 

@@ -1,11 +1,12 @@
 """The content of a sign-off checklist, shared by the ``markdown`` and ``html`` formats.
 
-A design review needs the same facts in either format: what was checked (case, purpose,
-safety class, input hashes, caselint and rule-set versions, and a date only when asked),
-one line per check with the measured value against its limit and a fix hint, the
-findings, the waivers with their status, the rule sets' manual checks as tick boxes and
-the sign-off lines. This module picks those facts out of a finished report as plain
-strings; the two formats only lay them out.
+A design review needs the same facts in either format: what caselint is and is not (said
+first, before anything is read), what was checked (case, purpose, safety class, input
+hashes, caselint and rule-set versions, and a date only when asked), one line per check
+in summary order (failures first) with the measured value against its limit and a fix
+hint, the findings, the waivers with their status, the rule sets' manual checks as tick
+boxes, the sign-off lines, and each rule's sources once at the end. This module picks
+those facts out of a finished report as plain strings; the two formats only lay them out.
 """
 
 from __future__ import annotations
@@ -13,25 +14,36 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from caselint.model import CaseReport, Check, Finding, Report, WaiverStatus
-from caselint.report.json_report import check_sort_key, finding_sort_key
-from caselint.report.text import format_number, format_where
+from caselint.report.json_report import finding_sort_key
+from caselint.report.presentation import (
+    OUTCOME_ORDER,
+    SourceKeys,
+    format_where,
+    in_summary_order,
+    measured_and_limit,
+)
+from caselint.wording import plural
 
-#: What caselint is and is not, printed at the foot of every checklist.
+#: What caselint is and is not, printed at the head of every checklist.
 SCOPE_NOTE = (
     "caselint checks the set-up of a case against published guidance and common practice "
     "before it is run. It does not validate results; engineering judgement and the review "
-    "below decide whether the case is fit for its purpose."
+    "recorded in this checklist decide whether the case is fit for its purpose."
 )
 #: Outcome labels as a reviewer reads them.
 OUTCOME_LABEL = {
     "pass": "pass", "fail": "FAIL", "skipped": "not checked", "waived": "waived",
-    "error": "ERROR (rule fault)",
+    "error": "RULE FAULT",
 }
+#: Column titles of the outcome counts in a summary of several cases, in summary order.
+COUNT_TITLES = {"fail": "Fail", "error": "Rule fault", "waived": "Waived", "pass": "Pass",
+                "skipped": "Not checked"}
 
 
 @dataclass(frozen=True)
 class CheckRow:
-    """One line of the checks table: rule, outcome, measured value, limit, unit, hint."""
+    """One line of the checks table: rule, outcome, measured value and limit (each with
+    its unit; the limit with its direction), hint, and the key of the rule's sources."""
 
     rule: str
     title: str
@@ -39,8 +51,8 @@ class CheckRow:
     label: str              # the outcome as printed, e.g. "FAIL (warning)"
     measured: str
     limit: str
-    unit: str
     hint: str
+    source: str = ""        # "[n]", see sources()
 
 
 @dataclass(frozen=True)
@@ -82,8 +94,7 @@ def header_rows(report: Report, case: CaseReport, stamp: str = "") -> list[tuple
         ("Rule sets", "; ".join(set_texts) or "(none)"),
     ]
     if report.baseline:
-        rows.append(("Baseline", f"{report.baseline}: {case.baselined} known finding"
-                                 f"{'' if case.baselined == 1 else 's'} left out of this list"))
+        rows.append(("Baseline", baseline_note(report, case)))
     if stamp:
         rows.append(("Date", stamp))
     return rows
@@ -103,18 +114,22 @@ def _hint_for(check: Check, findings: list[Finding], hints: dict[str, str]) -> s
     return f"{check.reason} ({hint})" if check.reason else hint
 
 
-def check_rows(report: Report, case: CaseReport) -> list[CheckRow]:
-    """One row per check, ordered by rule id."""
-    hints = {rule.id: rule.hint for rule in report.rules}
+def check_rows(report: Report, case: CaseReport, keys: SourceKeys) -> list[CheckRow]:
+    """One row per check in summary order; each rule's sources get a key in ``keys``."""
+    rules = {rule.id: rule for rule in report.rules}
     findings = sorted(case.findings, key=finding_sort_key)
+    hints = {rule.id: rule.hint for rule in report.rules}
+    own_sources = {f.rule: f.source for f in findings}
     rows = []
-    for check in sorted(case.checks, key=check_sort_key):
+    for check in in_summary_order(case.checks):
         label = OUTCOME_LABEL.get(check.outcome, check.outcome)
         if check.outcome in ("fail", "waived") and check.severity:
             label = f"{label} ({check.severity})"
-        rows.append(CheckRow(check.rule, check.title, check.outcome, label,
-                             format_number(check.measured), format_number(check.limit),
-                             check.unit, _hint_for(check, findings, hints)))
+        info = rules.get(check.rule)
+        source = info.source if info is not None else own_sources.get(check.rule, "")
+        measured, limit = measured_and_limit(check)
+        rows.append(CheckRow(check.rule, check.title, check.outcome, label, measured, limit,
+                             _hint_for(check, findings, hints), keys.key(check.rule, source)))
     return rows
 
 
@@ -122,14 +137,7 @@ def finding_lines(case: CaseReport) -> list[tuple[Finding, str]]:
     """Every finding (open first, then waived) with where it is, in words."""
     findings = sorted(case.findings, key=finding_sort_key)
     ordered = [f for f in findings if not f.waived] + [f for f in findings if f.waived]
-    out = []
-    for finding in ordered:
-        where = format_where(finding.where)
-        if finding.where.key:
-            line = f", line {finding.where.line}" if finding.where.line else ""
-            where = f"case-file key {finding.where.key}{line}; {where}"
-        out.append((finding, where))
-    return out
+    return [(finding, format_where(finding.where)) for finding in ordered]
 
 
 def waiver_status(waiver: WaiverStatus) -> str:
@@ -159,8 +167,8 @@ def sign_off_lines(case: CaseReport) -> list[SignOffLine]:
 
 
 def outcome_counts(case: CaseReport) -> dict[str, int]:
-    """How many checks of the case ended in each outcome."""
-    counts = {o: 0 for o in OUTCOME_LABEL}
+    """How many checks of the case ended in each outcome, in summary order."""
+    counts = {o: 0 for o in OUTCOME_ORDER}
     for check in case.checks:
         counts[check.outcome] = counts.get(check.outcome, 0) + 1
     return counts
@@ -172,3 +180,8 @@ def worst_open(case: CaseReport) -> str:
         if any(f.severity == severity and not f.waived for f in case.findings):
             return severity
     return "none"
+
+
+def baseline_note(report: Report, case: CaseReport) -> str:
+    """``3 known findings left out of this list`` for a run with a baseline."""
+    return f"{report.baseline}: {plural(case.baselined, 'known finding')} left out of this list"

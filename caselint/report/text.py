@@ -1,12 +1,16 @@
 """The ``text`` output format (the default): a terminal report drawn with rich.
 
-Per case: a header (name, case file, mesh, safety class and caution), a table of checks,
+Per case: a header (name, case file, mesh, safety class and caution), a table of checks
+(failures first; each measured value with its unit and each limit with its direction),
 what was not checked and why, then the findings grouped by severity with where, fix and
-source. Several cases get a table of their outcome counts; a run with ``--baseline`` says
-how many known findings it left out. The last line counts the outcomes and names the
-worst severity. Without colour
-(not a TTY, or ``NO_COLOR``) the output is plain text with ASCII rules and table borders,
-so it stays readable in CI logs and when piped.
+a short key to their sources. The sources follow once for the whole report, one entry
+per rule. Several cases get a table of their outcome counts; a run with ``--baseline``
+says how many known findings it left out. The last line counts the outcomes and names
+the worst severity.
+
+Rule ids and numbers are never broken across lines; other text wraps at spaces. Without
+colour (not a TTY, or ``NO_COLOR``) the output is plain ASCII, so it stays readable in
+CI logs and when piped.
 """
 
 from __future__ import annotations
@@ -21,14 +25,26 @@ from rich.table import Table
 from rich.text import Text
 
 from caselint.engine.hookspecs import hookimpl
-from caselint.model import OUTCOMES, SEVERITY_RANK, CaseReport, Check, Finding, Report, Where
+from caselint.model import SEVERITY_RANK, CaseReport, Check, Finding, Report
 from caselint.report.base import RenderOptions, Reporter
-from caselint.report.json_report import check_sort_key, finding_sort_key
+from caselint.report.json_report import finding_sort_key
+from caselint.report.presentation import (
+    OUTCOME_NAME,
+    OUTCOME_ORDER,
+    SourceKeys,
+    count_words,
+    format_where,
+    in_summary_order,
+    measured_and_limit,
+    outcome_label,
+)
+from caselint.wording import format_number, plural
 
-#: Narrowest layout drawn; below it the table columns would fold into unreadable slivers.
-MIN_WIDTH = 60
-#: How many of a finding's listed cell or face ids the text shows (the count is in full).
-SHOWN_IDS = 5
+__all__ = ["format_number", "format_where", "render_text", "summary_line"]
+
+#: Narrowest layout drawn: the longest built-in rule id (27 characters), the outcome and
+#: two short values side by side. A narrower terminal wraps the lines itself.
+MIN_WIDTH = 72
 
 _OUTCOME_STYLE = {
     "pass": "green",
@@ -39,55 +55,16 @@ _OUTCOME_STYLE = {
 }
 _SEVERITY_STYLE = {"error": "bold red", "warning": "bold yellow", "note": "cyan"}
 _GROUP_TITLE = {"error": "Errors", "warning": "Warnings", "note": "Notes"}
-
-
-def format_number(value: float | None) -> str:
-    """A measured value or limit with six significant digits; ``-`` when there is none."""
-    if value is None:
-        return "-"
-    text = f"{float(value):.6g}"
-    return "0" if text == "-0" else text
-
-
-def _ids(kind: str, ids: tuple[int, ...], count: int | None) -> str:
-    """``12 cells (ids 3, 9, 40, ...)``: the full count and the first few ids."""
-    n = count if count is not None else len(ids)
-    noun = kind if n != 1 else kind[:-1]
-    text = f"{n} {noun}"
-    if ids:
-        shown = ", ".join(str(i) for i in ids[:SHOWN_IDS])
-        more = ", ..." if n > min(len(ids), SHOWN_IDS) else ""
-        text += f" (ids {shown}{more})"
-    return text
-
-
-def format_where(where: Where) -> str:
-    """One line saying where a finding is; ``whole case`` when it has no location."""
-    parts: list[str] = []
-    if where.boundary is not None:
-        parts.append(f"boundary '{where.boundary}'")
-    if where.region is not None:
-        parts.append(f"region '{where.region}'")
-    if where.key is not None:
-        parts.append(f"case file {where.key}" + (f" (line {where.line})" if where.line else ""))
-    if where.cell_count is not None or where.cells:
-        parts.append(_ids("cells", where.cells, where.cell_count))
-    if where.face_count is not None or where.faces:
-        parts.append(_ids("faces", where.faces, where.face_count))
-    if where.point is not None:
-        x, y, z = (f"{v:.4g}" for v in where.point)
-        parts.append(f"near ({x}, {y}, {z}) m")
-    return "; ".join(parts) if parts else "whole case"
+#: A header rule and no column lines, in ASCII for plain output.
+_PLAIN_BOX = box.Box("    \n    \n -- \n    \n    \n    \n    \n    \n", ascii=True)
+#: Cell padding (top, right, bottom, left): with the box's blank divider, two spaces
+#: between columns.
+_PADDING = (0, 1, 0, 0)
 
 
 def _outcome_text(check: Check) -> Text:
-    """The outcome cell: a failed check also says which grade it crossed."""
-    label = check.outcome
-    if check.outcome == "fail" and check.severity:
-        label = f"fail ({check.severity})"
-    elif check.outcome == "error":
-        label = "error (rule raised)"
-    return Text(label, style=_OUTCOME_STYLE.get(check.outcome, ""))
+    """The outcome cell: a failed or waived check also says which grade it crossed."""
+    return Text(outcome_label(check), style=_OUTCOME_STYLE.get(check.outcome, ""))
 
 
 def _header(console: Console, case: CaseReport, plain: bool) -> None:
@@ -128,35 +105,38 @@ def _checks_table(console: Console, checks: list[Check], plain: bool) -> None:
     if not checks:
         console.print(Text("No rules were selected for this case.", style="yellow"))
         return
-    table = Table(box=box.ASCII2 if plain else box.SIMPLE_HEAD, header_style="bold")
-    table.add_column("Rule", overflow="fold")
-    table.add_column("Outcome", min_width=7, overflow="fold")
-    table.add_column("Measured", justify="right", no_wrap=True)
-    table.add_column("Limit", justify="right", no_wrap=True)
-    table.add_column("Unit", no_wrap=True, min_width=4)
+    table = Table(box=_PLAIN_BOX if plain else box.SIMPLE_HEAD, header_style="bold",
+                  show_edge=False, pad_edge=False, padding=_PADDING)
+    # ids are never broken: the column is as wide as the longest one
+    table.add_column("Rule", no_wrap=True, min_width=max(cell_len(c.rule) for c in checks))
+    table.add_column("Outcome", no_wrap=True)
+    table.add_column("Measured", justify="right")
+    table.add_column("Limit", justify="right")
     for check in checks:
-        table.add_row(
-            check.rule, _outcome_text(check), format_number(check.measured),
-            format_number(check.limit), check.unit,
-        )
+        measured, limit = measured_and_limit(check)
+        table.add_row(check.rule, _outcome_text(check), measured, limit)
     console.print(table)
     reasons = [c for c in checks if c.reason and c.outcome in ("skipped", "waived", "error")]
     if reasons:
-        console.print(Text("Not checked, or waived:", style="bold"))
+        console.print(Text("Not checked, waived or faulted:", style="bold"))
         rows = []
         for check in reasons:
-            text = Text().append(f"{check.rule} ({check.outcome})", _OUTCOME_STYLE[check.outcome])
+            text = Text().append(f"{check.rule} ({OUTCOME_NAME[check.outcome]})",
+                                 _OUTCOME_STYLE[check.outcome])
             rows.append(("-", text.append(": " + check.reason)))
         console.print(_bullets(rows))
 
 
-def _finding_block(console: Console, finding: Finding, plain: bool) -> None:
-    """One finding: rule and message, then where, fix, source and any safety or waiver note."""
+def _finding_block(console: Console, finding: Finding, plain: bool, sources: SourceKeys) -> None:
+    """One finding: rule and message, then where, fix, the key of its sources and any
+    safety or waiver note."""
     style = _SEVERITY_STYLE[finding.severity]
     head = Text().append(finding.rule, style).append(": " + finding.message)
     console.print(_bullets([("*" if plain else "●", head)]))
-    details = [("where", format_where(finding.where)), ("fix", finding.hint),
-               ("source", finding.source)]
+    details = [("where", format_where(finding.where)), ("fix", finding.hint)]
+    key = sources.cite(finding)
+    if key:
+        details.append(("source", f"{key}, under Sources"))
     if finding.safety:
         details.append(("safety", finding.safety))
     if finding.waived:
@@ -171,7 +151,8 @@ def _finding_block(console: Console, finding: Finding, plain: bool) -> None:
     console.print(grid)
 
 
-def _findings(console: Console, findings: list[Finding], plain: bool) -> None:
+def _findings(console: Console, findings: list[Finding], plain: bool,
+              sources: SourceKeys) -> None:
     """Open findings grouped errors, warnings, notes; waived findings listed last."""
     if not findings:
         console.print(Text("No findings.", style="green"))
@@ -184,22 +165,42 @@ def _findings(console: Console, findings: list[Finding], plain: bool) -> None:
             continue
         console.print(Text(f"{title} ({len(items)})", style=_SEVERITY_STYLE[severity]))
         for finding in items:
-            _finding_block(console, finding, plain)
+            _finding_block(console, finding, plain, sources)
+
+
+def _sources(console: Console, sources: SourceKeys) -> None:
+    """Each cited rule's sources, once for the whole report."""
+    entries = sources.entries()
+    if not entries:
+        return
+    console.print()
+    console.print(Text("Sources", style="bold"))
+    grid = Table.grid(padding=(0, 1))
+    grid.add_column(no_wrap=True)
+    grid.add_column(ratio=1)
+    for key, rule, source in entries:
+        grid.add_row(key, Text().append(rule, "bold").append(": " + source))
+    console.print(grid)
 
 
 def _cases_table(console: Console, report: Report, plain: bool) -> None:
     """Several cases: one row each with its outcome counts and worst open severity."""
-    table = Table(box=box.ASCII2 if plain else box.SIMPLE_HEAD, header_style="bold",
-                  title="Cases", title_justify="left")
-    table.add_column("Case file", overflow="fold")
-    for outcome in OUTCOMES:
-        table.add_column(outcome.capitalize(), justify="right", no_wrap=True)
+    table = Table(box=_PLAIN_BOX if plain else box.SIMPLE_HEAD, header_style="bold",
+                  title="Cases", title_justify="left", show_edge=False, pad_edge=False,
+                  padding=_PADDING)
+    # paths are kept whole where the width allows; the count headers wrap first
+    table.add_column("Case file", overflow="fold",
+                     min_width=min(24, max(cell_len(case.case) for case in report.cases)))
+    for outcome in OUTCOME_ORDER:
+        name = OUTCOME_NAME[outcome]
+        # "Rule fault" on two lines: five columns narrower, for the paths
+        table.add_column((name[0].upper() + name[1:]).replace(" ", "\n"), justify="right")
     table.add_column("Worst", no_wrap=True)
     for case in report.cases:
         counts = Counter(c.outcome for c in case.checks)
         worst = max((f.severity for f in case.findings if not f.waived),
                     key=SEVERITY_RANK.__getitem__, default="none")
-        table.add_row(case.case, *(str(counts.get(o, 0)) for o in OUTCOMES),
+        table.add_row(case.case, *(str(counts.get(o, 0)) for o in OUTCOME_ORDER),
                       Text(worst, style=_SEVERITY_STYLE.get(worst, "green")))
     console.print(table)
 
@@ -210,9 +211,7 @@ def summary_line(report: Report, fail_on: str = "error") -> str:
     open_findings = [f for case in report.cases for f in case.findings if not f.waived]
     worst = max((f.severity for f in open_findings), key=SEVERITY_RANK.__getitem__,
                 default="none")
-    n = len(report.cases)
-    outcomes = ", ".join(f"{counts.get(o, 0)} {o}" for o in OUTCOMES)
-    return (f"Result for {n} case{'s' if n != 1 else ''}: {outcomes}; "
+    return (f"Result for {plural(len(report.cases), 'case')}: {count_words(counts)}; "
             f"worst severity: {worst} (fail level: {fail_on})")
 
 
@@ -227,22 +226,24 @@ def render_text(report: Report, options: RenderOptions) -> str:
     )
     if not report.cases:
         console.print("No case files were checked.")
+    sources = SourceKeys()
     for index, case in enumerate(report.cases):
         if index:
             console.print()
         _header(console, case, plain)
         console.print()
-        _checks_table(console, sorted(case.checks, key=check_sort_key), plain)
+        _checks_table(console, in_summary_order(case.checks), plain)
         console.print()
-        _findings(console, sorted(case.findings, key=finding_sort_key), plain)
+        _findings(console, sorted(case.findings, key=finding_sort_key), plain, sources)
+    _sources(console, sources)
     if len(report.cases) > 1:
         console.print()
         _cases_table(console, report, plain)
     if report.baseline:
         hidden = sum(case.baselined for case in report.cases)
         console.print()
-        console.print(Text(f"{hidden} known finding{'' if hidden == 1 else 's'} left out: "
-                           f"recorded in the baseline {report.baseline}", style="dim"))
+        console.print(Text(f"{plural(hidden, 'known finding')} left out: recorded in the "
+                           f"baseline {report.baseline}", style="dim"))
     console.print()
     # soft_wrap keeps the result on one line however narrow the terminal is, for grep.
     console.print(Text(summary_line(report, options.fail_on), style="bold"), soft_wrap=True)

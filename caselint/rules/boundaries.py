@@ -12,12 +12,12 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
+from caselint.manifest.case import BOUNDARY_ROLES
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import finite_point, first_cells, plural
+from caselint.rulekit import RuleContext, finite_point, first_cells, plural
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.mesh.analysis import Mesh
 
 
@@ -37,11 +37,9 @@ def _faces_where(mesh: "Mesh", faces: np.ndarray, boundary: str | None = None) -
     )
 
 
-def check_unassigned_boundary(ctx: "RuleContext") -> RuleResult:
+def check_unassigned_boundary(ctx: RuleContext) -> RuleResult:
     """Exposed faces in no group, and mesh groups with no role in the case file."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     roles = ctx.case.mesh.boundaries
     exposed = mesh.boundary_faces
     ungrouped = exposed[mesh.face_group[exposed] < 0]
@@ -69,9 +67,9 @@ def check_unassigned_boundary(ctx: "RuleContext") -> RuleResult:
             where=_faces_where(mesh, faces, boundary=name),
             detail=f"group '{name}' ({plural(faces.size, 'exposed face')}{extra}) has no role in "
                    "the case file",
-            fix=(f"Add '{name}: <role>' under mesh.boundaries in the case file (roles: wall, "
-                 "inlet, outlet, symmetry, periodic, opening, interface), or remove the group "
-                 "from the mesh if it is not a boundary."),
+            fix=(f"Add '{name}: <role>' under mesh.boundaries in the case file (roles: "
+                 f"{', '.join(BOUNDARY_ROLES)}), or remove the group from the mesh if it is "
+                 "not a boundary."),
         ))
     # Boundary elements lying on no cell face are unmatched-boundary-elements' finding.
     return RuleResult(measurements=tuple(measurements))
@@ -92,7 +90,7 @@ UNASSIGNED_BOUNDARY = Rule(
     hint=("Put every exposed face in a named group in the mesher and give each group a role "
           "under mesh.boundaries in the case file."),
     check=check_unassigned_boundary,
-    needs=("mesh", "mesh.boundaries"),
+    needs=("mesh",),
     # one measurement for exposed faces in no group, one per group without a role
     measures="number of boundary faces without a role",
 )

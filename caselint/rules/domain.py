@@ -30,13 +30,13 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
 from caselint.errors import CaseFileError
 from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import finite_point
+from caselint.rulekit import RuleContext, finite_point
+from caselint.rulekit.meshview import face_points, used_points
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.mesh.analysis import Mesh
 
 _COST = "COST Action 732 best practice guideline (Franke et al., 2007)"
@@ -57,11 +57,11 @@ _WIND_CAUTION = ("Wind loads computed on this domain need review under the local
 _TOUCH = 1e-6
 
 
-def _fail(ctx: "RuleContext", key: str, message: str) -> CaseFileError:
+def _fail(ctx: RuleContext, key: str, message: str) -> CaseFileError:
     return CaseFileError(str(ctx.case.path), message, line=ctx.case.line_of(key), key=key)
 
 
-def _axes(ctx: "RuleContext", dim: int) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+def _axes(ctx: RuleContext, dim: int) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
     """Unit flow, up and lateral directions; raises CaseFileError for unusable ones."""
     e = np.asarray(ctx.case.physics.flow.direction, dtype=float)
     given_up = ctx.case.domain.up
@@ -84,22 +84,7 @@ def _axes(ctx: "RuleContext", dim: int) -> tuple[np.ndarray, np.ndarray, np.ndar
 
 
 def _used_points(mesh: "Mesh") -> np.ndarray:
-    def build() -> np.ndarray:
-        return mesh.points[mesh.used_points()]
-
-    return mesh.cached("domain.used_points", build)
-
-
-def _guidelines(params: dict) -> dict[str, float] | str:
-    """Guideline values from the parameters, or why one is unusable."""
-    out = {}
-    for name, (default, *_) in GUIDELINES.items():
-        value = params.get(name, default)
-        if isinstance(value, bool) or not isinstance(value, (int, float)) \
-                or not math.isfinite(value) or value <= 0:
-            return f"parameter {name} must be a number greater than zero, got {value!r}"
-        out[name] = float(value)
-    return out
+    return mesh.cached("domain.used_points", lambda: mesh.points[used_points(mesh)])
 
 
 def _limits(guide: float, limits: Limits, worse: str) -> Limits:
@@ -114,21 +99,13 @@ def _limits(guide: float, limits: Limits, worse: str) -> Limits:
     return Limits(warn=scale(limits.warn), error=scale(limits.error))
 
 
-def check_domain_extent(ctx: "RuleContext") -> RuleResult:
+def check_domain_extent(ctx: RuleContext) -> RuleResult:
     """Body-to-boundary distances in body heights, and the blockage ratio."""
     case = ctx.case
-    if not case.domain.body:
-        return RuleResult.skip("domain.body is not given: name the boundary groups that make "
-                               "the body to check the domain around it")
     if case.physics.flow.kind == "internal":
         return RuleResult.skip("physics.flow.kind is internal: domain extent applies to "
                                "external flows around a body")
-    if case.physics.flow.direction is None:
-        return RuleResult.skip("physics.flow.direction is not given: the inflow and outflow "
-                               "sides are unknown")
-    guides = _guidelines(ctx.params)
-    if isinstance(guides, str):
-        return RuleResult.skip(guides)
+    guides = {name: float(ctx.params[name]) for name in GUIDELINES}
     mesh = ctx.mesh
     missing = [g for g in case.domain.body if g not in mesh.group_names]
     if missing:
@@ -140,7 +117,7 @@ def check_domain_extent(ctx: "RuleContext") -> RuleResult:
     faces = mesh.boundary_faces[np.isin(mesh.face_group[mesh.boundary_faces], index)]
     if faces.size == 0:
         return RuleResult.skip("the body groups of domain.body hold no boundary face of the mesh")
-    body = mesh.points[np.unique(mesh.face_point_table(faces).ravel())]
+    body = face_points(mesh, faces)
     domain = _used_points(mesh)
     be, bu, de, du = body @ e, body @ u, domain @ e, domain @ u
     height = float(bu.max() - bu.min())
@@ -226,7 +203,7 @@ DOMAIN_EXTENT = Rule(
           "further away (in body heights H), keeping the cells near the body as they are."),
     check=check_domain_extent,
     needs=("mesh", "domain.body", "physics.flow.direction"),
-    parameters=tuple(Parameter(name, default, unit, f"guideline {what}")
+    parameters=tuple(Parameter(name, default, unit, f"guideline {what}", exclusive_minimum=0)
                      for name, (default, unit, what, _) in GUIDELINES.items()),
     measures="domain size around the body, as a fraction of its guideline",
 )

@@ -14,66 +14,27 @@ names (``Where.boundary``), so a waiver for it names that boundary.
 
 from __future__ import annotations
 
-import math
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
-from caselint.mesh.rays import LOST, MAX_STEPS, WALL, RayHits, hit_angles_deg, wall_rays
+from caselint import hookimpl
+from caselint.mesh.rays import LOST, MAX_STEPS, WALL, RayHits
 from caselint.model import (
     MAX_LISTED_IDS, Limits, Measurement, Note, Parameter, Rule, RuleResult, Where,
 )
-from caselint.rules.mesh_quality import cell_names, finite_point, plural
+from caselint.rulekit import RuleContext, cell_names, finite_point, first_limit, plural, point_words
+from caselint.rulekit.rays import FACING_ANGLE_DEG, gap_rays, shared_wall_rays
+from caselint.rulekit.walls import wall_groups
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
-    from caselint.manifest.case import Case
     from caselint.mesh.analysis import Mesh
-
-
-#: Default of ``facing_angle_deg``: the walls of a gap face each other within this angle.
-FACING_ANGLE_DEG = 45.0
-
-
-def wall_groups(case: "Case", mesh: "Mesh") -> tuple[str, ...]:
-    """Groups of the mesh that the case file gives the role ``wall``, sorted."""
-    return tuple(sorted(g for g, role in case.mesh.boundaries.items()
-                        if role == "wall" and g in mesh.group_names))
-
-
-def max_steps_param(params: dict) -> int | str:
-    """The ``max_steps`` parameter as a positive whole number, or why it is not one."""
-    value = params.get("max_steps", MAX_STEPS)
-    if isinstance(value, bool) or not isinstance(value, (int, float)) \
-            or not math.isfinite(value) or value < 1 or value != int(value):
-        return f"parameter max_steps must be a whole number of at least 1, got {value!r}"
-    return int(value)
-
-
-def facing_param(params: dict) -> float | str:
-    """The ``facing_angle_deg`` parameter (0 to 90 deg), or why it is unusable."""
-    value = params.get("facing_angle_deg", FACING_ANGLE_DEG)
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value <= 90:
-        return f"parameter facing_angle_deg must be a number above 0 and at most 90, got {value!r}"
-    return float(value)
-
-
-def gap_rays(mesh: "Mesh", hits: RayHits, facing_deg: float) -> np.ndarray:
-    """Ids of the rays that cross a gap: they end on a wall that faces their start."""
-    return np.flatnonzero((hits.status == WALL) & (hit_angles_deg(mesh, hits) <= facing_deg))
-
-
-def _point_words(xyz: tuple[float, float, float] | None) -> str:
-    if xyz is None:
-        return ""
-    return " at (" + ", ".join(f"{v:.4g}" for v in xyz) + ") m"
 
 
 def _pair_measurement(mesh: "Mesh", hits: RayHits, rays: np.ndarray, pair: tuple[str, str],
                       limits: Limits) -> Measurement:
     """Measurement of one pair of wall groups from its rays, sorted worst first."""
-    threshold = limits.warn if limits.warn is not None else limits.error
+    threshold = first_limit(limits)
     worst = int(rays[0])
     cells = int(hits.cells[worst])
     width = float(hits.width[worst])
@@ -84,7 +45,7 @@ def _pair_measurement(mesh: "Mesh", hits: RayHits, rays: np.ndarray, pair: tuple
     point = finite_point(hits.midpoint(worst))
     across = f"across '{first}'" if first == second else f"between '{first}' and '{second}'"
     detail = (f"narrowest gap {across}: {plural(cells, 'cell')} across {width:.4g} m"
-              f"{_point_words(point)}; ")
+              f"{point_words(point)}; ")
     if threshold is None:
         detail += f"{plural(rays.size, 'ray')} cross this gap"
     elif below.size:
@@ -92,7 +53,7 @@ def _pair_measurement(mesh: "Mesh", hits: RayHits, rays: np.ndarray, pair: tuple
                    f"{threshold:g} cells")
     else:
         detail += f"all {plural(rays.size, 'ray')} across it cross at least {threshold:g} cells"
-    target = limits.warn if limits.warn is not None else limits.error
+    target = first_limit(limits)
     fix = ""
     if target is not None and cells < target:
         fix = (f"Refine across the gap {across} ({width:.3g} m wide): at least {target:g} "
@@ -109,21 +70,15 @@ def _pair_measurement(mesh: "Mesh", hits: RayHits, rays: np.ndarray, pair: tuple
     return Measurement(value=float(cells), where=where, detail=detail, fix=fix)
 
 
-def check_gap_cells(ctx: "RuleContext") -> RuleResult:
+def check_gap_cells(ctx: RuleContext) -> RuleResult:
     """Fewest cells across a wall-to-wall gap, per pair of wall groups."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
-    steps = max_steps_param(ctx.params)
-    facing = facing_param(ctx.params)
-    for bad in (steps, facing):
-        if isinstance(bad, str):
-            return RuleResult.skip(bad)
+    steps, facing = int(ctx.params["max_steps"]), float(ctx.params["facing_angle_deg"])
     walls = wall_groups(ctx.case, mesh)
     if not walls:
-        return RuleResult.skip("no boundary group has the role wall under mesh.boundaries, so "
-                               "there is no passage between walls to measure")
-    hits = wall_rays(mesh, walls, steps)
+        return RuleResult.skip("no wall group of mesh.boundaries is in the mesh, so there is "
+                               "no passage between walls to measure")
+    hits = shared_wall_rays(mesh, walls, steps)
     notes = []
     lost = int(np.count_nonzero(hits.status == LOST))
     if lost:
@@ -182,14 +137,15 @@ GAP_CELLS = Rule(
           "refinement zone, a finer surface size on both walls, or more layers in a swept "
           "block)."),
     check=check_gap_cells,
-    needs=("mesh", "mesh.boundaries"),
+    needs=("walls", "mesh"),
     parameters=(
         Parameter("max_steps", MAX_STEPS, "cells",
                   "Most cells one ray may cross before it is given up (guards against damaged "
-                  "meshes)"),
+                  "meshes)", kind="integer", minimum=1),
         Parameter("facing_angle_deg", FACING_ANGLE_DEG, "deg",
                   "Largest angle between a ray and the far wall's normal for the two walls to "
-                  "face each other across a gap (caselint default)"),
+                  "face each other across a gap (caselint default)", exclusive_minimum=0,
+                  maximum=90),
     ),
     measures="fewest cells across a gap between walls",
 )

@@ -4,11 +4,11 @@ Before the runs of a grid study, the meshes of ``grid_study.meshes`` are read fo
 count and total volume (no topology unless a wall-layer check needs it), and their
 representative sizes h = (V/N)^(1/3) (2-D: (A/N)^(1/2)) sorted (Celik et al. 2008). The
 rule measures the smallest refinement ratio between neighbouring meshes, graded by the
-rule's limits. Three further measurements carry limits of their own, read from the rule's
-parameters: the number of meshes (a warning below three), the largest domain-volume
-difference (a warning above ``volume_tolerance_percent``) and, under wall functions, how
-much of the refinement the first-layer height followed (a warning above
-``first_layer_share``). Notes say what could not be compared.
+rule's limits. Three further measurements have grades of their own: the number of meshes
+(``meshes``, a warning below three), the largest domain-volume difference
+(``volume-difference``, a warning above 1 %) and, under wall functions, how much of the
+refinement the first-layer height followed (``first-layer-share``, a warning above 0.5).
+Notes say what could not be compared.
 """
 
 from __future__ import annotations
@@ -19,13 +19,13 @@ from typing import TYPE_CHECKING, Callable
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
 from caselint.errors import CaseFileError, MeshReadError
 from caselint.mesh.cellsize import MeshSize, first_layer_heights, mesh_size
-from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
+from caselint.model import Grade, Limits, Measurement, Note, Rule, RuleResult, Where
+from caselint.rulekit import RuleContext
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.manifest.case import Case
     from caselint.mesh.analysis import Mesh
 
@@ -59,13 +59,16 @@ class FamilyMember:
 
 
 def read_member(case: "Case", index: int, *, walls: tuple[str, ...] = (),
-                mesh: "Mesh | None" = None) -> FamilyMember:
-    """Read ``grid_study.meshes[index]`` (units and boundary tags of ``mesh:``) and size it.
+                mesh: "Mesh | None" = None,
+                read_mesh: "Callable[..., Mesh] | None" = None) -> FamilyMember:
+    """Read ``grid_study.meshes[index]`` (units and boundary tags of ``mesh:``) with
+    ``read_mesh`` (default: :func:`caselint.mesh.read_mesh`) and size it.
 
     ``walls`` names boundary groups whose median first-layer height is measured (this builds
     the topology). A mesh that cannot be read raises :class:`CaseFileError` at its key.
     """
-    from caselint.mesh import read_mesh
+    if read_mesh is None:
+        from caselint.mesh import read_mesh
 
     key = f"{KEY}[{index}]"
     path = case.grid_study.meshes[index]
@@ -73,7 +76,7 @@ def read_member(case: "Case", index: int, *, walls: tuple[str, ...] = (),
     if mesh is None:
         try:
             mesh = read_mesh(path, scale_to_m=spec.scale_to_m, tag_array=spec.tag_array,
-                             tags=dict(spec.tags) or None)
+                             tags=dict(spec.tags) or None, zone=spec.zone)
         except MeshReadError as exc:
             raise CaseFileError(str(case.path), f"cannot read the grid-study mesh: {exc}",
                                 line=case.line_of(key), key=key) from exc
@@ -90,16 +93,18 @@ def read_member(case: "Case", index: int, *, walls: tuple[str, ...] = (),
 
 
 def read_family(case: "Case", *, walls: tuple[str, ...] = (),
-                main_mesh: "Callable[[], Mesh] | None" = None) -> list[FamilyMember]:
+                main_mesh: "Callable[[], Mesh] | None" = None,
+                read_mesh: "Callable[..., Mesh] | None" = None) -> list[FamilyMember]:
     """Every grid-study mesh of ``case``, sorted finest first (smallest h, then case order).
 
     ``main_mesh`` gives the case's own mesh, already loaded, for a family member that is the
-    same file, so it is not read twice.
+    same file, so it is not read twice; the others are read with ``read_mesh``.
     """
     members = []
     for i, path in enumerate(case.grid_study.meshes):
         same = main_mesh is not None and Path(path).resolve() == Path(case.mesh.file).resolve()
-        members.append(read_member(case, i, walls=walls, mesh=main_mesh() if same else None))
+        members.append(read_member(case, i, walls=walls, mesh=main_mesh() if same else None,
+                                   read_mesh=read_mesh))
     return sorted(members, key=lambda m: m.size.h)
 
 
@@ -110,7 +115,7 @@ def _ratio_words(members: list[FamilyMember], ratios: np.ndarray) -> str:
     return f"refinement ratios {pairs}; h = {sizes} m, finest first"
 
 
-def _volume_measurement(members: list[FamilyMember], tolerance_percent: float) -> Measurement:
+def _volume_measurement(members: list[FamilyMember]) -> Measurement:
     """Largest difference (%) of a mesh's domain volume from the finest mesh's."""
     base = members[0].size.volume
     diffs = np.array([abs(m.size.volume - base) / base * 100.0 for m in members])
@@ -126,8 +131,8 @@ def _volume_measurement(members: list[FamilyMember], tolerance_percent: float) -
     return Measurement(
         value=float(diffs[worst]), where=Where(key=odd.key if worst else KEY), detail=detail,
         fix="Export every mesh of the study from the same geometry, with the same domain.",
-        label="largest domain-volume difference from the finest grid-study mesh", unit="%",
-        worse="higher", limits=Limits(warn=tolerance_percent, error=None))
+        label="largest domain-volume difference from the finest grid-study mesh",
+        grade="volume-difference")
 
 
 def _count_measurement(n: int) -> Measurement:
@@ -138,12 +143,11 @@ def _count_measurement(n: int) -> Measurement:
     return Measurement(
         value=float(n), where=Where(key=KEY), detail=detail,
         fix="Add a third mesh, coarser or finer by the same ratio, for an observed order.",
-        label="size of the grid study", unit="meshes", worse="lower",
-        limits=Limits(warn=MIN_MESHES, error=None))
+        label="size of the grid study", grade="meshes")
 
 
-def _first_layer(members: list[FamilyMember], ratios: np.ndarray,
-                 share: float) -> tuple[Measurement | None, list[Note]]:
+def _first_layer(members: list[FamilyMember],
+                 ratios: np.ndarray) -> tuple[Measurement | None, list[Note]]:
     """Under wall functions: how much of the refinement the first-layer height followed.
 
     The measured value is ln(shrink)/ln(r) for the neighbouring pair where it is largest:
@@ -175,21 +179,19 @@ def _first_layer(members: list[FamilyMember], ratios: np.ndarray,
              "wall and away from it, not the first layer)."),
         label="share of the refinement followed by the wall first-layer height "
               "(ln of its shrink over ln r)",
-        unit="", worse="higher", limits=Limits(warn=share, error=None))
+        grade="first-layer-share")
     return measurement, notes
 
 
-def check_grid_refinement(ctx: "RuleContext") -> RuleResult:
+def check_grid_refinement(ctx: RuleContext) -> RuleResult:
     """Smallest refinement ratio h_coarse/h_fine between neighbouring grid-study meshes."""
     case = ctx.case
-    if not case.grid_study.meshes:
-        return RuleResult.skip("the case file has no grid_study.meshes: no grid study planned")
     if len(case.grid_study.meshes) < 2:
         return RuleResult.skip("grid_study.meshes lists one mesh: there is no refinement ratio")
     wall_function = case.physics.turbulence.wall_treatment == "wall-function"
     walls = tuple(sorted(n for n, role in case.mesh.boundaries.items() if role == "wall"))
     members = read_family(case, walls=walls if wall_function else (),
-                          main_mesh=lambda: ctx.mesh)
+                          main_mesh=lambda: ctx.mesh, read_mesh=ctx.read_mesh)
     dims = {m.size.dim for m in members}
     if len(dims) > 1:
         listed = ", ".join(f"{m.name} {m.size.dim}-D" for m in members)
@@ -215,8 +217,7 @@ def check_grid_refinement(ctx: "RuleContext") -> RuleResult:
         Measurement(value=float(ratios[smallest]), where=Where(key=KEY),
                     detail=_ratio_words(members, ratios), fix=fix),
         _count_measurement(len(members)),
-        _volume_measurement(members, float(ctx.params.get("volume_tolerance_percent",
-                                                          VOLUME_TOLERANCE_PERCENT))),
+        _volume_measurement(members),
     ]
     notes: list[Note] = []
     for m in members:
@@ -229,8 +230,7 @@ def check_grid_refinement(ctx: "RuleContext") -> RuleResult:
                           "mesh.boundaries: first-layer heights were not compared",
                           Where(key="mesh.boundaries")))
     elif wall_function:
-        share = float(ctx.params.get("first_layer_share", FIRST_LAYER_SHARE))
-        layer, layer_notes = _first_layer(members, ratios, share)
+        layer, layer_notes = _first_layer(members, ratios)
         notes.extend(layer_notes)
         if layer is not None:
             measurements.append(layer)
@@ -248,13 +248,14 @@ GRID_REFINEMENT_RATIO = Rule(
         "meshes should exceed 1.3 (Celik 2008, 'from experience'; from memory) and must be "
         "at least 1.1 "
         "(" + _NASA + "). The rule reads every mesh of grid_study.meshes and measures the "
-        "smallest ratio. It also warns, with limits of its own, when fewer than three meshes "
-        "are given (no observed order; the GCI then needs an assumed order and the safety "
-        "factor 3), when a mesh's domain volume differs from the finest mesh's by more than "
-        "volume_tolerance_percent, and, under wall functions, when the first-layer height "
+        "smallest ratio. It also warns, with grades of its own, when fewer than three meshes "
+        "are given (meshes; no observed order: the GCI then needs an assumed order and the "
+        "safety factor 3), when a mesh's domain volume differs from the finest mesh's by more "
+        "than 1 % (volume-difference), and, under wall functions (first-layer-share), when "
+        "the first-layer height "
         "(median over wall faces of the owner cell's volume over the face area; exact for "
         "prisms and hexahedra) shrinks between neighbouring meshes by more than "
-        "r^first_layer_share, which can drive y+ out of the log-law band (" + _ECA + "). When a "
+        "r^0.5, which can drive y+ out of the log-law band (" + _ECA + "). When a "
         "concern is more severe than the ratio, the check reports that concern's value."
     ),
     source=_CELIK + "; " + _NASA,
@@ -265,14 +266,17 @@ GRID_REFINEMENT_RATIO = Rule(
     check=check_grid_refinement,
     worse="lower",
     needs=("grid_study.meshes",),
-    parameters=(
-        Parameter("volume_tolerance_percent", VOLUME_TOLERANCE_PERCENT, "%",
-                  "largest difference in domain volume from the finest mesh before a warning "
-                  "(caselint default)"),
-        Parameter("first_layer_share", FIRST_LAYER_SHARE, "",
-                  "under wall functions, a warning when the first-layer height shrinks between "
-                  "neighbouring meshes by more than r^share (0.5: half the refinement on a log "
-                  "scale; 0 = kept, 1 = refined with the rest; caselint default)"),
+    grades=(
+        Grade("meshes", warn=MIN_MESHES, worse="lower", unit="meshes",
+              description="number of meshes in the study", source=_CELIK),
+        Grade("volume-difference", warn=VOLUME_TOLERANCE_PERCENT, worse="higher", unit="%",
+              description="largest difference in domain volume from the finest mesh",
+              source="caselint default"),
+        Grade("first-layer-share", warn=FIRST_LAYER_SHARE, worse="higher", unit="",
+              description="under wall functions, the share of the refinement the first-layer "
+                          "height followed, ln(shrink)/ln(r) (0.5: half the refinement on a "
+                          "log scale; 0 = kept, 1 = refined with the rest)",
+              source="caselint default; " + _ECA),
     ),
     measures="smallest refinement ratio between neighbouring grid-study meshes",
 )

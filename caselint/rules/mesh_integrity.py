@@ -26,15 +26,15 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
 from caselint.mesh import kernels
 from caselint.mesh.geometry import chunks
 from caselint.mesh.topology import cells_of_points
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import finite_point, first_cells, plural
+from caselint.rulekit import RuleContext, finite_point, first_cells, plural
+from caselint.rulekit.meshview import cells_using, face_point_ids, used_points
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.mesh.analysis import Mesh
 
 #: Points closer than this fraction of the mesh's largest extent count as coincident: far
@@ -70,13 +70,6 @@ def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
     flagged[order[1:][same]] = True
     flagged[order[:-1][same]] = True
     return np.sort(ids[flagged]), int(np.count_nonzero(same))
-
-
-def cells_using(mesh: "Mesh", point_ids: np.ndarray) -> np.ndarray:
-    """Sorted ids of the volume cells using any of ``point_ids``."""
-    marked = np.zeros(mesh.n_points, dtype=bool)
-    marked[point_ids] = True
-    return cells_of_points(mesh.data, marked)
 
 
 def cell_pieces(mesh: "Mesh") -> np.ndarray:
@@ -157,11 +150,9 @@ def short_faces(mesh: "Mesh") -> np.ndarray:
 # -- checks --------------------------------------------------------------------------------
 
 
-def check_duplicate_points(ctx: "RuleContext") -> RuleResult:
+def check_duplicate_points(ctx: RuleContext) -> RuleResult:
     """Count extra copies of points at one place among the points the cells use."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     points, copies = coincident_points(mesh)
     unused = int(mesh.n_points - np.count_nonzero(mesh.used_points()))
     notes = ()
@@ -184,16 +175,14 @@ def check_duplicate_points(ctx: "RuleContext") -> RuleResult:
                       notes=notes)
 
 
-def check_non_manifold_faces(ctx: "RuleContext") -> RuleResult:
+def check_non_manifold_faces(ctx: RuleContext) -> RuleResult:
     """Count the faces (vertex sets) shared by more than two cells, or twice by one cell."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     occurrences = np.asarray(mesh.nonmanifold_faces, dtype=np.int64)
     if occurrences.size == 0:
         return RuleResult(measurements=(Measurement(
             0.0, detail=f"every one of the {mesh.n_faces} faces has at most two cells"),))
-    keys = np.sort(mesh.face_point_table(occurrences), axis=1)
+    keys = np.sort(face_point_ids(mesh, occurrences), axis=1)
     _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
     count = int(first.size)
     cells = np.unique(mesh.owner[occurrences])
@@ -208,11 +197,9 @@ def check_non_manifold_faces(ctx: "RuleContext") -> RuleResult:
     return RuleResult(measurements=(Measurement(float(count), where=where, detail=detail),))
 
 
-def check_disconnected_pieces(ctx: "RuleContext") -> RuleResult:
+def check_disconnected_pieces(ctx: RuleContext) -> RuleResult:
     """Count the pieces of cells joined through faces; list the cells outside the largest."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     label = mesh.cached("mesh_integrity.pieces", lambda: cell_pieces(mesh))
     roots, inverse, sizes = np.unique(label, return_inverse=True, return_counts=True)
     n = int(roots.size)
@@ -238,11 +225,9 @@ def check_disconnected_pieces(ctx: "RuleContext") -> RuleResult:
     return RuleResult(measurements=(Measurement(float(n), where=where, detail=detail),))
 
 
-def check_unmatched_boundary_elements(ctx: "RuleContext") -> RuleResult:
+def check_unmatched_boundary_elements(ctx: RuleContext) -> RuleResult:
     """Boundary elements of each group that lie on no face of a volume cell."""
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     if not mesh.group_names:
         return RuleResult.skip("the mesh file names no boundary groups")
     unmatched = mesh.unmatched_group_elements

@@ -1,50 +1,48 @@
-"""Near-wall resolution rules: first-layer uniformity, y+ against the wall treatment, cells
-across the boundary layer, and growth inside the wall layer stacks.
+"""Near-wall resolution rules: first-layer uniformity, cells across the boundary layer, and
+growth inside the wall layer stacks.
 
-All four read the layer stacks of :mod:`caselint.mesh.wall_layers` (walked once per mesh,
-shared through the mesh cache) over the faces of the boundaries whose role is ``wall``,
-and measure once per wall boundary so that a waiver can cover one wall. ``wall-yplus``
-lives in :mod:`caselint.rules.yplus`; this module registers all four.
+All three read the layer stacks of :mod:`caselint.mesh.wall_layers` (walked once per mesh,
+shared through the mesh cache) over the faces of the boundaries whose role is ``wall``
+(:mod:`caselint.rulekit.walls`), and measure once per wall boundary so that a waiver can
+cover one wall. ``wall-yplus`` reads the same stacks and lives in :mod:`caselint.rules.yplus`.
 """
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
 from caselint.mesh.wall_layers import END_CORE, END_WORDS
 from caselint.model import (
+    Grade,
     Limits,
     Measurement,
     Note,
-    Parameter,
     PlotData,
     PlotSeries,
     Rule,
     RuleResult,
     Where,
 )
-from caselint.rules import wall_flow
-from caselint.rules.mesh_quality import cell_names, finite_point, plural
-from caselint.rules.wall_scope import at_face, locate, number, settled, walls
-from caselint.rules.yplus import WALL_YPLUS
-
-if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
+from caselint.rulekit import (
+    RuleContext,
+    at_face,
+    cell_names,
+    finite_point,
+    first_limit,
+    plural,
+    settled,
+)
+from caselint.rulekit import wallflow
+from caselint.rulekit.walls import locate, walls
 
 _DPW = "AIAA Drag Prediction Workshop gridding guidelines"
-
-
-def _threshold(limits: Limits) -> float | None:
-    return limits.warn if limits.warn is not None else limits.error
 
 
 # -- wall-spacing-uniformity ---------------------------------------------------------------
 
 
-def check_wall_spacing_uniformity(ctx: "RuleContext") -> RuleResult:
+def check_wall_spacing_uniformity(ctx: RuleContext) -> RuleResult:
     """Per wall boundary, the largest over the smallest first-layer height."""
     found = walls(ctx)
     if isinstance(found, str):
@@ -87,26 +85,20 @@ def check_wall_spacing_uniformity(ctx: "RuleContext") -> RuleResult:
 # -- boundary-layer-cells ------------------------------------------------------------------
 
 
-def check_boundary_layer_cells(ctx: "RuleContext") -> RuleResult:
+def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
     """Cells within the estimated boundary-layer thickness, and the stack against it."""
-    flow = wall_flow.flow_data(ctx.case)
-    known = not isinstance(flow, str) and flow.length
-    delta, how = wall_flow.boundary_layer_thickness(flow) if known else (0.0, "")
+    flow = wallflow.flow_data(ctx.case)
+    if isinstance(flow, str):
+        return RuleResult.skip(flow)
+    delta, how = wallflow.boundary_layer_thickness(flow)
     found = walls(ctx, reach_m=delta)            # cells are counted up to delta only
     if isinstance(found, str):
         return RuleResult.skip(found)
-    if isinstance(flow, str):
-        return RuleResult.skip(flow)
-    if not flow.length:
-        return RuleResult.skip("the case gives no physics.flow.length")
-    try:
-        cover_min = number(ctx.params, "stack_cover_min", allow_none=True)
-    except ValueError as exc:
-        return RuleResult.skip(str(exc))
+    cover = ctx.grade("stack-cover")
     mesh, layers = ctx.mesh, found.layers
     count = layers.cells_within(delta).astype(np.float64)
-    cover = settled(layers.thickness / delta)
-    threshold = _threshold(ctx.limits)
+    cover_limits, cover = cover, settled(layers.thickness / delta)
+    threshold = first_limit(ctx.limits)
     measurements = []
     notes = [Note(f"boundary-layer thickness {delta:.3g} m: {how}; cells are counted along "
                   "the layer-shaped cells above each wall face (prisms, hexahedra), not into "
@@ -126,7 +118,8 @@ def check_boundary_layer_cells(ctx: "RuleContext") -> RuleResult:
                    f"means cells of at most {delta / threshold:.3g} m on average there; add "
                    "inflation layers or lower their growth ratio.")
         measurements.append(Measurement(float(count[r]), where, detail, fix))
-        where, worst, n_bad = locate(mesh, faces, cover[rows], cover_min, "lower", name)
+        where, worst, n_bad = locate(mesh, faces, cover[rows], first_limit(cover_limits),
+                                     "lower", name)
         r = rows[worst]
         layer_words = plural(int(layers.n_layers[r]), "layer")
         measurements.append(Measurement(
@@ -135,24 +128,20 @@ def check_boundary_layer_cells(ctx: "RuleContext") -> RuleResult:
             f"{at_face(mesh, int(faces[worst]))}, delta = {delta:.3g} m",
             f"Grow the inflation stack on '{name}' to at least delta = {delta:.3g} m: more "
             "layers, or a larger total thickness.",
-            label="thinnest layer stack over the boundary-layer thickness", unit="",
-            worse="lower", limits=Limits(warn=cover_min, error=None)))
+            label="thinnest layer stack over the boundary-layer thickness",
+            grade="stack-cover"))
     return RuleResult(tuple(measurements), notes=tuple(notes))
 
 
 # -- layer-growth --------------------------------------------------------------------------
 
 
-def check_layer_growth(ctx: "RuleContext") -> RuleResult:
+def check_layer_growth(ctx: RuleContext) -> RuleResult:
     """Largest layer-to-layer growth in the stacks, and the jump from the last layer to the core."""
     found = walls(ctx)
     if isinstance(found, str):
         return RuleResult.skip(found)
-    try:
-        jump = Limits(warn=number(ctx.params, "core_jump_warn", allow_none=True),
-                      error=number(ctx.params, "core_jump_error", allow_none=True))
-    except ValueError as exc:
-        return RuleResult.skip(str(exc))
+    jump = ctx.grade("core-jump")
     mesh, layers = ctx.mesh, found.layers
     measurements, notes, profiles = [], [], []
     for name, rows in found.items():
@@ -170,10 +159,10 @@ def check_layer_growth(ctx: "RuleContext") -> RuleResult:
         if stacked.size:
             faces = layers.faces[stacked]
             growth = settled(layers.max_growth[stacked])
-            where, worst, n_bad = locate(mesh, faces, growth, _threshold(ctx.limits), "higher",
+            where, worst, n_bad = locate(mesh, faces, growth, first_limit(ctx.limits), "higher",
                                          name)
             k = int(layers.growth_layer[stacked[worst]])
-            lead = (f"{n_bad} of {plural(len(faces), 'stack')} above {_threshold(ctx.limits):g}"
+            lead = (f"{n_bad} of {plural(len(faces), 'stack')} above {first_limit(ctx.limits):g}"
                     if n_bad else "no stack above the limit")
             measurements.append(Measurement(
                 float(growth[worst]), where,
@@ -183,7 +172,7 @@ def check_layer_growth(ctx: "RuleContext") -> RuleResult:
         if cored.size:
             faces = layers.faces[cored]
             values = settled(layers.core_jump[cored])
-            where, worst, n_bad = locate(mesh, faces, values, _threshold(jump), "higher", name)
+            where, worst, n_bad = locate(mesh, faces, values, first_limit(jump), "higher", name)
             r = cored[worst]
             measurements.append(Measurement(
                 float(values[worst]), where,
@@ -195,7 +184,7 @@ def check_layer_growth(ctx: "RuleContext") -> RuleResult:
                 "size (more layers or a larger growth up to the limit), or refine the core "
                 "next to the layers.",
                 label="largest height jump from the last layer to the core cell",
-                worse="higher", limits=jump))
+                grade="core-jump"))
     if not measurements:
         return RuleResult(skipped="no wall face has a layer stack of two or more cells, nor a "
                                   "stack ending in core cells", notes=tuple(notes))
@@ -234,7 +223,7 @@ WALL_SPACING_UNIFORMITY = Rule(
     limits=Limits(warn=1.5, error=3.0),
     hint="Set one absolute first-layer height for the whole wall in the mesher.",
     check=check_wall_spacing_uniformity,
-    needs=("mesh", "mesh.boundaries"),
+    needs=("walls", "mesh"),
     measures="ratio of the largest to the smallest first-layer height",
 )
 
@@ -248,7 +237,7 @@ BOUNDARY_LAYER_CELLS = Rule(
         "developed flow). Counting the cells lined up above each wall face that lie wholly "
         "within it, at least 10 are wanted (warning below 10, error below 5; common practice: "
         "5-10 or more cells across a boundary layer). The inflation stack should also reach "
-        "the edge of the boundary layer (warning when thinner than stack_cover_min times "
+        "the edge of the boundary layer (grade stack-cover: warning when thinner than 1 times "
         "delta, common practice)."
     ),
     source="Schlichting 1979; Blasius 1908; cell counts: common practice",
@@ -258,10 +247,11 @@ BOUNDARY_LAYER_CELLS = Rule(
          "boundary layer.",
     check=check_boundary_layer_cells,
     worse="lower",
-    needs=("mesh", "mesh.boundaries", "physics.fluid", "physics.flow", "physics.turbulence"),
-    parameters=(
-        Parameter("stack_cover_min", 1.0, "", "warning when the layer stack is thinner than "
-                  "this multiple of the boundary-layer thickness (common practice)"),
+    needs=("walls", "physics.flow.length", "mesh"),
+    grades=(
+        Grade("stack-cover", warn=1.0, unit="",
+              description="thinnest layer stack over the boundary-layer thickness (a minimum)",
+              source="common practice"),
     ),
     measures="fewest cells within the boundary-layer thickness",
 )
@@ -273,7 +263,7 @@ LAYER_GROWTH = Rule(
         "The largest ratio of a layer's height to the one below it inside the wall layer "
         "stacks. The " + _DPW + " ask for growth below 1.25 in the viscous layer; caselint "
         "warns above 1.2 and errs above 1.3 (common practice). The height of the first core cell "
-        "over the last layer's is graded separately (core_jump_warn, core_jump_error; "
+        "over the last layer's is graded separately (grade core-jump: "
         "expansion at most about 1.3, a doubling is an error: common practice)."
     ),
     source=_DPW + "; limits: common practice",
@@ -281,18 +271,16 @@ LAYER_GROWTH = Rule(
     limits=Limits(warn=1.2, error=1.3),
     hint="Lower the growth ratio of the inflation layers and add layers to keep the thickness.",
     check=check_layer_growth,
-    needs=("mesh", "mesh.boundaries"),
-    parameters=(
-        Parameter("core_jump_warn", 1.3, "", "warning above this core-cell to last-layer "
-                  "height ratio (common practice)"),
-        Parameter("core_jump_error", 2.0, "", "error above this core-cell to last-layer "
-                  "height ratio (common practice)"),
+    needs=("walls", "mesh"),
+    grades=(
+        Grade("core-jump", warn=1.3, error=2.0,
+              description="height of the first core cell over the last layer's",
+              source="common practice (expansion at most about 1.3; a doubling is an error)"),
     ),
     measures="largest layer-to-layer growth ratio",
 )
 
-RULES: tuple[Rule, ...] = (WALL_SPACING_UNIFORMITY, WALL_YPLUS, BOUNDARY_LAYER_CELLS,
-                           LAYER_GROWTH)
+RULES: tuple[Rule, ...] = (WALL_SPACING_UNIFORMITY, BOUNDARY_LAYER_CELLS, LAYER_GROWTH)
 
 
 @hookimpl

@@ -1,7 +1,8 @@
 """Built-in rule ``region-cell-size``: are the cells in each region of interest small enough?
 
 A region of the case file (``regions``: a box, a sphere or a cylinder, in metres) holds the
-cells whose centroid lies inside it. The size of a cell is the cube root of its volume
+cells whose centroid lies inside it; a region naming a cell zone of the mesh (``zone``)
+holds that zone's cells. The size of a cell is the cube root of its volume
 (the square root of its area on a 2-D mesh); the rule reports, per region, the largest size
 against the region's ``max_cell_size``, and how many cells and which exceed it.
 
@@ -17,56 +18,14 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
+from caselint import hookimpl
 from caselint.manifest.case import Region
 from caselint.model import Limits, Measurement, Note, Rule, RuleResult, Where
-from caselint.rules.mesh_quality import cell_names, finite_point, plural, worst_ids
+from caselint.rulekit import RuleContext, cell_names, finite_point, first_limit, plural, worst_ids
+from caselint.rulekit.regions import cell_sizes, cells_of_region, inside, region_centre
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.mesh.analysis import Mesh
-
-
-def cell_sizes(mesh: "Mesh") -> np.ndarray:
-    """(C,) cell sizes (m): cube root of |volume|, or square root of |area| in 2-D."""
-
-    def build() -> np.ndarray:
-        volumes = np.abs(mesh.cell_volumes)
-        return np.cbrt(volumes) if mesh.dim == 3 else np.sqrt(volumes)
-
-    return mesh.cached("regions.cell_sizes", build)
-
-
-def region_centre(region: Region) -> np.ndarray:
-    """The centre of a region (m)."""
-    g = region.geometry
-    if region.shape == "box":
-        return (np.asarray(g["min"]) + np.asarray(g["max"])) / 2.0
-    if region.shape == "sphere":
-        return np.asarray(g["center"], dtype=float)
-    return (np.asarray(g["start"]) + np.asarray(g["end"])) / 2.0
-
-
-def inside(region: Region, points: np.ndarray, dim: int = 3) -> np.ndarray:
-    """(N,) bool: which ``points`` (N, 3), in metres, lie inside ``region`` (surface included)."""
-    pts = np.array(points, dtype=float, copy=True)
-    if dim == 2:
-        pts[:, 2] = region_centre(region)[2]       # z plays no part on a 2-D mesh
-    g = region.geometry
-    if region.shape == "box":
-        lo, hi = np.asarray(g["min"]), np.asarray(g["max"])
-        return np.all((pts >= lo) & (pts <= hi), axis=1)
-    radius = float(g["radius"])
-    if region.shape == "sphere":
-        return ((pts - np.asarray(g["center"])) ** 2).sum(axis=1) <= radius**2
-    start, end = np.asarray(g["start"], dtype=float), np.asarray(g["end"], dtype=float)
-    axis = end - start
-    length = float(np.sqrt(axis @ axis))
-    axis = axis / length
-    rel = pts - start
-    along = rel @ axis
-    radial = rel - along[:, None] * axis
-    return (along >= 0) & (along <= length) & ((radial**2).sum(axis=1) <= radius**2)
 
 
 def _scaled(limits: Limits, size: float) -> Limits:
@@ -81,8 +40,12 @@ def _region_measurement(mesh: "Mesh", index: int, region: Region, sizes: np.ndar
     target = float(region.max_cell_size)
     key = f"regions[{index}]"
     m_limits = _scaled(limits, target)
-    cells = np.flatnonzero(inside(region, mesh.cell_centroids, mesh.dim))
+    cells = cells_of_region(region, mesh)
     nearest = ""
+    if cells.size == 0 and region.shape == "zone":
+        return Note(f"region '{region.name}': the mesh's cell zone "
+                    f"'{region.geometry['zone']}' holds no cell", where=Where(region=region.name,
+                                                                               key=key))
     if cells.size == 0:
         lo, hi = mesh.bounds
         centre = region_centre(region)
@@ -94,7 +57,7 @@ def _region_measurement(mesh: "Mesh", index: int, region: Region, sizes: np.ndar
         diff = mesh.cell_centroids[:, :mesh.dim] - centre[:mesh.dim]
         cells = np.array([int(np.argmin((diff**2).sum(axis=1)))])
         nearest = "no cell centroid lies inside the region; the cell nearest its centre "
-    threshold = m_limits.warn if m_limits.warn is not None else m_limits.error
+    threshold = first_limit(m_limits)
     local, count = worst_ids(sizes[cells], threshold, names=mesh.file_cell_ids(cells))
     listed = cells[local]
     worst = int(listed[0])
@@ -118,11 +81,9 @@ def _region_measurement(mesh: "Mesh", index: int, region: Region, sizes: np.ndar
                        label="largest cell size", unit="m", limits=m_limits)
 
 
-def check_region_cell_size(ctx: "RuleContext") -> RuleResult:
+def check_region_cell_size(ctx: RuleContext) -> RuleResult:
     """Largest cell size in each region of interest against its max_cell_size."""
     regions = ctx.case.regions
-    if not regions:
-        return RuleResult.skip("the case file defines no regions")
     targets = [(i, r) for i, r in enumerate(regions) if r.max_cell_size is not None]
     notes: list[Note] = [Note(f"region '{r.name}' has no max_cell_size and is not checked",
                               where=Where(region=r.name, key=f"regions[{i}]"))
@@ -130,8 +91,6 @@ def check_region_cell_size(ctx: "RuleContext") -> RuleResult:
     if not targets:
         return RuleResult(skipped="no region sets max_cell_size", notes=tuple(notes))
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     sizes = cell_sizes(mesh)
     measurements = []
     for i, region in targets:                            # a few regions per case
@@ -160,7 +119,7 @@ REGION_CELL_SIZE = Rule(
     hint=("Refine the mesh in the region (a refinement box or sphere around it in the mesher), "
           "or revise the region's max_cell_size."),
     check=check_region_cell_size,
-    needs=("mesh", "regions"),
+    needs=("regions", "mesh"),
     measures="largest cell size in a region, against its max_cell_size",
 )
 

@@ -33,20 +33,22 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
-from caselint.manifest.units import scale_to_m
-from caselint.mesh.rays import MAX_STEPS, wall_rays
+from caselint import hookimpl
+from caselint.manifest.case import LENGTH_UNITS
+from caselint.mesh.rays import MAX_STEPS
 from caselint.model import Limits, Measurement, Rule, RuleResult, Where
-from caselint.rules.gaps import FACING_ANGLE_DEG, gap_rays, wall_groups
+from caselint.rulekit import RuleContext, first_limit
+from caselint.rulekit.meshview import face_points
+from caselint.rulekit.rays import FACING_ANGLE_DEG, gap_rays, shared_wall_rays
+from caselint.rulekit.walls import wall_groups
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.manifest.case import Case
     from caselint.mesh.analysis import Mesh
 
 #: Mesh units the fix may suggest (those of the case schema's ``mesh.units``).
 UNITS: tuple[str, ...] = ("m", "cm", "mm", "um", "in", "ft")
-_OPEN_ROLES = ("inlet", "outlet", "opening")
+_OPEN_ROLES = ("inlet", "outlet", "open")
 # A face lies on the bounding box when within this fraction of the box diagonal of a side.
 _ON_BOX = 1e-6
 
@@ -69,10 +71,6 @@ def _extent(points: np.ndarray, dim: int) -> np.ndarray:
     return points[:, :dim].max(axis=0) - points[:, :dim].min(axis=0)
 
 
-def _face_points(mesh: "Mesh", faces: np.ndarray) -> np.ndarray:
-    return mesh.points[np.unique(mesh.face_point_table(faces).ravel())]
-
-
 def mesh_lengths(case: "Case", mesh: "Mesh", max_steps: int) -> MeshLengths:
     """The largest extent of the mesh and the candidates for its smallest typical length."""
     lo, hi = mesh.bounds
@@ -81,7 +79,7 @@ def mesh_lengths(case: "Case", mesh: "Mesh", max_steps: int) -> MeshLengths:
     candidates = [(float(extent.min()), "smallest extent of the mesh")]
     walls = wall_groups(case, mesh)
     if walls:
-        hits = wall_rays(mesh, walls, max_steps)
+        hits = shared_wall_rays(mesh, walls, max_steps)
         widths = hits.width[gap_rays(mesh, hits, FACING_ANGLE_DEG)]
         if widths.size:
             candidates.append((float(np.median(widths)), "median gap between walls"))
@@ -92,13 +90,13 @@ def mesh_lengths(case: "Case", mesh: "Mesh", max_steps: int) -> MeshLengths:
         off_box = ~np.any((np.abs(centres - lo[:dim]) <= tol) | (np.abs(centres - hi[:dim]) <= tol),
                           axis=1)
         if off_box.any():
-            size = float(_extent(_face_points(mesh, wall_faces[off_box]), dim).max())
+            size = float(_extent(face_points(mesh, wall_faces[off_box]), dim).max())
             candidates.append((size, "size of the walls inside the domain"))
     body = [g for g in case.domain.body if g in mesh.group_names]
     if body:
         faces = np.flatnonzero(np.isin(mesh.face_group, [mesh.group_names.index(g) for g in body]))
         if faces.size:
-            candidates.append((float(_extent(_face_points(mesh, faces), dim).max()),
+            candidates.append((float(_extent(face_points(mesh, faces), dim).max()),
                                "size of the body (domain.body)"))
     openings = sorted(g for g, role in case.mesh.boundaries.items()
                       if role in _OPEN_ROLES and g in mesh.group_names)
@@ -122,10 +120,10 @@ def mismatch(length: float, low: float, high: float) -> float:
 
 def likely_unit(length: float, low: float, high: float, declared: str) -> str | None:
     """The mesh unit that puts ``length`` inside the mesh's range, if not the declared one."""
-    declared_scale = scale_to_m(declared)
+    declared_scale = LENGTH_UNITS[declared]
     best: tuple[float, float, str] | None = None
     for unit in UNITS:
-        k = scale_to_m(unit) / declared_scale
+        k = LENGTH_UNITS[unit] / declared_scale
         score = (mismatch(length, k * low, k * high),
                  abs(math.log(length / (k * low))),   # flow lengths sit near the lower end
                  unit)
@@ -136,23 +134,18 @@ def likely_unit(length: float, low: float, high: float, declared: str) -> str | 
     return None if best[2] == declared or best[0] > 1.0 else best[2]
 
 
-def check_mesh_scale(ctx: "RuleContext") -> RuleResult:
+def check_mesh_scale(ctx: RuleContext) -> RuleResult:
     """Mismatch factor between the declared flow length and the lengths of the mesh."""
     case = ctx.case
     length = case.physics.flow.length
-    if length is None:
-        return RuleResult.skip("physics.flow.length is not given: there is no declared length "
-                               "to compare the mesh with")
     mesh = ctx.mesh
-    if mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     lengths = mesh_lengths(case, mesh, MAX_STEPS)
     (low, low_what), (high, high_what) = lengths.lowest, lengths.largest
     value = mismatch(length, low, high)
     detail = (f"physics.flow.length {length:.4g} m; the mesh's lengths run from {low:.4g} m "
               f"({low_what}) to {high:.4g} m ({high_what}), with mesh.units: {case.mesh.units}")
     fix = ""
-    threshold = ctx.limits.warn if ctx.limits.warn is not None else ctx.limits.error
+    threshold = first_limit(ctx.limits)
     if value > 1.0:
         side = "larger" if low > length else "smaller"
         detail += f"; the mesh is at least {value:.4g} times {side} than the flow length says"
@@ -192,7 +185,7 @@ MESH_SCALE = Rule(
     hint=("Check mesh.units against the unit the mesh was exported in, and physics.flow.length "
           "against the geometry."),
     check=check_mesh_scale,
-    needs=("mesh", "physics.flow.length"),
+    needs=("physics.flow.length", "mesh"),
     measures="mismatch factor between the declared flow length and the mesh's lengths",
 )
 

@@ -1,10 +1,10 @@
 """The ``time-resolution`` rule: does a transient run resolve the physics in time?
 
-Three measurements, each with its own limits (minima): time steps per period of the
-frequency of interest, saved results per period (against the Nyquist limit of 2), and the
-simulated time in flow-throughs (domain length / velocity). The frequency is the declared
-one (``time.frequency``) or that of vortex shedding, St U / L. Registered by
-:mod:`caselint.rules.time_step`.
+Three measurements, each graded by a grade of its own (minima): time steps per period of
+the frequency of interest (``steps``; ``steps.scale-resolving`` for LES, DES and DNS),
+saved results per period (``samples``, against the Nyquist limit of 2), and the simulated
+time in flow-throughs (``flow-throughs``, domain length / velocity). The frequency is the
+declared one (``time.frequency``) or that of vortex shedding, St U / L.
 """
 
 from __future__ import annotations
@@ -13,12 +13,14 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.model import Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
+from caselint import hookimpl
+from caselint.model import Grade, Limits, Measurement, Note, Parameter, Rule, RuleResult, Where
 from caselint.physics import timestep
-from caselint.rules.time_step import merged, number_param, scale_resolving, steady_skip
+from caselint.rulekit import RuleContext, first_limit
+from caselint.rulekit.cases import scale_resolving
+from caselint.rulekit.meshview import used_points
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.mesh.analysis import Mesh
 
 # Both from memory (see REFERENCES.md section 4); findings cite them without the tag.
@@ -32,13 +34,13 @@ def _count(value: float) -> float:
     return float(f"{value:.12g}")
 
 
-def _frequency(ctx: "RuleContext") -> tuple[float, str] | str:
+def _frequency(ctx: RuleContext) -> tuple[float, str] | str:
     """(frequency in Hz, how it was found), or why there is none."""
     case = ctx.case
     if case.time.frequency is not None:
         return case.time.frequency, f"the frequency of interest {case.time.frequency:.4g} Hz"
     flow = case.physics.flow
-    default = number_param(ctx, TIME_RESOLUTION.id, "bluff_body_strouhal", optional=True)
+    default = ctx.params["bluff_body_strouhal"]
     if flow.strouhal is None and (flow.kind != "external" or default is None):
         return ("no frequency of interest: give time.frequency, or physics.flow.strouhal "
                 "(or physics.flow.kind: external for a bluff-body estimate)")
@@ -73,48 +75,48 @@ def domain_length(mesh: "Mesh", direction) -> float:
         return float((hi - lo).max())
 
     def compute() -> float:
-        along = mesh.points[mesh.used_points()] @ np.asarray(direction, dtype=np.float64)
+        along = mesh.points[used_points(mesh)] @ np.asarray(direction, dtype=np.float64)
         return float(along.max() - along.min())
 
     return mesh.cached(f"time_resolution.length:{tuple(direction)}", compute)
 
 
-def _steps(ctx: "RuleContext", f: float, how: str) -> Measurement:
+def _steps(ctx: RuleContext, f: float, how: str) -> Measurement:
     case = ctx.case
     dt = case.time.step
     if scale_resolving(case):
-        name, words = "min_steps_per_period_scale_resolving", case.physics.turbulence.model
+        grade, words = "steps.scale-resolving", case.physics.turbulence.model
     else:
-        name, words = "min_steps_per_period", "URANS or laminar"
-    minimum = number_param(ctx, TIME_RESOLUTION.id, name)
-    limits = merged(ctx.limits, Limits(warn=minimum, error=None))
+        grade, words = "steps", "URANS or laminar"
+    limits = ctx.grade(grade)
     steps = _count(1.0 / (f * dt))
-    target = limits.warn if limits.warn is not None else limits.error
+    target = first_limit(limits)
     fix = (f"Use time.step <= {1.0 / (f * target):.3g} s for {target:g} steps per period "
            f"(now {dt:.3g} s)." if target else "")
+    minimum = f"{target:g}" if target is not None else "none"
     return Measurement(
-        value=steps, limits=limits, label="time steps per period", unit="",
+        value=steps, limits=limits, grade=grade, label="time steps per period",
         detail=(f"period {1.0 / f:.4g} s of {how}; time step {dt:.3g} s; minimum for "
-                f"{words}: {minimum:g}"),
+                f"{words}: {minimum}"),
         fix=fix, where=Where(key="time.step"))
 
 
-def _samples(ctx: "RuleContext", f: float, how: str) -> Measurement:
+def _samples(ctx: RuleContext, f: float, how: str) -> Measurement:
     interval = ctx.case.time.output_interval
-    minimum = number_param(ctx, TIME_RESOLUTION.id, "min_samples_per_period")
+    minimum = first_limit(ctx.grade("samples"))
     nyquist = timestep.nyquist_interval(f)
+    fix = (f"Save results at least every {1.0 / (f * minimum):.3g} s "
+           "(time.output_interval), or record probes every step." if minimum else "")
     return Measurement(
-        value=_count(1.0 / (f * interval)), limits=Limits(warn=minimum, error=None),
-        label="saved results per period", unit="",
+        value=_count(1.0 / (f * interval)), grade="samples",
+        label="saved results per period",
         detail=(f"output every {interval:.3g} s against the period {1.0 / f:.4g} s of {how}; "
                 f"the Nyquist limit is one result every {nyquist:.3g} s; monitors or probes "
                 "recording every step are not affected"),
-        fix=(f"Save results at least every {1.0 / (f * minimum):.3g} s "
-             "(time.output_interval), or record probes every step."),
-        where=Where(key="time.output_interval"))
+        fix=fix, where=Where(key="time.output_interval"))
 
 
-def _flow_throughs(ctx: "RuleContext") -> Measurement | str:
+def _flow_throughs(ctx: RuleContext) -> Measurement | str:
     case = ctx.case
     flow = case.physics.flow
     length = domain_length(ctx.mesh, flow.direction)
@@ -123,22 +125,22 @@ def _flow_throughs(ctx: "RuleContext") -> Measurement | str:
     along = ("along physics.flow.direction" if flow.direction is not None
              else "the largest side of the mesh's bounding box (no physics.flow.direction)")
     t_ft = timestep.flow_through_time(length, flow.velocity)
-    minimum = number_param(ctx, TIME_RESOLUTION.id, "min_flow_throughs")
+    minimum = first_limit(ctx.grade("flow-throughs"))
     count = _count(case.time.end / t_ft)
+    need = (f"; statistics need at least {minimum:g} (after the start-up transient)"
+            if minimum is not None else "")
     return Measurement(
-        value=count, limits=Limits(warn=minimum, error=None), label="flow-throughs", unit="",
+        value=count, grade="flow-throughs", label="flow-throughs",
         detail=(f"end time {case.time.end:.4g} s over a flow-through time of {t_ft:.4g} s "
-                f"(domain length {length:.4g} m {along} at {flow.velocity:.4g} m/s); "
-                f"statistics need at least {minimum:g} (after the start-up transient)"),
-        fix=f"Run to time.end >= {minimum * t_ft:.4g} s for {minimum:g} flow-throughs.",
+                f"(domain length {length:.4g} m {along} at {flow.velocity:.4g} m/s){need}"),
+        fix=(f"Run to time.end >= {minimum * t_ft:.4g} s for {minimum:g} flow-throughs."
+             if minimum else ""),
         where=Where(key="time.end"))
 
 
-def check_time_resolution(ctx: "RuleContext") -> RuleResult:
+def check_time_resolution(ctx: RuleContext) -> RuleResult:
     """Steps and saved results per period of interest, and flow-throughs of the run."""
     case = ctx.case
-    if (skip := steady_skip(case)) is not None:
-        return skip
     measurements: list[Measurement] = []
     missing: list[str] = []
     found = _frequency(ctx)
@@ -183,29 +185,38 @@ TIME_RESOLUTION = Rule(
         "per period, at least 20 for URANS and 50 for scale-resolving models (common "
         "practice); saved results per period, at least 2 (the Nyquist limit); and the "
         "simulated time in flow-throughs (domain length along the flow / velocity), at least "
-        "3 for statistics (common practice). A warn or error set in a rule set or the case "
-        "file applies to the steps per period; the other two take their parameters."
+        "3 for statistics (common practice). Grades: steps (the rule's warn and error), "
+        "steps.scale-resolving, samples and flow-throughs."
     ),
     source=_WILLIAMSON + "; " + _ROSHKO + "; Nyquist sampling limit; minimum counts: "
            "common practice",
     unit="",
-    limits=Limits(warn=None, error=None),
+    limits=Limits(warn=20.0, error=None),
+    main_grade="steps",
+    main_description="time steps per period of URANS and laminar runs",
+    grades=(
+        Grade("steps.scale-resolving", warn=50.0, description="time steps per period of LES, "
+              "DES variants and DNS", source="common practice"),
+        Grade("samples", warn=2.0, description="saved results per period",
+              source="Nyquist sampling limit"),
+        Grade("flow-throughs", warn=3.0, description="flow-through times of simulated time",
+              source="common practice"),
+    ),
     hint=("Reduce time.step, save results more often, or run longer (the finding says by "
           "how much)."),
     check=check_time_resolution,
     worse="lower",
-    needs=("mesh", "time", "physics.flow"),
+    needs=("transient", "mesh"),
     parameters=(
-        Parameter("min_steps_per_period", 20.0, "", "warning below this many time steps per "
-                  "period, URANS and laminar runs (common practice)"),
-        Parameter("min_steps_per_period_scale_resolving", 50.0, "", "the same for LES, DES "
-                  "variants and DNS (common practice)"),
-        Parameter("min_samples_per_period", 2.0, "", "warning below this many saved results "
-                  "per period (Nyquist limit 2)"),
-        Parameter("min_flow_throughs", 3.0, "", "warning below this many flow-through times "
-                  "of simulated time (common practice)"),
         Parameter("bluff_body_strouhal", 0.2, "", "Strouhal number assumed for external flow "
-                  "when the case gives none; null: no shedding estimate", nullable=True),
+                  "when the case gives none; null: no shedding estimate", nullable=True,
+                  exclusive_minimum=0),
     ),
     measures="time steps per period",
 )
+
+
+@hookimpl
+def caselint_register_rules() -> list[Rule]:
+    """The time-resolution rule."""
+    return [TIME_RESOLUTION]

@@ -1,28 +1,28 @@
-"""Built-in time-step rules: Courant, acoustic Courant and diffusion numbers per cell, and
-whether the run resolves the physics in time (steps per period, sampling, flow-throughs).
+"""Built-in time-step rules: Courant, acoustic Courant and diffusion numbers per cell.
 
 The numbers and limits come from :mod:`caselint.physics.timestep`; the velocity from
-:mod:`caselint.rules.flow_velocity`. Steady cases skip every rule ("steady case").
+:mod:`caselint.rulekit.velocity`. Steady cases skip every rule ("steady case": the need
+``transient``). Whether the run resolves the physics in time (steps per period, sampling,
+flow-throughs) is :mod:`caselint.rules.time_resolution`.
 
-Limits that depend on the case (explicit or implicit integration, the turbulence model,
-the declared scheme) are rule parameters; the check picks one pair and gives it to its
-measurement (``Measurement.limits``). A ``warn`` or ``error`` set in a rule set or the case
-file replaces that grade whatever the regime; a grade left unset keeps the regime's value.
+Limits that depend on the case (explicit or implicit integration, the turbulence model)
+are grades of the rule (``implicit``, ``implicit.scale-resolving``, ``explicit``); the check
+picks the grade of the case's regime. The ``explicit`` grade's error limit, when a rule set
+leaves it null, is the stability limit of the declared scheme.
 """
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.engine.hookspecs import hookimpl
-from caselint.errors import CaseFileError
+from caselint import hookimpl
 from caselint.model import (
+    Grade,
     Limits,
     Measurement,
     Note,
-    Parameter,
     PlotData,
     PlotSeries,
     Rule,
@@ -31,15 +31,13 @@ from caselint.model import (
     log_bin_edges,
 )
 from caselint.physics import timestep
-from caselint.rules.flow_velocity import flow_velocity
-from caselint.rules.mesh_quality import cell_names, finite_point, plural, worst_ids
+from caselint.rulekit import RuleContext, cell_names, finite_point, first_limit, plural, worst_ids
+from caselint.rulekit.cases import scale_resolving
+from caselint.rulekit.velocity import flow_velocity
+from caselint.rulekit.walls import wall_cell_count
 
 if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
     from caselint.manifest.case import Case
-
-#: Turbulence models that resolve turbulent scales in time (``physics.turbulence.model``).
-SCALE_RESOLVING: tuple[str, ...] = ("les", "des", "ddes", "iddes", "dns")
 
 _CFL = "Courant, Friedrichs & Lewy, Math. Ann. 100 (1928)"
 # Baldauf's published values are quoted from memory; caselint's table is computed.
@@ -47,52 +45,16 @@ _STABILITY = ("explicit limits computed from the Runge-Kutta amplification polyn
               "(upwind values agree with Baldauf, J. Comput. Phys. 227, 2008)")
 
 
-# -- shared helpers (also used by caselint.rules.time_resolution) ------------------------
-
-
-def steady_skip(case: "Case") -> RuleResult | None:
-    """The skip every time-step rule gives a steady case."""
-    return RuleResult.skip("steady case") if case.time.mode != "transient" else None
-
-
-def scale_resolving(case: "Case") -> bool:
-    """True for LES, DES variants and DNS."""
-    return case.physics.turbulence.model in SCALE_RESOLVING
-
-
-def merged(override: Limits, regime: Limits) -> Limits:
-    """The regime's limits with any grade set in a rule set or case file put in its place."""
-    return Limits(warn=override.warn if override.warn is not None else regime.warn,
-                  error=override.error if override.error is not None else regime.error)
-
-
-def number_param(ctx: "RuleContext", rule_id: str, name: str, *, optional: bool = False):
-    """A positive number parameter (None allowed when ``optional``); a clear error otherwise."""
-    value: Any = ctx.params.get(name)
-    if value is None and optional:
-        return None
-    if isinstance(value, (int, float)) and not isinstance(value, bool) and value > 0:
-        return float(value)
-    key = f"checks.rules.{rule_id}.{name}"
-    expected = "a positive number or null" if optional else "a positive number"
-    raise CaseFileError(str(ctx.case.path), f"rule {rule_id!r} parameter {name} must be "
-                        f"{expected}, got {value!r}", line=ctx.case.line_of(key), key=key)
-
-
-def _lowest(limits: Limits) -> float | None:
-    """The limit a value crosses first (the warning limit when set)."""
-    return limits.warn if limits.warn is not None else limits.error
-
-
-def _cell_number_result(ctx: "RuleContext", values: np.ndarray, limits: Limits, what: str,
+def _cell_number_result(ctx: RuleContext, values: np.ndarray, limits: Limits, what: str,
                         context: str, notes: tuple[Note, ...] = (),
-                        cells_fix: str = "where the flow is fastest") -> RuleResult:
+                        cells_fix: str = "where the flow is fastest",
+                        grade: str | None = None) -> RuleResult:
     """Measurement of the largest per-cell number: percentile, offenders, walls, fix."""
     mesh, dt = ctx.mesh, ctx.case.time.step
     valid = mesh.cell_volumes > 0.0
     if not valid.any():
         return RuleResult.skip("no cell has a positive volume (see inverted-cells)")
-    threshold = _lowest(limits)
+    threshold = first_limit(limits)
     checked = np.where(valid, values, 0.0)
     listed, count = worst_ids(checked, threshold, names=mesh.file_cell_ids())
     worst = int(listed[0])
@@ -104,7 +66,7 @@ def _cell_number_result(ctx: "RuleContext", values: np.ndarray, limits: Limits, 
     if count:
         share = 100.0 * count / n_valid
         over = np.flatnonzero(checked > threshold)
-        walls = _wall_cell_count(ctx, over)
+        walls = wall_cell_count(ctx.case, mesh, over)
         at_walls = f", {walls} of them next to walls" if walls is not None else ""
         parts.append(f"{plural(count, 'cell')} of {n_valid} ({share:.3g} %) above "
                      f"{threshold:g}{at_walls}, worst cell {name}")
@@ -126,25 +88,12 @@ def _cell_number_result(ctx: "RuleContext", values: np.ndarray, limits: Limits, 
     where = Where(cells=cell_names(mesh, listed) if count else (), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]), key="time.step")
     measurement = Measurement(value=peak, where=where, detail="; ".join(parts), fix=fix,
-                              limits=limits)
+                              limits=limits, grade=grade)
     cells = values[valid]
     plot = PlotData(title=f"{what[0].upper()}{what[1:]} per cell", x_label=what,
                     y_label="cells", series=(PlotSeries.histogram(cells, log_bin_edges(cells)),),
                     limits=limits, x_log=True)
     return RuleResult(measurements=(measurement,), notes=notes, plots=(plot,))
-
-
-def _wall_cell_count(ctx: "RuleContext", cells: np.ndarray) -> int | None:
-    """How many of ``cells`` touch a wall boundary; None when no wall group is named."""
-    mesh = ctx.mesh
-    walls = [mesh.group_names.index(name) for name, role in ctx.case.mesh.boundaries.items()
-             if role == "wall" and name in mesh.group_names]
-    if not walls:
-        return None
-    faces = np.flatnonzero(np.isin(mesh.face_group, walls))
-    at_wall = np.zeros(mesh.n_cells, dtype=bool)
-    at_wall[mesh.owner[faces]] = True
-    return int(at_wall[cells].sum())
 
 
 def _scheme_words(case: "Case") -> str:
@@ -159,103 +108,83 @@ def _scheme_words(case: "Case") -> str:
     return text
 
 
-def explicit_limit(ctx: "RuleContext", rule_id: str) -> tuple[float, str]:
-    """Error limit of an explicit run (parameter, else the scheme's) and how it was chosen."""
-    given = number_param(ctx, rule_id, "explicit_error", optional=True)
-    if given is not None:
-        return given, f"explicit_error parameter {given:g}"
+def _explicit_limits(ctx: RuleContext) -> tuple[Limits, str]:
+    """The ``explicit`` grade, its null error limit filled in with the stability limit of
+    the declared scheme, and how the error limit was chosen."""
+    grade = ctx.grade("explicit")
+    if grade.error is not None:
+        return grade, f"error limit {grade.error:g} of the rule set's explicit grade"
     time = ctx.case.time
     limit = timestep.explicit_courant_limit(time.scheme, time.advection_scheme)
-    return limit, f"stability limit {limit:g} of {_scheme_words(ctx.case)}"
+    return (Limits(warn=grade.warn, error=limit),
+            f"stability limit {limit:g} of {_scheme_words(ctx.case)}")
 
 
 # -- courant -----------------------------------------------------------------------------
 
 
-def check_courant(ctx: "RuleContext") -> RuleResult:
+def check_courant(ctx: RuleContext) -> RuleResult:
     """Largest per-cell Courant number against the limit of the integration and model."""
     case = ctx.case
-    if (skip := steady_skip(case)) is not None:
-        return skip
-    if case.time.step is None:
-        return RuleResult.skip("time.step is not given")
-    if ctx.mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     velocity = flow_velocity(ctx)
     if isinstance(velocity, str):
         return RuleResult.skip(velocity)
     integration = case.time.integration_or_implied
     notes: tuple[Note, ...] = ()
     if integration == "explicit":
-        error, how = explicit_limit(ctx, COURANT.id)
-        regime, words = Limits(warn=None, error=error), f"explicit run, {how}"
+        grade = "explicit"
+        limits, how = _explicit_limits(ctx)
+        words = f"explicit run, {how}"
     else:
-        if scale_resolving(case):
-            warn = number_param(ctx, COURANT.id, "implicit_scale_resolving_warn")
-            words = f"implicit run with {case.physics.turbulence.model}, warning above {warn:g}"
-        else:
-            warn = number_param(ctx, COURANT.id, "implicit_warn")
-            words = f"implicit run, warning above {warn:g}"
-        regime = Limits(warn=warn, error=None)
+        grade = "implicit.scale-resolving" if scale_resolving(case) else "implicit"
+        limits = ctx.grade(grade)
+        model = case.physics.turbulence.model if scale_resolving(case) else None
+        words = f"implicit run{f' with {model}' if model else ''}, " + (
+            f"warning above {limits.warn:g}" if limits.warn is not None else "no warning limit")
         if integration is None:
             words += " (time.integration not given: graded as implicit)"
             notes = (Note("time.integration is not given, so the Courant number is graded as "
                           "for an implicit run; an explicit run has a hard stability limit, "
                           "declare it", Where(key="time")),)
     values = timestep.courant_numbers(ctx.mesh, case.time.step, velocity.face)
-    return _cell_number_result(ctx, values, merged(ctx.limits, regime), "Courant number",
-                               f"velocity: {velocity.described}; {words}", notes)
+    return _cell_number_result(ctx, values, limits, "Courant number",
+                               f"velocity: {velocity.described}; {words}", notes, grade=grade)
 
 
 # -- acoustic-courant ----------------------------------------------------------------------
 
 
-def check_acoustic_courant(ctx: "RuleContext") -> RuleResult:
+def check_acoustic_courant(ctx: RuleContext) -> RuleResult:
     """Largest (|u| + c) dt / dx of an explicit compressible run against its stability limit."""
     case = ctx.case
-    if (skip := steady_skip(case)) is not None:
-        return skip
-    if not case.physics.compressible:
-        return RuleResult.skip("the case does not declare compressible flow "
-                               "(physics.compressible)")
     integration = case.time.integration_or_implied
     if integration != "explicit":
         why = ("time.integration is not given" if integration is None
                else "implicit integration")
         return RuleResult.skip(f"{why}: the acoustic limit applies to explicit runs")
-    if case.time.step is None:
-        return RuleResult.skip("time.step is not given")
-    if case.physics.fluid.sound_speed is None:
-        return RuleResult.skip("physics.fluid.sound_speed is not given")
-    if ctx.mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     velocity = flow_velocity(ctx)
     if isinstance(velocity, str):
         return RuleResult.skip(velocity)
-    error, how = explicit_limit(ctx, ACOUSTIC_COURANT.id)
+    limits, how = _explicit_limits(ctx)
     c = case.physics.fluid.sound_speed
     values = timestep.acoustic_courant_numbers(ctx.mesh, case.time.step, velocity.face, c)
     return _cell_number_result(
-        ctx, values, merged(ctx.limits, Limits(warn=None, error=error)), "acoustic Courant number",
-        f"sound speed {c:.4g} m/s; velocity: {velocity.described}; {how}")
+        ctx, values, limits, "acoustic Courant number",
+        f"sound speed {c:.4g} m/s; velocity: {velocity.described}; {how}", grade="explicit")
 
 
 # -- diffusion-number ----------------------------------------------------------------------
 
 
-def check_diffusion_number(ctx: "RuleContext") -> RuleResult:
+def check_diffusion_number(ctx: RuleContext) -> RuleResult:
     """Largest kappa dt sum_i 1/dx_i^2 of an explicit run against 1/2."""
     case = ctx.case
-    if (skip := steady_skip(case)) is not None:
-        return skip
     integration = case.time.integration_or_implied
     if integration == "implicit":
         return RuleResult.skip("implicit integration has no diffusion stability limit")
     if integration is None:
         return RuleResult.skip("time.integration is not given (an implicit run has no "
                                "diffusion stability limit; declare explicit to check it)")
-    if case.time.step is None:
-        return RuleResult.skip("time.step is not given")
     fluid = case.physics.fluid
     candidates = [(v, words) for v, words in (
         (fluid.nu, "kinematic viscosity"), (fluid.thermal_diffusivity, "thermal diffusivity"))
@@ -263,8 +192,6 @@ def check_diffusion_number(ctx: "RuleContext") -> RuleResult:
     if not candidates:
         return RuleResult.skip("no diffusivity: give physics.fluid viscosity and density, "
                                "kinematic_viscosity or thermal_diffusivity")
-    if ctx.mesh.n_cells == 0:
-        return RuleResult.skip("the mesh has no volume cells")
     kappa, words = max(candidates)
     context = f"{words} {kappa:.4g} m^2/s (the larger diffusivity given)"
     if case.physics.turbulence.model not in (None, "laminar", "dns"):
@@ -298,19 +225,21 @@ COURANT = Rule(
     ),
     source=_CFL + "; " + _STABILITY + "; implicit limits: common practice",
     unit="",
-    limits=Limits(warn=None, error=None),
+    limits=Limits(warn=5.0, error=None),
+    main_grade="implicit",
+    main_description="implicit runs with RANS, URANS or laminar models (common practice)",
+    grades=(
+        Grade("implicit.scale-resolving", warn=1.0,
+              description="implicit runs with LES, DES, DDES, IDDES or DNS",
+              source="common practice"),
+        Grade("explicit", error=None,
+              description="explicit runs; a null error limit is the stability limit of "
+                          "time.scheme with time.advection_scheme (forward Euler with upwind, "
+                          "1.0, when not declared)", source=_STABILITY),
+    ),
     hint=_STEP_HINT,
     check=check_courant,
-    needs=("mesh", "time.step", "physics.flow"),
-    parameters=(
-        Parameter("implicit_warn", 5.0, "", "warning limit of implicit runs with RANS, URANS "
-                  "or laminar models (common practice)"),
-        Parameter("implicit_scale_resolving_warn", 1.0, "", "warning limit of implicit runs "
-                  "with LES, DES, DDES, IDDES or DNS (common practice)"),
-        Parameter("explicit_error", None, "", "error limit of explicit runs; null: the "
-                  "stability limit of time.scheme with time.advection_scheme (forward Euler "
-                  "with upwind, 1.0, when not declared)"),
-    ),
+    needs=("transient", "time.step", "mesh"),
     measures="largest cell Courant number",
 )
 
@@ -332,14 +261,13 @@ ACOUSTIC_COURANT = Rule(
            + _STABILITY,
     unit="",
     limits=Limits(warn=None, error=None),
+    main_grade="explicit",
+    main_description=("a null error limit is the stability limit of time.scheme with "
+                      "time.advection_scheme (1.0 when not declared)"),
     hint=("Reduce time.step (the finding gives the largest step that meets the limit); for a "
           "low-Mach flow an implicit or pressure-based solver avoids the acoustic limit."),
     check=check_acoustic_courant,
-    needs=("mesh", "time.step", "physics.fluid.sound_speed", "physics.flow"),
-    parameters=(
-        Parameter("explicit_error", None, "", "error limit; null: the stability limit of "
-                  "time.scheme with time.advection_scheme (1.0 when not declared)"),
-    ),
+    needs=("transient", "compressible", "time.step", "physics.fluid.sound_speed", "mesh"),
     measures="largest cell acoustic Courant number",
 )
 
@@ -360,7 +288,7 @@ DIFFUSION_NUMBER = Rule(
     hint=("Reduce time.step (the finding gives the largest step that meets the limit), "
           "enlarge the smallest cells, or integrate the diffusion terms implicitly."),
     check=check_diffusion_number,
-    needs=("mesh", "time.step", "physics.fluid"),
+    needs=("transient", "time.step", "mesh"),
     measures="largest cell diffusion number",
 )
 
@@ -370,6 +298,4 @@ RULES: tuple[Rule, ...] = (COURANT, ACOUSTIC_COURANT, DIFFUSION_NUMBER)
 @hookimpl
 def caselint_register_rules() -> list[Rule]:
     """The built-in time-step stability rules."""
-    from caselint.rules.time_resolution import TIME_RESOLUTION
-
-    return [*RULES, TIME_RESOLUTION]
+    return list(RULES)

@@ -1,19 +1,21 @@
 """Rule ``wall-yplus``: the first wall distance in wall units against the wall treatment.
 
 y+ = y u_tau / nu at every wall face, with y the first cell centre's wall distance in a
-finite-volume case and the first node's in a finite-element one (the same mesh gives twice
-the y+), and u_tau from a mesh field or a correlation (:mod:`caselint.rules.wall_flow`).
-The band depends on the declared wall treatment, so the low and high sides carry their
-own limits (from the rule's parameters); the rule's own limits are the resolved band.
+cell-centred finite-volume case and the first node's in a vertex-centred finite-volume or
+finite-element one (on a prism or hexahedral layer the same mesh gives twice the y+), and
+u_tau from a mesh field or a correlation (:mod:`caselint.rulekit.wallflow`). The band
+depends on the declared wall treatment: each side of each band is a grade of the rule
+(``resolved``, the main grade; ``wall-function.low``, ``wall-function.high``,
+``blended.buffer``, ``les.dx-plus``, ``les.dz-plus``).
 """
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import numpy as np
 
+from caselint import hookimpl
 from caselint.model import (
+    Grade,
     Limits,
     Measurement,
     Note,
@@ -25,27 +27,12 @@ from caselint.model import (
     Where,
     log_bin_edges,
 )
-from caselint.rules import wall_flow
-from caselint.rules.mesh_quality import finite_point, plural
-from caselint.rules.wall_scope import (
-    area_share, at_face, distribution, locate, number, walls,
-)
-
-if TYPE_CHECKING:
-    from caselint.engine.context import RuleContext
-
-
-def treatment(case) -> tuple[str | None, str]:
-    """The wall treatment to judge against and why, or None and the skip reason."""
-    turb = case.physics.turbulence
-    if turb.wall_treatment:
-        return turb.wall_treatment, f"declared {turb.wall_treatment} wall treatment"
-    if turb.model in ("laminar", "dns"):
-        return "resolved", f"a {turb.model} case resolves the wall"
-    if turb.model is None:
-        return None, "the case gives no physics.turbulence.model nor wall_treatment"
-    return None, (f"the case does not say physics.turbulence.wall_treatment (resolved, "
-                  f"wall-function or blended) for the {turb.model} model")
+from caselint.rulekit import RuleContext, at_face, finite_point, first_limit, plural
+from caselint.rulekit import wallflow
+from caselint.rulekit.cases import stores_at_nodes, wall_treatment
+from caselint.rulekit.meshview import face_point_ids
+from caselint.rulekit.walls import locate, walls
+from caselint.rulekit.words import area_distribution, area_share
 
 
 def _spacing(mesh, faces, normals, direction):
@@ -55,7 +42,7 @@ def _spacing(mesh, faces, normals, direction):
     usable = size > 0.1                       # flow not (nearly) normal to the wall
     t = tang / np.where(usable, size, 1.0)[:, None]
     s = np.cross(normals, t)
-    pts = mesh.points[mesh.face_point_table(faces)]
+    pts = mesh.points[face_point_ids(mesh, faces)]
     along = np.einsum("ikj,ij->ik", pts, t)
     across = np.einsum("ikj,ij->ik", pts, s)
     return np.ptp(along, axis=1), np.ptp(across, axis=1), usable
@@ -64,7 +51,7 @@ def _spacing(mesh, faces, normals, direction):
 class _Band:
     """Builds the measurements of one boundary for the declared wall treatment."""
 
-    def __init__(self, ctx: "RuleContext", fv: bool, nu: float, source: str) -> None:
+    def __init__(self, ctx: RuleContext, fv: bool, nu: float, source: str) -> None:
         self.ctx, self.fv, self.nu, self.source = ctx, fv, nu, source
         self.p = ctx.params
         self.label = "y+ of the first cell centre" if fv else "y+ of the first node"
@@ -76,9 +63,10 @@ class _Band:
             return f"a first-cell centre {y:.3g} m from the wall (first-layer height {2 * y:.3g} m)"
         return f"a first-layer height of {y:.3g} m"
 
-    def side(self, mesh, name, faces, yp, u_tau, worse, limits, what) -> Measurement:
-        """The extreme y+ on one side of the band, located, with a fix for that side."""
-        threshold = limits.warn if limits.warn is not None else limits.error
+    def side(self, mesh, name, faces, yp, u_tau, worse, grade, what) -> Measurement:
+        """The extreme y+ on one side of the band (``grade``), located, with a fix."""
+        limits = self.ctx.grade(grade)
+        threshold = first_limit(limits)
         where, worst, count = locate(mesh, faces, yp, threshold, worse, name)
         word = "above" if worse == "higher" else "below"
         lead = (f"{count} of {plural(len(faces), 'face')} {word} {threshold:g}"
@@ -96,12 +84,11 @@ class _Band:
             fix = (f"Thicken the first layer: {self._height(threshold, u)} gives y+ = "
                    f"{threshold:g} at u_tau = {u:.3g} m/s.")
         return Measurement(float(yp[worst]), where, detail, fix,
-                           label=f"{what} {self.label}", worse=worse, limits=limits)
+                           label=f"{what} {self.label}", worse=worse, grade=grade)
 
     def blended(self, mesh, name, faces, yp, areas, u_tau) -> Measurement:
         """Share of the wall area whose y+ lies in the buffer layer."""
-        lo, hi = number(self.p, "buffer_min"), number(self.p, "buffer_max")
-        limit = number(self.p, "blended_buffer_share", allow_none=True)
+        lo, hi = float(self.p["buffer_min"]), float(self.p["buffer_max"])
         inside = (yp > lo) & (yp < hi)
         share = area_share(inside, areas)
         ids = np.flatnonzero(inside)
@@ -117,20 +104,20 @@ class _Band:
                            f"with {lo:g} < y+ < {hi:g}; y+ from {self.source}", fix,
                            label=f"share of the wall area in the buffer layer ({lo:g} < y+ < "
                                  f"{hi:g})",
-                           unit="%", worse="higher", limits=Limits(warn=limit, error=None))
+                           grade="blended.buffer")
 
     def les(self, mesh, name, faces, normals, u_tau, direction) -> list[Measurement]:
         """Largest streamwise and spanwise wall spacings in wall units (wall-resolved LES)."""
         dx, dz, usable = _spacing(mesh, faces, normals, direction)
         out = []
-        sides = [("dx", dx, "streamwise", "les_dx_plus_max")]
+        sides = [("dx", dx, "streamwise", "les.dx-plus")]
         if mesh.dim == 3:
-            sides.append(("dz", dz, "spanwise", "les_dz_plus_max"))
-        for tag, extent, word, param in sides:
+            sides.append(("dz", dz, "spanwise", "les.dz-plus"))
+        for tag, extent, word, grade in sides:
             if not usable.any():
                 continue
             plus = np.where(usable, extent * u_tau / self.nu, 0.0)
-            limit = number(self.p, param, allow_none=True)
+            limit = first_limit(self.ctx.grade(grade))
             where, worst, count = locate(mesh, faces, plus, limit, "higher", name)
             u = float(u_tau.max())
             fix = (f"Refine the wall faces {word}: a {word} face size of at most "
@@ -139,35 +126,31 @@ class _Band:
             lead = f"{plural(count, 'face')} above {limit:g}; " if count else ""
             detail = f"{lead}largest at {at_face(mesh, int(faces[worst]))}"
             out.append(Measurement(float(plus[worst]), where, detail, fix,
-                                   label=f"largest {word} wall spacing {tag}+", worse="higher",
-                                   limits=Limits(warn=limit, error=None)))
+                                   label=f"largest {word} wall spacing {tag}+", grade=grade))
         return out
 
 
-def check_wall_yplus(ctx: "RuleContext") -> RuleResult:
+def check_wall_yplus(ctx: RuleContext) -> RuleResult:
     """y+ of the first wall distance on every wall face, graded for the wall treatment."""
     found = walls(ctx)
     if isinstance(found, str):
         return RuleResult.skip(found)
     case, mesh, layers = ctx.case, ctx.mesh, found.layers
-    mode, why = treatment(case)
+    mode, why = wall_treatment(case)
     if mode is None:
         return RuleResult.skip(why)
-    fv = case.physics.method != "finite-element"
-    friction, notes = wall_flow.mesh_friction(case, mesh, layers.faces, layers.cells)
-    flow = wall_flow.flow_data(case, need_kind=friction is None, need_model=friction is None,
-                               need_velocity=friction is None)
+    fv = not stores_at_nodes(case.physics.method)
+    friction, notes = wallflow.mesh_friction(case, mesh, layers.faces, layers.cells)
+    flow = wallflow.flow_data(case, need_kind=friction is None, need_model=friction is None,
+                              need_velocity=friction is None)
     if isinstance(flow, str):
         return RuleResult(skipped=flow, notes=tuple(Note(n) for n in notes))
-    try:
-        if friction is None:
-            friction = wall_flow.correlation_friction(
-                flow, mesh.face_centroids[layers.faces], number(ctx.params, "relative_roughness"))
-            if isinstance(friction, str):
-                return RuleResult.skip(friction)
-        return _graded(ctx, found, mode, why, fv, flow, friction, notes)
-    except ValueError as exc:       # a rule parameter that is not a number
-        return RuleResult.skip(str(exc))
+    if friction is None:
+        friction = wallflow.correlation_friction(
+            flow, mesh.face_centroids[layers.faces], float(ctx.params["relative_roughness"]))
+        if isinstance(friction, str):
+            return RuleResult.skip(friction)
+    return _graded(ctx, found, mode, why, fv, flow, friction, notes)
 
 
 def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
@@ -175,7 +158,8 @@ def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
     distance = layers.centre_distance if fv else layers.first_height
     y_plus = distance * friction.u_tau / flow.nu
     band = _Band(ctx, fv, flow.nu, friction.source)
-    wall_kind = "first cell centre (finite volume)" if fv else "first node (finite element)"
+    wall_kind = ("first cell centre (cell-centred storage)" if fv else
+                 f"first node ({ctx.case.physics.method} storage)")
     messages = [f"y+ from {friction.source}; wall distance of the {wall_kind}; {why}",
                 *friction.notes, *notes]
     no_stack = int(np.count_nonzero(~layers.layered_first))
@@ -197,23 +181,20 @@ def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
         faces, yp, u_tau = layers.faces[good], y_plus[good], friction.u_tau[good]
         per_wall.append((name, yp))
         areas = mesh.face_areas[faces]
-        lo, hi = number(ctx.params, "buffer_min"), number(ctx.params, "buffer_max")
+        lo, hi = float(ctx.params["buffer_min"]), float(ctx.params["buffer_max"])
         by_area.append(Note(
-            f"{band.label} on '{name}' by area: {distribution(yp, areas)}; "
+            f"{band.label} on '{name}' by area: {area_distribution(yp, areas)}; "
             f"{area_share(yp < lo, areas):.0f} % below {lo:g}, "
             f"{area_share((yp >= lo) & (yp <= hi), areas):.0f} % from {lo:g} to {hi:g}, "
             f"{area_share(yp > hi, areas):.0f} % above {hi:g}", Where(boundary=name)))
         if mode == "resolved":
             measurements.append(band.side(mesh, name, faces, yp, u_tau, "higher",
-                                          ctx.limits, "largest"))
+                                          "resolved", "largest"))
         elif mode == "wall-function":
-            p = ctx.params
-            low = Limits(warn=None, error=number(p, "wall_function_min"))
-            high = Limits(warn=number(p, "wall_function_max", allow_none=True),
-                          error=number(p, "wall_function_max_error", allow_none=True))
-            measurements.append(band.side(mesh, name, faces, yp, u_tau, "lower", low, "smallest"))
-            measurements.append(band.side(mesh, name, faces, yp, u_tau, "higher", high,
-                                          "largest"))
+            measurements.append(band.side(mesh, name, faces, yp, u_tau, "lower",
+                                          "wall-function.low", "smallest"))
+            measurements.append(band.side(mesh, name, faces, yp, u_tau, "higher",
+                                          "wall-function.high", "largest"))
         else:
             measurements.append(band.blended(mesh, name, faces, yp, areas, u_tau))
         if les and flow.direction is not None:
@@ -231,13 +212,12 @@ def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
                       plots=(_yplus_histogram(per_wall, band.label, drawn),))
 
 
-def _drawn_limits(ctx: "RuleContext", mode: str) -> Limits | None:
+def _drawn_limits(ctx: RuleContext, mode: str) -> Limits | None:
     """The upper limits drawn on the y+ histogram: the band's top for the declared treatment."""
     if mode == "resolved":
         return ctx.limits
     if mode == "wall-function":
-        return Limits(warn=number(ctx.params, "wall_function_max", allow_none=True),
-                      error=number(ctx.params, "wall_function_max_error", allow_none=True))
+        return ctx.grade("wall-function.high")
     return None
 
 
@@ -256,19 +236,21 @@ WALL_YPLUS = Rule(
     title="First-cell y+ against the wall treatment",
     rationale=(
         "y+ = y u_tau / nu of the first wall distance y (the first cell centre's in a "
-        "finite-volume case, the first node's in a finite-element one) decides whether the "
-        "wall treatment works as intended. Wall regions (Pope, Turbulent Flows, 2000, 7.1): "
+        "cell-centred finite-volume case, the first node's, one layer height, in a "
+        "vertex-centred finite-volume or finite-element one; physics.method) decides whether "
+        "the wall treatment works as intended. Wall regions (Pope, Turbulent Flows, 2000, 7.1): "
         "viscous sublayer y+ < 5, buffer layer 5-30, log layer above 30. A resolved (low-Re) "
         "wall needs y+ about 1 (Menter, AIAA J. 32, 1994: SST wall omega for y+ < 3; AIAA Drag "
-        "Prediction Workshop gridding guidelines): warning above 1, error above 5 (the rule's "
-        "limits, which apply to resolved walls only). Log-law wall functions (Launder & Spalding 1974) need the first point in "
-        "the log layer, 30 to 300: below wall_function_min the log law is applied outside "
-        "its range (error); above wall_function_max a warning, above wall_function_max_error "
-        "(500, Versteeg & Malalasekera 2007) an error. Blended treatments accept any y+ but "
-        "are least accurate in the buffer layer: a warning when more than "
-        "blended_buffer_share % of a wall's area lies there (common practice). Wall-resolved "
-        "LES also needs dx+ <= 150 and dz+ <= 40 along the wall (Piomelli & Chasnov 1996; "
-        "Georgiadis et al., AIAA J. 48, 2010). u_tau comes from a wall-shear or friction-"
+        "Prediction Workshop gridding guidelines): grade resolved, warning above 1, error "
+        "above 5 (the rule's main limits). Log-law wall functions (Launder & Spalding 1974) "
+        "need the first point in the log layer, 30 to 300: grade wall-function.low, an error "
+        "below 30, where the log law is applied outside its range; grade wall-function.high, "
+        "a warning above 300 and an error above 500 (Versteeg & Malalasekera 2007). Blended "
+        "treatments accept any y+ but are least accurate in the buffer layer: grade "
+        "blended.buffer, a warning when more than 50 % of a wall's area lies there (common "
+        "practice). Wall-resolved LES also needs dx+ <= 150 (grade les.dx-plus) and dz+ <= 40 "
+        "(les.dz-plus) along the wall (Piomelli & Chasnov 1996; Georgiadis et al., AIAA J. 48, "
+        "2010). u_tau comes from a wall-shear or friction-"
         "velocity field in the mesh file when there is one, else from Schlichting's "
         "(turbulent) or Blasius' (laminar) flat-plate skin friction for external flow and "
         "the Colebrook equation (64/Re when laminar) for internal flow. Band values are "
@@ -279,27 +261,43 @@ WALL_YPLUS = Rule(
             "Georgiadis et al. 2010; Schlichting 1979; Blasius 1908; Colebrook 1939"),
     unit="",
     limits=Limits(warn=1.0, error=5.0),
+    main_grade="resolved",
+    main_description="resolved (low-Re) walls: largest y+",
+    grades=(
+        Grade("wall-function.low", error=30.0, worse="lower",
+              description="wall functions: smallest y+ (buffer layer and below)",
+              source="Launder & Spalding 1974"),
+        Grade("wall-function.high", warn=300.0, error=500.0,
+              description="wall functions: largest y+",
+              source="log layer to 300: Launder & Spalding 1974; error above 500: Versteeg & "
+                     "Malalasekera 2007"),
+        Grade("blended.buffer", warn=50.0, unit="%",
+              description="blended treatment: percent of a wall's area in the buffer layer",
+              source="common practice"),
+        Grade("les.dx-plus", warn=150.0,
+              description="wall-resolved LES: largest streamwise spacing dx+",
+              source="Piomelli & Chasnov 1996"),
+        Grade("les.dz-plus", warn=40.0,
+              description="wall-resolved LES: largest spanwise spacing dz+",
+              source="Georgiadis et al. 2010"),
+    ),
     hint=("Change the first-layer height to bring y+ into the band of the wall treatment, or "
           "choose the wall treatment that matches the mesh."),
     check=check_wall_yplus,
-    needs=("mesh", "mesh.boundaries", "physics.method", "physics.fluid", "physics.flow",
-           "physics.turbulence"),
+    needs=("walls", "mesh"),
     parameters=(
-        Parameter("wall_function_min", 30.0, "", "wall functions: error below this y+ "
-                  "(buffer layer and below; Launder & Spalding 1974)"),
-        Parameter("wall_function_max", 300.0, "", "wall functions: warning above this y+"),
-        Parameter("wall_function_max_error", 500.0, "", "wall functions: error above this y+ "
-                  "(Versteeg & Malalasekera 2007)"),
-        Parameter("buffer_min", 5.0, "", "lower edge of the buffer layer (Pope 2000)"),
-        Parameter("buffer_max", 30.0, "", "upper edge of the buffer layer (Pope 2000)"),
-        Parameter("blended_buffer_share", 50.0, "%", "blended treatment: warning when more of "
-                  "a wall's area than this lies in the buffer layer (common practice)"),
-        Parameter("les_dx_plus_max", 150.0, "", "wall-resolved LES: warning above this "
-                  "streamwise spacing dx+ (Piomelli & Chasnov 1996)"),
-        Parameter("les_dz_plus_max", 40.0, "", "wall-resolved LES: warning above this "
-                  "spanwise spacing dz+ (Georgiadis et al. 2010)"),
+        Parameter("buffer_min", 5.0, "", "lower edge of the buffer layer (Pope 2000)",
+                  minimum=0),
+        Parameter("buffer_max", 30.0, "", "upper edge of the buffer layer (Pope 2000)",
+                  minimum=0),
         Parameter("relative_roughness", 0.0, "", "internal flow: wall roughness over the "
-                  "hydraulic diameter, eps/D, in the Colebrook equation"),
+                  "hydraulic diameter, eps/D, in the Colebrook equation", minimum=0),
     ),
     measures="largest first-cell y+",
 )
+
+
+@hookimpl
+def caselint_register_rules() -> list[Rule]:
+    """The y+ rule."""
+    return [WALL_YPLUS]

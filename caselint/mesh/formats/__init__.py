@@ -5,6 +5,15 @@
 chosen for a path).
 """
 
-from caselint.mesh.formats import meshio_files
+from caselint.mesh.formats import (
+    cgns,
+    face_folder_reader,
+    face_msh,
+    meshio_files,
+    su2,
+    vtk_legacy,
+    vtu_files,
+)
 
-BUILTIN_READERS = (meshio_files.READER,)
+BUILTIN_READERS = (cgns.READER, face_folder_reader.READER, face_msh.READER,
+                   meshio_files.READER, su2.READER, vtk_legacy.READER, vtu_files.READER)

@@ -13,8 +13,12 @@ What is read:
 - boundary elements: ``triangle``/``quad`` cells of a 3-D mesh, ``line`` cells of a 2-D one.
 - boundary groups, from the case's ``tag_array`` (cell data on the boundary elements, named
   through ``tags``) when given, otherwise from gmsh physical groups (``gmsh:physical`` cell
-  data with names from ``field_data``) and meshio ``cell_sets``, merged by name.
-  Negative tags, gmsh physical tag 0 and sets holding no boundary element name no group.
+  data with names from ``field_data``), meshio ``cell_sets``, MED families (every group of
+  the family of each boundary element) and Exodus side sets (read beside meshio, which
+  drops them), merged by name. Negative tags, gmsh physical tag 0 and sets holding no
+  boundary element name no group.
+- a format whose reader needs an optional package (h5py for XDMF, MED, H5M; netCDF4 for
+  Exodus) that is not installed is refused with the package to install.
 - fields: numeric point data as ``Mesh.point_data``; numeric cell data defined on every
   volume block as ``Mesh.cell_data`` (one row per volume cell), e.g. a velocity field from
   an earlier solution. Values are kept as stored; only coordinates are scaled.
@@ -39,7 +43,7 @@ from caselint.mesh.celltypes import SURFACE_TYPES, VOLUME_TYPES, linear_type
 from caselint.mesh.groups import BoundaryElements
 from caselint.mesh.model import MeshData
 from caselint.mesh.pairing import ElementBlock
-from caselint.mesh.readers import MeshReader, ReadOptions, checked_points
+from caselint.mesh.readers import MeshReader, ReadOptions, checked_points, no_zones
 
 _PAD = {"triangle": [0, 1, 2, 2], "quad": [0, 1, 2, 3], "line": [0, 1]}
 # redirect_stdout/stderr swap the process-wide streams: two threads reading at once (a
@@ -48,6 +52,9 @@ _READ_LOCK = threading.Lock()
 
 #: File suffixes meshio 5.3 reads (``meshio.extension_to_filetypes``; kept here so that
 #: listing readers does not import meshio, and checked against meshio by a test).
+#: Exodus II suffixes: their side sets are read beside meshio (:mod:`.exodus_sides`).
+EXODUS_SUFFIXES = (".e", ".exo", ".ex2")
+
 SUFFIXES: tuple[str, ...] = (
     ".avs", ".bdf", ".cgns", ".dat", ".dato", ".dato.gz", ".e", ".ele", ".ex2", ".exo",
     ".f3grid", ".fem", ".h5m", ".hmf", ".inp", ".mdpa", ".med", ".mesh", ".meshb", ".msh",
@@ -63,17 +70,22 @@ def read_meshio(path: Path, options: ReadOptions) -> MeshData:
     name = str(path)
     if not path.is_file():
         raise MeshReadError(name, "mesh file not found" if not path.exists() else "not a file")
+    no_zones(path, options)
     from caselint.mesh.limits import check_memory, header_cell_count
 
     declared = header_cell_count(name)
     if declared is not None:           # refuse before meshio fills the memory
-        check_memory(name, {"element": declared}, "the file header")
+        check_memory(name, {"element": declared}, "the file header", options.memory_limit)
     sink = io.StringIO()
     try:
         with _READ_LOCK, contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink), \
                 warnings.catch_warnings():
             warnings.simplefilter("ignore")
             raw = meshio.read(name)
+    except ImportError as exc:        # an optional package this format needs
+        package = exc.name or str(exc)
+        raise MeshReadError(name, f"reading {path.suffix} files needs the Python package "
+                                  f"{package}: pip install {package}") from None
     except (Exception, SystemExit) as exc:  # noqa: BLE001 - the meshio boundary
         said = "" if isinstance(exc, SystemExit) else f"{type(exc).__name__}: {exc}".rstrip(": ")
         detail = "; ".join(filter(None, [said, *_printed(sink.getvalue(), name)]))
@@ -84,9 +96,16 @@ def read_meshio(path: Path, options: ReadOptions) -> MeshData:
     counts: dict[str, int] = {}
     for block in raw.cells:
         counts[block.type] = counts.get(block.type, 0) + len(block.data)
-    check_memory(name, counts, "the cells read")       # before the faces are built
+    check_memory(name, counts, "the cells read", options.memory_limit)       # before the faces are built
+    sides = []
+    if path.suffix.lower() in EXODUS_SUFFIXES and options.tag_array is None:
+        from caselint.mesh.formats.exodus_sides import side_sets
+
+        has_3d = any(linear_type(b.type) in VOLUME_TYPES for b in raw.cells)
+        sides = side_sets(path, 3 if has_3d else 2)
     return meshio_data(raw, path=name, scale_to_m=options.scale_to_m,
-                       tag_array=options.tag_array, tags=dict(options.tags) or None)
+                       tag_array=options.tag_array, tags=dict(options.tags) or None,
+                       side_sets=sides)
 
 
 def _printed(text: str, name: str) -> list[str]:
@@ -115,8 +134,10 @@ def meshio_data(
     scale_to_m: float = 1.0,
     tag_array: str | None = None,
     tags: dict[int, str] | None = None,
+    side_sets: list[tuple[str, np.ndarray]] = (),
 ) -> MeshData:
-    """The mesh data of a ``meshio.Mesh``; raises :class:`MeshReadError`."""
+    """The mesh data of a ``meshio.Mesh``; raises :class:`MeshReadError`. ``side_sets``:
+    boundary faces named outside meshio (Exodus side sets), as (name, face nodes)."""
     points = checked_points(path, m.points, 1.0)      # scaled below, once the cells are known
     n_points = len(points)
     index_type = np.int32 if n_points < 2**31 else np.int64
@@ -156,7 +177,7 @@ def meshio_data(
     points = checked_points(path, points, scale_to_m)
     face_blocks = [(i, base, _corners(path, t, base, d, n_points, np.int64, notes))
                    for i, t, base, d in blocks if base in face_types and len(d)]
-    names, boundary = _groups(path, m, face_blocks, dim, tag_array, tags)
+    names, boundary = _groups(path, m, face_blocks, dim, tag_array, tags, side_sets)
     point_data, cell_data = _fields(m, volume_block_ids, cell_blocks, n_points)
     return mesh_from_elements(path=path, points=points, dim=dim, blocks=cell_blocks,
                               group_names=names, boundary=boundary, notes=tuple(notes),
@@ -186,6 +207,22 @@ def _fields(m, volume_block_ids, cell_blocks, n_points):
         else:
             cell_data[str(name)] = np.concatenate(parts) if len(parts) > 1 else parts[0]
     return point_data, cell_data
+
+
+def _med_families(m, face_blocks, add) -> None:
+    """MED element families (cell data ``cell_tags``, names in ``m.cell_tags``): every
+    group of a family on boundary elements (MED numbers element families below 0)."""
+    families = getattr(m, "cell_tags", None) or {}
+    per_block = m.cell_data.get("cell_tags")
+    if not families or per_block is None:
+        return
+    for i, _, _ in face_blocks:
+        if not isinstance(i, int) or i >= len(per_block):
+            continue
+        values = np.asarray(per_block[i]).astype(np.int64).ravel()
+        for family in np.unique(values[values != 0]):
+            for group in families.get(int(family), [f"family{int(family)}"]):
+                add(str(group), i, np.flatnonzero(values == family))
 
 
 def _dimension(meshio_type: str) -> int:
@@ -229,16 +266,18 @@ def _check_planar(path, points, cell_blocks) -> None:
         )
 
 
-def _groups(path, m, face_blocks, dim, tag_array, tags):
+def _groups(path, m, face_blocks, dim, tag_array, tags, side_sets=()):
     """Group names and boundary elements with their group memberships."""
     width = 4 if dim == 3 else 2
+    face_blocks = list(face_blocks) + [(("side", k), "side", faces)
+                                       for k, (_, faces) in enumerate(side_sets)]
     if not face_blocks:
         return (), BoundaryElements.empty(width)
     offsets, verts = {}, []
     total = 0
     for i, base, conn in face_blocks:
         offsets[i] = total
-        verts.append(conn[:, _PAD[base]])
+        verts.append(conn if base == "side" else conn[:, _PAD[base]])
         total += len(conn)
     vertices = np.concatenate(verts)
     members: dict[str, list[np.ndarray]] = {}
@@ -261,7 +300,7 @@ def _groups(path, m, face_blocks, dim, tag_array, tags):
         named = {int(v[0]): str(k) for k, v in m.field_data.items()
                  if len(np.atleast_1d(v)) >= 2 and int(np.atleast_1d(v)[1]) == dim - 1}
         for i, _, _ in face_blocks:
-            if physical is None or i >= len(physical):
+            if physical is None or not isinstance(i, int) or i >= len(physical):
                 continue
             values = np.asarray(physical[i]).astype(np.int64).ravel()
             for tag in np.unique(values[values > 0]):
@@ -270,8 +309,11 @@ def _groups(path, m, face_blocks, dim, tag_array, tags):
             if set_name.startswith("gmsh:"):
                 continue
             for i, _, _ in face_blocks:
-                if i < len(per_block) and per_block[i] is not None:
+                if isinstance(i, int) and i < len(per_block) and per_block[i] is not None:
                     add(str(set_name), i, np.asarray(per_block[i]).ravel())
+        _med_families(m, face_blocks, add)
+        for k, (set_name, faces) in enumerate(side_sets):
+            add(set_name, ("side", k), np.arange(len(faces)))
     group_names = tuple(sorted(members))
     element, group = [], []
     for g, name in enumerate(group_names):

@@ -1,20 +1,18 @@
 """Rule ``qf-air-change-rate``: air changes per hour of a ventilated room.
 
 Reads the company's own case-file section ``quillfen`` (declared in :mod:`.plugin`):
-the supply volume flow, converted to m^3/s like every caselint quantity, over the room
-volume, which is the mesh's total cell volume in m^3.
+the supply volume flow, which caselint has converted to m^3/s like every quantity of the
+case file, over the room volume, which is the mesh's total cell volume in m^3.
 """
 
 from __future__ import annotations
 
-from caselint.api import case_quantity
 from caselint.model import Limits, Measurement, Parameter, Rule, RuleResult, Where
+from caselint.rulekit import RuleContext
 
 
-def _check(ctx) -> RuleResult:
-    flow_m3_s = case_quantity(ctx.case, "quillfen.supply_flow", "volume_flow")
-    if flow_m3_s is None:
-        return RuleResult.skip("the case file gives no quillfen.supply_flow")
+def _check(ctx: RuleContext) -> RuleResult:
+    flow_m3_s = ctx.case.extensions["quillfen"]["supply_flow"]
     room_m3 = float(ctx.mesh.cell_volumes.sum())
     if not room_m3 > 0:
         return RuleResult.skip("the mesh has no positive volume to ventilate")
@@ -50,7 +48,7 @@ AIR_CHANGE_RATE = Rule(
     hint="Check the supply flow in the quillfen section and the room volume of the mesh.",
     check=_check,
     worse="lower",
-    needs=("mesh", "quillfen.supply_flow"),
+    needs=("quillfen.supply_flow", "mesh"),
     parameters=(Parameter("design_changes_per_hour", 25.0, "1/h",
-                          "air changes per hour the fix hint aims for"),),
+                          "air changes per hour the fix hint aims for", exclusive_minimum=0),),
 )

@@ -1,7 +1,7 @@
 """The pack's hook implementations: a rule, a rule set and a case-file section.
 
 Installed, it is found through the entry point ``quillfen`` in the group ``caselint``
-(see pyproject.toml); ``caselint plugins`` lists it, ``-p no:quillfen`` blocks it.
+(see pyproject.toml); ``caselint plugins`` lists it, ``--no-plugin quillfen`` blocks it.
 """
 
 from __future__ import annotations
@@ -33,6 +33,7 @@ QUILLFEN_SECTION = CaseSection(
                                 "description": "Name of the Quillfen design reviewer."},
         },
     },
+    quantities={"supply_flow": "volume_flow"},
 )
 
 

@@ -25,7 +25,8 @@ import numpy as np
 
 from caselint.mesh.topology import face_point_mean
 from caselint.physics import friction as fr
-from caselint.rules.wall_scope import fmt
+from caselint.rulekit.meshview import face_vertex_mean
+from caselint.rulekit.words import fmt
 
 if TYPE_CHECKING:
     from caselint.manifest.case import Case
@@ -117,8 +118,8 @@ def _field_on_faces(mesh: "Mesh", names: tuple[str, ...], faces: np.ndarray,
                 values.reshape(len(values), -1), axis=1)
             if kind == "cell":
                 return f"{name} (cell data of the wall cells)", mag[cells]
-            per_face = face_point_mean(mesh.data, mag, faces)
-            return f"{name} (point data, averaged over each face)", per_face
+            return (f"{name} (point data, averaged over each face)",
+                    face_vertex_mean(mesh, faces, mag))
     return None
 
 

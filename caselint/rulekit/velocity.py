@@ -6,7 +6,8 @@ solution) is used when ``mesh.velocity_field`` names one, or else when the mesh 
 array with one of the usual names (:data:`FIELD_NAMES`) and 2 or 3 components. Values are
 taken as m/s. Face velocities: point data -> mean of the face's vertices; cell data ->
 mean of owner and neighbour (the owner's on boundary faces). When a name exists as both,
-a finite-volume case uses the cell data and a finite-element case the point data.
+a cell-centred case uses the cell data, a vertex-centred or finite-element case the point
+data.
 """
 
 from __future__ import annotations
@@ -18,7 +19,8 @@ import numpy as np
 
 from caselint.errors import CaseFileError
 from caselint.physics import timestep
-from caselint.rules.mesh_quality import plural
+from caselint.rulekit.cases import stores_at_nodes
+from caselint.rulekit.words import plural
 
 if TYPE_CHECKING:
     from caselint.engine.context import RuleContext
@@ -52,7 +54,7 @@ def _candidates(mesh: "Mesh", name: str, method: str) -> list[tuple[str, np.ndar
     """(kind, values) of the arrays called ``name``, the one of the case's method first."""
     found = [(kind, data[name]) for kind, data in (("cell", mesh.cell_data),
                                                    ("point", mesh.point_data)) if name in data]
-    if method == "finite-element":
+    if stores_at_nodes(method):
         found.reverse()
     return found
 

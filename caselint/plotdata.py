@@ -1,0 +1,89 @@
+"""Data a rule attaches for the review reports to draw: histograms and lines (reporters
+compute nothing)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any, Literal
+
+from caselint.values import Limits, Worse
+
+
+@dataclass(frozen=True)
+class PlotSeries:
+    """One data series of a plot: a histogram's bin edges and counts, or a line's points.
+
+    For a histogram ``x`` holds the n+1 increasing bin edges and ``y`` the n counts;
+    ``below`` and ``above`` count the values outside the edges, so nothing is hidden.
+    For a line ``x`` and ``y`` are the points. ``label`` names the series (a boundary).
+    """
+
+    x: tuple[float, ...]
+    y: tuple[float, ...]
+    label: str = ""
+    below: int = 0
+    above: int = 0
+
+    def __post_init__(self) -> None:
+        if not all(math.isfinite(v) for v in (*self.x, *self.y)):
+            raise ValueError(f"plot series {self.label!r} holds a non-finite number")
+        if self.below < 0 or self.above < 0:
+            raise ValueError(f"plot series {self.label!r}: counts outside the edges are >= 0")
+
+    @classmethod
+    def histogram(cls, values: Any, edges: Any, label: str = "") -> "PlotSeries":
+        """Count finite ``values`` into bins between ``edges`` (numpy, no loop over values)."""
+        import numpy as np
+
+        values = np.asarray(values, dtype=np.float64).ravel()
+        values = values[np.isfinite(values)]
+        edges = np.asarray(edges, dtype=np.float64)
+        counts, _ = np.histogram(values, bins=edges)
+        return cls(x=tuple(float(e) for e in edges), y=tuple(float(c) for c in counts),
+                   label=label, below=int(np.count_nonzero(values < edges[0])),
+                   above=int(np.count_nonzero(values > edges[-1])))
+
+
+def log_bin_edges(values: Any, per_decade: int | None = None) -> Any:
+    """Log-spaced histogram edges chosen from the data: see :func:`caselint.bins.log_bin_edges`
+    (imported when called, so that importing the model does not import numpy)."""
+    from caselint.bins import log_bin_edges as edges
+
+    return edges(values, per_decade)
+
+
+@dataclass(frozen=True)
+class PlotData:
+    """Data a rule attaches for the review reports to draw (reporters compute nothing).
+
+    ``kind`` is ``"histogram"`` (each series: bin edges and counts) or ``"line"``
+    (each series: points, e.g. layer height against layer number). ``limits`` (with
+    ``worse``), when given, are drawn as marks on the x axis of a histogram. ``rule`` is
+    filled in by the engine with the id of the rule that attached the plot.
+    """
+
+    title: str
+    x_label: str
+    y_label: str
+    series: tuple[PlotSeries, ...]
+    kind: Literal["histogram", "line"] = "histogram"
+    limits: Limits | None = None
+    worse: Worse = "higher"
+    x_log: bool = False
+    y_log: bool = False
+    rule: str = ""
+
+    def __post_init__(self) -> None:
+        if self.kind not in ("histogram", "line"):
+            raise ValueError(f"plot kind must be 'histogram' or 'line', got {self.kind!r}")
+        if not self.series:
+            raise ValueError(f"plot {self.title!r} has no series")
+        for s in self.series:
+            if self.kind == "line" and len(s.x) != len(s.y):
+                raise ValueError(f"plot {self.title!r}: series {s.label!r} has {len(s.x)} x "
+                                 f"and {len(s.y)} y values")
+            if self.kind == "histogram" and (len(s.x) != len(s.y) + 1 or len(s.y) < 1
+                                             or any(b <= a for a, b in zip(s.x, s.x[1:]))):
+                raise ValueError(f"plot {self.title!r}: series {s.label!r} needs n >= 1 counts "
+                                 f"and n + 1 increasing edges, got {len(s.y)} and {len(s.x)}")

@@ -1,0 +1,133 @@
+"""Locating values on the mesh: the worst ids, the file's names of cells, points, faces.
+
+Cell ids inside caselint are its own (cells renumbered for speed); findings name cells by
+their ids in the mesh file (:meth:`Mesh.file_cell_ids`). Face ids are caselint's own, so a
+finding about faces also names the cells on either side.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from caselint.model import MAX_LISTED_IDS, Limits
+
+if TYPE_CHECKING:
+    from caselint.mesh.analysis import Mesh
+
+
+def worst_ids(values: np.ndarray, threshold: float | None, worse: str = "higher",
+              names: np.ndarray | None = None) -> tuple[np.ndarray, int]:
+    """Ids past ``threshold`` (worst first, at most 10) and how many there are.
+
+    Ties go to the lowest id, or to the lowest of ``names`` (the file's ids of the
+    entities, :meth:`Mesh.file_cell_ids`) when given. ``threshold`` None counts nothing
+    but still lists the single worst id.
+    """
+    sign = 1.0 if worse == "higher" else -1.0
+    badness = sign * values
+    count = 0
+    if threshold is not None:
+        candidates = np.flatnonzero(badness > sign * threshold)
+        count = int(candidates.size)
+    if count == 0:
+        return _single_worst(badness, names), 0
+    keep = MAX_LISTED_IDS
+    cand_bad = badness[candidates]
+    if candidates.size > keep:
+        # the candidates worse than the keep-th worst, then the lowest ids of those tied
+        # with it (candidates are in id order); a structured mesh can tie millions of
+        # values, which must not all be sorted
+        kth = np.partition(cand_bad, candidates.size - keep)[candidates.size - keep]
+        worse_than = np.flatnonzero(cand_bad > kth)
+        tied = np.flatnonzero(cand_bad == kth)
+        need = keep - worse_than.size
+        if names is not None and tied.size > need:
+            tie_names = names[candidates[tied]]
+            tied = tied[np.argpartition(tie_names, need - 1)[:need]]
+        sel = np.sort(np.concatenate([worse_than, tied[:need]]))
+        candidates, cand_bad = candidates[sel], cand_bad[sel]
+    tie = candidates if names is None else names[candidates]
+    order = np.lexsort((tie, -cand_bad))
+    return candidates[order][:keep].astype(np.int64), count
+
+
+def _single_worst(badness: np.ndarray, names: np.ndarray | None) -> np.ndarray:
+    """The one worst id (ties: the lowest id or name; a NaN counts as worst), or none.
+
+    One pass over the values: no sort, no id array as long as the mesh.
+    """
+    if badness.size == 0:
+        return np.empty(0, dtype=np.int64)
+    top = np.max(badness)
+    tied = np.flatnonzero(np.isnan(badness) if np.isnan(top) else badness == top)
+    pick = tied[np.argmin(names[tied])] if names is not None and tied.size > 1 else tied[0]
+    return np.array([pick], dtype=np.int64)
+
+
+def first_limit(limits: Limits) -> float | None:
+    """The limit a value crosses first: the warning limit when set, else the error limit."""
+    return limits.warn if limits.warn is not None else limits.error
+
+
+def cell_names(mesh: "Mesh", cells: np.ndarray) -> tuple[int, ...]:
+    """The file's ids of ``cells`` (caselint's own ids), in the same order, for a Where."""
+    return tuple(int(c) for c in mesh.file_cell_ids(cells))
+
+
+def first_cells(mesh: "Mesh", cells: np.ndarray) -> tuple[int, ...]:
+    """The lowest file ids among the set ``cells``, sorted, at most ten, for a Where."""
+    named = mesh.file_cell_ids(cells)
+    if named.size > MAX_LISTED_IDS:
+        named = np.partition(named, MAX_LISTED_IDS - 1)[:MAX_LISTED_IDS]
+    return tuple(int(c) for c in np.sort(named))
+
+
+def finite_point(xyz: np.ndarray) -> tuple[float, float, float] | None:
+    """A point as a plain tuple, or None when a damaged entity has no finite centroid."""
+    if not np.all(np.isfinite(xyz)):
+        return None
+    return (float(xyz[0]), float(xyz[1]), float(xyz[2]))
+
+
+def cells_of_faces(mesh: "Mesh", faces: np.ndarray) -> np.ndarray:
+    """Cells on either side of ``faces`` (owner then neighbour), first appearance order."""
+    pairs = np.stack([mesh.owner[faces], mesh.neighbour[faces]], axis=1).ravel()
+    pairs = pairs[pairs >= 0]
+    _, first = np.unique(pairs, return_index=True)
+    return pairs[np.sort(first)]
+
+
+def touched_cell_count(mesh: "Mesh", faces: np.ndarray) -> int:
+    """How many distinct cells lie on either side of ``faces`` (linear, no sort)."""
+    touched = np.zeros(mesh.n_cells, dtype=bool)
+    touched[mesh.owner[faces]] = True
+    nbr = mesh.neighbour[faces]
+    touched[nbr[nbr >= 0]] = True                                  # -1 is no cell
+    return int(np.count_nonzero(touched))
+
+
+def face_place(mesh: "Mesh", face: int) -> str:
+    """Plain words for where a face is: between two cells, or on a boundary."""
+    owner = int(mesh.file_cell_ids(mesh.owner[face]))
+    neighbour = int(mesh.neighbour[face])
+    if neighbour >= 0:
+        neighbour = int(mesh.file_cell_ids(neighbour))
+        return f"between cells {owner} and {neighbour}"
+    group = int(mesh.face_group[face])
+    name = f" '{mesh.group_names[group]}'" if group >= 0 else ""
+    return f"on boundary{name} at cell {owner}"
+
+
+def at_face(mesh: "Mesh", face: int) -> str:
+    """``face 12 at (0.1, 0, 0.35) m`` for a finding's detail."""
+    x = mesh.face_centroids[face]
+    return f"face {face} at ({x[0]:.4g}, {x[1]:.4g}, {x[2]:.4g}) m"
+
+
+def point_words(xyz: tuple[float, float, float] | None) -> str:
+    """`` at (0.1, 0, 0.35) m``, or nothing for a missing point."""
+    if xyz is None:
+        return ""
+    return " at (" + ", ".join(f"{v:.4g}" for v in xyz) + ") m"

@@ -1,0 +1,175 @@
+"""Measurements of per-face and per-cell metrics: the worst value, located, with an extent.
+
+A face or cell metric is reported by its worst value, how many entities are past the
+first limit, the worst few ids (worst first) and a point at the worst one; a face metric
+also names the cells on either side. :func:`face_extent` and :func:`cell_extent` wrap the
+same in an :class:`~caselint.model.Extent`, so the engine can grade the metric by extent
+and place (:mod:`caselint.engine.extent`) and locate the worst of each place the same way.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from caselint.bins import linear_bin_edges
+
+from caselint.model import (
+    MAX_LISTED_IDS,
+    STRICT_PLACES,
+    Extent,
+    Grade,
+    Limits,
+    Measurement,
+    PlotData,
+    PlotSeries,
+    RuleResult,
+    Where,
+)
+from caselint.rulekit.locate import (
+    cell_names,
+    cells_of_faces,
+    face_place,
+    finite_point,
+    first_limit,
+    touched_cell_count,
+    worst_ids,
+)
+from caselint.rulekit.places import NEAR_WALL_PARAMETER, cell_places, face_places
+from caselint.rulekit.words import plural
+
+if TYPE_CHECKING:
+    from caselint.engine.context import RuleContext
+    from caselint.mesh.analysis import Mesh
+
+
+def nonfinite_skip(values: np.ndarray, what: str) -> RuleResult | None:
+    """Skip (instead of reporting NaN) when a damaged mesh gives a non-finite metric."""
+    if np.all(np.isfinite(values)):
+        return None
+    n = int(np.count_nonzero(~np.isfinite(values)))
+    return RuleResult.skip(
+        f"{what} is not finite on {n} entities (degenerate geometry); fix inverted or "
+        "collapsed cells first (see inverted-cells)"
+    )
+
+
+def face_measurement(mesh: "Mesh", values: np.ndarray, faces: np.ndarray | None,
+                     limits: Limits, unit_words: str, fmt: str) -> Measurement:
+    """The largest of a face metric ``values`` (F,) over ``faces`` (None: all), with the
+    faces past the first limit counted and the worst located."""
+    considered = values if faces is None else values[faces]
+    threshold = first_limit(limits)
+    local, count = worst_ids(considered, threshold)
+    listed = local if faces is None else faces[local]
+    worst = int(listed[0])
+    cell_count = 0
+    if count:
+        offenders = np.flatnonzero(considered > threshold)
+        cell_count = touched_cell_count(mesh, offenders if faces is None else faces[offenders])
+    cells = cells_of_faces(mesh, listed)[:MAX_LISTED_IDS]
+    where = Where(
+        faces=tuple(int(f) for f in listed) if count else (),
+        face_count=count,
+        cells=cell_names(mesh, cells) if count else (),
+        cell_count=cell_count,
+        point=finite_point(mesh.face_centroids[worst]),
+    )
+    value = float(values[worst])
+    if count:
+        lead = f"{plural(count, 'face')} above {threshold:g}{unit_words}, worst"
+    else:
+        lead = f"no face above the limit; largest {format(value, fmt)}{unit_words}"
+    return Measurement(value=value, where=where, detail=f"{lead} {face_place(mesh, worst)}")
+
+
+def cell_measurement(mesh: "Mesh", values: np.ndarray, cells: np.ndarray | None,
+                     limits: Limits, fmt: str) -> Measurement:
+    """The largest of a cell metric ``values`` (C,) over ``cells`` (None: all), with the
+    cells past the first limit counted and the worst located (ties: lowest file id)."""
+    considered = values if cells is None else values[cells]
+    names = mesh.file_cell_ids() if cells is None else mesh.file_cell_ids(cells)
+    threshold = first_limit(limits)
+    local, count = worst_ids(considered, threshold, names=names)
+    listed = local if cells is None else cells[local]
+    worst = int(listed[0])
+    name = int(mesh.file_cell_ids(worst))
+    if count:
+        detail = (f"{plural(count, 'cell')} above {threshold:g}, "
+                  f"worst cell {name} ({format(values[worst], fmt)})")
+    else:
+        detail = f"no cell above the limit; largest {format(values[worst], fmt)} in cell {name}"
+    where = Where(cells=cell_names(mesh, listed) if count else (), cell_count=count,
+                  point=finite_point(mesh.cell_centroids[worst]))
+    return Measurement(value=float(values[worst]), where=where, detail=detail)
+
+
+def face_extent(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None,
+                unit_words: str, fmt: str) -> Extent:
+    """The face metric ``values`` (F,) over ``faces`` (None: all), each with its place."""
+    mesh = ctx.mesh
+    places = face_places(ctx)
+    chosen = np.arange(mesh.n_faces) if faces is None else faces
+    return Extent(
+        values=values if faces is None else values[faces],
+        places=places if faces is None else places[faces], entity="face",
+        measure=lambda subset, limits: face_measurement(mesh, values, chosen[subset], limits,
+                                                        unit_words, fmt))
+
+
+def cell_extent(ctx: "RuleContext", values: np.ndarray, fmt: str,
+                cells: np.ndarray | None = None) -> Extent:
+    """The cell metric ``values`` (C,) over ``cells`` (None: all), each cell with its place."""
+    mesh = ctx.mesh
+    places = cell_places(ctx)
+    chosen = np.arange(mesh.n_cells) if cells is None else cells
+    return Extent(values=values if cells is None else values[cells],
+                  places=places if cells is None else places[cells], entity="cell",
+                  measure=lambda subset, limits: cell_measurement(mesh, values, chosen[subset],
+                                                                  limits, fmt))
+
+
+def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: float = 1.0,
+                    share_error: float = 10.0) -> dict[str, Any]:
+    """The :class:`~caselint.model.Rule` settings of a metric graded by place: its main grade
+    ``strict`` judges the worst value in regions of interest and near no-slip walls
+    (:data:`STRICT_PLACES`) against the rule's limits, and
+
+    - ``elsewhere`` the worst value in the rest of the mesh (what breaks a solver there);
+    - ``elsewhere-share`` the share of the entities elsewhere beyond the main warning
+      limit, in percent (caselint default: a warning above ``share_warn``, an error above
+      ``share_error``);
+
+    with the parameter ``near_wall_layers``. Use as ``Rule(..., **graded_by_place(...))``.
+    """
+    grades = (
+        Grade("elsewhere", elsewhere.warn, elsewhere.error, places=("elsewhere",),
+              description="worst value away from regions of interest and no-slip walls",
+              source=elsewhere_source),
+        Grade("elsewhere-share", share_warn, share_error, places=("elsewhere",), share=True,
+              unit="%", worse="higher",
+              description="percent of the entities away from regions of interest and "
+                          "no-slip walls beyond the quality limit (beyond; default: the main "
+                          "warning limit)",
+              source="caselint default: a few per cent of compromise cells far from the "
+                     "resolved flow is the usual cost of a mesh, a tenth of the mesh is not"),
+    )
+    return {"main_grade": "strict", "main_places": STRICT_PLACES, "grades": grades,
+            "main_description": "worst value in regions of interest and near no-slip walls",
+            "parameters": (NEAR_WALL_PARAMETER,)}
+
+
+def with_histogram(result: RuleResult, limits: Limits, values: np.ndarray, edges: np.ndarray,
+                   title: str, x_label: str, y_label: str) -> RuleResult:
+    """``result`` with a histogram of ``values`` attached for the review reports."""
+    if result.skipped is not None:
+        return result
+    plot = PlotData(title=title, x_label=x_label, y_label=y_label,
+                    series=(PlotSeries.histogram(values, edges),), limits=limits)
+    return dataclasses.replace(result, plots=(plot,))
+
+
+__all__ = ["cell_extent", "cell_measurement", "face_extent", "face_measurement",
+           "graded_by_place", "linear_bin_edges", "nonfinite_skip", "with_histogram"]
