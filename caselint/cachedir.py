@@ -2,8 +2,8 @@
 
 ``CASELINT_CACHE_DIR`` names the folder, else ``$XDG_CACHE_HOME/caselint`` or
 ``~/.cache/caselint``; ``CASELINT_CACHE_DIR=off`` turns every on-disk cache of caselint
-off (the mesh cache of :mod:`caselint.cache` and the parsed unit definitions of
-:mod:`caselint.manifest.units`).
+off (the mesh cache of :mod:`caselint.cache`, the parsed unit definitions of
+:mod:`caselint.manifest.units` and the compiled kernels of :mod:`caselint.mesh.kernels`).
 """
 
 from __future__ import annotations

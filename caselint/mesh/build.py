@@ -21,7 +21,7 @@ from typing import Sequence
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled
 from caselint.mesh.groups import BoundaryElements, match_groups
 from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
 from caselint.mesh.ordering import spatial_order
@@ -125,7 +125,7 @@ def mesh_from_elements(
     paired = pair_faces(blocks, n_points, dim)
     face_group, unmatched, internal, multi = match_groups(
         paired.faces, paired.neighbour, boundary, group_names, n_points)
-    kernel = kernels.compiled("ordering", n_cells)
+    kernel = compiled("ordering", n_cells)
     owner, neighbour = paired.owner, paired.neighbour
     if kernel is not None:
         offsets, face_points, order, moved = kernel.faces_to_csr(paired.faces, neighbour)

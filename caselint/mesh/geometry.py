@@ -38,7 +38,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled, in_threads
 
 if TYPE_CHECKING:
     from caselint.mesh.model import MeshData
@@ -171,7 +171,7 @@ def face_geometry(mesh: "MeshData") -> tuple[np.ndarray, np.ndarray, np.ndarray]
 
 def compute_geometry(mesh: "MeshData") -> Geometry:
     """Face and cell geometry of ``mesh`` (see the module docstring for the formulas)."""
-    kernel = kernels.compiled("geometry", mesh.n_cells)
+    kernel = compiled("geometry", mesh.n_cells)
     n_cells, n_int, dim = mesh.n_cells, mesh.n_internal, mesh.dim
     owner, nbr = mesh.owner, mesh.neighbour[:n_int]
     # the neighbour sees -S; an orientation clash (both cells list the face the same way
@@ -181,7 +181,7 @@ def compute_geometry(mesh: "MeshData") -> Geometry:
     sign[clash[clash < n_int]] = 1.0
     if kernel is not None:
         area, fcent, fmean = (np.empty((mesh.n_faces, 3)) for _ in range(3))
-        kernels.in_threads(lambda p: kernel.face_geometry(
+        in_threads(lambda p: kernel.face_geometry(
             mesh.face_offsets, mesh.face_points, mesh.points, dim == 3, p.start, p.stop, area,
             fcent, fmean), mesh.n_faces)
         apex = kernel.face_mean_apex(owner, nbr, n_int, n_cells, fmean)

@@ -22,7 +22,7 @@ from typing import TYPE_CHECKING, Sequence
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled
 
 if TYPE_CHECKING:
     from caselint.mesh.pairing import ElementBlock
@@ -88,7 +88,7 @@ def spatial_order(points: np.ndarray, blocks: Sequence["ElementBlock"]) -> Renum
     corner (cells stay in their blocks, so cell types keep their id ranges)."""
     from caselint.mesh.pairing import ElementBlock
 
-    kernel = kernels.compiled("ordering", sum(len(b.connectivity) for b in blocks))
+    kernel = compiled("ordering", sum(len(b.connectivity) for b in blocks))
     codes = morton_codes(points, kernel)
     point_order = _sorted_order(codes)
     index_type = np.result_type(*[b.connectivity.dtype for b in blocks])

@@ -29,7 +29,7 @@ from typing import Sequence
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled
 from caselint.mesh.celltypes import FACES, TRIANGLE_FACES, face_index
 from caselint.mesh.geometry import chunks
 
@@ -67,7 +67,7 @@ class PairedFaces:
 def pair_faces(blocks: Sequence[ElementBlock], n_points: int, dim: int) -> PairedFaces:
     """Pair the half-faces of the element ``blocks`` into faces with owner and neighbour."""
     n_cells = sum(len(b.connectivity) for b in blocks)
-    kernel = kernels.compiled("face_pairing", n_cells)
+    kernel = compiled("face_pairing", n_cells)
     if kernel is not None and n_cells:
         return _pair_compiled(kernel, blocks, n_points, dim)
     half, hcell, tri_mask = _half_faces(blocks, dim)

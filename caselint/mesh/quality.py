@@ -45,7 +45,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.celltypes import CORNERS, CORNERS_2D, EDGES, PYRAMID_TETS
 from caselint.mesh.geometry import chunks, coordinate_columns, cross, fan, size_classes
 
@@ -87,10 +87,10 @@ def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
     """Non-orthogonality and skewness in one pass over the faces (they share d and S)."""
 
     def compute():
-        kernel = kernels.compiled("face_checks", mesh.n_cells)
+        kernel = compiled("face_checks", mesh.n_cells)
         if kernel is not None:
             angle, skew = np.empty(mesh.n_faces), np.empty(mesh.n_faces)
-            kernels.in_threads(lambda p: kernel.face_metrics(
+            in_threads(lambda p: kernel.face_metrics(
                 mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids,
                 mesh.cell_centroids, DEGENERATE, p.start, p.stop, angle, skew), mesh.n_faces)
             return angle, skew
@@ -129,9 +129,9 @@ def face_warp_deg(mesh: "Mesh") -> np.ndarray:
         out = np.zeros(mesh.n_faces)
         if mesh.dim == 2:
             return out
-        kernel = kernels.compiled("face_checks", mesh.n_cells)
+        kernel = compiled("face_checks", mesh.n_cells)
         if kernel is not None:
-            kernels.in_threads(lambda p: kernel.face_warp(
+            in_threads(lambda p: kernel.face_warp(
                 data.face_offsets, data.face_points, mesh.points, p.start, p.stop, out),
                 mesh.n_faces)
             return out
@@ -182,7 +182,7 @@ def growth_ratio(mesh: "Mesh") -> np.ndarray:
 
     def compute() -> np.ndarray:
         volumes, owner, neighbour = mesh.cell_volumes, mesh.owner, mesh.neighbour
-        kernel = kernels.compiled("face_checks", mesh.n_cells)
+        kernel = compiled("face_checks", mesh.n_cells)
         if kernel is not None:
             return kernel.growth_ratio(owner, neighbour, volumes)
         out = np.ones(mesh.n_faces)
@@ -221,7 +221,7 @@ def _cell_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     def compute():
         cols = coordinate_columns(mesh.points)
         sj, mj, er = (np.full(mesh.n_cells, np.nan) for _ in range(3))
-        kernel = kernels.compiled("cell_metrics", mesh.n_cells)
+        kernel = compiled("cell_metrics", mesh.n_cells)
         if kernel is not None:
             for block in mesh.data.shapes:
                 kind = block.type

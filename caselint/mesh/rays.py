@@ -32,7 +32,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.geometry import chunks
 
 if TYPE_CHECKING:
@@ -117,11 +117,11 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     ok = norm > 0                      # a collapsed face has no normal: its ray is lost
     out.direction[ok] = -area[ok] / norm[ok, None]
     wall = _wall_mask(mesh, wall_face)
-    kernel = kernels.compiled("ray_march", mesh.n_cells)
+    kernel = compiled("ray_march", mesh.n_cells)
     if kernel is not None:
         cf = mesh.cell_faces
         plane = kernel.face_planes(mesh.face_area_vectors, mesh.face_centroids)
-        parts = kernels.in_threads(lambda p: kernel.march(
+        parts = in_threads(lambda p: kernel.march(
             cf.offsets, cf.faces, mesh.owner, mesh.neighbour, plane, wall, start_faces[p],
             out.origin[p], out.direction[p], ok[p], max_steps, MAX_STALLED, _PARALLEL), n)
         for k, values in enumerate(zip(*parts)):

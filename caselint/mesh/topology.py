@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled
 
 if TYPE_CHECKING:
     from caselint.mesh.model import MeshData
@@ -50,7 +50,7 @@ def cell_faces(mesh: "MeshData") -> CellFaces:
     """Each cell's faces, ascending by face id, and whether the cell owns each."""
     n_int = mesh.n_internal
     dtype = np.int32 if mesh.n_faces < 2**31 else np.int64
-    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    kernel = compiled("face_checks", mesh.n_cells)
     if kernel is not None:
         return CellFaces(*kernel.cell_faces(mesh.owner, mesh.neighbour, n_int, mesh.n_cells,
                                             np.empty(0, dtype=dtype)))

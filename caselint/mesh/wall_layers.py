@@ -49,7 +49,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.geometry import chunks
 from caselint.mesh.topology import cell_point_table
 
@@ -210,14 +210,14 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
           max_cells: int, reach_m: float = math.inf) -> WallLayers:
     """Walk every stack (compiled, or in lock step with numpy) and sum up its layers."""
     cos_turn = math.cos(math.radians(turn_deg))
-    kernel = kernels.compiled("layer_walk", mesh.n_cells)
+    kernel = compiled("layer_walk", mesh.n_cells)
     if kernel is None:
         walked = _walk_lockstep(mesh, faces, max_aspect, cos_turn, max_cells, reach_m)
         extent = functools.partial(_extent, mesh)
     else:
         cf, data = mesh.cell_faces, mesh.data
         topo = (cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.points)
-        parts = kernels.in_threads(lambda p: kernel.walk(
+        parts = in_threads(lambda p: kernel.walk(
             *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
             mesh.face_centroids, mesh.cell_centroids, faces[p], float(max_aspect), cos_turn,
             max_cells, float(reach_m), mesh.dim == 3), len(faces))

@@ -27,7 +27,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from caselint import hookimpl
-from caselint.mesh import kernels
+from caselint.mesh.kernels import compiled
 from caselint.mesh.geometry import chunks
 from caselint.mesh.topology import cells_of_points
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Note, Rule, RuleResult, Where
@@ -59,7 +59,7 @@ def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
         return ids, int(ids.size - 1)          # every point at one place
     # Relative to the lower corner, rounded to COINCIDENCE * span: at most 1e12, fits int64.
     q = np.floor((pts - lo) / (COINCIDENCE * span) + 0.5).astype(np.int64)
-    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    kernel = compiled("face_checks", mesh.n_cells)
     if kernel is not None:
         flagged, copies = kernel.coincident(q)
         return ids[flagged], int(copies)
@@ -78,7 +78,7 @@ def cell_pieces(mesh: "Mesh") -> np.ndarray:
     # int32 ids where they fit: half the memory, and on a large mesh first touches of new
     # memory cost as much as the arithmetic (benchmarks/README.md)
     dtype = np.int32 if mesh.n_cells < 2**31 else np.int64
-    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    kernel = compiled("face_checks", mesh.n_cells)
     if kernel is not None:           # union-find: the same labels
         return kernel.cell_pieces(mesh.owner, mesh.neighbour, mesh.n_internal, mesh.n_cells,
                                   np.empty(0, dtype=dtype))
@@ -119,7 +119,7 @@ def cell_closure(mesh: "Mesh") -> np.ndarray:
     def compute() -> np.ndarray:
         n, n_int = mesh.n_cells, mesh.n_internal
         s, area = mesh.face_area_vectors, mesh.face_areas
-        kernel = kernels.compiled("face_checks", n)
+        kernel = compiled("face_checks", n)
         if kernel is not None:
             return kernel.cell_closure(mesh.owner, mesh.neighbour, n_int, n, s, area)
         nbr = mesh.neighbour[:n_int]
@@ -137,7 +137,7 @@ def cell_closure(mesh: "Mesh") -> np.ndarray:
 
 def short_faces(mesh: "Mesh") -> np.ndarray:
     """Ids of faces with fewer distinct points than a face needs (3 in 3-D, 2 in 2-D)."""
-    kernel = kernels.compiled("face_checks", mesh.n_cells)
+    kernel = compiled("face_checks", mesh.n_cells)
     if kernel is not None:
         distinct = kernel.distinct_points(mesh.face_offsets, mesh.face_points)
         return np.flatnonzero(distinct < mesh.dim)

@@ -11,7 +11,7 @@ numba one that gives the same results. :func:`compiled` decides per mesh:
   start-up.
 
 Compiled kernels are kept in the *kernel cache*, ``kernels/`` under caselint's cache folder
-(:func:`caselint.cache.cache_dir`, ``CASELINT_CACHE_DIR``), so that only the first run of an
+(:func:`caselint.cachedir.cache_dir`, ``CASELINT_CACHE_DIR``), so that only the first run of an
 installation compiles them. It belongs to the installation, not to a run: ``--no-cache``
 turns off the analysed-mesh cache only, ``CASELINT_CACHE_DIR=off`` turns off both. Where no
 writable folder exists, the kernels are compiled in memory for each process (numba's own
@@ -96,7 +96,7 @@ def in_threads(run: Callable[[slice], tuple], n: int) -> list[tuple]:
 
 def kernel_cache_dir() -> Path | None:
     """The writable kernel cache folder, or None (caches off, or nothing writable)."""
-    from caselint.cache import cache_dir
+    from caselint.cachedir import cache_dir
 
     root = cache_dir()
     if root is None:
