@@ -93,17 +93,19 @@ def run_check(path: str) -> dict:
 def run_stages(path: str, traced: bool) -> dict:
     if traced:
         tracemalloc.start()
-    from caselint.api import load_case, load_case_mesh, select_for_case
+    from caselint.api import load_case, load_case_mesh, select_for_case, with_declared_roles
     from caselint.engine.plugins import get_plugin_manager
+    from caselint.engine.registry import Registry
     from caselint.engine.runner import run_case
     from caselint.mesh import quality
 
     stages = Stages(traced)
-    pm = get_plugin_manager()
-    case = load_case(path, pm)
-    selection = select_for_case(case, pm)
+    registry = Registry(get_plugin_manager())
+    case = load_case(path, registry=registry)
+    selection = select_for_case(case, registry)
     stages.done("setup")
-    mesh = load_case_mesh(case)
+    mesh = load_case_mesh(case, None, tuple(registry.mesh_readers.values()))
+    case = with_declared_roles(case, mesh)
     stages.done("read")
     mesh.cell_faces  # noqa: B018 - the faces of every cell (pairing happened in the read)
     stages.done("topology")

@@ -26,6 +26,8 @@ from caselint.mesh import kernels, rays, wall_layers
 from caselint.mesh.analysis import Mesh
 from caselint.mesh.blocks import graded, shuffled, structured_hex, structured_quad, tetrahedralise
 from caselint.mesh.formats.meshio_files import meshio_data
+from caselint.mesh.orientation import volume_signs
+from caselint.mesh.pairing import ElementBlock
 from caselint.mesh.quality import (
     edge_ratio,
     face_warp_deg,
@@ -102,6 +104,10 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
     mesh = Mesh(data)
     out = {f"data.{f}": getattr(data, f) for f in ("face_offsets", "face_points", "owner",
                                                     "neighbour", "face_group")}
+    for block in data.shapes:          # the vote of the read, on the cells as read
+        element = ElementBlock(block.type, block.connectivity, 0)
+        kernel = kernels.compiled("volume_signs", 1)
+        out[f"signs.{block.type}"] = volume_signs(data.points, element, data.dim, kernel)
     out["data.nonmanifold"] = data.report.nonmanifold
     out["data.clashing"] = data.report.clashing
     cf = mesh.cell_faces

@@ -19,6 +19,9 @@ from caselint.mesh.pairing import ElementBlock
 from mixed_mesh import mixed_box, tags, volume_boundary_meshio
 from test_damaged_meshes import check, finding
 
+# every test here runs with the numpy kernels and with the compiled ones
+pytestmark = pytest.mark.usefixtures("kernel_mode")
+
 BOX_M3 = 7 * 3 * 2 * 0.1 ** 3
 
 

@@ -38,6 +38,7 @@ import numpy as np
 
 from caselint.mesh.celltypes import FACES, TRIANGLE_FACES
 from caselint.mesh.geometry import chunks
+from caselint.mesh.kernels import compiled
 from caselint.mesh.pairing import ElementBlock
 
 #: The node order that mirrors a cell of each type (reverses the winding of its base
@@ -76,10 +77,15 @@ def _far_triangles(cell: str) -> list[tuple[int, int, int]]:
     return out
 
 
-def volume_signs(points: np.ndarray, block: ElementBlock, dim: int) -> np.ndarray:
-    """(n,) int8 sign of each cell's volume (area in 2-D) as written: 1, -1 or 0."""
+def volume_signs(points: np.ndarray, block: ElementBlock, dim: int,
+                 kernel=None) -> np.ndarray:
+    """(n,) int8 sign of each cell's volume (area in 2-D) as written: 1, -1 or 0;
+    ``kernel``: the compiled :mod:`caselint.mesh.kernels.volume_signs`, or None for numpy."""
     conn = block.connectivity
     k = conn.shape[1]
+    if kernel is not None:
+        far = np.array(_far_triangles(block.type) if dim == 3 else [], dtype=np.int64)
+        return kernel.volume_signs(conn, points, far.reshape(-1, 3), dim)
     cols = [np.ascontiguousarray(points[:, i]) for i in range(dim)]
     out = np.empty(len(conn), dtype=np.int8)
     for sl in chunks(len(conn)):
@@ -106,9 +112,10 @@ def oriented_blocks(points: np.ndarray, blocks: Sequence[ElementBlock],
     that type have a positive volume, and a note for every type read in the mirrored
     order."""
     votes: dict[str, list[int]] = {}
+    kernel = compiled("volume_signs", sum(len(b.connectivity) for b in blocks))
     for block in blocks:
         if block.type in MIRROR and len(block.connectivity):
-            signs = volume_signs(points, block, dim)
+            signs = volume_signs(points, block, dim, kernel)
             count = votes.setdefault(block.type, [0, 0, 0])
             count[0] += int(np.count_nonzero(signs < 0))
             count[1] += int(np.count_nonzero(signs > 0))
