@@ -33,12 +33,13 @@ ENV_KERNELS = "CASELINT_KERNELS"
 MODES = ("auto", "numpy", "numba")
 
 #: Smallest mesh (cells) for which ``auto`` uses the compiled kernels. numba's import and
-#: the loading of cached kernels take 0.3-0.5 s a process on the 2-core benchmark machine;
-#: the whole ``caselint check`` of the benchmark duct (bench_meshes.py, shuffled hexahedra,
-#: rule set ``general``, kernels cached) was measured in fresh processes both ways:
-#: numpy path faster below about 20,000 cells, compiled path faster above
-#: (benchmarks/bench_threshold.py; README "Kernel threshold").
-MIN_CELLS = 100_000
+#: the loading of the cached kernels take about 0.5 s a process (0.2 s import, 0.3 s for
+#: the first kernel, 4 ms for each further one) on the 2-core benchmark machine. The whole
+#: ``caselint check`` of the benchmark duct (shuffled hexahedra, rule set ``general``,
+#: kernels cached), median of 3 fresh processes each way (benchmarks/bench_threshold.py,
+#: 2026-12-02): 54,872 cells 1.06 s compiled / 0.99 s numpy, 97,336 cells 1.24 / 1.50 s;
+#: the two cross at about 70,000 cells.
+MIN_CELLS = 75_000
 
 
 def mode() -> str:
