@@ -5,8 +5,8 @@ hexahedra, in memory: no file), computes its geometry (untimed), then times the 
 the four walls (``caselint.mesh.rays.wall_rays``, as ``gap-cells`` casts them) and the wall
 walks (``caselint.mesh.wall_layers.wall_layers`` from the same faces, ``reach_m`` 0.5 m:
 the boundary-layer thickness ``boundary-layer-cells`` takes for the benchmark case, half
-the hydraulic diameter of the fully developed duct flow), with ``CASELINT_KERNELS=numpy`` and ``=numba`` in
-alternation (kernels compiled once before). Medians go into ``benchmarks/README.md``
+the hydraulic diameter of the fully developed duct flow), with ``CASELINT_KERNELS=numpy``
+and ``=numba`` in alternation (kernels compiled once before). Medians go into ``benchmarks/README.md``
 between the marches markers. Not collected by pytest.
 
 Run:  python benchmarks/bench_marches.py [--cells 1M] [--runs 3]
