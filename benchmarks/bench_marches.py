@@ -95,11 +95,9 @@ def main() -> None:
         lines.append(f"| {name} | {a:.2f} | {b:.2f} | **{a / b:.1f} x** | at least 5 x: "
                      f"{'**met**' if a / b >= 5 else '**not met**'} |")
     text = "\n".join(lines) + "\n"
-    print(text)
-    if not args.no_readme:
-        from bench_table import write_readme
+    from bench_table import publish
 
-        write_readme(HERE / "README.md", text, START, END)
+    publish(text, START, END, not args.no_readme)
 
 
 if __name__ == "__main__":

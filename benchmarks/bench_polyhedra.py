@@ -138,11 +138,9 @@ def main() -> None:
                      f"| {info['max_faces']} | " + " | ".join(f"{med[s]:.2f}" for s in stages)
                      + f" | **{total:.2f}** | {per_cell:.2f} | **{per_cell / base:.2f}** |")
     text = "\n".join(lines) + "\n"
-    print(text)
-    if not args.no_readme:
-        from bench_table import write_readme
+    from bench_table import publish
 
-        write_readme(HERE / "README.md", text, START, END)
+    publish(text, START, END, not args.no_readme)
 
 
 if __name__ == "__main__":

@@ -168,3 +168,10 @@ def write_readme(readme: Path, text: str, start: str = START, end: str = END) ->
     before, rest = old.split(start, 1)
     after = rest.split(end, 1)[1]
     readme.write_text(f"{before}{start}\n{text}{end}{after}")
+
+
+def publish(text: str, start: str, end: str, readme: bool) -> None:
+    """Print ``text`` and, when ``readme``, put it between the markers of the README."""
+    print(text)
+    if readme:
+        write_readme(Path(__file__).resolve().parent / "README.md", text, start, end)

@@ -68,11 +68,9 @@ def main() -> None:
         lines.append(f"| {r['cells']:,} | {r['numpy']:.2f} | {r['numba']:.2f} "
                      f"| **{r['numba'] / r['numpy']:.2f}** |")
     text = "\n".join(lines) + "\n"
-    print(text)
-    if not args.no_readme:
-        from bench_table import write_readme
+    from bench_table import publish
 
-        write_readme(HERE / "README.md", text, START, END)
+    publish(text, START, END, not args.no_readme)
 
 
 if __name__ == "__main__":
