@@ -82,12 +82,27 @@ def run_check(path: str) -> dict:
 
     t1 = time.perf_counter()
     pm = get_plugin_manager()
-    case = lint_case(path, pm=pm)
+    case = lint_case(path, pm=pm, read_mesh=_reader_with_cli_limit())
     text = render_json(build_report([case], pm))
     t2 = time.perf_counter()
     outcomes = {c.rule: c.outcome for c in case.checks}
     return {"s": t2 - t1, "import_s": t1 - t0, "hwm_mb": hwm_mb(), "json_bytes": len(text),
             "outcomes": outcomes}
+
+
+def _reader_with_cli_limit():
+    """``read_mesh`` with the memory limit ``caselint check`` takes from
+    ``CASELINT_MEMORY_LIMIT`` (None: the library's default, a share of what is available)."""
+    import functools
+    import os
+
+    from caselint.mesh import read_mesh
+    from caselint.mesh.limits import ENV_LIMIT, memory_limit
+
+    if os.environ.get(ENV_LIMIT) is None:
+        return None
+    return functools.partial(read_mesh, memory_limit=memory_limit(os.environ[ENV_LIMIT],
+                                                                  ENV_LIMIT))
 
 
 def run_stages(path: str, traced: bool) -> dict:
