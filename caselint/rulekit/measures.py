@@ -168,7 +168,7 @@ def with_histogram(result: RuleResult, limits: Limits, values: np.ndarray, edges
         return result
     plot = PlotData(title=title, x_label=x_label, y_label=y_label,
                     series=(PlotSeries.histogram(values, edges),), limits=limits)
-    return dataclasses.replace(result, plots=(plot,))
+    return dataclasses.replace(result, plots=(plot, *result.plots))
 
 
 __all__ = ["cell_extent", "cell_measurement", "face_extent", "face_measurement",

@@ -25,7 +25,9 @@ import numpy as np
 from caselint import hookimpl
 from caselint.mesh import quality
 from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
-from caselint.rulekit import RuleContext, cell_names, finite_point, plural, worst_ids
+from caselint.rulekit import (
+    RuleContext, cell_names, finite_point, first_limit, plural, worst_ids,
+)
 from caselint.rulekit.measures import (
     cell_extent,
     cell_measurement,
@@ -36,6 +38,7 @@ from caselint.rulekit.measures import (
     nonfinite_skip,
     with_histogram,
 )
+from caselint.rulekit.pictures import cut_picture, face_values_per_cell
 
 _VERDICT = "Verdict geometric quality library (Stimpson et al., SAND2007-1751, 2007)"
 _FV_BOOKS = (
@@ -59,7 +62,31 @@ def _face_result(ctx: RuleContext, values: np.ndarray, faces: np.ndarray | None,
         return skip
     measurement = face_measurement(ctx.mesh, values, faces, ctx.limits, unit_words, fmt)
     extent = face_extent(ctx, values, faces, unit_words, fmt)
-    return RuleResult(measurements=(dataclasses.replace(measurement, extent=extent),))
+    return RuleResult(measurements=(dataclasses.replace(measurement, extent=extent),),
+                      plots=_face_picture(ctx, values, faces, measurement.value, what))
+
+
+def _past_limit(ctx: RuleContext, value: float, worse: str = "higher") -> bool:
+    """Whether the worst value crosses the rule's first limit (then a picture is drawn)."""
+    limit = first_limit(ctx.limits)
+    return limit is not None and (value > limit if worse == "higher" else value < limit)
+
+
+def _face_picture(ctx: RuleContext, values: np.ndarray, faces: np.ndarray | None,
+                  worst_value: float, what: str) -> tuple:
+    """A cut through the cells at the worst face, when the worst crosses the limit."""
+    if not _past_limit(ctx, worst_value):
+        return ()
+    mesh = ctx.mesh
+    per_cell = face_values_per_cell(mesh, values, faces)
+    considered = values if faces is None else values[faces]
+    worst_face = int(np.argmax(considered)) if faces is None else int(faces[np.argmax(considered)])
+    owner, nbr = int(mesh.owner[worst_face]), int(mesh.neighbour[worst_face])
+    worst_cell = nbr if nbr >= 0 and per_cell[nbr] > per_cell[owner] else owner
+    picture = cut_picture(ctx, per_cell, worst_cell, what.capitalize(),
+                          f"largest {what} of the cell's faces",
+                          worst_face=worst_face)
+    return () if picture is None else (picture,)
 
 
 def _internal_faces(ctx: RuleContext, what: str) -> np.ndarray | RuleResult:
@@ -104,7 +131,13 @@ def check_inverted_cells(ctx: RuleContext) -> RuleResult:
                   f"{names[worst]}")
     where = Where(cells=cell_names(mesh, listed), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
-    return RuleResult(measurements=(Measurement(value=float(count), where=where, detail=detail),))
+    plots = ()
+    if count:
+        picture = cut_picture(ctx, bad.astype(float), worst, "Inverted cells",
+                              "1 inverted or folded, 0 valid")
+        plots = () if picture is None else (picture,)
+    return RuleResult(measurements=(Measurement(value=float(count), where=where, detail=detail),),
+                      plots=plots)
 
 
 def check_non_orthogonality(ctx: RuleContext) -> RuleResult:
@@ -153,8 +186,15 @@ def check_aspect_ratio(ctx: RuleContext) -> RuleResult:
         kind = "polyhedron" if n_general == 1 else "polyhedra"
         measurement = dataclasses.replace(
             measurement, detail=f"{measurement.detail}; not defined for {n_general} general {kind}")
+    plots = ()
+    if _past_limit(ctx, measurement.value):
+        ranked = np.where(mesh.cell_shape >= 0, values, -np.inf)
+        picture = cut_picture(ctx, values, int(np.argmax(ranked)), "Aspect ratio",
+                              "edge ratio")
+        plots = () if picture is None else (picture,)
     return RuleResult(measurements=(
-        dataclasses.replace(measurement, extent=cell_extent(ctx, values, ".4g", cells)),))
+        dataclasses.replace(measurement, extent=cell_extent(ctx, values, ".4g", cells)),),
+        plots=plots)
 
 
 def check_face_warp(ctx: RuleContext) -> RuleResult:
