@@ -88,7 +88,7 @@ def test_picture_of_a_sheared_block_shows_the_sheared_cells_where_they_are(tmp_p
     relative to the worst cell's centroid; the worst cell is highlighted."""
     from pathlib import Path
 
-    from caselint.engine.context import RuleContext
+    from caselint.engine.runner import check_rule
     from caselint.manifest.case import Case, CaseInfo, MeshSpec
     from caselint.report.plots import plot_svg
     from caselint.rules.mesh_quality import NON_ORTHOGONALITY
@@ -96,8 +96,7 @@ def test_picture_of_a_sheared_block_shows_the_sheared_cells_where_they_are(tmp_p
     mesh = sheared_block(75.0)
     case = Case(path=Path("case.yaml"), version=1, info=CaseInfo(name="sheared"),
                 mesh=MeshSpec(file=Path("mesh.msh")))
-    ctx = RuleContext(case=case, limits=NON_ORTHOGONALITY.limits, params={}, _mesh=mesh)
-    result = NON_ORTHOGONALITY.check(ctx)
+    result = check_rule(NON_ORTHOGONALITY, case, mesh)
     (picture,) = [p for p in result.plots if p.kind == "cut"]
     assert picture.x_label.startswith("x ") and picture.y_label.startswith("z ")
     worst = picture.series[picture.highlight]

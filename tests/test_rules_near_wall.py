@@ -431,3 +431,27 @@ def test_damaged_wall_cells_give_findings_not_crashes():
 def test_every_rule_skips_without_walls(rule):
     check, _, _ = grade(rule, block(1e-4, n=4), make_case(walls=()))
     assert check.outcome == "skipped" and "no boundary has role wall" in check.reason
+
+
+@pytest.mark.parametrize("rule", RULES, ids=lambda r: r.id)
+def test_inviscid_cases_and_slip_walls_skip_the_near_wall_rules(rule):
+    """An Euler case (no viscosity) or a case whose only solid boundary slips forms no
+    boundary layer: every near-wall rule skips, naming why."""
+    mesh = block(1e-4)
+    check, findings, _ = grade(rule, mesh, make_case(model="inviscid"))
+    assert check.outcome == "skipped" and findings == []
+    assert "inviscid" in check.reason
+    slip = make_case(walls=())
+    slip.mesh.boundaries["zmin"] = "slip-wall"
+    check, findings, _ = grade(rule, mesh, slip)
+    assert check.outcome == "skipped" and "slip walls" in check.reason
+
+
+def test_gaps_between_slip_walls_are_still_measured():
+    from caselint.rules.gaps import GAP_CELLS
+
+    mesh = block(0.05, ratio=1.0, n=4)            # 4 cells of 5 cm between zmin and zmax
+    case = make_case(walls=())
+    case.mesh.boundaries.update({"zmin": "slip-wall", "zmax": "slip-wall"})
+    check, findings, _ = grade(GAP_CELLS, mesh, case)
+    assert check.measured == 4 and check.outcome == "fail"

@@ -24,7 +24,7 @@ import numpy as np
 
 from caselint import hookimpl
 from caselint.mesh import quality
-from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
+from caselint.model import MAX_LISTED_IDS, Grade, Limits, Measurement, Rule, RuleResult, Where
 from caselint.rulekit import (
     RuleContext, cell_names, finite_point, first_limit, plural, worst_ids,
 )
@@ -141,12 +141,31 @@ def check_inverted_cells(ctx: RuleContext) -> RuleResult:
 
 
 def check_non_orthogonality(ctx: RuleContext) -> RuleResult:
-    """Largest angle between a face's area vector and the line joining the cell centres."""
-    values = quality.non_orthogonality_deg(ctx.mesh)
-    result = _face_result(ctx, values, None, "non-orthogonality", " deg", ".1f")
-    edges = linear_bin_edges(values, resolution=0.5, limits=ctx.limits)
-    return with_histogram(result, ctx.limits, values, edges, "Face non-orthogonality",
-                          "non-orthogonality (deg)", "faces (internal and boundary)")
+    """Largest angle between a face's area vector and the line joining the cell centres,
+    over internal faces; boundary faces measured apart (grade ``boundary``)."""
+    mesh = ctx.mesh
+    values = quality.non_orthogonality_deg(mesh)
+    n = mesh.n_internal
+    if not n:                            # a single cell: its boundary faces are all there is
+        result = _face_result(ctx, values, None, "non-orthogonality", " deg", ".1f")
+        edges = linear_bin_edges(values, resolution=0.5, limits=ctx.limits)
+        return with_histogram(result, ctx.limits, values, edges, "Face non-orthogonality",
+                              "non-orthogonality (deg)", "boundary faces")
+    internal = np.arange(n)
+    result = _face_result(ctx, values, internal, "non-orthogonality", " deg", ".1f")
+    if result.skipped is None and n < mesh.n_faces:
+        boundary = _boundary_angle(ctx, values, np.arange(n, mesh.n_faces))
+        result = dataclasses.replace(result, measurements=(*result.measurements, boundary))
+    edges = linear_bin_edges(values[:n], resolution=0.5, limits=ctx.limits)
+    return with_histogram(result, ctx.limits, values[:n], edges, "Face non-orthogonality",
+                          "non-orthogonality (deg)", "internal faces")
+
+
+def _boundary_angle(ctx: RuleContext, values: np.ndarray, faces: np.ndarray) -> Measurement:
+    """The worst non-orthogonality at boundary faces (cell centre to face centre)."""
+    m = face_measurement(ctx.mesh, values, faces, ctx.grade("boundary"), " deg", ".1f")
+    return dataclasses.replace(m, grade="boundary", label=(
+        "non-orthogonality at boundary faces (cell centre to face centre)"))
 
 
 def check_skewness(ctx: RuleContext) -> RuleResult:
@@ -238,9 +257,11 @@ NON_ORTHOGONALITY = Rule(
         "the two cells it separates (on a boundary face, from the cell centre to the face "
         "centre). Finite-volume diffusion terms use d; when it departs from S_f the "
         "non-orthogonal correction grows, needs extra iterations and limits stability "
-        "(" + _FV_BOOKS + "). Warning above 70 deg, error above 85 deg: common practice. Near "
-        "90 deg the correction breaks down wherever the face is, so elsewhere the error limit "
-        "85 deg stays (grade elsewhere)." + _PLACES_WORDS
+        "(" + _FV_BOOKS + "). Warning above 70 deg, error above 85 deg: common practice, on "
+        "internal faces. Near 90 deg the correction breaks down wherever the face is, so "
+        "elsewhere the error limit 85 deg stays (grade elsewhere). Boundary faces are "
+        "measured apart (grade boundary): there the angle only corrects the boundary "
+        "gradient, and a curved wall meshed with flat faces always shows some." + _PLACES_WORDS
     ),
     source=_FV_BOOKS + "; limits: common practice",
     unit="deg",
@@ -251,7 +272,13 @@ NON_ORTHOGONALITY = Rule(
     measures="largest face non-orthogonality (angle between face area vector and cell-centre line)",
     **graded_by_place(elsewhere=Limits(warn=None, error=85.0),
                       elsewhere_source="common practice (the error limit, where the "
-                                       "non-orthogonal correction breaks down)"),
+                                       "non-orthogonal correction breaks down)",
+                      more=(Grade("boundary", 85.0, None, description=(
+                          "worst angle at boundary faces, between the face normal and the "
+                          "line from the cell centre to the face centre"),
+                          source="caselint default: at a boundary the angle enters only the "
+                                 "boundary gradient's correction, so only a value near 90 "
+                                 "deg is worth a warning"),)),
 )
 
 SKEWNESS = Rule(
