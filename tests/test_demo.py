@@ -102,7 +102,7 @@ def test_demo_findings_locate_the_defects(report):
     findings = {f.rule: f for f in report.findings if f.severity != "note"}
     assert set(findings) == {"growth-ratio", "non-orthogonality", "unassigned-boundary",
                              "wall-yplus", "layer-growth", "wall-spacing-uniformity",
-                             "boundary-layer-cells", "gap-cells"}
+                             "boundary-layer-cells", "layer-cover", "gap-cells"}
     # the wedge the morph leaves between the floor and the rail on the north wall (x = 0):
     # rays from the floor meet the leaning wall after crossing the first two floor layers
     gap = findings["gap-cells"]
