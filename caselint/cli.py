@@ -112,6 +112,12 @@ def build_parser() -> argparse.ArgumentParser:
                             "cells or more, kept by file hash in $CASELINT_CACHE_DIR, default "
                             "~/.cache/caselint); CASELINT_CACHE_DIR=off turns every cache "
                             "off")
+    check.add_argument("--cells-out", metavar="FILE.vtu",
+                       help="also write the cells and faces the findings name as a VTK "
+                            "file (rule, severity and measured value as cell data, in the "
+                            "mesh's own coordinates and ids) to open over the mesh in a "
+                            "post-processor; with several case files, one file each, named "
+                            "FILE-<case file name>.vtu")
     check.add_argument("--memory-limit", metavar="SIZE",
                        help="refuse a mesh whose check would need more memory than SIZE "
                             "(e.g. 8GB, 512MiB; 'off' for no limit; default: "

@@ -150,7 +150,8 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
         jobs=getattr(args, "jobs", 1), scheduler=getattr(args, "scheduler", None),
         use_cache=not getattr(args, "no_cache", True), memory_limit=_memory_limit(args),
         blocked=tuple(args.blocked), stdout_color=use_color(sys.stdout),
-        stdout_width=output_width(sys.stdout), progress=_progress_bar)
+        stdout_width=output_width(sys.stdout), progress=_progress_bar,
+        cells_out=getattr(args, "cells_out", None))
     run = check(options)
     for text in run.messages:
         message(text)

@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Callable, ContextManager, Iterator
 
 from caselint.errors import UsageError
-from caselint.model import SEVERITY_RANK, Report
+from caselint.model import SEVERITY_RANK, CaseReport, Report
 
 if TYPE_CHECKING:
     import pluggy
@@ -52,6 +52,7 @@ class CheckOptions:
     use_cache: bool = True
     memory_limit: tuple[int | None, str] | None = None
     blocked: tuple[str, ...] = ()
+    cells_out: str | None = None
     stdout_color: bool = False
     stdout_width: int = FILE_WIDTH
     progress: Progress | None = None
@@ -145,6 +146,8 @@ def run_check(options: CheckOptions, pm: "pluggy.PluginManager | None" = None) -
     written = [(p, "--output") for _, p in targets if p is not None]
     if options.write_baseline:
         written.append((Path(options.write_baseline), "--write-baseline"))
+    cells_files = _cells_file_names(options.cells_out, paths)
+    written += [(p, "--cells-out") for p in cells_files.values()]
     for path, option in written:
         _protect_inputs(path, option, [Path(p) for p in paths], "one of the case files")
     baseline = load_baseline(options.baseline) if options.baseline else None
@@ -205,4 +208,40 @@ def run_check(options: CheckOptions, pm: "pluggy.PluginManager | None" = None) -
                 run.stdout.append(text)
             else:
                 write_atomically(path, text)
+        for (path, _), case in zip(checked, report.cases):
+            if path in cells_files:
+                run.messages.append(_write_cells_file(path, case, cells_files[path], registry,
+                                                      options.memory_limit))
     return run
+
+
+def _cells_file_names(cells_out: str | None, paths: list[str]) -> dict[str, Path]:
+    """Case file -> its cells file: ``cells_out`` itself for one case, else
+    ``<stem>-<case file stem>.vtu`` beside it (the case files' folders told apart where
+    two share a name)."""
+    if cells_out is None:
+        return {}
+    target = Path(cells_out)
+    if len(paths) == 1:
+        return {paths[0]: target}
+    stems = [Path(p).stem for p in paths]
+    names = [s if stems.count(s) == 1 else f"{Path(p).parent.name}-{s}"
+             for s, p in zip(stems, paths)]
+    return {p: target.with_name(f"{target.stem}-{n}{target.suffix or '.vtu'}")
+            for p, n in zip(paths, names)}
+
+
+def _write_cells_file(path: str, case: "CaseReport", target: Path, registry: "Registry",
+                      memory_limit) -> str:
+    """Read the case's mesh again and write the cells its findings name; a message."""
+    import functools
+
+    from caselint.api import load_case, load_case_mesh
+    from caselint.mesh import read_mesh
+    from caselint.report.cells_file import write_cells_file
+
+    loaded = load_case(path, registry=registry)
+    mesh = load_case_mesh(loaded, functools.partial(read_mesh, memory_limit=memory_limit),
+                          tuple(registry.mesh_readers.values()))
+    count = write_cells_file(target, mesh, case.findings, loaded.mesh.scale_to_m)
+    return f"wrote cells file {target} ({count} named by the findings)"

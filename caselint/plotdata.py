@@ -1,5 +1,5 @@
-"""Data a rule attaches for the review reports to draw: histograms and lines (reporters
-compute nothing)."""
+"""Data a rule attaches for the review reports to draw: histograms, lines and plane cuts
+through the mesh (reporters compute nothing)."""
 
 from __future__ import annotations
 
@@ -17,6 +17,8 @@ class PlotSeries:
     For a histogram ``x`` holds the n+1 increasing bin edges and ``y`` the n counts;
     ``below`` and ``above`` count the values outside the edges, so nothing is hidden.
     For a line ``x`` and ``y`` are the points. ``label`` names the series (a boundary).
+    For a cut, a series is one cell's polygon (``x``, ``y`` in the plane's axes, m) with
+    the measured ``value`` it is coloured by, or a wall's trace (a line, no value).
     """
 
     x: tuple[float, ...]
@@ -24,9 +26,11 @@ class PlotSeries:
     label: str = ""
     below: int = 0
     above: int = 0
+    value: float | None = None
 
     def __post_init__(self) -> None:
-        if not all(math.isfinite(v) for v in (*self.x, *self.y)):
+        values = (*self.x, *self.y, *(() if self.value is None else (self.value,)))
+        if not all(math.isfinite(v) for v in values):
             raise ValueError(f"plot series {self.label!r} holds a non-finite number")
         if self.below < 0 or self.above < 0:
             raise ValueError(f"plot series {self.label!r}: counts outside the edges are >= 0")
@@ -57,8 +61,11 @@ def log_bin_edges(values: Any, per_decade: int | None = None) -> Any:
 class PlotData:
     """Data a rule attaches for the review reports to draw (reporters compute nothing).
 
-    ``kind`` is ``"histogram"`` (each series: bin edges and counts) or ``"line"``
-    (each series: points, e.g. layer height against layer number). ``limits`` (with
+    ``kind`` is ``"histogram"`` (each series: bin edges and counts), ``"line"`` (each
+    series: points, e.g. layer height against layer number) or ``"cut"`` (each series a
+    cell's polygon on a plane through the worst place, coloured by its value, which
+    ``value_label`` names; ``walls`` the traces of no-slip walls on the plane;
+    ``highlight`` the index of the worst cell's polygon). ``limits`` (with
     ``worse``), when given, are drawn as marks on the x axis of a histogram. ``rule`` is
     filled in by the engine with the id of the rule that attached the plot.
     """
@@ -67,16 +74,26 @@ class PlotData:
     x_label: str
     y_label: str
     series: tuple[PlotSeries, ...]
-    kind: Literal["histogram", "line"] = "histogram"
+    kind: Literal["histogram", "line", "cut"] = "histogram"
     limits: Limits | None = None
     worse: Worse = "higher"
     x_log: bool = False
     y_log: bool = False
     rule: str = ""
+    walls: tuple[PlotSeries, ...] = ()
+    highlight: int | None = None
+    value_label: str = ""
 
     def __post_init__(self) -> None:
-        if self.kind not in ("histogram", "line"):
-            raise ValueError(f"plot kind must be 'histogram' or 'line', got {self.kind!r}")
+        if self.kind not in ("histogram", "line", "cut"):
+            raise ValueError(f"plot kind must be 'histogram', 'line' or 'cut', got "
+                             f"{self.kind!r}")
+        if self.kind == "cut" and any(len(s.x) != len(s.y) or len(s.x) < 3 or s.value is None
+                                      for s in self.series):
+            raise ValueError(f"plot {self.title!r}: each cut polygon needs 3 or more corners "
+                             "and a value")
+        if self.highlight is not None and not 0 <= self.highlight < len(self.series):
+            raise ValueError(f"plot {self.title!r}: highlight {self.highlight} is not a series")
         if not self.series:
             raise ValueError(f"plot {self.title!r} has no series")
         for s in self.series:

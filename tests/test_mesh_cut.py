@@ -79,3 +79,40 @@ def test_2d_cells_are_their_own_polygons():
     cut = plane_cut(mesh, origin=[0, 0, 0], normal=[0, 0, 1])
     assert len(cut.cells) == mesh.n_cells
     np.testing.assert_allclose(cut.areas(), mesh.cell_volumes, rtol=1e-12)
+
+
+def test_picture_of_a_sheared_block_shows_the_sheared_cells_where_they_are(tmp_path):
+    """non-orthogonality fails on a block sheared by 75 deg; its picture cuts the plane
+    normal to y (the axis the worst face's normal leaves out) through the worst cell, and
+    every polygon is that cell's parallelogram: corners at x - s z integer, z integer,
+    relative to the worst cell's centroid; the worst cell is highlighted."""
+    from pathlib import Path
+
+    from caselint.engine.runner import check_rule
+    from caselint.manifest.case import Case, CaseInfo, MeshSpec
+    from caselint.report.plots import plot_svg
+    from caselint.rules.mesh_quality import NON_ORTHOGONALITY
+
+    mesh = sheared_block(75.0)
+    case = Case(path=Path("case.yaml"), version=1, info=CaseInfo(name="sheared"),
+                mesh=MeshSpec(file=Path("mesh.msh")))
+    result = check_rule(NON_ORTHOGONALITY, case, mesh)
+    (picture,) = [p for p in result.plots if p.kind == "cut"]
+    assert picture.x_label.startswith("x ") and picture.y_label.startswith("z ")
+    worst = picture.series[picture.highlight]
+    s = math.tan(math.radians(75.0))
+    for poly in picture.series:
+        x, z = np.array(poly.x), np.array(poly.y)
+        assert len(x) == 4
+        area = 0.5 * abs(np.dot(x, np.roll(z, -1)) - np.dot(z, np.roll(x, -1)))
+        assert area == pytest.approx(1.0, rel=1e-12)          # base 1, height 1
+        dz = np.diff(np.sort(z))
+        assert np.allclose(dz[[0, 2]], 0) and dz[1] == pytest.approx(1.0)
+    wx, wz = np.array(worst.x), np.array(worst.y)
+    np.testing.assert_allclose([wx.mean(), wz.mean()], [0.0, 0.0], atol=1e-12)
+    # the slanted sides run at the shear: x changes by s over a unit of z
+    order = np.argsort(wz)
+    bottom, top = wx[order[:2]], wx[order[2:]]
+    assert np.sort(top) - np.sort(bottom) == pytest.approx([s, s])
+    svg = plot_svg(picture, "t")
+    assert svg.startswith("<svg") and "cells around the worst" in svg

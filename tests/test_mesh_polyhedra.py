@@ -227,7 +227,7 @@ def test_warped_square_warps_by_atan_2h_over_side(h):
 def test_mesh_rules_on_a_refined_block(octree):
     from pathlib import Path
 
-    from caselint.engine.context import RuleContext
+    from caselint.engine.runner import check_rule
     from caselint.manifest.case import Case, CaseInfo, MeshSpec
     from caselint.rules import mesh_integrity, mesh_quality
 
@@ -235,7 +235,7 @@ def test_mesh_rules_on_a_refined_block(octree):
                 mesh=MeshSpec(file=Path("mesh.vtu")))
     values, details = {}, {}
     for rule in mesh_quality.RULES + mesh_integrity.RULES:
-        result = rule.check(RuleContext(case=case, limits=rule.limits, params={}, _mesh=octree))
+        result = check_rule(rule, case, octree)
         assert result.skipped is None, (rule.id, result.skipped)
         values[rule.id] = result.measurements[0].value
         details[rule.id] = result.measurements[0].detail

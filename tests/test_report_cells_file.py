@@ -89,3 +89,39 @@ def test_no_named_entities_gives_an_empty_but_valid_file(tmp_path):
     assert read_vtk(path).GetNumberOfCells() == 0
     with pytest.raises(FileNotFoundError):
         write_cells_file(tmp_path / "no-such-folder" / "c.vtu", mesh, [])
+
+
+def test_check_cells_out_matches_the_json_findings(tmp_path):
+    """End to end: ``check --cells-out`` on a case whose mesh has a 2.5x volume jump (the
+    growth-ratio findings name cells and faces); the file's ids and values are the JSON's."""
+    import json
+
+    from test_cli import run_cli
+    from test_cli_e2e import write_block_mesh, write_case
+
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    case = write_case(tmp_path, mesh, name="Invented duct with a jump")
+    cells = tmp_path / "where.vtu"
+    code, out, err = run_cli("check", str(case), "--format", "json", "--cells-out", str(cells))
+    assert code == 1 and f"wrote cells file {cells}" in err
+    document = json.loads(out)
+    named_cells, named_faces = {}, {}
+    for f in document["cases"][0]["findings"]:
+        for c in f["where"].get("cells", []):
+            named_cells.setdefault(c, {})[f["rule"]] = f["measured"]
+        for face in f["where"].get("faces", []):
+            named_faces.setdefault(face, {})[f["rule"]] = f["measured"]
+    assert named_cells and named_faces
+    grid = read_vtk(cells)
+    cd = grid.GetCellData()
+    ids = vtk_to_numpy(cd.GetArray("file_cell_id"))
+    face_ids = vtk_to_numpy(cd.GetArray("face_id"))
+    assert sorted(ids[ids >= 0].tolist()) == sorted(named_cells)
+    assert sorted(face_ids[face_ids >= 0].tolist()) == sorted(named_faces)
+    for row, cell in enumerate(ids):
+        entity = named_cells[cell] if cell >= 0 else named_faces[face_ids[row]]
+        for rule, value in entity.items():
+            assert vtk_to_numpy(cd.GetArray(rule))[row] == pytest.approx(value)
+    # the mesh file was not touched, and a cells file inside a case's inputs is refused
+    code, _, err = run_cli("check", str(case), "--cells-out", str(mesh))
+    assert code == 2 and "never overwrites its inputs" in err

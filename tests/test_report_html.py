@@ -165,8 +165,10 @@ def test_end_to_end_histograms_of_a_real_mesh(tmp_path, review_formats):  # noqa
     assert (code, stdout) == (1, ""), err
     text = out.read_text(encoding="utf-8")
     assert _parse(text).errors == []
-    # non-orthogonality and growth ratio each attach one histogram
-    assert text.count("<svg") == 2
+    # non-orthogonality and growth ratio each attach one histogram; the failing growth
+    # ratio a cut through its worst cell
+    assert text.count("<svg") == 3
+    assert "Growth ratio: cells around the worst, cut at" in text
     assert "<figcaption>Volume growth ratio (rule growth-ratio)</figcaption>" in text
     assert "<figcaption>Face non-orthogonality (rule non-orthogonality)</figcaption>" in text
     assert "error limit 2" in text and "warning limit 1.3" in text

@@ -178,7 +178,7 @@ def test_a_corner_where_walls_meet_at_an_angle_is_not_a_passage():
 def test_no_walls_or_no_wall_to_wall_ray_is_skipped_with_the_reason():
     mesh = mesh_from_meshio(channel(4, length=2.0, n_along=4))
     no_walls = run(mesh, {k: ("symmetry" if v == "wall" else v) for k, v in CHANNEL.items()})
-    assert no_walls.skipped == "no boundary has role wall in mesh.boundaries"
+    assert no_walls.skipped == "no boundary has role wall or slip-wall in mesh.boundaries"
     # only the floor is a wall: every ray leaves through the (symmetry) ceiling
     open_top = run(mesh, {**CHANNEL, "ceiling": "symmetry"})
     assert open_top.skipped == ("no passage between walls: the 8 rays cast from the walls "

@@ -24,7 +24,7 @@ from caselint.manifest.case import (
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import structured_hex, tetrahedralise
 from caselint.rules.near_wall import (
-    BOUNDARY_LAYER_CELLS, LAYER_GROWTH, WALL_SPACING_UNIFORMITY,
+    BOUNDARY_LAYER_CELLS, LAYER_COVER, LAYER_GROWTH, LAYER_TRANSITION, WALL_SPACING_UNIFORMITY,
 )
 from caselint.rules.near_wall import RULES as NEAR_WALL_RULES
 from caselint.rules.yplus import WALL_YPLUS
@@ -269,12 +269,16 @@ def test_cells_within_the_boundary_layer_and_stack_cover():
     check, findings, notes = grade(BOUNDARY_LAYER_CELLS, block(1e-4, n=30), make_case())
     assert check.outcome == "pass" and check.measured == 21
     assert any(f"{DELTA:.3g} m" in n for n in notes)
-    # 20 layers stop short of delta: enough cells, but the stack covers 0.738 of it
-    check, findings, _ = grade(BOUNDARY_LAYER_CELLS, block(1e-4, n=20), make_case())
+    # 20 layers stop short of delta: enough cells (layer-cover passes 30 layers), but the
+    # stack covers 0.738 of it
+    check, findings, _ = grade(LAYER_COVER, block(1e-4, n=30), make_case())
+    assert check.outcome == "pass" and check.measured > 1
+    check, findings, _ = grade(LAYER_COVER, block(1e-4, n=20), make_case())
     (finding,) = findings
     thickness = 1e-4 * (1.2 ** 20 - 1) / 0.2
-    assert finding.severity == "warning"
+    assert finding.severity == "warning" and check.unit == ""
     assert finding.measured == pytest.approx(thickness / DELTA, rel=1e-10)
+    assert check.measured == pytest.approx(thickness / DELTA, rel=1e-10)
 
 
 def test_few_prism_layers_in_a_thick_boundary_layer_is_an_error():
@@ -310,12 +314,14 @@ def test_layer_growth_grades(ratio, expected):
 def test_jump_from_prism_layers_to_the_tetrahedral_core():
     heights = geometric(1e-3, 1.2, 5)
     mesh = mesh_from_meshio(prism_block(heights, [0.05, 0.05]))
-    check, findings, _ = grade(LAYER_GROWTH, mesh, make_case())
-    jump = [f for f in findings if "core cell" in f.message]
-    (finding,) = jump
-    assert finding.severity == "error"
+    check, findings, _ = grade(LAYER_TRANSITION, mesh, make_case())
+    (finding,) = findings
+    assert finding.severity == "error" and "core cell" in finding.message
     assert finding.measured == pytest.approx(0.05 / heights[-1], rel=1e-10)
-    assert check.severity == "error"
+    assert check.severity == "error" and check.measured == finding.measured
+    # the growth inside the stack is what layer-growth's row shows: 1.2
+    check, _, _ = grade(LAYER_GROWTH, mesh, make_case())
+    assert check.outcome == "pass" and check.measured == pytest.approx(1.2, rel=1e-10)
 
 
 def test_tetrahedral_walls_have_nothing_to_grow():
@@ -328,7 +334,8 @@ def test_all_rules_are_registered_with_documented_parameters():
     from caselint.rules import near_wall, yplus
 
     ids = sorted(r.id for r in near_wall.caselint_register_rules())
-    assert ids == ["boundary-layer-cells", "layer-growth", "wall-spacing-uniformity"]
+    assert ids == ["boundary-layer-cells", "layer-cover", "layer-growth", "layer-transition",
+                   "wall-spacing-uniformity"]
     assert [r.id for r in yplus.caselint_register_rules()] == ["wall-yplus"]
     for rule in RULES:
         assert rule.source and rule.rationale
@@ -351,7 +358,7 @@ def test_lint_case_runs_the_near_wall_rules_from_a_rule_set(tmp_path):
     (tmp_path / "near-wall.yaml").write_text(
         "description: near-wall checks\nrules:\n  wall-yplus: {}\n"
         "  wall-spacing-uniformity: {}\n  boundary-layer-cells: {warn: 12}\n"
-        "  layer-growth: {grades: {core-jump: {error: 3.0}}}\n")
+        "  layer-growth: {}\n  layer-transition: {error: 3.0}\n  layer-cover: {}\n")
     (tmp_path / "case.yaml").write_text(
         "caselint: 1\ncase: {name: Tunnel floor T1}\nmesh:\n  file: floor.msh\n"
         "  boundaries: {zmin: wall, zmax: symmetry, xmin: inlet, xmax: outlet, "
@@ -372,21 +379,23 @@ def test_lint_case_runs_the_near_wall_rules_from_a_rule_set(tmp_path):
     pm.register(Sets(), name="test-near-wall-sets")
     report = lint_case(tmp_path / "case.yaml", pm=pm)
     checks = {c.rule: c for c in report.checks}
-    assert sorted(checks) == ["boundary-layer-cells", "layer-growth", "wall-spacing-uniformity",
-                              "wall-yplus"]
+    assert sorted(checks) == ["boundary-layer-cells", "layer-cover", "layer-growth",
+                              "layer-transition", "wall-spacing-uniformity", "wall-yplus"]
     assert checks["wall-yplus"].outcome == "pass"
     assert checks["wall-yplus"].measured == pytest.approx(0.5, rel=1e-9)
     assert checks["wall-spacing-uniformity"].measured == pytest.approx(1.0, abs=1e-12)
     assert checks["layer-growth"].measured == pytest.approx(1.2, rel=1e-12)
     assert checks["layer-growth"].outcome == "pass"
-    # all 25 layers lie inside delta (>= 12 cells, the case's rule set), but the stack is
-    # thinner than delta: the deciding measurement is the stack cover, a warning
+    # all 25 layers lie inside delta (>= 12 cells, the case's rule set: a pass), but the
+    # stack is thinner than delta: layer-cover warns, with the ratio as its row's value
     heights = geometric(first_height_for(0.5), 1.2, 25)
     assert np.count_nonzero(np.cumsum(heights) <= DELTA) == 25
     bl = checks["boundary-layer-cells"]
-    assert (bl.outcome, bl.severity) == ("fail", "warning")
-    assert bl.measured == pytest.approx(heights.sum() / DELTA, rel=1e-9)
-    (finding,) = [f for f in report.findings if f.rule == "boundary-layer-cells"
+    assert (bl.outcome, bl.measured) == ("pass", 25)
+    cover = checks["layer-cover"]
+    assert (cover.outcome, cover.severity) == ("fail", "warning")
+    assert cover.measured == pytest.approx(heights.sum() / DELTA, rel=1e-9)
+    (finding,) = [f for f in report.findings if f.rule == "layer-cover"
                   and f.severity != "note"]
     assert "thinnest layer stack" in finding.message and finding.where.boundary == "zmin"
 
@@ -431,3 +440,45 @@ def test_damaged_wall_cells_give_findings_not_crashes():
 def test_every_rule_skips_without_walls(rule):
     check, _, _ = grade(rule, block(1e-4, n=4), make_case(walls=()))
     assert check.outcome == "skipped" and "no boundary has role wall" in check.reason
+
+
+@pytest.mark.parametrize("rule", RULES, ids=lambda r: r.id)
+def test_inviscid_cases_and_slip_walls_skip_the_near_wall_rules(rule):
+    """An Euler case (no viscosity) or a case whose only solid boundary slips forms no
+    boundary layer: every near-wall rule skips, naming why."""
+    mesh = block(1e-4)
+    check, findings, _ = grade(rule, mesh, make_case(model="inviscid"))
+    assert check.outcome == "skipped" and findings == []
+    assert "inviscid" in check.reason
+    slip = make_case(walls=())
+    slip.mesh.boundaries["zmin"] = "slip-wall"
+    check, findings, _ = grade(rule, mesh, slip)
+    assert check.outcome == "skipped" and "slip walls" in check.reason
+
+
+def test_gaps_between_slip_walls_are_still_measured():
+    from caselint.rules.gaps import GAP_CELLS
+
+    mesh = block(0.05, ratio=1.0, n=4)            # 4 cells of 5 cm between zmin and zmax
+    case = make_case(walls=())
+    case.mesh.boundaries.update({"zmin": "slip-wall", "zmax": "slip-wall"})
+    check, findings, _ = grade(GAP_CELLS, mesh, case)
+    assert check.measured == 4 and check.outcome == "fail"
+
+
+@pytest.mark.parametrize("target, shown", [(40.0, "wall-function.low"),
+                                           (180.0, "wall-function.high")])
+def test_wall_function_row_shows_the_end_nearer_its_limit(target, shown):
+    """A passing wall-function band shows the y+ end closer to its limit (30 below, 300
+    above): the smallest y+ for a first layer near 40, the largest for one near 180."""
+    from caselint.engine.runner import check_rule
+
+    mesh = block(first_height_for(target), n=6)
+    case = make_case(treatment="wall-function")
+    check, findings, _ = grade(WALL_YPLUS, mesh, case)
+    assert check.outcome == "pass" and findings == []
+    ends = {m.grade: m for m in check_rule(WALL_YPLUS, case, mesh).measurements}
+    nearer = ("wall-function.low" if ends["wall-function.low"].value / 30.0
+              <= 300.0 / ends["wall-function.high"].value else "wall-function.high")
+    assert nearer == shown and check.measured == pytest.approx(ends[shown].value)
+    assert all("ranges from" in m.detail for m in ends.values())

@@ -1,7 +1,7 @@
 """What a rule needs before it can run, checked by the engine: ``Rule.needs``.
 
 A need is ``"mesh"`` (the case's mesh, with volume cells), a condition named in
-:data:`CONDITIONS` (``"transient"``, ``"compressible"``, ``"walls"``, ``"viscosity"``), or a
+:data:`CONDITIONS` (``"transient"``, ``"compressible"``, ``"walls"``, ``"solid-walls"``, ``"viscosity"``), or a
 dotted key of the case file (``"time.step"``, ``"regions"``, a plugin's
 ``"quillfen.supply_flow"``), which is met when the case gives it (not null, not empty; read
 from the :class:`Case`, so plugin sections from ``Case.extensions``). The first need not
@@ -17,13 +17,29 @@ if TYPE_CHECKING:
     from caselint.manifest.case import Case
     from caselint.mesh.analysis import Mesh
 
-#: Named conditions on the case: name -> (test, the skip reason when it fails).
-CONDITIONS: dict[str, tuple[Callable[["Case"], bool], str]] = {
+def _no_slip_walls(case: "Case") -> str:
+    """Why a case has no no-slip wall to judge near-wall resolution on."""
+    if case.physics.turbulence.model == "inviscid":
+        return ("the case is inviscid (physics.turbulence.model: inviscid): its walls slip "
+                "and no boundary layer forms")
+    if "slip-wall" in case.mesh.boundaries.values():
+        return ("no no-slip wall: the solid boundaries of mesh.boundaries are slip walls, "
+                "where no boundary layer forms")
+    return "no boundary has role wall in mesh.boundaries"
+
+
+#: Named conditions on the case: name -> (test, the skip reason when it fails: text, or
+#: text made from the case).
+CONDITIONS: dict[str, tuple[Callable[["Case"], bool], str | Callable[["Case"], str]]] = {
     "transient": (lambda case: case.time.mode == "transient", "steady case"),
     "compressible": (lambda case: case.physics.compressible,
                      "the case does not declare compressible flow (physics.compressible)"),
-    "walls": (lambda case: "wall" in case.mesh.boundaries.values(),
-              "no boundary has role wall in mesh.boundaries"),
+    "walls": (lambda case: ("wall" in case.mesh.boundaries.values()
+                            and case.physics.turbulence.model != "inviscid"),
+              _no_slip_walls),
+    "solid-walls": (lambda case: any(r in ("wall", "slip-wall")
+                                     for r in case.mesh.boundaries.values()),
+                    "no boundary has role wall or slip-wall in mesh.boundaries"),
     "viscosity": (lambda case: case.physics.fluid.nu is not None,
                   "the case file gives no physics.fluid.kinematic_viscosity (nor viscosity "
                   "with density)"),
@@ -55,7 +71,7 @@ def missing_case_data(needs: tuple[str, ...], case: "Case") -> str | None:
         if need in CONDITIONS:
             test, reason = CONDITIONS[need]
             if not test(case):
-                return reason
+                return reason if isinstance(reason, str) else reason(case)
         elif not _given(case, need):
             return f"the case file gives no {need}"
     return None
@@ -74,5 +90,7 @@ def describe(need: str) -> str:
         return "the mesh (with volume cells)"
     if need in CONDITIONS:
         return {"transient": "a transient case", "compressible": "compressible flow",
-                "walls": "a boundary with role wall", "viscosity": "the fluid's viscosity"}[need]
+                "walls": "a no-slip wall (a boundary with role wall, in a viscous case)",
+                "solid-walls": "a solid boundary (role wall or slip-wall)",
+                "viscosity": "the fluid's viscosity"}[need]
     return need

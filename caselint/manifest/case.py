@@ -39,7 +39,7 @@ LENGTH_UNITS: dict[str, float] = {
 TURBULENCE_MODELS: tuple[str, ...] = (
     "laminar", "k-epsilon", "rng-k-epsilon", "realizable-k-epsilon", "k-omega", "k-omega-sst",
     "spalart-allmaras", "gamma-retheta-sst", "reynolds-stress", "les", "des", "ddes", "iddes",
-    "dns",
+    "dns", "inviscid",
 )
 #: ``time.scheme`` values and the time integration (explicit or implicit) each belongs to.
 SCHEME_INTEGRATION: dict[str, str] = {

@@ -71,14 +71,25 @@ def plane_axes(normal) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return n, u, np.cross(n, u)
 
 
+def coordinate_axes(axis: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Normal along coordinate ``axis`` and in-plane axes read as a drawing reads them:
+    x-normal (y, z), y-normal (x, z), z-normal (x, y)."""
+    eye = np.eye(3)
+    u, v = {0: (1, 2), 1: (0, 2), 2: (0, 1)}[axis]
+    return eye[axis], eye[u], eye[v]
+
+
 def plane_cut(mesh: "Mesh", origin, normal, cells: np.ndarray | None = None,
-              chunk: int = 4096) -> Cut:
+              chunk: int = 4096, axes: tuple | None = None) -> Cut:
     """The cut polygons of ``cells`` (all when None) by the plane through ``origin`` with
-    ``normal`` (see the module docstring). In 2-D the plane is the x-y plane itself."""
+    ``normal`` (see the module docstring); ``axes`` (n, u, v) replace the plane's own
+    (:func:`plane_axes`). In 2-D the plane is the x-y plane itself."""
     origin = np.asarray(origin, dtype=np.float64)
     if mesh.dim == 2:                        # in-plane coordinates are x and y themselves
         origin = np.zeros(3)
-        n, u, v = np.array([0.0, 0.0, 1.0]), np.array([1.0, 0.0, 0.0]), np.array([0.0, 1.0, 0.0])
+        n, u, v = coordinate_axes(2)
+    elif axes is not None:
+        n, u, v = (np.asarray(a, dtype=np.float64) for a in axes)
     else:
         n, u, v = plane_axes(normal)
     cells = np.arange(mesh.n_cells) if cells is None else np.asarray(cells, dtype=np.int64)
@@ -92,6 +103,30 @@ def plane_cut(mesh: "Mesh", origin, normal, cells: np.ndarray | None = None,
     offsets = np.concatenate([[0], np.cumsum(size)]).astype(np.int64)
     points = np.concatenate(pts) if pts else np.zeros((0, 2))
     return Cut(cut_cells, offsets, points, origin, u, v)
+
+
+def face_traces(mesh: "Mesh", faces: np.ndarray, cut: Cut) -> list[np.ndarray]:
+    """The segments (2, 2) in the cut's in-plane coordinates where ``faces`` cross its
+    plane (3-D), or the edges themselves (2-D); faces the plane misses give none."""
+    faces = np.asarray(faces, dtype=np.int64)
+    if not len(faces):
+        return []
+    pts = mesh.face_point_table(faces)                                   # (m, V)
+    xyz = mesh.points - cut.origin
+    if mesh.dim == 2:
+        ends = xyz[pts[:, [0, -1]]]
+        return [np.column_stack([e @ cut.u, e @ cut.v]) for e in ends]
+    n = np.cross(cut.u, cut.v)
+    a, b = pts, np.roll(pts, -1, axis=1)
+    da, db = xyz[a] @ n, xyz[b] @ n
+    crossing = da * db < 0
+    t = np.where(crossing, da / np.where(crossing, da - db, 1.0), 0.0)
+    p = xyz[a] + t[..., None] * (xyz[b] - xyz[a])
+    out = []
+    for row in np.flatnonzero(crossing.sum(axis=1) >= 2):   # a few wall faces near the cut
+        q = p[row][crossing[row]][:2]
+        out.append(np.column_stack([q @ cut.u, q @ cut.v]))
+    return out
 
 
 def _cut_chunk(mesh: "Mesh", cells: np.ndarray, origin, n, u, v):

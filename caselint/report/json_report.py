@@ -200,10 +200,18 @@ def plot_to_dict(plot: PlotData) -> dict[str, Any]:
         "x_label": plot.x_label, "y_label": plot.y_label,
         "x_log": bool(plot.x_log), "y_log": bool(plot.y_log),
         "limits": _limits_dict(plot.limits, what), "worse": plot.worse,
-        "series": [{"label": s.label, "x": [_number(v, what) for v in s.x],
-                    "y": [_number(v, what) for v in s.y],
-                    "below": int(s.below), "above": int(s.above)} for s in plot.series],
+        "series": [_series(s, what) for s in plot.series],
+        **({"walls": [_series(s, what) for s in plot.walls], "highlight": plot.highlight,
+            "value_label": plot.value_label} if plot.kind == "cut" else {}),
     }
+
+
+def _series(s, what: str) -> dict[str, Any]:
+    out = {"label": s.label, "x": [_number(v, what) for v in s.x],
+           "y": [_number(v, what) for v in s.y], "below": int(s.below), "above": int(s.above)}
+    if s.value is not None:
+        out["value"] = _number(s.value, what)
+    return out
 
 
 def rule_info_to_dict(rule: RuleInfo) -> dict[str, Any]:

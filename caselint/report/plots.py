@@ -137,6 +137,30 @@ LOG_TICK_MULTIPLES = ((1,), (1, 2, 5), (1, 2, 3, 4, 5, 6, 7, 8, 9))
 MIN_TICKS, MAX_TICKS = 3, 8
 
 
+def _draw_cut(plot: PlotData, ax, fig) -> None:
+    """Cell polygons coloured by their value (a colour bar beside), the worst outlined in
+    red, wall traces in black, equal scales on both axes."""
+    from matplotlib.collections import LineCollection, PolyCollection
+
+    polygons = [list(zip(s.x, s.y)) for s in plot.series]
+    values = [s.value for s in plot.series]
+    cells = PolyCollection(polygons, array=values, cmap="viridis", edgecolors="0.35",
+                           linewidths=0.3)
+    ax.add_collection(cells)
+    bar = fig.colorbar(cells, ax=ax, shrink=0.85)
+    bar.ax.tick_params(labelsize=7)
+    bar.set_label(plot.value_label, fontsize=8)
+    if plot.walls:
+        ax.add_collection(LineCollection([list(zip(w.x, w.y)) for w in plot.walls],
+                                         colors="black", linewidths=1.6, label="wall"))
+    if plot.highlight is not None:
+        worst = plot.series[plot.highlight]
+        ax.fill(worst.x, worst.y, facecolor="none", edgecolor="#d62728", linewidth=2.0,
+                label="worst cell")
+    ax.autoscale_view()
+    ax.set_aspect("equal", adjustable="datalim")
+
+
 def tick_label(value: float) -> str:
     """A tick value as a plain number: ``300``, ``0.02``; ``1e7`` beyond a million."""
     if value == 0 or 1e-3 <= abs(value) < 1e6:
@@ -188,10 +212,12 @@ def draw(plot: PlotData) -> "Figure":
     :data:`STYLE`, as :func:`plot_svg` does, for the layout the page shows."""
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(6.4, 3.4), layout="constrained")
+    fig = Figure(figsize=(6.4, 4.4 if plot.kind == "cut" else 3.4), layout="constrained")
     ax = fig.add_subplot()
     if plot.kind == "histogram":
         _draw_histogram(plot, ax)
+    elif plot.kind == "cut":
+        _draw_cut(plot, ax, fig)
     else:
         _draw_line(plot, ax)
     # A log axis needs positive values; with any other the plot stays linear, not blank.
@@ -204,7 +230,11 @@ def draw(plot: PlotData) -> "Figure":
     ax.set_xlabel(plot.x_label, fontsize=9)
     ax.set_ylabel(plot.y_label, fontsize=9)
     ax.grid(True, alpha=0.3)
-    if ax.get_legend_handles_labels()[1]:
+    if ax.get_legend_handles_labels()[1] and plot.kind == "cut":
+        # below the axes: the colour bar takes the side
+        ax.legend(fontsize=7, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncol=2,
+                  borderaxespad=0.0)
+    elif ax.get_legend_handles_labels()[1]:
         # beside the axes, never over a bar or a line
         ax.legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     return fig

@@ -132,7 +132,7 @@ def cell_extent(ctx: "RuleContext", values: np.ndarray, fmt: str,
 
 
 def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: float = 1.0,
-                    share_error: float = 10.0) -> dict[str, Any]:
+                    share_error: float = 10.0, more: tuple[Grade, ...] = ()) -> dict[str, Any]:
     """The :class:`~caselint.model.Rule` settings of a metric graded by place: its main grade
     ``strict`` judges the worst value in regions of interest and near no-slip walls
     (:data:`STRICT_PLACES`) against the rule's limits, and
@@ -142,7 +142,8 @@ def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: flo
       limit, in percent (caselint default: a warning above ``share_warn``, an error above
       ``share_error``);
 
-    with the parameter ``near_wall_layers``. Use as ``Rule(..., **graded_by_place(...))``.
+    with the parameter ``near_wall_layers``, and the rule's ``more`` grades. Use as
+    ``Rule(..., **graded_by_place(...))``.
     """
     grades = (
         Grade("elsewhere", elsewhere.warn, elsewhere.error, places=("elsewhere",),
@@ -155,6 +156,7 @@ def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: flo
                           "warning limit)",
               source="caselint default: a few per cent of compromise cells far from the "
                      "resolved flow is the usual cost of a mesh, a tenth of the mesh is not"),
+        *more,
     )
     return {"main_grade": "strict", "main_places": STRICT_PLACES, "grades": grades,
             "main_description": "worst value in regions of interest and near no-slip walls",
@@ -168,7 +170,7 @@ def with_histogram(result: RuleResult, limits: Limits, values: np.ndarray, edges
         return result
     plot = PlotData(title=title, x_label=x_label, y_label=y_label,
                     series=(PlotSeries.histogram(values, edges),), limits=limits)
-    return dataclasses.replace(result, plots=(plot,))
+    return dataclasses.replace(result, plots=(plot, *result.plots))
 
 
 __all__ = ["cell_extent", "cell_measurement", "face_extent", "face_measurement",

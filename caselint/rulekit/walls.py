@@ -2,7 +2,10 @@
 the worst of their faces.
 
 A wall here is a boundary group whose role in ``mesh.boundaries`` is ``wall`` (a no-slip
-wall); ``slip-wall`` boundaries (inviscid or slip walls) are not walls for these rules.
+wall) in a viscous case; ``slip-wall`` boundaries (inviscid or slip walls), and every wall
+of an inviscid case (``physics.turbulence.model: inviscid``), are not walls for the
+near-wall rules. For geometry (passages between walls) both kinds are solid: see
+:func:`solid_groups`.
 """
 
 from __future__ import annotations
@@ -23,12 +26,29 @@ if TYPE_CHECKING:
 
 #: The boundary role of a no-slip wall.
 WALL_ROLE = "wall"
+#: Roles of solid boundaries: no flow through them, with or without slip.
+SOLID_ROLES = ("wall", "slip-wall")
+
+
+def inviscid(case: "Case") -> bool:
+    """Whether the case solves inviscid flow (no boundary layer anywhere)."""
+    turbulence = getattr(getattr(case, "physics", None), "turbulence", None)
+    return getattr(turbulence, "model", None) == "inviscid"
 
 
 def wall_groups(case: "Case", mesh: "Mesh") -> tuple[str, ...]:
-    """Groups of the mesh that the case file gives the role ``wall`` (no-slip), sorted."""
+    """Groups of the mesh that the case file gives the role ``wall`` (no-slip), sorted;
+    none in an inviscid case."""
+    if inviscid(case):
+        return ()
     return tuple(sorted(g for g, role in case.mesh.boundaries.items()
                         if role == WALL_ROLE and g in mesh.group_names))
+
+
+def solid_groups(case: "Case", mesh: "Mesh") -> tuple[str, ...]:
+    """Groups the case file gives a solid role (``wall`` or ``slip-wall``), sorted."""
+    return tuple(sorted(g for g, role in case.mesh.boundaries.items()
+                        if role in SOLID_ROLES and g in mesh.group_names))
 
 
 def wall_faces(case: "Case", mesh: "Mesh") -> np.ndarray:
@@ -68,8 +88,15 @@ def walls(ctx: "RuleContext", reach_m: float = 0.0) -> Walls | str:
 
     The walks go past each stack up to ``reach_m`` from the wall (none further by default).
     """
+    if inviscid(ctx.case):
+        return ("the case is inviscid (physics.turbulence.model: inviscid): its walls slip "
+                "and no boundary layer forms")
     named = sorted(n for n, role in ctx.case.mesh.boundaries.items() if role == WALL_ROLE)
     if not named:
+        slip = sorted(n for n, role in ctx.case.mesh.boundaries.items() if role == "slip-wall")
+        if slip:
+            return (f"no no-slip wall: the solid boundaries ({', '.join(slip)}) are slip walls, "
+                    "where no boundary layer forms")
         return "no boundary has role wall in mesh.boundaries"
     mesh = ctx.mesh
     groups = [(n, mesh.group_faces(n)) for n in named if n in mesh.group_names]

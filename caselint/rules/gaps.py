@@ -25,7 +25,7 @@ from caselint.model import (
 )
 from caselint.rulekit import RuleContext, cell_names, finite_point, first_limit, plural, point_words
 from caselint.rulekit.rays import FACING_ANGLE_DEG, gap_rays, shared_wall_rays
-from caselint.rulekit.walls import wall_groups
+from caselint.rulekit.walls import solid_groups
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
@@ -74,10 +74,10 @@ def check_gap_cells(ctx: RuleContext) -> RuleResult:
     """Fewest cells across a wall-to-wall gap, per pair of wall groups."""
     mesh = ctx.mesh
     steps, facing = int(ctx.params["max_steps"]), float(ctx.params["facing_angle_deg"])
-    walls = wall_groups(ctx.case, mesh)
+    walls = solid_groups(ctx.case, mesh)
     if not walls:
-        return RuleResult.skip("no wall group of mesh.boundaries is in the mesh, so there is "
-                               "no passage between walls to measure")
+        return RuleResult.skip("no wall or slip-wall group of mesh.boundaries is in the mesh, "
+                               "so there is no passage between walls to measure")
     hits = shared_wall_rays(mesh, walls, steps)
     notes = []
     lost = int(np.count_nonzero(hits.status == LOST))
@@ -137,7 +137,7 @@ GAP_CELLS = Rule(
           "refinement zone, a finer surface size on both walls, or more layers in a swept "
           "block)."),
     check=check_gap_cells,
-    needs=("walls", "mesh"),
+    needs=("solid-walls", "mesh"),
     parameters=(
         Parameter("max_steps", MAX_STEPS, "cells",
                   "Most cells one ray may cross before it is given up (guards against damaged "

@@ -24,8 +24,10 @@ import numpy as np
 
 from caselint import hookimpl
 from caselint.mesh import quality
-from caselint.model import MAX_LISTED_IDS, Limits, Measurement, Rule, RuleResult, Where
-from caselint.rulekit import RuleContext, cell_names, finite_point, plural, worst_ids
+from caselint.model import MAX_LISTED_IDS, Grade, Limits, Measurement, Rule, RuleResult, Where
+from caselint.rulekit import (
+    RuleContext, cell_names, finite_point, first_limit, plural, worst_ids,
+)
 from caselint.rulekit.measures import (
     cell_extent,
     cell_measurement,
@@ -36,6 +38,7 @@ from caselint.rulekit.measures import (
     nonfinite_skip,
     with_histogram,
 )
+from caselint.rulekit.pictures import cut_picture, face_values_per_cell
 
 _VERDICT = "Verdict geometric quality library (Stimpson et al., SAND2007-1751, 2007)"
 _FV_BOOKS = (
@@ -59,7 +62,31 @@ def _face_result(ctx: RuleContext, values: np.ndarray, faces: np.ndarray | None,
         return skip
     measurement = face_measurement(ctx.mesh, values, faces, ctx.limits, unit_words, fmt)
     extent = face_extent(ctx, values, faces, unit_words, fmt)
-    return RuleResult(measurements=(dataclasses.replace(measurement, extent=extent),))
+    return RuleResult(measurements=(dataclasses.replace(measurement, extent=extent),),
+                      plots=_face_picture(ctx, values, faces, measurement.value, what))
+
+
+def _past_limit(ctx: RuleContext, value: float, worse: str = "higher") -> bool:
+    """Whether the worst value crosses the rule's first limit (then a picture is drawn)."""
+    limit = first_limit(ctx.limits)
+    return limit is not None and (value > limit if worse == "higher" else value < limit)
+
+
+def _face_picture(ctx: RuleContext, values: np.ndarray, faces: np.ndarray | None,
+                  worst_value: float, what: str) -> tuple:
+    """A cut through the cells at the worst face, when the worst crosses the limit."""
+    if not _past_limit(ctx, worst_value):
+        return ()
+    mesh = ctx.mesh
+    per_cell = face_values_per_cell(mesh, values, faces)
+    considered = values if faces is None else values[faces]
+    worst_face = int(np.argmax(considered)) if faces is None else int(faces[np.argmax(considered)])
+    owner, nbr = int(mesh.owner[worst_face]), int(mesh.neighbour[worst_face])
+    worst_cell = nbr if nbr >= 0 and per_cell[nbr] > per_cell[owner] else owner
+    picture = cut_picture(ctx, per_cell, worst_cell, what.capitalize(),
+                          f"largest {what} of the cell's faces",
+                          worst_face=worst_face)
+    return () if picture is None else (picture,)
 
 
 def _internal_faces(ctx: RuleContext, what: str) -> np.ndarray | RuleResult:
@@ -104,16 +131,41 @@ def check_inverted_cells(ctx: RuleContext) -> RuleResult:
                   f"{names[worst]}")
     where = Where(cells=cell_names(mesh, listed), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
-    return RuleResult(measurements=(Measurement(value=float(count), where=where, detail=detail),))
+    plots = ()
+    if count:
+        picture = cut_picture(ctx, bad.astype(float), worst, "Inverted cells",
+                              "1 inverted or folded, 0 valid")
+        plots = () if picture is None else (picture,)
+    return RuleResult(measurements=(Measurement(value=float(count), where=where, detail=detail),),
+                      plots=plots)
 
 
 def check_non_orthogonality(ctx: RuleContext) -> RuleResult:
-    """Largest angle between a face's area vector and the line joining the cell centres."""
-    values = quality.non_orthogonality_deg(ctx.mesh)
-    result = _face_result(ctx, values, None, "non-orthogonality", " deg", ".1f")
-    edges = linear_bin_edges(values, resolution=0.5, limits=ctx.limits)
-    return with_histogram(result, ctx.limits, values, edges, "Face non-orthogonality",
-                          "non-orthogonality (deg)", "faces (internal and boundary)")
+    """Largest angle between a face's area vector and the line joining the cell centres,
+    over internal faces; boundary faces measured apart (grade ``boundary``)."""
+    mesh = ctx.mesh
+    values = quality.non_orthogonality_deg(mesh)
+    n = mesh.n_internal
+    if not n:                            # a single cell: its boundary faces are all there is
+        result = _face_result(ctx, values, None, "non-orthogonality", " deg", ".1f")
+        edges = linear_bin_edges(values, resolution=0.5, limits=ctx.limits)
+        return with_histogram(result, ctx.limits, values, edges, "Face non-orthogonality",
+                              "non-orthogonality (deg)", "boundary faces")
+    internal = np.arange(n)
+    result = _face_result(ctx, values, internal, "non-orthogonality", " deg", ".1f")
+    if result.skipped is None and n < mesh.n_faces:
+        boundary = _boundary_angle(ctx, values, np.arange(n, mesh.n_faces))
+        result = dataclasses.replace(result, measurements=(*result.measurements, boundary))
+    edges = linear_bin_edges(values[:n], resolution=0.5, limits=ctx.limits)
+    return with_histogram(result, ctx.limits, values[:n], edges, "Face non-orthogonality",
+                          "non-orthogonality (deg)", "internal faces")
+
+
+def _boundary_angle(ctx: RuleContext, values: np.ndarray, faces: np.ndarray) -> Measurement:
+    """The worst non-orthogonality at boundary faces (cell centre to face centre)."""
+    m = face_measurement(ctx.mesh, values, faces, ctx.grade("boundary"), " deg", ".1f")
+    return dataclasses.replace(m, grade="boundary", label=(
+        "non-orthogonality at boundary faces (cell centre to face centre)"))
 
 
 def check_skewness(ctx: RuleContext) -> RuleResult:
@@ -153,8 +205,15 @@ def check_aspect_ratio(ctx: RuleContext) -> RuleResult:
         kind = "polyhedron" if n_general == 1 else "polyhedra"
         measurement = dataclasses.replace(
             measurement, detail=f"{measurement.detail}; not defined for {n_general} general {kind}")
+    plots = ()
+    if _past_limit(ctx, measurement.value):
+        ranked = np.where(mesh.cell_shape >= 0, values, -np.inf)
+        picture = cut_picture(ctx, values, int(np.argmax(ranked)), "Aspect ratio",
+                              "edge ratio")
+        plots = () if picture is None else (picture,)
     return RuleResult(measurements=(
-        dataclasses.replace(measurement, extent=cell_extent(ctx, values, ".4g", cells)),))
+        dataclasses.replace(measurement, extent=cell_extent(ctx, values, ".4g", cells)),),
+        plots=plots)
 
 
 def check_face_warp(ctx: RuleContext) -> RuleResult:
@@ -198,9 +257,11 @@ NON_ORTHOGONALITY = Rule(
         "the two cells it separates (on a boundary face, from the cell centre to the face "
         "centre). Finite-volume diffusion terms use d; when it departs from S_f the "
         "non-orthogonal correction grows, needs extra iterations and limits stability "
-        "(" + _FV_BOOKS + "). Warning above 70 deg, error above 85 deg: common practice. Near "
-        "90 deg the correction breaks down wherever the face is, so elsewhere the error limit "
-        "85 deg stays (grade elsewhere)." + _PLACES_WORDS
+        "(" + _FV_BOOKS + "). Warning above 70 deg, error above 85 deg: common practice, on "
+        "internal faces. Near 90 deg the correction breaks down wherever the face is, so "
+        "elsewhere the error limit 85 deg stays (grade elsewhere). Boundary faces are "
+        "measured apart (grade boundary): there the angle only corrects the boundary "
+        "gradient, and a curved wall meshed with flat faces always shows some." + _PLACES_WORDS
     ),
     source=_FV_BOOKS + "; limits: common practice",
     unit="deg",
@@ -211,7 +272,13 @@ NON_ORTHOGONALITY = Rule(
     measures="largest face non-orthogonality (angle between face area vector and cell-centre line)",
     **graded_by_place(elsewhere=Limits(warn=None, error=85.0),
                       elsewhere_source="common practice (the error limit, where the "
-                                       "non-orthogonal correction breaks down)"),
+                                       "non-orthogonal correction breaks down)",
+                      more=(Grade("boundary", 85.0, None, description=(
+                          "worst angle at boundary faces, between the face normal and the "
+                          "line from the cell centre to the face centre"),
+                          source="caselint default: at a boundary the angle enters only the "
+                                 "boundary gradient's correction, so only a value near 90 "
+                                 "deg is worth a warning"),)),
 )
 
 SKEWNESS = Rule(

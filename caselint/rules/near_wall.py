@@ -1,7 +1,7 @@
-"""Near-wall resolution rules: first-layer uniformity, cells across the boundary layer, and
-growth inside the wall layer stacks.
+"""Near-wall resolution rules: first-layer uniformity, cells across the boundary layer, how
+far the layer stacks cover it, growth inside them and the transition to the core.
 
-All three read the layer stacks of :mod:`caselint.mesh.wall_layers` (walked once per mesh,
+All of them read the layer stacks of :mod:`caselint.mesh.wall_layers` (walked once per mesh,
 shared through the mesh cache) over the faces of the boundaries whose role is ``wall``
 (:mod:`caselint.rulekit.walls`), and measure once per wall boundary so that a waiver can
 cover one wall. ``wall-yplus`` reads the same stacks and lives in :mod:`caselint.rules.yplus`.
@@ -14,7 +14,6 @@ import numpy as np
 from caselint import hookimpl
 from caselint.mesh.wall_layers import END_CORE, END_WORDS
 from caselint.model import (
-    Grade,
     Limits,
     Measurement,
     Note,
@@ -86,18 +85,13 @@ def check_wall_spacing_uniformity(ctx: RuleContext) -> RuleResult:
 
 
 def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
-    """Cells within the estimated boundary-layer thickness, and the stack against it."""
-    flow = wallflow.flow_data(ctx.case)
-    if isinstance(flow, str):
-        return RuleResult.skip(flow)
-    delta, how = wallflow.boundary_layer_thickness(flow)
-    found = walls(ctx, reach_m=delta)            # cells are counted up to delta only
-    if isinstance(found, str):
-        return RuleResult.skip(found)
-    cover = ctx.grade("stack-cover")
+    """Cells within the estimated boundary-layer thickness above each wall face."""
+    found = _walls_within_delta(ctx)
+    if isinstance(found, RuleResult):
+        return found
+    found, delta, how = found
     mesh, layers = ctx.mesh, found.layers
     count = layers.cells_within(delta).astype(np.float64)
-    cover_limits, cover = cover, settled(layers.thickness / delta)
     threshold = first_limit(ctx.limits)
     measurements = []
     notes = [Note(f"boundary-layer thickness {delta:.3g} m: {how}; cells are counted along "
@@ -118,30 +112,56 @@ def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
                    f"means cells of at most {delta / threshold:.3g} m on average there; add "
                    "inflation layers or lower their growth ratio.")
         measurements.append(Measurement(float(count[r]), where, detail, fix))
-        where, worst, n_bad = locate(mesh, faces, cover[rows], first_limit(cover_limits),
+    return RuleResult(tuple(measurements), notes=tuple(notes))
+
+
+def _walls_within_delta(ctx: RuleContext):
+    """(walls walked up to delta, delta, how delta was estimated), or the skip result."""
+    flow = wallflow.flow_data(ctx.case)
+    if isinstance(flow, str):
+        return RuleResult.skip(flow)
+    delta, how = wallflow.boundary_layer_thickness(flow)
+    found = walls(ctx, reach_m=delta)            # cells are counted up to delta only
+    if isinstance(found, str):
+        return RuleResult.skip(found)
+    return found, delta, how
+
+
+# -- layer-cover ---------------------------------------------------------------------------
+
+
+def check_layer_cover(ctx: RuleContext) -> RuleResult:
+    """Per wall boundary, the thinnest layer stack over the boundary-layer thickness."""
+    found = _walls_within_delta(ctx)
+    if isinstance(found, RuleResult):
+        return found
+    found, delta, how = found
+    mesh, layers = ctx.mesh, found.layers
+    cover = settled(layers.thickness / delta)
+    measurements = []
+    for name, rows in found.items():
+        faces = layers.faces[rows]
+        where, worst, n_bad = locate(mesh, faces, cover[rows], first_limit(ctx.limits),
                                      "lower", name)
         r = rows[worst]
         layer_words = plural(int(layers.n_layers[r]), "layer")
         measurements.append(Measurement(
             float(cover[r]), where,
             f"thinnest stack {layers.thickness[r]:.3g} m ({layer_words}) at "
-            f"{at_face(mesh, int(faces[worst]))}, delta = {delta:.3g} m",
+            f"{at_face(mesh, int(faces[worst]))}; delta = {delta:.3g} m ({how})",
             f"Grow the inflation stack on '{name}' to at least delta = {delta:.3g} m: more "
-            "layers, or a larger total thickness.",
-            label="thinnest layer stack over the boundary-layer thickness",
-            grade="stack-cover"))
-    return RuleResult(tuple(measurements), notes=tuple(notes))
+            "layers, or a larger total thickness."))
+    return RuleResult(tuple(measurements))
 
 
 # -- layer-growth --------------------------------------------------------------------------
 
 
 def check_layer_growth(ctx: RuleContext) -> RuleResult:
-    """Largest layer-to-layer growth in the stacks, and the jump from the last layer to the core."""
+    """Largest layer-to-layer growth inside the wall layer stacks."""
     found = walls(ctx)
     if isinstance(found, str):
         return RuleResult.skip(found)
-    jump = ctx.grade("core-jump")
     mesh, layers = ctx.mesh, found.layers
     measurements, notes, profiles = [], [], []
     for name, rows in found.items():
@@ -168,30 +188,44 @@ def check_layer_growth(ctx: RuleContext) -> RuleResult:
                 float(growth[worst]), where,
                 f"{lead}; largest from layer {k - 1} to layer {k} above "
                 f"{at_face(mesh, int(faces[worst]))}"))
-        cored = rows[layers.end[rows] == END_CORE]
-        if cored.size:
-            faces = layers.faces[cored]
-            values = settled(layers.core_jump[cored])
-            where, worst, n_bad = locate(mesh, faces, values, first_limit(jump), "higher", name)
-            r = cored[worst]
-            measurements.append(Measurement(
-                float(values[worst]), where,
-                f"core cell {int(mesh.file_cell_ids(layers.core_cell[r]))} is "
-                f"{values[worst]:.3g} times as tall as "
-                f"the last of {plural(int(layers.n_layers[r]), 'layer')} above "
-                f"{at_face(mesh, int(faces[worst]))}",
-                "Blend the stack into the core: make the last layer closer to the core cell "
-                "size (more layers or a larger growth up to the limit), or refine the core "
-                "next to the layers.",
-                label="largest height jump from the last layer to the core cell",
-                grade="core-jump"))
     if not measurements:
-        return RuleResult(skipped="no wall face has a layer stack of two or more cells, nor a "
-                                  "stack ending in core cells", notes=tuple(notes))
+        return RuleResult(skipped="no wall face has a layer stack of two or more cells",
+                          notes=tuple(notes))
     plots = (PlotData(title="Layer height through the wall stacks (median over each wall's "
                             "faces)", x_label="layer", y_label="height (m)",
                       series=tuple(profiles), kind="line", y_log=True),) if profiles else ()
     return RuleResult(tuple(measurements), notes=tuple(notes), plots=plots)
+
+
+# -- layer-transition ----------------------------------------------------------------------
+
+
+def check_layer_transition(ctx: RuleContext) -> RuleResult:
+    """Per wall boundary, the largest jump from the last layer to the first core cell."""
+    found = walls(ctx)
+    if isinstance(found, str):
+        return RuleResult.skip(found)
+    mesh, layers = ctx.mesh, found.layers
+    measurements = []
+    for name, rows in found.items():
+        cored = rows[layers.end[rows] == END_CORE]
+        if not cored.size:
+            continue
+        faces = layers.faces[cored]
+        values = settled(layers.core_jump[cored])
+        where, worst, n_bad = locate(mesh, faces, values, first_limit(ctx.limits), "higher",
+                                     name)
+        r = cored[worst]
+        measurements.append(Measurement(
+            float(values[worst]), where,
+            f"core cell {int(mesh.file_cell_ids(layers.core_cell[r]))} is "
+            f"{values[worst]:.3g} times as tall as the last of "
+            f"{plural(int(layers.n_layers[r]), 'layer')} above "
+            f"{at_face(mesh, int(faces[worst]))}"))
+    if not measurements:
+        return RuleResult.skip("no wall layer stack ends in core cells (stacks that reach "
+                               "another boundary have no transition)")
+    return RuleResult(tuple(measurements))
 
 
 def _median_profile(heights: np.ndarray, n_layers: np.ndarray, name: str) -> PlotSeries | None:
@@ -236,9 +270,8 @@ BOUNDARY_LAYER_CELLS = Rule(
         "5.0 x / sqrt(Re_x) (Blasius); for internal flow half the hydraulic diameter (fully "
         "developed flow). Counting the cells lined up above each wall face that lie wholly "
         "within it, at least 10 are wanted (warning below 10, error below 5; common practice: "
-        "5-10 or more cells across a boundary layer). The inflation stack should also reach "
-        "the edge of the boundary layer (grade stack-cover: warning when thinner than 1 times "
-        "delta, common practice)."
+        "5-10 or more cells across a boundary layer). Whether the inflation stack reaches the "
+        "edge of the boundary layer is the rule layer-cover."
     ),
     source="Schlichting 1979; Blasius 1908; cell counts: common practice",
     unit="cells",
@@ -248,12 +281,28 @@ BOUNDARY_LAYER_CELLS = Rule(
     check=check_boundary_layer_cells,
     worse="lower",
     needs=("walls", "physics.flow.length", "mesh"),
-    grades=(
-        Grade("stack-cover", warn=1.0, unit="",
-              description="thinnest layer stack over the boundary-layer thickness (a minimum)",
-              source="common practice"),
-    ),
     measures="fewest cells within the boundary-layer thickness",
+)
+
+LAYER_COVER = Rule(
+    id="layer-cover",
+    title="Wall layer stacks covering the boundary layer",
+    rationale=(
+        "The thickness of the wall layer stack (prism or hexahedral layers) over the "
+        "estimated boundary-layer thickness delta (as for boundary-layer-cells). A stack that "
+        "stops well inside the boundary layer leaves the outer part of it to core cells, "
+        "usually much coarser across the wall; a stack reaching delta keeps the whole "
+        "profile in layers. Warning when thinner than delta (common practice)."
+    ),
+    source="Schlichting 1979; Blasius 1908; limit: common practice",
+    unit="",
+    limits=Limits(warn=1.0, error=None),
+    hint="Grow the inflation stack to the boundary-layer thickness: more layers, or a larger "
+         "total thickness.",
+    check=check_layer_cover,
+    worse="lower",
+    needs=("walls", "physics.flow.length", "mesh"),
+    measures="thinnest layer stack over the boundary-layer thickness",
 )
 
 LAYER_GROWTH = Rule(
@@ -262,9 +311,8 @@ LAYER_GROWTH = Rule(
     rationale=(
         "The largest ratio of a layer's height to the one below it inside the wall layer "
         "stacks. The " + _DPW + " ask for growth below 1.25 in the viscous layer; caselint "
-        "warns above 1.2 and errs above 1.3 (common practice). The height of the first core cell "
-        "over the last layer's is graded separately (grade core-jump: "
-        "expansion at most about 1.3, a doubling is an error: common practice)."
+        "warns above 1.2 and errs above 1.3 (common practice). The jump from the last layer "
+        "to the core is the rule layer-transition."
     ),
     source=_DPW + "; limits: common practice",
     unit="",
@@ -272,15 +320,32 @@ LAYER_GROWTH = Rule(
     hint="Lower the growth ratio of the inflation layers and add layers to keep the thickness.",
     check=check_layer_growth,
     needs=("walls", "mesh"),
-    grades=(
-        Grade("core-jump", warn=1.3, error=2.0,
-              description="height of the first core cell over the last layer's",
-              source="common practice (expansion at most about 1.3; a doubling is an error)"),
-    ),
     measures="largest layer-to-layer growth ratio",
 )
 
-RULES: tuple[Rule, ...] = (WALL_SPACING_UNIFORMITY, BOUNDARY_LAYER_CELLS, LAYER_GROWTH)
+LAYER_TRANSITION = Rule(
+    id="layer-transition",
+    title="Transition from the wall layers to the core",
+    rationale=(
+        "The height of the first core cell above a wall layer stack (its farthest vertex "
+        "from the last layer's top face) over the last layer's height. The stack should "
+        "hand over to cells of about its own size: expansion between neighbours at most "
+        "about 1.3 is common practice, and a jump past 2.5 leaves the outer boundary layer "
+        "to cells far coarser than the layers (caselint's error limit; common practice)."
+    ),
+    source="common practice",
+    unit="",
+    limits=Limits(warn=1.5, error=2.5),
+    hint=("Blend the stack into the core: make the last layer closer to the core cell size "
+          "(more layers, or a larger growth up to the limit), or refine the core next to the "
+          "layers."),
+    check=check_layer_transition,
+    needs=("walls", "mesh"),
+    measures="largest height jump from the last layer to the first core cell",
+)
+
+RULES: tuple[Rule, ...] = (WALL_SPACING_UNIFORMITY, BOUNDARY_LAYER_CELLS, LAYER_COVER,
+                           LAYER_GROWTH, LAYER_TRANSITION)
 
 
 @hookimpl

@@ -40,7 +40,7 @@ from caselint.model import Limits, Measurement, Rule, RuleResult, Where
 from caselint.rulekit import RuleContext, first_limit
 from caselint.rulekit.meshview import face_points
 from caselint.rulekit.rays import FACING_ANGLE_DEG, gap_rays, shared_wall_rays
-from caselint.rulekit.walls import wall_groups
+from caselint.rulekit.walls import solid_groups
 
 if TYPE_CHECKING:
     from caselint.manifest.case import Case
@@ -77,7 +77,7 @@ def mesh_lengths(case: "Case", mesh: "Mesh", max_steps: int) -> MeshLengths:
     dim = mesh.dim
     extent = (hi - lo)[:dim]
     candidates = [(float(extent.min()), "smallest extent of the mesh")]
-    walls = wall_groups(case, mesh)
+    walls = solid_groups(case, mesh)
     if walls:
         hits = shared_wall_rays(mesh, walls, max_steps)
         widths = hits.width[gap_rays(mesh, hits, FACING_ANGLE_DEG)]

@@ -11,6 +11,8 @@ depends on the declared wall treatment: each side of each band is a grade of the
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
 from caselint import hookimpl
@@ -130,6 +132,25 @@ class _Band:
         return out
 
 
+def _both_ends(ctx, band, mesh, name, faces, yp, u_tau) -> list[Measurement]:
+    """The low and high ends of a wall-function band, the end nearer its limit first (the
+    one a passing check shows), each naming the other end."""
+    low = band.side(mesh, name, faces, yp, u_tau, "lower", "wall-function.low", "smallest")
+    high = band.side(mesh, name, faces, yp, u_tau, "higher", "wall-function.high", "largest")
+    span = f"; y+ on '{name}' ranges from {yp.min():.3g} to {yp.max():.3g}"
+    low = dataclasses.replace(low, detail=low.detail + span)
+    high = dataclasses.replace(high, detail=high.detail + span)
+
+    def margin(value: float, limit: float | None, worse: str) -> float:
+        if limit is None or value <= 0 or limit <= 0:
+            return float("inf")
+        return value / limit if worse == "lower" else limit / value
+
+    near_low = margin(low.value, first_limit(ctx.grade("wall-function.low")), "lower")
+    near_high = margin(high.value, first_limit(ctx.grade("wall-function.high")), "higher")
+    return [low, high] if near_low <= near_high else [high, low]
+
+
 def check_wall_yplus(ctx: RuleContext) -> RuleResult:
     """y+ of the first wall distance on every wall face, graded for the wall treatment."""
     found = walls(ctx)
@@ -191,10 +212,7 @@ def _graded(ctx, found, mode, why, fv, flow, friction, notes) -> RuleResult:
             measurements.append(band.side(mesh, name, faces, yp, u_tau, "higher",
                                           "resolved", "largest"))
         elif mode == "wall-function":
-            measurements.append(band.side(mesh, name, faces, yp, u_tau, "lower",
-                                          "wall-function.low", "smallest"))
-            measurements.append(band.side(mesh, name, faces, yp, u_tau, "higher",
-                                          "wall-function.high", "largest"))
+            measurements.extend(_both_ends(ctx, band, mesh, name, faces, yp, u_tau))
         else:
             measurements.append(band.blended(mesh, name, faces, yp, areas, u_tau))
         if les and flow.direction is not None:

@@ -29,6 +29,7 @@ from caselint.mesh.groups import BoundaryElements
 from caselint.mesh.model import MeshData
 from caselint.mesh.pairing import ElementBlock
 from caselint.mesh.readers import MeshReader, ReadOptions, checked_points
+from caselint.mesh.shapes import with_shapes
 
 _PAD = {"triangle": [0, 1, 2, 2], "quad": [0, 1, 2, 3], "line": [0, 1]}
 
@@ -240,10 +241,10 @@ def _polyhedral(path, z: Zone, points, dim, names, types, notes) -> MeshData:
                 raise MeshReadError(path, f"zone {z.name}: BC {gname!r} names elements that "
                                           "are not NGON_n faces")
             face_group[face] = names.index(gname)
-    return mesh_from_faces(path=path, points=points, dim=dim, face_offsets=p["offsets"],
-                           face_points=p["points"], owner=p["owner"], neighbour=p["neighbour"],
-                           n_cells=p["n_cells"], face_group=face_group, group_names=names,
-                           group_types=types, notes=tuple(notes))
+    return with_shapes(mesh_from_faces(
+        path=path, points=points, dim=dim, face_offsets=p["offsets"], face_points=p["points"],
+        owner=p["owner"], neighbour=p["neighbour"], n_cells=p["n_cells"],
+        face_group=face_group, group_names=names, group_types=types, notes=tuple(notes)))
 
 
 def _vertex_groups(mesh: MeshData, zones, maps, names) -> MeshData:

@@ -50,6 +50,7 @@ from caselint.mesh.formats.text_tables import hex_numbers, numbers, record_start
 from caselint.mesh.model import MeshData
 from caselint.mesh.orientation import reverse_faces
 from caselint.mesh.readers import MeshReader, ReadOptions, checked_points, no_zones
+from caselint.mesh.shapes import with_shapes
 
 #: bc-type numbers of face zones and the zone-type words they stand for.
 BC_TYPES: dict[int, str] = {
@@ -217,11 +218,11 @@ def read_face_msh(path: Path, options: ReadOptions) -> MeshData:
     group_names = tuple(groups[i] for i in boundary_zones)
     points = checked_points(name, points, options.scale_to_m)
     try:
-        return mesh_from_faces(
+        return with_shapes(mesh_from_faces(
             path=name, points=points, dim=dim, face_offsets=offsets, face_points=face_points,
             owner=owner, neighbour=neighbour, n_cells=n_cells, face_group=position[face_zone],
             group_names=group_names, group_types={k: types[k] for k in group_names},
-            cell_zone=cell_zone, zone_names=zone_names, notes=tuple(notes))
+            cell_zone=cell_zone, zone_names=zone_names, notes=tuple(notes)))
     except ValueError as exc:           # inconsistent arrays the checks above let through
         raise MeshReadError(name, str(exc)) from None
 
