@@ -53,6 +53,14 @@ def place_label(places: tuple[str, ...]) -> str:
     return "+".join(sorted(places))
 
 
+def _in_places(places: np.ndarray, names: tuple[str, ...]) -> np.ndarray:
+    """(N,) bool: the entities whose place code is one of the places ``names``."""
+    mask = np.zeros(places.shape, dtype=bool)
+    for code in sorted({PLACES.index(p) for p in names}):
+        mask |= places == code          # a few codes: cheaper than np.isin on millions
+    return mask
+
+
 def _past(values: np.ndarray, limit: float, worse: str) -> np.ndarray:
     return values > limit if worse == "higher" else values < limit
 
@@ -120,8 +128,7 @@ def expand(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> list[Meas
     main = grades[rule.main_grade]
     out = []
     for grade in (g for g in grades.values() if g.places):
-        codes = np.array([PLACES.index(p) for p in grade.places], dtype=places.dtype)
-        subset = np.flatnonzero(np.isin(places, codes))
+        subset = np.flatnonzero(_in_places(places, grade.places))
         if subset.size == 0:
             continue
         # the measured quantity's direction and unit (a share grade's own are its percent's)
@@ -165,20 +172,21 @@ def distribution(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> Dis
             limits.update(v for v in (grade.warn, grade.error) if v is not None)
     ordered = sorted(limits, reverse=worse == "lower")
 
-    def shares(mask: np.ndarray) -> tuple[tuple[float, float], ...]:
-        w = None if weights is None else weights[mask]
-        return tuple((lim, float(f"{_percent(_past(values[mask], lim, worse), w):.6g}"))
+    def shares(picked: np.ndarray, w: np.ndarray | None) -> tuple[tuple[float, float], ...]:
+        return tuple((lim, float(f"{_percent(_past(picked, lim, worse), w):.6g}"))
                      for lim in ordered)
 
-    everything = np.ones(values.size, dtype=bool)
     per_place = []
     for code, place in enumerate(PLACES):
         mask = places == code
         n = int(np.count_nonzero(mask))
         if n == 0:
             continue
-        worst = values[mask].max() if worse == "higher" else values[mask].min()
-        per_place.append(PlaceSpread(place, n, float(worst), shares(mask)))
+        # the place's values gathered once for its worst and all its shares
+        picked = values if n == values.size else values[mask]
+        w = None if weights is None else weights[mask]
+        worst = picked.max() if worse == "higher" else picked.min()
+        per_place.append(PlaceSpread(place, n, float(worst), shares(picked, w)))
     if values.size:
         top = int(np.argmax(values) if worse == "higher" else np.argmin(values))
         worst_place = PLACES[int(places[top])]
@@ -187,6 +195,7 @@ def distribution(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> Dis
         worst_place, percentiles = "", ()
     return Distribution(
         entity=extent.entity, count=int(values.size), percentiles=percentiles,
-        beyond=shares(everything), places=tuple(per_place), worst_place=worst_place,
+        beyond=shares(values, None if weights is None else np.ascontiguousarray(weights)),
+        places=tuple(per_place), worst_place=worst_place,
         worse=worse, weighted=extent.weight_words if weights is not None else "",
         label=m.where.boundary or "")

@@ -36,6 +36,16 @@ class CellFaces:
         """(C,) number of faces of each cell."""
         return np.diff(self.offsets)
 
+    def of(self, cells: np.ndarray) -> np.ndarray:
+        """The faces of ``cells``, cell after cell in the order given."""
+        cells = np.asarray(cells)
+        starts = self.offsets[cells]
+        counts = self.offsets[cells + 1] - starts
+        ends = np.cumsum(counts)
+        total = int(ends[-1]) if ends.size else 0
+        slots = np.repeat(starts - ends + counts, counts) + np.arange(total)
+        return np.take(self.faces, slots)
+
     def table(self) -> np.ndarray:
         """(C, K) face ids of each cell, K its most faces, padded with -1."""
         counts = self.counts()

@@ -25,14 +25,23 @@ def worst_ids(values: np.ndarray, threshold: float | None, worse: str = "higher"
     entities, :meth:`Mesh.file_cell_ids`) when given. ``threshold`` None counts nothing
     but still lists the single worst id.
     """
+    listed, past = worst_and_past(values, threshold, worse, names)
+    return listed, int(past.size)
+
+
+def worst_and_past(values: np.ndarray, threshold: float | None, worse: str = "higher",
+                   names: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`worst_ids`, with all the ids past ``threshold`` (ascending) instead of their
+    count, for a caller that goes on to use them."""
     sign = 1.0 if worse == "higher" else -1.0
-    badness = sign * values
-    count = 0
+    # "higher" on float64 values needs no negated copy of them
+    badness = values if sign > 0 and values.dtype == np.float64 else sign * values
+    candidates = np.empty(0, dtype=np.int64)
     if threshold is not None:
         candidates = np.flatnonzero(badness > sign * threshold)
-        count = int(candidates.size)
-    if count == 0:
-        return _single_worst(badness, names), 0
+    if candidates.size == 0:
+        return _single_worst(badness, names), candidates
+    past = candidates
     keep = MAX_LISTED_IDS
     cand_bad = badness[candidates]
     if candidates.size > keep:
@@ -50,7 +59,22 @@ def worst_ids(values: np.ndarray, threshold: float | None, worse: str = "higher"
         candidates, cand_bad = candidates[sel], cand_bad[sel]
     tie = candidates if names is None else names[candidates]
     order = np.lexsort((tie, -cand_bad))
-    return candidates[order][:keep].astype(np.int64), count
+    return candidates[order][:keep].astype(np.int64), past
+
+
+def id_range(ids: np.ndarray) -> slice | None:
+    """``slice(a, b)`` when ``ids`` are exactly ``a, a + 1, ..., b - 1`` (a >= 0), else None:
+    a caller can then take views instead of gathering (the internal faces of a mesh are
+    such a range)."""
+    if ids.ndim != 1 or ids.size == 0 or ids.dtype.kind not in "iu":
+        return None
+    first, last = int(ids[0]), int(ids[-1])
+    if first < 0 or last - first + 1 != ids.size:
+        return None
+    # as many ids as the span, strictly rising: every id of the span, in order
+    if ids.size > 1 and not bool(np.all(ids[1:] > ids[:-1])):
+        return None
+    return slice(first, last + 1)
 
 
 def _single_worst(badness: np.ndarray, names: np.ndarray | None) -> np.ndarray:

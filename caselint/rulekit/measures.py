@@ -34,7 +34,9 @@ from caselint.rulekit.locate import (
     face_place,
     finite_point,
     first_limit,
+    id_range,
     touched_cell_count,
+    worst_and_past,
     worst_ids,
 )
 from caselint.rulekit.places import NEAR_WALL_PARAMETER, cell_places, face_places
@@ -56,19 +58,38 @@ def nonfinite_skip(values: np.ndarray, what: str) -> RuleResult | None:
     )
 
 
+class _Chosen:
+    """Entities chosen by their ids (None: all of them); where the ids are a range (the
+    internal faces), values are taken as views instead of gathered."""
+
+    def __init__(self, ids: np.ndarray | None) -> None:
+        self.ids = ids
+        self.span = None if ids is None else id_range(ids)
+
+    def take(self, values: np.ndarray) -> np.ndarray:
+        """``values[ids]``."""
+        if self.ids is None:
+            return values
+        return values[self.ids] if self.span is None else values[self.span]
+
+    def ids_of(self, local: np.ndarray) -> np.ndarray:
+        """``ids[local]``: the ids of positions in the chosen entities."""
+        if self.ids is None:
+            return local
+        return self.ids[local] if self.span is None else local + self.span.start
+
+
 def face_measurement(mesh: "Mesh", values: np.ndarray, faces: np.ndarray | None,
                      limits: Limits, unit_words: str, fmt: str) -> Measurement:
     """The largest of a face metric ``values`` (F,) over ``faces`` (None: all), with the
     faces past the first limit counted and the worst located."""
-    considered = values if faces is None else values[faces]
+    chosen = _Chosen(faces)
     threshold = first_limit(limits)
-    local, count = worst_ids(considered, threshold)
-    listed = local if faces is None else faces[local]
+    local, past = worst_and_past(chosen.take(values), threshold)
+    count = int(past.size)
+    listed = chosen.ids_of(local)
     worst = int(listed[0])
-    cell_count = 0
-    if count:
-        offenders = np.flatnonzero(considered > threshold)
-        cell_count = touched_cell_count(mesh, offenders if faces is None else faces[offenders])
+    cell_count = touched_cell_count(mesh, chosen.ids_of(past)) if count else 0
     cells = cells_of_faces(mesh, listed)[:MAX_LISTED_IDS]
     where = Where(
         faces=tuple(int(f) for f in listed) if count else (),
@@ -89,11 +110,11 @@ def cell_measurement(mesh: "Mesh", values: np.ndarray, cells: np.ndarray | None,
                      limits: Limits, fmt: str) -> Measurement:
     """The largest of a cell metric ``values`` (C,) over ``cells`` (None: all), with the
     cells past the first limit counted and the worst located (ties: lowest file id)."""
-    considered = values if cells is None else values[cells]
-    names = mesh.file_cell_ids() if cells is None else mesh.file_cell_ids(cells)
+    chosen = _Chosen(cells)
     threshold = first_limit(limits)
-    local, count = worst_ids(considered, threshold, names=names)
-    listed = local if cells is None else cells[local]
+    local, count = worst_ids(chosen.take(values), threshold,
+                             names=chosen.take(mesh.file_cell_ids()))
+    listed = chosen.ids_of(local)
     worst = int(listed[0])
     name = int(mesh.file_cell_ids(worst))
     if count:
@@ -109,26 +130,21 @@ def cell_measurement(mesh: "Mesh", values: np.ndarray, cells: np.ndarray | None,
 def face_extent(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None,
                 unit_words: str, fmt: str) -> Extent:
     """The face metric ``values`` (F,) over ``faces`` (None: all), each with its place."""
-    mesh = ctx.mesh
-    places = face_places(ctx)
-    chosen = np.arange(mesh.n_faces) if faces is None else faces
+    mesh, chosen = ctx.mesh, _Chosen(faces)
     return Extent(
-        values=values if faces is None else values[faces],
-        places=places if faces is None else places[faces], entity="face",
-        measure=lambda subset, limits: face_measurement(mesh, values, chosen[subset], limits,
-                                                        unit_words, fmt))
+        values=chosen.take(values), places=chosen.take(face_places(ctx)), entity="face",
+        measure=lambda subset, limits: face_measurement(
+            mesh, values, chosen.ids_of(subset), limits, unit_words, fmt))
 
 
 def cell_extent(ctx: "RuleContext", values: np.ndarray, fmt: str,
                 cells: np.ndarray | None = None) -> Extent:
     """The cell metric ``values`` (C,) over ``cells`` (None: all), each cell with its place."""
-    mesh = ctx.mesh
-    places = cell_places(ctx)
-    chosen = np.arange(mesh.n_cells) if cells is None else cells
-    return Extent(values=values if cells is None else values[cells],
-                  places=places if cells is None else places[cells], entity="cell",
-                  measure=lambda subset, limits: cell_measurement(mesh, values, chosen[subset],
-                                                                  limits, fmt))
+    mesh, chosen = ctx.mesh, _Chosen(cells)
+    return Extent(
+        values=chosen.take(values), places=chosen.take(cell_places(ctx)), entity="cell",
+        measure=lambda subset, limits: cell_measurement(
+            mesh, values, chosen.ids_of(subset), limits, fmt))
 
 
 def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: float = 1.0,
