@@ -67,6 +67,41 @@ def test_mirrored_order_of_every_type_is_a_mirror_image():
         assert (as_is.tolist(), flipped.tolist()) == ([1], [-1]), cell
 
 
+def test_mirrored_orders_keep_node_0_first():
+    # The read renumbers cells by their first corner before the vote turns a block round
+    # (caselint.mesh.build): that order is the same either way round only because every
+    # mirrored order keeps node 0 where it is.
+    assert all(order[0] == 0 for order in MIRROR.values())
+
+
+def test_the_vote_gives_the_same_mesh_with_and_without_renumbering(tmp_path):
+    # A mirrored file read with Morton renumbering (vote after it) and without (vote on the
+    # file's numbering): the same cells turned round, with the same corners in the same
+    # order (in the file's ids), and positive volumes (equal up to the order of the sums).
+    from caselint.mesh.build import mesh_from_elements
+    from caselint.mesh.analysis import Mesh
+
+    rng = np.random.default_rng(3)
+    n = 6
+    grid = np.stack(np.meshgrid(*(np.arange(n + 1.0),) * 3, indexing="ij"), -1).reshape(-1, 3)
+    points = grid + rng.uniform(-0.2, 0.2, grid.shape)
+    i, j, k = (a.ravel() for a in np.meshgrid(*(np.arange(n),) * 3, indexing="ij"))
+    node = lambda a, b, c: (a * (n + 1) + b) * (n + 1) + c  # noqa: E731
+    hexes = np.stack([node(i, j, k), node(i + 1, j, k), node(i + 1, j + 1, k),
+                      node(i, j + 1, k), node(i, j, k + 1), node(i + 1, j, k + 1),
+                      node(i + 1, j + 1, k + 1), node(i, j + 1, k + 1)], axis=1)
+    mirrored = hexes[rng.permutation(len(hexes))][:, list(MIRROR["hexahedron"])]
+    block = [ElementBlock("hexahedron", mirrored.astype(np.int32), 0)]
+    meshes = [Mesh(mesh_from_elements(path="x", points=points, dim=3, blocks=block,
+                                      renumber=renumber)) for renumber in (True, False)]
+    assert meshes[0].data.notes == meshes[1].data.notes and "mirrored" in meshes[0].data.notes[0]
+    corners = [m.in_file_order(m.file_point_ids(m.data.shapes[0].connectivity)) for m in meshes]
+    assert np.array_equal(corners[0], corners[1])
+    assert np.array_equal(corners[1], mirrored[:, list(MIRROR["hexahedron"])])
+    volumes = [m.in_file_order(m.cell_volumes) for m in meshes]
+    assert np.allclose(volumes[0], volumes[1], rtol=1e-12) and volumes[0].min() > 0
+
+
 def write_case(folder, mesh):
     case = folder / "case.yaml"
     case.write_text(

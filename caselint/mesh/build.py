@@ -64,7 +64,7 @@ def internal_first(neighbour: np.ndarray) -> np.ndarray | None:
 
 def _new_ids(order: np.ndarray | None, ids: np.ndarray) -> np.ndarray:
     """Ids of faces ``ids`` after the permutation ``order`` (new face i = old order[i])."""
-    if order is None:
+    if order is None or len(ids) == 0:
         return np.asarray(ids, dtype=np.int64)
     where = np.empty(len(order), dtype=np.int64)
     where[order] = np.arange(len(order))
@@ -107,9 +107,6 @@ def mesh_from_elements(
                              f"{block.type!r} starts at {block.start}, expected {expected}")
         expected = block.stop
     n_cells, n_points = expected, len(points)
-    # A block written in the mirrored node order is read the other way round (with a note).
-    blocks, flipped = oriented_blocks(points, blocks, dim)
-    notes = (*notes, *flipped)
     boundary = boundary or BoundaryElements.empty(4 if dim == 3 else 2)
     point_data, cell_data = dict(point_data or {}), dict(cell_data or {})
     file_cells = file_points = None
@@ -122,6 +119,11 @@ def mesh_from_elements(
         cell_data = {k: np.take(v, r.cell_order, axis=0) for k, v in cell_data.items()}
         cell_zone = None if cell_zone is None else np.take(cell_zone, r.cell_order)
         file_cells, file_points = r.cell_order.astype(np.int64), r.point_order.astype(np.int64)
+    # A block written in the mirrored node order is read the other way round (with a note).
+    # Voted on the renumbered cells, whose corners lie close in memory: the mirrored orders
+    # keep node 0 first, so the renumbering is the same either way round.
+    blocks, flipped = oriented_blocks(points, blocks, dim)
+    notes = (*notes, *flipped)
     paired = pair_faces(blocks, n_points, dim)
     face_group, unmatched, internal, multi = match_groups(
         paired.faces, paired.neighbour, boundary, group_names, n_points)

@@ -38,7 +38,7 @@ import numpy as np
 
 from caselint.mesh.celltypes import FACES, TRIANGLE_FACES
 from caselint.mesh.geometry import chunks
-from caselint.mesh.kernels import compiled
+from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.pairing import ElementBlock
 
 #: The node order that mirrors a cell of each type (reverses the winding of its base
@@ -85,7 +85,9 @@ def volume_signs(points: np.ndarray, block: ElementBlock, dim: int,
     k = conn.shape[1]
     if kernel is not None:
         far = np.array(_far_triangles(block.type) if dim == 3 else [], dtype=np.int64)
-        return kernel.volume_signs(conn, points, far.reshape(-1, 3), dim)
+        parts = in_threads(lambda p: (kernel.volume_signs(conn[p], points, far.reshape(-1, 3),
+                                                          dim),), len(conn))
+        return np.concatenate([part for part, in parts])
     cols = [np.ascontiguousarray(points[:, i]) for i in range(dim)]
     out = np.empty(len(conn), dtype=np.int8)
     for sl in chunks(len(conn)):
