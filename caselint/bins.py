@@ -36,7 +36,8 @@ BULK_QUANTILES = (0.001, 0.999)
 
 def _finite(values: Any) -> np.ndarray:
     values = np.asarray(values, dtype=np.float64).ravel()
-    return values[np.isfinite(values)]
+    finite = np.isfinite(values)
+    return values if finite.all() else values[finite]     # no copy of a sound metric
 
 
 def nice_step(span: float, bins: int = MIN_BINS) -> float:

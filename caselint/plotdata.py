@@ -41,7 +41,8 @@ class PlotSeries:
         import numpy as np
 
         values = np.asarray(values, dtype=np.float64).ravel()
-        values = values[np.isfinite(values)]
+        finite = np.isfinite(values)
+        values = values if finite.all() else values[finite]   # no copy of a sound metric
         edges = np.asarray(edges, dtype=np.float64)
         counts, _ = np.histogram(values, bins=edges)
         return cls(x=tuple(float(e) for e in edges), y=tuple(float(c) for c in counts),

@@ -38,7 +38,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh.kernels import compiled, in_threads
+from caselint.mesh.kernels import compiled, in_threads, side_by_side
 
 if TYPE_CHECKING:
     from caselint.mesh.model import MeshData
@@ -187,13 +187,20 @@ def compute_geometry(mesh: "MeshData") -> Geometry:
         apex = kernel.face_mean_apex(owner, nbr, n_int, n_cells, fmean)
         for block in mesh.shapes:       # cells of known shape: their vertex mean
             kernel.vertex_mean_apex(block.connectivity, block.cells, mesh.points, apex)
-        acc = kernel.pyramid_sums(owner, nbr, n_int, area, fcent, fmean, apex, sign, dim)
-    else:
-        area, fcent, fmean = face_geometry(mesh)
-        apex = _apex(mesh, fmean)
-        acc = _pyramid_sums(mesh, area, fcent, fmean, apex, sign)
+        # owner sides and neighbour sides summed apart (as the two bincounts of the numpy
+        # path), each on its own thread; their sum is never stored as a (5, C) array
+        own, side = side_by_side(
+            lambda: kernel.pyramid_side(owner, np.empty(0), area, fcent, fmean, apex, dim),
+            lambda: kernel.pyramid_side(nbr, sign, area, fcent, fmean, apex, dim))
+        del fmean
+        volumes, cent = kernel.cell_volumes_centroids(own, side, apex, dim)
+        return Geometry(area, fcent, volumes, cent, apex)
+    area, fcent, fmean = face_geometry(mesh)
+    apex = _apex(mesh, fmean)
+    acc = _pyramid_sums(mesh, area, fcent, fmean, apex, sign)
     del fmean
-    volumes = acc[0]
+    # a copy: a view would keep all five rows of the sums alive with the mesh
+    volumes = acc[0].copy()
     # Pyramids that cancel out (a collapsed cell) leave no usable centroid: use the apex.
     good = np.abs(volumes) > 1e-12 * acc[4]
     frac = dim / (dim + 1.0)

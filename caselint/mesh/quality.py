@@ -154,7 +154,7 @@ def face_warp_deg(mesh: "Mesh") -> np.ndarray:
                     out[sl.start + sel] = worst
         return out
 
-    return mesh.cached("quality.face_warp", compute)
+    return compute()      # not kept: one rule reads it once (8 bytes a face held for nothing)
 
 
 def folded_polyhedra(mesh: "Mesh") -> np.ndarray:
@@ -196,7 +196,7 @@ def growth_ratio(mesh: "Mesh") -> np.ndarray:
             out[sl] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
         return out
 
-    return mesh.cached("quality.growth_ratio", compute)
+    return compute()      # not kept: one rule reads it once (8 bytes a face held for nothing)
 
 
 # -- cell metrics --------------------------------------------------------------

@@ -76,7 +76,9 @@ class _Chosen:
         """``ids[local]``: the ids of positions in the chosen entities."""
         if self.ids is None:
             return local
-        return self.ids[local] if self.span is None else local + self.span.start
+        if self.span is None:
+            return self.ids[local]
+        return local if self.span.start == 0 else local + self.span.start
 
 
 def face_measurement(mesh: "Mesh", values: np.ndarray, faces: np.ndarray | None,

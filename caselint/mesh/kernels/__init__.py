@@ -95,6 +95,18 @@ def in_threads(run: Callable[[slice], tuple], n: int) -> list[tuple]:
         return list(pool.map(run, [slice(a, b) for a, b in zip(bounds, bounds[1:])]))
 
 
+def side_by_side(*calls: Callable[[], object]) -> list:
+    """The results of the independent ``calls`` (compiled kernels, which release the
+    interpreter lock), run on up to one thread each, in the order given."""
+    threads = min(os.cpu_count() or 1, len(calls))
+    if threads <= 1:
+        return [call() for call in calls]
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(threads) as pool:
+        return list(pool.map(lambda call: call(), calls))
+
+
 def kernel_cache_dir() -> Path | None:
     """The writable kernel cache folder, or None (caches off, or nothing writable)."""
     from caselint.cachedir import cache_dir

@@ -113,21 +113,36 @@ def vertex_mean_apex(connectivity, cells, points, apex):
 
 
 @jit
-def pyramid_sums(owner, neighbour, n_internal, area, fcent, fmean, apex, neighbour_sign, dim):
-    """Per cell: volume, volume-weighted centroid offset (x, y, z) and sum of |volume| of
-    the face pyramids about the apex, owner sides summed before neighbour sides."""
+def pyramid_side(cells, signs, area, fcent, fmean, apex, dim):
+    """(C, 5) per cell: volume, volume-weighted centroid offset (x, y, z) and sum of |volume|
+    of the face pyramids about the apex, from faces ``0 .. len(cells) - 1`` on the side of
+    ``cells`` (area vectors times ``signs``, or as they are when ``signs`` is empty), summed
+    in face order. The owner sides and the neighbour sides are two calls (two threads)."""
+    out = np.zeros((apex.shape[0], 5))
+    signed = signs.shape[0] > 0
+    for f in range(cells.shape[0]):
+        _add_pyramid(out, cells[f], signs[f] if signed else 1.0, area, fcent, fmean, apex, f,
+                     dim)
+    return out
+
+
+@jit
+def cell_volumes_centroids(own, nbr, apex, dim):
+    """Volumes and centroids from the owner-side and neighbour-side sums, as
+    :func:`caselint.mesh.geometry.compute_geometry` derives them from their sum."""
     n_cells = apex.shape[0]
-    own = np.zeros((n_cells, 5))
-    nbr = np.zeros((n_cells, 5))
-    for f in range(owner.shape[0]):
-        _add_pyramid(own, owner[f], 1.0, area, fcent, fmean, apex, f, dim)
-    for f in range(n_internal):
-        _add_pyramid(nbr, neighbour[f], neighbour_sign[f], area, fcent, fmean, apex, f, dim)
-    acc = np.empty((5, n_cells))
+    volumes = np.empty(n_cells)
+    cent = np.empty((n_cells, 3))
+    frac = dim / (dim + 1.0)
     for c in range(n_cells):
-        for j in range(5):
-            acc[j, c] = own[c, j] + nbr[c, j]
-    return acc
+        v = own[c, 0] + nbr[c, 0]
+        volumes[c] = v
+        good = abs(v) > 1e-12 * (own[c, 4] + nbr[c, 4])
+        safe = v if good else 1.0
+        for a in range(3):
+            cent[c, a] = apex[c, a] + (frac * (own[c, a + 1] + nbr[c, a + 1]) / safe
+                                       if good else 0.0)
+    return volumes, cent
 
 
 @jit(inline="always")
