@@ -124,6 +124,8 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
     out["min_corner_jacobian"] = min_corner_jacobian(mesh)
     out["edge_ratio"] = edge_ratio(mesh)
     out["pieces"] = cell_pieces(mesh)
+    out["used_points"] = mesh.used_points()
+    out["bounds"] = np.concatenate(mesh.bounds)
     points, copies = coincident_points(mesh)
     out["coincident"], out["copies"] = points, copies
     out["short_faces"] = short_faces(mesh)
@@ -206,9 +208,8 @@ def test_kernels_compile_uncached_when_no_cache_folder_is_writable(tmp_path):
         from caselint.mesh.kernels import ray_march
         assert kernels.kernel_cache_dir() is None
         mesh = Mesh(meshio_data(structured_hex(*(np.linspace(0, 1, 4),) * 3)))
-        planes = ray_march.face_planes(mesh.face_area_vectors, mesh.face_centroids)
         hits = ray_march.march(mesh.cell_faces.offsets, mesh.cell_faces.faces, mesh.owner,
-                               mesh.neighbour, planes,
+                               mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids,
                                np.ones(mesh.n_faces, bool), mesh.boundary_faces,
                                mesh.face_centroids[mesh.boundary_faces],
                                -mesh.face_area_vectors[mesh.boundary_faces] * 9.0,
@@ -224,7 +225,7 @@ def test_kernel_cache_is_kept_under_the_cache_folder_and_off_turns_it_off(tmp_pa
     code = """
         from caselint.mesh import kernels
         from caselint.mesh.kernels import ray_march
-        print(type(ray_march.face_planes._cache).__name__, kernels.status()["cache"])
+        print(type(ray_march.march._cache).__name__, kernels.status()["cache"])
         """
     on = _run(code, {"CASELINT_CACHE_DIR": str(tmp_path)})
     assert on.returncode == 0, on.stderr

@@ -162,7 +162,9 @@ class Mesh:
     @cached_property
     def bounds(self) -> tuple[np.ndarray, np.ndarray]:
         """Minimum and maximum corner (m) of the points used by cells."""
-        pts = self.points[self.used_points()] if self.n_faces else self.points
+        used = self.used_points() if self.n_faces else None
+        # every point in use (the usual case): no gather of the points
+        pts = self.points if used is None or used.all() else self.points[used]
         if not len(pts):
             pts = self.points
         return pts.min(axis=0), pts.max(axis=0)

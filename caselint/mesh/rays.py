@@ -120,9 +120,9 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     kernel = compiled("ray_march", mesh.n_cells)
     if kernel is not None:
         cf = mesh.cell_faces
-        plane = kernel.face_planes(mesh.face_area_vectors, mesh.face_centroids)
         parts = in_threads(lambda p: kernel.march(
-            cf.offsets, cf.faces, mesh.owner, mesh.neighbour, plane, wall, start_faces[p],
+            cf.offsets, cf.faces, mesh.owner, mesh.neighbour, mesh.face_area_vectors,
+            mesh.face_centroids, wall, start_faces[p],
             out.origin[p], out.direction[p], ok[p], max_steps, MAX_STALLED, _PARALLEL), n)
         for k, values in enumerate(zip(*parts)):
             (out.hit_face, out.status, out.width, out.cells)[k][:] = np.concatenate(values)

@@ -103,6 +103,9 @@ def face_point_mean(mesh: "MeshData", values: np.ndarray, faces: np.ndarray) -> 
 
 def used_points(mesh: "MeshData") -> np.ndarray:
     """(P,) bool: which points lie on a face of some cell."""
+    kernel = compiled("face_checks", mesh.n_cells)
+    if kernel is not None:
+        return kernel.used_points(mesh.face_points, mesh.n_points)
     used = np.zeros(mesh.n_points, dtype=bool)
     used[mesh.face_points] = True
     return used

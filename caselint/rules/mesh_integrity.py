@@ -52,17 +52,21 @@ def coincident_points(mesh: "Mesh") -> tuple[np.ndarray, int]:
     ids = np.flatnonzero(mesh.used_points())
     if ids.size < 2:
         return np.empty(0, dtype=np.int64), 0
-    pts = mesh.points[ids]
-    lo = pts.min(axis=0)
-    span = float(np.max(pts.max(axis=0) - lo))
+    kernel = compiled("face_checks", mesh.n_cells)
+    if kernel is not None:       # the same box and keys, without point-long temporaries
+        lo, hi = kernel.point_box(mesh.points, ids)
+    else:
+        pts = mesh.points[ids]
+        lo, hi = pts.min(axis=0), pts.max(axis=0)
+    span = float(np.max(hi - lo))
     if span == 0.0:
         return ids, int(ids.size - 1)          # every point at one place
     # Relative to the lower corner, rounded to COINCIDENCE * span: at most 1e12, fits int64.
-    q = np.floor((pts - lo) / (COINCIDENCE * span) + 0.5).astype(np.int64)
-    kernel = compiled("face_checks", mesh.n_cells)
     if kernel is not None:
-        flagged, copies = kernel.coincident(q)
+        flagged, copies = kernel.coincident(kernel.quantized(mesh.points, ids, lo,
+                                                             COINCIDENCE * span))
         return ids[flagged], int(copies)
+    q = np.floor((pts - lo) / (COINCIDENCE * span) + 0.5).astype(np.int64)
     order = np.lexsort((q[:, 2], q[:, 1], q[:, 0]))
     sq = q[order]
     same = np.all(sq[1:] == sq[:-1], axis=1)

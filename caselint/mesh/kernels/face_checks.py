@@ -1,5 +1,5 @@
 """Compiled per-face and per-cell passes (numba): the faces of each cell, face metrics,
-face warp, distinct points per face, cell closure.
+face warp, distinct points per face, cell closure, the points in use and coincident points.
 
 Each function computes what its numpy reference computes, with the same arithmetic in the
 same order; the references are named in the docstrings. Angles go through ``arctan2``,
@@ -220,6 +220,41 @@ def _root(parent, c):
         parent[c] = parent[parent[c]]           # path halving
         c = parent[c]
     return c
+
+
+@jit
+def used_points(face_points, n_points):
+    """(P,) bool: the points some face lists (:func:`caselint.mesh.topology.used_points`)."""
+    used = np.zeros(n_points, dtype=np.bool_)
+    for i in range(face_points.shape[0]):
+        used[face_points[i]] = True
+    return used
+
+
+@jit
+def point_box(points, ids):
+    """Smallest and largest coordinate of the points ``ids`` (non-empty), per axis."""
+    lo = points[ids[0]].copy()
+    hi = points[ids[0]].copy()
+    for i in range(1, ids.shape[0]):
+        for a in range(3):
+            v = points[ids[i], a]
+            if v < lo[a]:
+                lo[a] = v
+            if v > hi[a]:
+                hi[a] = v
+    return lo, hi
+
+
+@jit
+def quantized(points, ids, lo, step):
+    """(n, 3) int64 keys ``floor((x - lo) / step + 0.5)`` of the points ``ids``, as the numpy
+    reference in :func:`caselint.rules.mesh_integrity.coincident_points` computes them."""
+    q = np.empty((ids.shape[0], 3), dtype=np.int64)
+    for i in range(ids.shape[0]):
+        for a in range(3):
+            q[i, a] = np.int64(np.floor((points[ids[i], a] - lo[a]) / step + 0.5))
+    return q
 
 
 @jit

@@ -17,20 +17,17 @@ from caselint.mesh.kernels import jit
 WALL, OPEN, LOST = 0, 1, 2
 
 
-@jit
-def face_planes(area, centroid):
-    """(F, 4) unit normal and offset of every face's plane, as
-    :func:`caselint.mesh.rays.face_planes` computes them (0 normal for a face of no area)."""
-    plane = np.empty((area.shape[0], 4))
-    for f in range(area.shape[0]):
-        s0, s1, s2 = area[f, 0], area[f, 1], area[f, 2]
-        norm = np.sqrt(s0 * s0 + s1 * s1 + s2 * s2)
-        if not norm > 0:
-            norm = 1.0
-        u0, u1, u2 = s0 / norm, s1 / norm, s2 / norm
-        plane[f, 0], plane[f, 1], plane[f, 2] = u0, u1, u2
-        plane[f, 3] = u0 * centroid[f, 0] + u1 * centroid[f, 1] + u2 * centroid[f, 2]
-    return plane
+@jit(inline="always")
+def _plane(area, centroid, f):
+    """Unit normal and offset of face ``f``'s plane, as :func:`caselint.mesh.rays.face_planes`
+    computes them (0 normal for a face of no area). Computed where a ray meets the face
+    rather than stored for every face: a table of planes would hold 32 bytes a face."""
+    s0, s1, s2 = area[f, 0], area[f, 1], area[f, 2]
+    norm = np.sqrt(s0 * s0 + s1 * s1 + s2 * s2)
+    if not norm > 0:
+        norm = 1.0
+    u0, u1, u2 = s0 / norm, s1 / norm, s2 / norm
+    return u0, u1, u2, u0 * centroid[f, 0] + u1 * centroid[f, 1] + u2 * centroid[f, 2]
 
 
 #: Rays one thread marches in alternation: their memory reads overlap (the march waits on
@@ -39,13 +36,14 @@ BATCH = 16
 
 
 @jit
-def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, origin,
+def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, start_faces, origin,
           direction, active, max_steps, max_stalled, parallel_eps):
     """Hit face, status, width and cells crossed of every ray (see the module docstring).
 
     ``cf_offsets`` / ``cf_faces``: the faces of every cell (CSR, ascending face id);
-    ``plane``: (F, 4) face planes (:func:`face_planes`); ``active``: rays that have a
-    direction (the others stay lost with no cell counted).
+    ``area`` / ``centroid``: (F, 3) face area vectors and centroids (the planes of the faces
+    met are computed from them); ``active``: rays that have a direction (the others stay
+    lost with no cell counted).
     """
     n = start_faces.shape[0]
     hit = np.full(n, -1, dtype=np.int64)
@@ -90,7 +88,7 @@ def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, orig
                 f = cf_faces[i]
                 if f == e:
                     continue
-                p0, p1, p2, p3 = plane[f, 0], plane[f, 1], plane[f, 2], plane[f, 3]
+                p0, p1, p2, p3 = _plane(area, centroid, f)
                 dn = p0 * d0 + p1 * d1 + p2 * d2
                 mine = owner[f] == c
                 sign = 1.0 if mine else -1.0
