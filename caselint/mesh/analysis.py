@@ -90,12 +90,13 @@ class Mesh:
 
     # -- ids of the file ----------------------------------------------------------------------
     def file_cell_ids(self, ids: np.ndarray | int | None = None) -> np.ndarray:
-        """The ids the mesh file gives the cells ``ids`` (int64, same shape and order);
-        all cells' when ``ids`` is None. Rules name cells to the user through this."""
+        """The ids the mesh file gives the cells ``ids`` (integers, int32 where the ids fit;
+        same shape and order); all cells' when ``ids`` is None. Rules name cells to the user
+        through this."""
         return _file_id(self.data.file_cell_ids, ids, self.n_cells)
 
     def file_point_ids(self, ids: np.ndarray | int | None = None) -> np.ndarray:
-        """The ids the mesh file gives the points ``ids`` (int64, same shape and order)."""
+        """The ids the mesh file gives the points ``ids`` (integers, same shape and order)."""
         return _file_id(self.data.file_point_ids, ids, self.n_points)
 
     def in_file_order(self, values: np.ndarray, kind: str = "cell") -> np.ndarray:

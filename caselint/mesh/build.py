@@ -118,7 +118,8 @@ def mesh_from_elements(
         point_data = {k: np.take(v, r.point_order, axis=0) for k, v in point_data.items()}
         cell_data = {k: np.take(v, r.cell_order, axis=0) for k, v in cell_data.items()}
         cell_zone = None if cell_zone is None else np.take(cell_zone, r.cell_order)
-        file_cells, file_points = r.cell_order.astype(np.int64), r.point_order.astype(np.int64)
+        file_cells = r.cell_order.astype(index_dtype(n_cells))
+        file_points = r.point_order.astype(index_dtype(n_points))
     # A block written in the mirrored node order is read the other way round (with a note).
     # Voted on the renumbered cells, whose corners lie close in memory: the mirrored orders
     # keep node 0 first, so the renumbering is the same either way round.

@@ -47,8 +47,11 @@ if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
 
 
-def nonfinite_skip(values: np.ndarray, what: str) -> RuleResult | None:
-    """Skip (instead of reporting NaN) when a damaged mesh gives a non-finite metric."""
+def nonfinite_skip(values: np.ndarray, what: str,
+                   ids: np.ndarray | None = None) -> RuleResult | None:
+    """Skip (instead of reporting NaN) when a damaged mesh gives a non-finite metric
+    (over the entities ``ids``, all when None)."""
+    values = _Chosen(ids).take(values)
     if np.all(np.isfinite(values)):
         return None
     n = int(np.count_nonzero(~np.isfinite(values)))

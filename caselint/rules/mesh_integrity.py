@@ -204,7 +204,7 @@ def check_non_manifold_faces(ctx: RuleContext) -> RuleResult:
 def check_disconnected_pieces(ctx: RuleContext) -> RuleResult:
     """Count the pieces of cells joined through faces; list the cells outside the largest."""
     mesh = ctx.mesh
-    label = mesh.cached("mesh_integrity.pieces", lambda: cell_pieces(mesh))
+    label = cell_pieces(mesh)          # read once, by this rule: not kept with the mesh
     roots, inverse, sizes = np.unique(label, return_inverse=True, return_counts=True)
     n = int(roots.size)
     if n == 1:

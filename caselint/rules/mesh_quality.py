@@ -57,8 +57,7 @@ _PLACES_WORDS = (
 def _face_result(ctx: RuleContext, values: np.ndarray, faces: np.ndarray | None, what: str,
                  unit_words: str, fmt: str) -> RuleResult:
     """The largest of a face metric over ``faces`` (None: all), with its extent by place."""
-    considered = values if faces is None else values[faces]
-    if (skip := nonfinite_skip(considered, what)) is not None:
+    if (skip := nonfinite_skip(values, what, faces)) is not None:
         return skip
     measurement = face_measurement(ctx.mesh, values, faces, ctx.limits, unit_words, fmt)
     extent = face_extent(ctx, values, faces, unit_words, fmt)
