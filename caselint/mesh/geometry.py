@@ -184,9 +184,12 @@ def compute_geometry(mesh: "MeshData") -> Geometry:
         in_threads(lambda p: kernel.face_geometry(
             mesh.face_offsets, mesh.face_points, mesh.points, dim == 3, p.start, p.stop, area,
             fcent, fmean), mesh.n_faces)
-        apex = kernel.face_mean_apex(owner, nbr, n_int, n_cells, fmean)
+        apex = kernel.face_mean_apex(*side_by_side(
+            lambda: kernel.face_mean_side(owner, n_cells, fmean),
+            lambda: kernel.face_mean_side(nbr, n_cells, fmean)))
         for block in mesh.shapes:       # cells of known shape: their vertex mean
-            kernel.vertex_mean_apex(block.connectivity, block.cells, mesh.points, apex)
+            in_threads(lambda p, b=block: kernel.vertex_mean_apex(
+                b.connectivity[p], b.cells[p], mesh.points, apex), len(block.cells))
         # owner sides and neighbour sides summed apart (as the two bincounts of the numpy
         # path), each on its own thread; their sum is never stored as a (5, C) array
         own, side = side_by_side(

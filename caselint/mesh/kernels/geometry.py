@@ -78,23 +78,27 @@ def _polygon(face_points, points, lo, k, area, cent, mean, f):
 
 
 @jit
-def face_mean_apex(owner, neighbour, n_internal, n_cells, fmean):
-    """(C, 3) mean of each cell's face vertex means (owner sums, then neighbour sums)."""
-    so = np.zeros((n_cells, 3))
-    sn = np.zeros((n_cells, 3))
+def face_mean_side(cells, n_cells, fmean):
+    """(C, 3) sums of the face vertex means ``fmean`` of faces ``0 .. len(cells) - 1`` into
+    the cell of each on one side, in face order, and (C,) how many each cell got."""
+    total = np.zeros((n_cells, 3))
     count = np.zeros(n_cells, dtype=np.int64)
-    for f in range(owner.shape[0]):
-        c = owner[f]
+    for f in range(cells.shape[0]):
+        c = cells[f]
         count[c] += 1
         for a in range(3):
-            so[c, a] += fmean[f, a]
-    for f in range(n_internal):
-        c = neighbour[f]
-        count[c] += 1
-        for a in range(3):
-            sn[c, a] += fmean[f, a]
-    for c in range(n_cells):
-        d = max(float(count[c]), 1.0)
+            total[c, a] += fmean[f, a]
+    return total, count
+
+
+@jit
+def face_mean_apex(owner_side, neighbour_side):
+    """(C, 3) mean of each cell's face vertex means from the owner-side and neighbour-side
+    sums of :func:`face_mean_side` (owner sums, then neighbour sums), in the owner's array."""
+    so, n_own = owner_side
+    sn, n_nbr = neighbour_side
+    for c in range(so.shape[0]):
+        d = max(float(n_own[c] + n_nbr[c]), 1.0)
         for a in range(3):
             so[c, a] = (so[c, a] + sn[c, a]) / d
     return so
