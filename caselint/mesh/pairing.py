@@ -122,24 +122,23 @@ def _pair_compiled(kernel, blocks: Sequence[ElementBlock], n_points: int,
     mate = np.full(n_half, -1, dtype=index)
     odd = np.zeros(n_half, dtype=bool)
     clash = np.zeros(n_half, dtype=bool)
-    kernel.match_buckets(offsets, bucket_h, k1, k2, flags, np.append(hcell.offsets, n_half),
-                         hcell.per_cell, hcell.starts, rep, mate, odd, clash)
+    blk_off = np.append(hcell.offsets, n_half)
+    kernel.match_buckets(offsets, bucket_h, k1, k2, flags, blk_off, hcell.per_cell,
+                         hcell.starts, rep, mate, odd, clash)
     del bucket_h, k1, k2, flags, offsets
     n_faces = int(np.count_nonzero(rep))
     dtype = np.result_type(*[b.connectivity.dtype for b in blocks])
     faces = np.empty((n_faces, width), dtype=dtype)
     owner = np.empty(n_faces, dtype=hcell.dtype)
+    neighbour = np.empty(n_faces, dtype=hcell.dtype)
+    face_odd, face_clash = np.empty(n_faces, dtype=bool), np.empty(n_faces, dtype=bool)
     at = 0
-    for b, t, h0 in zip(blocks, templates, hcell.offsets):
-        at = kernel.emit_faces(b.connectivity, t, h0, rep, faces, owner, at, b.start)
-    fidx = np.flatnonzero(rep)
-    del rep
-    mates = mate[fidx]
-    del mate
-    paired = mates >= 0
-    neighbour = np.where(paired, hcell[np.where(paired, mates, 0)], -1)
-    return PairedFaces(faces, owner, neighbour, np.flatnonzero(odd[fidx]),
-                       np.flatnonzero(clash[fidx]))
+    for b, t, h0 in zip(blocks, templates, hcell.offsets):   # neighbours and flags in the pass
+        at = kernel.emit_faces(b.connectivity, t, h0, rep, mate, odd, clash, blk_off,
+                               hcell.per_cell, hcell.starts, faces, owner, neighbour, face_odd,
+                               face_clash, at, b.start)
+    return PairedFaces(faces, owner, neighbour, np.flatnonzero(face_odd),
+                       np.flatnonzero(face_clash))
 
 
 class HalfFaceCells:

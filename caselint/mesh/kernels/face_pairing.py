@@ -167,9 +167,11 @@ def match_buckets(offsets, bucket_h, k1, k2, flags, blk_off, blk_nf, blk_start, 
 
 
 @jit
-def emit_faces(conn, template, h0, rep, faces, owner, at, cell0):
+def emit_faces(conn, template, h0, rep, mate, odd, clash, blk_off, blk_nf, blk_start, faces,
+               owner, neighbour, face_odd, face_clash, at, cell0):
     """Write the block's representative half-faces (in half-face order) from row ``at`` of
-    ``faces`` and ``owner``; returns the next free row."""
+    ``faces``, ``owner``, ``neighbour`` (the cell of the mate, -1 without one) and the
+    non-manifold and clash flags; returns the next free row."""
     nf, width = template.shape
     h = h0
     for i in range(conn.shape[0]):
@@ -178,6 +180,10 @@ def emit_faces(conn, template, h0, rep, faces, owner, at, cell0):
                 for k in range(width):
                     faces[at, k] = conn[i, template[j, k]]
                 owner[at] = cell0 + i
+                m = mate[h]
+                neighbour[at] = _cell_of(m, blk_off, blk_nf, blk_start) if m >= 0 else -1
+                face_odd[at] = odd[h]
+                face_clash[at] = clash[h]
                 at += 1
             h += 1
     return at
