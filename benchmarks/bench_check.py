@@ -28,6 +28,7 @@ Run:  python benchmarks/bench_check.py                       # 1M all kinds, 5M 
 from __future__ import annotations
 
 import argparse
+import importlib.util
 import json
 import os
 import platform
@@ -151,7 +152,9 @@ def main() -> None:
                                                   order.get((r["kind"], r["target_cells"]), 99)))
     meta = {"date": time.strftime("%Y-%m-%d"), "cores": os.cpu_count(),
             "python": platform.python_version(), "machine": platform.machine(),
-            "runs": args.runs, "load": load}
+            "runs": args.runs, "load": load,
+            # numba imports scipy.linalg (when installed) to look for a BLAS: 0.14 s a run
+            "scipy": importlib.util.find_spec("scipy") is not None}
     if args.json:
         Path(args.json).write_text(json.dumps({"meta": meta, "rows": rows}, indent=1))
     text = render_tables(rows, meta)

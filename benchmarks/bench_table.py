@@ -148,7 +148,9 @@ def render_tables(rows: list[dict], meta: dict) -> str:
     """Every table and the target verdicts, as Markdown."""
     head = (f"Measured {meta['date']} on {meta['cores']} cores, Python {meta['python']}, "
             f"{meta['machine']}; median of {meta['runs']} runs, each in a fresh process; "
-            f"1-minute load average before the runs {meta['load']:.2f}.\n")
+            f"1-minute load average before the runs {meta['load']:.2f}"
+            + ("" if "scipy" not in meta else
+               f"; scipy {'installed' if meta['scipy'] else 'not installed'}") + ".\n")
     parts = [head, "#### Targets\n", targets(rows), "\n#### caselint check against meshio's read\n",
              summary_table(rows), "\n#### The metric subset against VTK (same VTU)\n",
              vtk_table(rows), "\n#### Stages (VTU case): time / traced peak within the stage\n",

@@ -66,18 +66,21 @@ class _Chosen:
     internal faces), values are taken as views instead of gathered."""
 
     def __init__(self, ids: np.ndarray | None) -> None:
-        self.ids = ids
         self.span = None if ids is None else id_range(ids)
+        self.every = ids is None
+        # a range is kept as its bounds: an extent that keeps this for the engine's
+        # grading does not keep an id array as long as the faces (8 bytes a face)
+        self.ids = ids if self.span is None else None
 
     def take(self, values: np.ndarray) -> np.ndarray:
         """``values[ids]``."""
-        if self.ids is None:
+        if self.every:
             return values
         return values[self.ids] if self.span is None else values[self.span]
 
     def ids_of(self, local: np.ndarray) -> np.ndarray:
         """``ids[local]``: the ids of positions in the chosen entities."""
-        if self.ids is None:
+        if self.every:
             return local
         if self.span is None:
             return self.ids[local]
