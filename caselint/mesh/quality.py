@@ -118,7 +118,9 @@ def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
             skew[sl] = np.minimum(val, DEGENERATE)
         return angle, skew
 
-    return mesh.cached("quality.face_metrics", compute)
+    # not kept: each of the two rules reads one of them, and a kept pair held the other's
+    # 8 bytes a face through the first rule's grading, the check's peak (benchmarks/README.md)
+    return compute()
 
 
 def face_warp_deg(mesh: "Mesh") -> np.ndarray:
