@@ -224,6 +224,95 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
     out.cells[rays[idx]] = count[idx] - 1   # cells fully crossed before the step limit; LOST
 
 
+@dataclass(frozen=True)
+class Crossing:
+    """Cells a ray from each start face crosses within its own distance of the wall.
+
+    ``cells`` counts the cells crossed wholly within ``limit`` (m) of the ray's origin and
+    adds the part of the cell the limit falls in, as the share of that cell's crossing
+    before the limit: 3.4 is three cells and four tenths of the fourth. ``reached`` (m) is
+    how far the count went: the limit, or less where the ray ended on the boundary (then
+    every cell it crossed counts whole) or was lost first (``short`` True for both).
+    """
+
+    start_face: np.ndarray     # (R,) int64
+    limit: np.ndarray          # (R,) float64, m
+    cells: np.ndarray          # (R,) float64
+    reached: np.ndarray        # (R,) float64, m
+    short: np.ndarray          # (R,) bool
+
+
+def cells_within(mesh: "Mesh", start_faces: np.ndarray, limit_m,
+                 max_steps: int = MAX_STEPS) -> Crossing:
+    """Cast one ray inward from each of ``start_faces`` (boundary faces) and count the
+    cells it crosses within ``limit_m`` (one distance, or one per face) of the face."""
+    start_faces = np.asarray(start_faces, dtype=np.int64)
+    if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
+        raise ValueError("rays start from boundary faces only")
+    n = start_faces.size
+    limit = np.array(np.broadcast_to(np.asarray(limit_m, dtype=np.float64), (n,)))
+    if not np.all(limit >= 0):
+        raise ValueError("limit_m must be at least 0 (and not NaN)")
+    out = Crossing(start_faces, limit, np.zeros(n), np.zeros(n), limit > 0)
+    if n == 0:
+        return out
+    area = mesh.face_area_vectors[start_faces]
+    norm = np.sqrt((area**2).sum(axis=1))
+    ok = norm > 0                      # a collapsed face has no normal: its ray is lost
+    origin = np.asarray(mesh.face_centroids[start_faces], dtype=np.float64).reshape(n, 3)
+    direction = np.zeros((n, 3))
+    direction[ok] = -area[ok] / norm[ok, None]
+    kernel = compiled("ray_march", mesh.n_cells)
+    if kernel is not None:
+        cf = mesh.cell_faces
+        plane = kernel.face_planes(mesh.face_area_vectors, mesh.face_centroids)
+        parts = in_threads(lambda p: kernel.march_within(
+            cf.offsets, cf.faces, mesh.owner, mesh.neighbour, plane, start_faces[p],
+            origin[p], direction[p], ok[p], limit[p], max_steps, MAX_STALLED, _PARALLEL), n)
+        for k, values in enumerate(zip(*parts)):
+            (out.cells, out.reached, out.short)[k][:] = np.concatenate(values)
+        return out
+    faces = _FaceData(mesh, np.zeros(mesh.n_faces, dtype=bool))
+    for sl in chunks(n, RAY_CHUNK):
+        rays = np.arange(sl.start, sl.stop)
+        _within_chunk(faces, out, origin, direction, rays[ok[sl] & (limit[sl] > 0)], max_steps)
+    return out
+
+
+def _within_chunk(fd: _FaceData, out: Crossing, origin: np.ndarray, direction: np.ndarray,
+                  rays: np.ndarray, max_steps: int) -> None:
+    """Count the cells the rays ``rays`` cross within their limits, in lock step."""
+    o, d, limit = origin[rays], direction[rays], out.limit[rays]
+    entry = out.start_face[rays]
+    cell = fd.owner[entry]
+    t_now = np.zeros(rays.size)
+    stuck = np.zeros(rays.size, dtype=np.int64)
+    idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
+    for _ in range(max_steps):
+        if idx.size == 0:
+            return
+        t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
+        stalled = t_exit <= t_now
+        stuck[idx] = np.where(stalled, stuck[idx] + 1, 0)
+        lost = (f_exit < 0) | (stuck[idx] > MAX_STALLED)
+        t_exit = np.maximum(t_exit, t_now)
+        ray, lim = rays[idx], limit[idx]
+        out.reached[ray[lost]] = t_now[lost]
+        cut = ~lost & (t_exit >= lim)                   # the limit falls in this cell
+        part = (lim - t_now) / np.where(cut, t_exit - t_now, 1.0)
+        out.cells[ray[cut]] += part[cut]
+        out.reached[ray[cut]] = lim[cut]
+        out.short[ray[cut]] = False
+        crossed = ~lost & ~cut
+        out.cells[ray[crossed]] += 1.0
+        ends = crossed & (nxt < 0)                      # on the boundary before the limit
+        out.reached[ray[ends]] = t_exit[ends]
+        go = crossed & ~ends
+        idx = idx[go]
+        cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
+    out.reached[rays[idx]] = t_now                     # the step limit: cells crossed so far
+
+
 def _exit_faces(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o, d):
     """Parameter and id of the face each ray leaves its cell through (id -1 if none), and
     the cell beyond it (-1 on the boundary); all face slots of a cell at once."""

@@ -33,6 +33,33 @@ def face_planes(area, centroid):
     return plane
 
 
+@jit(inline="always")
+def exit_face(cf_offsets, cf_faces, owner, neighbour, plane, c, e, o, d, parallel_eps):
+    """Parameter, id and far cell of the face a ray (origin ``o``, direction ``d``) leaves
+    cell ``c`` through, never ``e`` (the face it came in through); id -1 when none."""
+    o0, o1, o2 = o[0], o[1], o[2]
+    d0, d1, d2 = d[0], d[1], d[2]
+    best_t = np.inf
+    best_f = -1
+    nxt = -1
+    for i in range(cf_offsets[c], cf_offsets[c + 1]):
+        f = cf_faces[i]
+        if f == e:
+            continue
+        p0, p1, p2, p3 = plane[f, 0], plane[f, 1], plane[f, 2], plane[f, 3]
+        dn = p0 * d0 + p1 * d1 + p2 * d2
+        mine = owner[f] == c
+        sign = 1.0 if mine else -1.0
+        if dn * sign > parallel_eps:
+            on = p0 * o0 + p1 * o1 + p2 * o2
+            t = (p3 - on) / dn
+            if t < best_t:
+                best_t = t
+                best_f = f
+                nxt = neighbour[f] if mine else owner[f]
+    return best_t, best_f, nxt
+
+
 #: Rays one thread marches in alternation: their memory reads overlap (the march waits on
 #: memory, not arithmetic); each ray's own steps are unchanged.
 BATCH = 16
@@ -80,27 +107,9 @@ def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, orig
                 ray[b] = -1
                 continue
             steps[b] += 1
-            c, e = cell[b], entry[b]
-            o0, o1, o2 = origin[r, 0], origin[r, 1], origin[r, 2]
-            d0, d1, d2 = direction[r, 0], direction[r, 1], direction[r, 2]
-            best_t = np.inf
-            best_f = -1
-            nxt = -1
-            for i in range(cf_offsets[c], cf_offsets[c + 1]):
-                f = cf_faces[i]
-                if f == e:
-                    continue
-                p0, p1, p2, p3 = plane[f, 0], plane[f, 1], plane[f, 2], plane[f, 3]
-                dn = p0 * d0 + p1 * d1 + p2 * d2
-                mine = owner[f] == c
-                sign = 1.0 if mine else -1.0
-                if dn * sign > parallel_eps:
-                    on = p0 * o0 + p1 * o1 + p2 * o2
-                    t = (p3 - on) / dn
-                    if t < best_t:
-                        best_t = t
-                        best_f = f
-                        nxt = neighbour[f] if mine else owner[f]
+            best_t, best_f, nxt = exit_face(cf_offsets, cf_faces, owner, neighbour, plane,
+                                            cell[b], entry[b], origin[r], direction[r],
+                                            parallel_eps)
             if best_f < 0:
                 cells[r] = count[b]                     # no exit: lost
                 ray[b] = -1
@@ -122,3 +131,66 @@ def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, orig
             cell[b], entry[b], t_now[b] = nxt, best_f, best_t
             count[b] += 1
     return hit, status, width, cells
+
+
+@jit
+def march_within(cf_offsets, cf_faces, owner, neighbour, plane, start_faces, origin,
+                 direction, active, limit, max_steps, max_stalled, parallel_eps):
+    """Cells crossed within ``limit[r]`` of each ray's origin, how far the count went, and
+    whether the ray stopped short of its limit, as
+    :func:`caselint.mesh.rays._within_chunk` computes them (see :func:`caselint.mesh.rays.cells_within`)."""
+    n = start_faces.shape[0]
+    cells = np.zeros(n)
+    reached = np.zeros(n)
+    short = limit > 0                                  # a zero limit is reached at once
+    ray = np.full(BATCH, -1, dtype=np.int64)
+    cell = np.zeros(BATCH, dtype=np.int64)
+    entry = np.zeros(BATCH, dtype=np.int64)
+    t_now = np.zeros(BATCH)
+    stuck = np.zeros(BATCH, dtype=np.int64)
+    steps = np.zeros(BATCH, dtype=np.int64)
+    following = 0
+    busy = True
+    while busy:
+        busy = False
+        for b in range(BATCH):
+            r = ray[b]
+            if r < 0:                                  # start the next ray in this slot
+                while following < n and not (active[following] and limit[following] > 0):
+                    following += 1
+                if following == n:
+                    continue
+                r = following
+                following += 1
+                ray[b], entry[b], t_now[b] = r, start_faces[r], 0.0
+                cell[b], stuck[b], steps[b] = owner[start_faces[r]], 0, 0
+            busy = True
+            if steps[b] == max_steps:
+                reached[r] = t_now[b]
+                ray[b] = -1
+                continue
+            steps[b] += 1
+            best_t, best_f, nxt = exit_face(cf_offsets, cf_faces, owner, neighbour, plane,
+                                            cell[b], entry[b], origin[r], direction[r],
+                                            parallel_eps)
+            if best_f >= 0:
+                stuck[b] = stuck[b] + 1 if best_t <= t_now[b] else 0
+            if best_f < 0 or stuck[b] > max_stalled:
+                reached[r] = t_now[b]                  # lost: the cells crossed so far
+                ray[b] = -1
+                continue
+            if best_t < t_now[b]:
+                best_t = t_now[b]
+            if best_t >= limit[r]:                     # the limit falls in this cell
+                cells[r] += (limit[r] - t_now[b]) / (best_t - t_now[b])
+                reached[r] = limit[r]
+                short[r] = False
+                ray[b] = -1
+                continue
+            cells[r] += 1.0
+            if nxt < 0:                                # on the boundary before the limit
+                reached[r] = best_t
+                ray[b] = -1
+                continue
+            cell[b], entry[b], t_now[b] = nxt, best_f, best_t
+    return cells, reached, short
