@@ -34,6 +34,7 @@ import numpy as np
 
 from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.geometry import chunks
+from caselint.mesh.topology import cell_point_table
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
@@ -228,11 +229,15 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
 class Crossing:
     """Cells a ray from each start face crosses within its own distance of the wall.
 
-    ``cells`` counts the cells crossed wholly within ``limit`` (m) of the ray's origin and
-    adds the part of the cell the limit falls in, as the share of that cell's crossing
-    before the limit: 3.4 is three cells and four tenths of the fourth. ``reached`` (m) is
-    how far the count went: the limit, or less where the ray ended on the boundary (then
-    every cell it crossed counts whole) or was lost first (``short`` True for both).
+    ``cells`` adds up, over the cells the ray crosses within ``limit`` (m) of its origin,
+    the length of the ray inside each cell (up to the limit) over the cell's *depth* along
+    the ray, the spread of its vertices along it. A layer cell crossed along its normal
+    counts 1, the cell the limit cuts the part of its depth before the limit (3.4: three
+    layers and four tenths of the fourth), and a cell the ray only clips near a vertex or
+    an edge little: a count that does not jump when a ray grazes a vertex, as a count of
+    the cells entered would, by a whole cell for each cell touched there. ``reached`` (m) is
+    how far the count went: the limit, or less where the ray ended on the boundary (up
+    to which every cell it crossed counts) or was lost first (``short`` True for both).
     """
 
     start_face: np.ndarray     # (R,) int64
@@ -268,19 +273,29 @@ def cells_within(mesh: "Mesh", start_faces: np.ndarray, limit_m,
         plane = kernel.face_planes(mesh.face_area_vectors, mesh.face_centroids)
         parts = in_threads(lambda p: kernel.march_within(
             cf.offsets, cf.faces, mesh.owner, mesh.neighbour, plane, start_faces[p],
-            origin[p], direction[p], ok[p], limit[p], max_steps, MAX_STALLED, _PARALLEL), n)
+            origin[p], direction[p], ok[p], limit[p], mesh.data.face_offsets,
+            mesh.data.face_points, mesh.points, max_steps, MAX_STALLED, _PARALLEL), n)
         for k, values in enumerate(zip(*parts)):
             (out.cells, out.reached, out.short)[k][:] = np.concatenate(values)
         return out
     faces = _FaceData(mesh, np.zeros(mesh.n_faces, dtype=bool))
     for sl in chunks(n, RAY_CHUNK):
         rays = np.arange(sl.start, sl.stop)
-        _within_chunk(faces, out, origin, direction, rays[ok[sl] & (limit[sl] > 0)], max_steps)
+        _within_chunk(mesh, faces, out, origin, direction, rays[ok[sl] & (limit[sl] > 0)],
+                      max_steps)
     return out
 
 
-def _within_chunk(fd: _FaceData, out: Crossing, origin: np.ndarray, direction: np.ndarray,
-                  rays: np.ndarray, max_steps: int) -> None:
+def _depths(mesh: "Mesh", cells: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """Spread of each cell's vertices along its ray's direction ``d`` (m), projections
+    summed x + y + z as :mod:`caselint.mesh.kernels.ray_march` does."""
+    rel = mesh.points[cell_point_table(mesh.data, mesh.cell_faces, cells)] - o[:, None, :]
+    along = rel[..., 0] * d[:, 0:1] + rel[..., 1] * d[:, 1:2] + rel[..., 2] * d[:, 2:3]
+    return along.max(axis=1) - along.min(axis=1)
+
+
+def _within_chunk(mesh: "Mesh", fd: _FaceData, out: Crossing, origin: np.ndarray,
+                  direction: np.ndarray, rays: np.ndarray, max_steps: int) -> None:
     """Count the cells the rays ``rays`` cross within their limits, in lock step."""
     o, d, limit = origin[rays], direction[rays], out.limit[rays]
     entry = out.start_face[rays]
@@ -299,12 +314,13 @@ def _within_chunk(fd: _FaceData, out: Crossing, origin: np.ndarray, direction: n
         ray, lim = rays[idx], limit[idx]
         out.reached[ray[lost]] = t_now[lost]
         cut = ~lost & (t_exit >= lim)                   # the limit falls in this cell
-        part = (lim - t_now) / np.where(cut, t_exit - t_now, 1.0)
-        out.cells[ray[cut]] += part[cut]
+        inside = np.where(cut, lim, t_exit) - t_now
+        depth = _depths(mesh, cell, o[idx], d[idx])
+        share = np.where(depth > 0, inside / np.where(depth > 0, depth, 1.0), 0.0)
+        out.cells[ray[~lost]] += share[~lost]
         out.reached[ray[cut]] = lim[cut]
         out.short[ray[cut]] = False
         crossed = ~lost & ~cut
-        out.cells[ray[crossed]] += 1.0
         ends = crossed & (nxt < 0)                      # on the boundary before the limit
         out.reached[ray[ends]] = t_exit[ends]
         go = crossed & ~ends

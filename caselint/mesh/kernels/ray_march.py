@@ -60,6 +60,22 @@ def exit_face(cf_offsets, cf_faces, owner, neighbour, plane, c, e, o, d, paralle
     return best_t, best_f, nxt
 
 
+@jit(inline="always")
+def depth(cf_offsets, cf_faces, face_offsets, face_points, points, cell, o, d):
+    """Spread of ``cell``'s vertices along the direction ``d`` (m), as
+    :func:`caselint.mesh.rays._depths` computes it."""
+    low, high = np.inf, -np.inf
+    for i in range(cf_offsets[cell], cf_offsets[cell + 1]):
+        f = cf_faces[i]
+        for j in range(face_offsets[f], face_offsets[f + 1]):
+            p = face_points[j]
+            a = ((points[p, 0] - o[0]) * d[0] + (points[p, 1] - o[1]) * d[1]
+                 + (points[p, 2] - o[2]) * d[2])
+            low = min(low, a)
+            high = max(high, a)
+    return high - low
+
+
 #: Rays one thread marches in alternation: their memory reads overlap (the march waits on
 #: memory, not arithmetic); each ray's own steps are unchanged.
 BATCH = 16
@@ -135,7 +151,8 @@ def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, orig
 
 @jit
 def march_within(cf_offsets, cf_faces, owner, neighbour, plane, start_faces, origin,
-                 direction, active, limit, max_steps, max_stalled, parallel_eps):
+                 direction, active, limit, face_offsets, face_points, points, max_steps,
+                 max_stalled, parallel_eps):
     """Cells crossed within ``limit[r]`` of each ray's origin, how far the count went, and
     whether the ray stopped short of its limit, as
     :func:`caselint.mesh.rays._within_chunk` computes them (see :func:`caselint.mesh.rays.cells_within`)."""
@@ -181,13 +198,16 @@ def march_within(cf_offsets, cf_faces, owner, neighbour, plane, start_faces, ori
                 continue
             if best_t < t_now[b]:
                 best_t = t_now[b]
-            if best_t >= limit[r]:                     # the limit falls in this cell
-                cells[r] += (limit[r] - t_now[b]) / (best_t - t_now[b])
+            cut = best_t >= limit[r]                   # the limit falls in this cell
+            inside = (limit[r] if cut else best_t) - t_now[b]
+            d = depth(cf_offsets, cf_faces, face_offsets, face_points, points, cell[b],
+                      origin[r], direction[r])
+            cells[r] += inside / d if d > 0 else 0.0
+            if cut:
                 reached[r] = limit[r]
                 short[r] = False
                 ray[b] = -1
                 continue
-            cells[r] += 1.0
             if nxt < 0:                                # on the boundary before the limit
                 reached[r] = best_t
                 ray[b] = -1
