@@ -106,8 +106,8 @@ def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
               else thick.x >= zone * float(thick.x.max()))
     threshold = first_limit(ctx.limits)
     notes = [Note(f"boundary-layer thickness {thick.how}; cells counted along the inward "
-                  "normal of each wall face through any cell type, the cell the edge of "
-                  "delta cuts counted by the part of its crossing inside delta"),
+                  "normal of each wall face through any cell type, each by the length of "
+                  "the normal inside it (up to delta) over the cell's depth along it"),
              *(Note(text) for text in thick.notes)]
     measurements = []
     for name, rows in found.items():
@@ -324,8 +324,10 @@ BOUNDARY_LAYER_CELLS = Rule(
     rationale=(
         _THICKNESS + " A ray cast from each wall face along its inward normal counts the "
         "cells it crosses within delta, through any cell type (layers, tetrahedra, "
-        "triangles, polyhedra); the cell the edge of delta cuts counts by the part of its "
-        "crossing inside delta. At least 10 are wanted (warning below 10, error below 5; "
+        "triangles, polyhedra): each cell by the length of the ray inside it, up to delta, "
+        "over the cell's depth along the ray (the spread of its vertices along it), so a "
+        "layer crossed along its normal counts 1, the layer delta cuts the part of it below "
+        "delta, and a tetrahedron the ray clips near a corner little. At least 10 are wanted (warning below 10, error below 5; "
         "common practice: 5-10 or more cells across a boundary layer). Faces in the first "
         "leading_zone of the walls' length along the flow are not graded: the boundary layer "
         "grows from nothing at a leading edge, thinner there than any wall cell. Whether the "
