@@ -15,8 +15,6 @@ coordinate -9e-4).
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pytest
 
@@ -125,7 +123,6 @@ def test_aerofoil_layer_block_covers_the_boundary_layer_from_the_leading_edge(tm
                      walls=("foil",))
     check, findings, _ = grade(LAYER_COVER, mesh, case)
     assert check.outcome == "pass" and findings == []
-    from caselint.rulekit.walls import Walls  # noqa: F401  (the rule's own stacks, below)
     from caselint.mesh.wall_layers import wall_layers
 
     layers = wall_layers(mesh, mesh.group_faces("foil"))

@@ -43,11 +43,14 @@ import numpy as np
 
 from caselint.physics import friction as fr
 from caselint.rulekit.meshview import face_points
-from caselint.rulekit.wallflow import MIN_X_FRACTION, FlowData, face_x
+from caselint.rulekit.wallflow import MIN_X_FRACTION, FlowData, face_x, flow_data
+from caselint.rulekit.walls import walls
 from caselint.rulekit.words import fmt
 
 if TYPE_CHECKING:
+    from caselint.engine.context import RuleContext
     from caselint.mesh.analysis import Mesh
+    from caselint.rulekit.walls import Walls
 
 
 @dataclass(frozen=True)
@@ -59,6 +62,10 @@ class Thickness:
     x: np.ndarray | None
     how: str
     notes: tuple[str, ...] = ()
+
+    def at(self, row: int) -> str:
+        """`` (x = 0.25 m from the leading edge)`` for a local estimate, else nothing."""
+        return "" if self.x is None else f" (x = {self.x[row]:.3g} m from the leading edge)"
 
 
 def wall_x(flow: FlowData, mesh: "Mesh", faces: np.ndarray) -> tuple[np.ndarray, str] | str | None:
@@ -120,6 +127,22 @@ def wall_thickness(flow: FlowData, mesh: "Mesh", faces: np.ndarray) -> Thickness
     low, high = fmt(float(delta.min())), fmt(float(delta.max()))
     how = f"{formula} {where}; delta {low} m" + ("" if low == high else f" to {high} m")
     return Thickness(delta, None if located is None else x, how, tuple(notes))
+
+
+def along_walls(ctx: "RuleContext") -> tuple["Walls", np.ndarray, Thickness] | str:
+    """The case's walls with their stacks, delta per row of the stacks and the estimate, or
+    a skip reason. delta is the local estimate, and at most half the passage where a stack
+    ran into a facing wall: two boundary layers meet in the middle."""
+    flow = flow_data(ctx.case)
+    if isinstance(flow, str):
+        return flow
+    found = walls(ctx)
+    if isinstance(found, str):
+        return found
+    thick = wall_thickness(flow, ctx.mesh, found.layers.faces)
+    if isinstance(thick, str):
+        return thick
+    return found, np.minimum(thick.delta, 0.5 * found.layers.passage), thick
 
 
 def _entrance(flow: FlowData, half: float) -> float:

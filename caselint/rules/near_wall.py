@@ -34,8 +34,7 @@ from caselint.rulekit import (
     plural,
     settled,
 )
-from caselint.rulekit import wallflow
-from caselint.rulekit.thickness import Thickness, wall_thickness
+from caselint.rulekit.thickness import along_walls
 from caselint.rulekit.walls import locate, walls
 
 _DPW = "AIAA Drag Prediction Workshop gridding guidelines"
@@ -94,9 +93,9 @@ LEADING_ZONE = 0.1
 def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
     """Per wall boundary, the fewest cells across the local boundary-layer thickness, counted
     along the inward normal of each wall face."""
-    got = _local_thickness(ctx)
-    if isinstance(got, RuleResult):
-        return got
+    got = along_walls(ctx)
+    if isinstance(got, str):
+        return RuleResult.skip(got)
     found, delta, thick = got
     mesh, layers = ctx.mesh, found.layers
     crossing = cells_within(mesh, layers.faces, delta)
@@ -132,7 +131,7 @@ def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
         lead = (f"{n_bad} of {plural(len(faces), 'face')} with fewer than {threshold:g} cells "
                 "within the local delta" if n_bad else "no face below the limit")
         detail = (f"{lead}; fewest {float(count[r]):.3g} at {at_face(mesh, int(faces[worst]))}"
-                  f"{_at_x(thick, r)}, delta = {delta[r]:.3g} m, under a stack of "
+                  f"{thick.at(r)}, delta = {delta[r]:.3g} m, under a stack of "
                   f"{plural(int(layers.n_layers[r]), 'layer')} ({layers.thickness[r]:.3g} m)")
         fix = ""
         if threshold:
@@ -147,38 +146,15 @@ def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
     return RuleResult(tuple(measurements), notes=tuple(notes))
 
 
-def _local_thickness(ctx: RuleContext):
-    """(walls, delta per row of their stacks, the estimate), or the skip result.
-
-    delta is the local estimate (:mod:`caselint.rulekit.thickness`), and at most half the
-    passage where a stack ran into a facing wall: two boundary layers meet in the middle.
-    """
-    flow = wallflow.flow_data(ctx.case)
-    if isinstance(flow, str):
-        return RuleResult.skip(flow)
-    found = walls(ctx)
-    if isinstance(found, str):
-        return RuleResult.skip(found)
-    thick = wall_thickness(flow, ctx.mesh, found.layers.faces)
-    if isinstance(thick, str):
-        return RuleResult.skip(thick)
-    return found, np.minimum(thick.delta, 0.5 * found.layers.passage), thick
-
-
-def _at_x(thick: Thickness, row: int) -> str:
-    """`` (x = 0.25 m from the leading edge)`` for a local estimate, else nothing."""
-    return "" if thick.x is None else f" (x = {thick.x[row]:.3g} m from the leading edge)"
-
-
 # -- layer-cover ---------------------------------------------------------------------------
 
 
 def check_layer_cover(ctx: RuleContext) -> RuleResult:
     """Per wall boundary, the smallest ratio of a face's stack thickness to its local
     boundary-layer thickness."""
-    got = _local_thickness(ctx)
-    if isinstance(got, RuleResult):
-        return got
+    got = along_walls(ctx)
+    if isinstance(got, str):
+        return RuleResult.skip(got)
     found, delta, thick = got
     mesh, layers = ctx.mesh, found.layers
     cover = settled(layers.thickness / delta)
@@ -192,7 +168,7 @@ def check_layer_cover(ctx: RuleContext) -> RuleResult:
         measurements.append(Measurement(
             float(cover[r]), where,
             f"thinnest stack for its boundary layer {layers.thickness[r]:.3g} m "
-            f"({layer_words}) at {at_face(mesh, int(faces[worst]))}{_at_x(thick, r)}, where "
+            f"({layer_words}) at {at_face(mesh, int(faces[worst]))}{thick.at(r)}, where "
             f"delta = {delta[r]:.3g} m",
             f"Grow the inflation stack on '{name}' to at least delta = {delta[r]:.3g} m there: "
             "more layers, or a larger total thickness."))
