@@ -3,32 +3,34 @@ a 2-D aerofoil with a quadrilateral layer block under triangles, a cylinder in u
 triangles and a box of tetrahedra graded towards its floor.
 
 gmsh only *makes* the meshes; every expected value in the tests comes from the
-construction (layer heights, radii) or from an independent point location, never from
+construction (layer heights, radii) or from an independent computation, never from
 gmsh. Each builder writes a gmsh 4.1 file with named physical groups and returns its path.
 """
 
 from __future__ import annotations
 
-import contextlib
 from pathlib import Path
 
 import numpy as np
 
+from calibration import _gmsh          # gmsh started quietly, single-threaded, seeded
 
-@contextlib.contextmanager
-def _gmsh(name: str):
-    import gmsh
 
-    gmsh.initialize(interruptible=False)
-    try:
-        gmsh.option.setNumber("General.Terminal", 0)
-        gmsh.option.setNumber("General.NumThreads", 1)
-        gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
-        gmsh.option.setNumber("Mesh.RandomSeed", 1)
-        gmsh.model.add(name)
-        yield gmsh
-    finally:
-        gmsh.finalize()
+def _grade_towards(gmsh, key: str, tags: list[int], wall_size: float, far_size: float,
+                   grow_over: float) -> None:
+    """Cells ``wall_size`` at the entities ``tags`` (``key``: CurvesList or SurfacesList),
+    growing linearly to ``far_size`` over ``grow_over`` from them; nothing else sets sizes."""
+    field = gmsh.model.mesh.field
+    dist = field.add("Distance")
+    field.setNumbers(dist, key, tags)
+    field.setNumber(dist, "Sampling", 400)
+    thr = field.add("Threshold")
+    for name, value in (("InField", dist), ("SizeMin", wall_size), ("SizeMax", far_size),
+                        ("DistMin", 0.0), ("DistMax", grow_over)):
+        field.setNumber(thr, name, value)
+    field.setAsBackgroundMesh(thr)
+    for name in ("MeshSizeFromPoints", "MeshSizeFromCurvature", "MeshSizeExtendFromBoundary"):
+        gmsh.option.setNumber(f"Mesh.{name}", 0)
 
 
 def pipe_o_grid(path: Path, *, radius: float = 0.05, n_side: int = 12, n_radial: int = 15,
@@ -150,17 +152,7 @@ def cylinder_triangles(path: Path, *, diameter: float = 0.1, wall_size: float = 
         for name, tags in sorted(curves.items()):
             gmsh.model.addPhysicalGroup(1, tags, name=name)
         gmsh.model.addPhysicalGroup(2, [t for _, t in gmsh.model.getEntities(2)], name="air")
-        field = gmsh.model.mesh.field
-        dist = field.add("Distance")
-        field.setNumbers(dist, "CurvesList", curves["cylinder"])
-        field.setNumber(dist, "Sampling", 400)
-        thr = field.add("Threshold")
-        for key, value in (("InField", dist), ("SizeMin", wall_size), ("SizeMax", far_size),
-                           ("DistMin", 0.0), ("DistMax", grow_over)):
-            field.setNumber(thr, key, value)
-        field.setAsBackgroundMesh(thr)
-        for key in ("MeshSizeFromPoints", "MeshSizeFromCurvature", "MeshSizeExtendFromBoundary"):
-            gmsh.option.setNumber(f"Mesh.{key}", 0)
+        _grade_towards(gmsh, "CurvesList", curves["cylinder"], wall_size, far_size, grow_over)
         gmsh.model.mesh.generate(2)
         gmsh.write(str(path))
     return path
@@ -183,16 +175,7 @@ def tet_box(path: Path, *, wall_size: float = 0.006, far_size: float = 0.04,
         for name, tags in sorted(groups.items()):
             gmsh.model.addPhysicalGroup(2, tags, name=name)
         gmsh.model.addPhysicalGroup(3, [1], name="air")
-        field = gmsh.model.mesh.field
-        dist = field.add("Distance")
-        field.setNumbers(dist, "SurfacesList", groups["floor"])
-        thr = field.add("Threshold")
-        for key, value in (("InField", dist), ("SizeMin", wall_size), ("SizeMax", far_size),
-                           ("DistMin", 0.0), ("DistMax", grow_over)):
-            field.setNumber(thr, key, value)
-        field.setAsBackgroundMesh(thr)
-        for key in ("MeshSizeFromPoints", "MeshSizeFromCurvature", "MeshSizeExtendFromBoundary"):
-            gmsh.option.setNumber(f"Mesh.{key}", 0)
+        _grade_towards(gmsh, "SurfacesList", groups["floor"], wall_size, far_size, grow_over)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(path))
     return path

@@ -99,24 +99,19 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     if max_steps < 1:
         raise ValueError(f"max_steps must be at least 1, got {max_steps}")
     start_faces = np.asarray(start_faces, dtype=np.int64)
-    if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
-        raise ValueError("rays start from boundary faces only")
     n = start_faces.size
+    origin, direction, ok = _inward(mesh, start_faces)
     out = RayHits(
         start_face=start_faces,
         hit_face=np.full(n, -1, dtype=np.int64),
         status=np.full(n, LOST, dtype=np.int8),
         width=np.zeros(n),
         cells=np.zeros(n, dtype=np.int64),
-        origin=np.asarray(mesh.face_centroids[start_faces], dtype=np.float64).reshape(n, 3),
-        direction=np.zeros((n, 3)),
+        origin=origin,
+        direction=direction,
     )
     if n == 0:
         return out
-    area = mesh.face_area_vectors[start_faces]
-    norm = np.sqrt((area**2).sum(axis=1))
-    ok = norm > 0                      # a collapsed face has no normal: its ray is lost
-    out.direction[ok] = -area[ok] / norm[ok, None]
     wall = _wall_mask(mesh, wall_face)
     kernel = compiled("ray_march", mesh.n_cells)
     if kernel is not None:
@@ -132,6 +127,21 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     for sl in chunks(n, RAY_CHUNK):
         _march_chunk(faces, out, np.arange(sl.start, sl.stop)[ok[sl]], max_steps)
     return out
+
+
+def _inward(mesh: "Mesh", start_faces: np.ndarray):
+    """Origins (face centroids), unit inward normals and whether each face has one (a
+    collapsed face has none: its ray is lost) of the rays from boundary ``start_faces``."""
+    if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
+        raise ValueError("rays start from boundary faces only")
+    n = start_faces.size
+    origin = np.asarray(mesh.face_centroids[start_faces], dtype=np.float64).reshape(n, 3)
+    area = mesh.face_area_vectors[start_faces]
+    norm = np.sqrt((area**2).sum(axis=1))
+    ok = norm > 0
+    direction = np.zeros((n, 3))
+    direction[ok] = -area[ok] / norm[ok, None]
+    return origin, direction, ok
 
 
 class _FaceData:
@@ -204,13 +214,7 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
     for _ in range(max_steps):
         if idx.size == 0:
             return
-        t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
-        # a ray never goes back; one that stops advancing (cycling between non-convex
-        # cells) is lost after MAX_STALLED cells
-        stalled = t_exit <= t_now
-        stuck[idx] = np.where(stalled, stuck[idx] + 1, 0)
-        lost = (f_exit < 0) | (stuck[idx] > MAX_STALLED)
-        t_exit = np.maximum(t_exit, t_now)
+        t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
         ends = ~lost & (nxt < 0)
         ray = rays[idx]
         out.status[ray[ends]] = np.where(fd.wall[f_exit[ends]], WALL, OPEN)
@@ -252,21 +256,14 @@ def cells_within(mesh: "Mesh", start_faces: np.ndarray, limit_m,
     """Cast one ray inward from each of ``start_faces`` (boundary faces) and count the
     cells it crosses within ``limit_m`` (one distance, or one per face) of the face."""
     start_faces = np.asarray(start_faces, dtype=np.int64)
-    if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
-        raise ValueError("rays start from boundary faces only")
     n = start_faces.size
     limit = np.array(np.broadcast_to(np.asarray(limit_m, dtype=np.float64), (n,)))
     if not np.all(limit >= 0):
         raise ValueError("limit_m must be at least 0 (and not NaN)")
+    origin, direction, ok = _inward(mesh, start_faces)
     out = Crossing(start_faces, limit, np.zeros(n), np.zeros(n), limit > 0)
     if n == 0:
         return out
-    area = mesh.face_area_vectors[start_faces]
-    norm = np.sqrt((area**2).sum(axis=1))
-    ok = norm > 0                      # a collapsed face has no normal: its ray is lost
-    origin = np.asarray(mesh.face_centroids[start_faces], dtype=np.float64).reshape(n, 3)
-    direction = np.zeros((n, 3))
-    direction[ok] = -area[ok] / norm[ok, None]
     kernel = compiled("ray_march", mesh.n_cells)
     if kernel is not None:
         cf = mesh.cell_faces
@@ -306,11 +303,7 @@ def _within_chunk(mesh: "Mesh", fd: _FaceData, out: Crossing, origin: np.ndarray
     for _ in range(max_steps):
         if idx.size == 0:
             return
-        t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
-        stalled = t_exit <= t_now
-        stuck[idx] = np.where(stalled, stuck[idx] + 1, 0)
-        lost = (f_exit < 0) | (stuck[idx] > MAX_STALLED)
-        t_exit = np.maximum(t_exit, t_now)
+        t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
         ray, lim = rays[idx], limit[idx]
         out.reached[ray[lost]] = t_now[lost]
         cut = ~lost & (t_exit >= lim)                   # the limit falls in this cell
@@ -327,6 +320,19 @@ def _within_chunk(mesh: "Mesh", fd: _FaceData, out: Crossing, origin: np.ndarray
         idx = idx[go]
         cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
     out.reached[rays[idx]] = t_now                     # the step limit: cells crossed so far
+
+
+def _advance(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o: np.ndarray, d: np.ndarray,
+             t_now: np.ndarray, stuck: np.ndarray, idx: np.ndarray):
+    """One step of the active rays ``idx``: the exit parameter (never behind ``t_now``), face
+    and cell beyond, and which rays are lost: no exit, or no advance for more than
+    :data:`MAX_STALLED` cells in a row (``stuck`` counts them)."""
+    t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
+    # a ray never goes back; one that stops advancing (cycling between non-convex cells)
+    # is lost after MAX_STALLED cells
+    stuck[idx] = np.where(t_exit <= t_now, stuck[idx] + 1, 0)
+    lost = (f_exit < 0) | (stuck[idx] > MAX_STALLED)
+    return np.maximum(t_exit, t_now), f_exit, nxt, lost
 
 
 def _exit_faces(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o, d):

@@ -61,6 +61,20 @@ def exit_face(cf_offsets, cf_faces, owner, neighbour, plane, c, e, o, d, paralle
 
 
 @jit(inline="always")
+def advance(cf_offsets, cf_faces, owner, neighbour, plane, cell, entry, t_now, stuck, b, o, d,
+            max_stalled, parallel_eps):
+    """The exit of the ray in slot ``b`` from its cell (parameter never behind ``t_now[b]``,
+    face, cell beyond) and whether it is lost: no exit, or no advance for more than
+    ``max_stalled`` cells in a row (``stuck[b]`` counts them)."""
+    best_t, best_f, nxt = exit_face(cf_offsets, cf_faces, owner, neighbour, plane, cell[b],
+                                    entry[b], o, d, parallel_eps)
+    if best_f < 0:
+        return best_t, best_f, nxt, True
+    stuck[b] = stuck[b] + 1 if best_t <= t_now[b] else 0
+    return max(best_t, t_now[b]), best_f, nxt, stuck[b] > max_stalled
+
+
+@jit(inline="always")
 def depth(cf_offsets, cf_faces, face_offsets, face_points, points, cell, o, d):
     """Spread of ``cell``'s vertices along the direction ``d`` (m), as
     :func:`caselint.mesh.rays._depths` computes it."""
@@ -123,20 +137,13 @@ def march(cf_offsets, cf_faces, owner, neighbour, plane, wall, start_faces, orig
                 ray[b] = -1
                 continue
             steps[b] += 1
-            best_t, best_f, nxt = exit_face(cf_offsets, cf_faces, owner, neighbour, plane,
-                                            cell[b], entry[b], origin[r], direction[r],
-                                            parallel_eps)
-            if best_f < 0:
-                cells[r] = count[b]                     # no exit: lost
-                ray[b] = -1
-                continue
-            stuck[b] = stuck[b] + 1 if best_t <= t_now[b] else 0
-            if stuck[b] > max_stalled:
+            best_t, best_f, nxt, lost = advance(cf_offsets, cf_faces, owner, neighbour, plane,
+                                                cell, entry, t_now, stuck, b, origin[r],
+                                                direction[r], max_stalled, parallel_eps)
+            if lost:
                 cells[r] = count[b]
                 ray[b] = -1
                 continue
-            if best_t < t_now[b]:
-                best_t = t_now[b]
             if nxt < 0:
                 status[r] = WALL if wall[best_f] else OPEN
                 hit[r] = best_f
@@ -187,17 +194,13 @@ def march_within(cf_offsets, cf_faces, owner, neighbour, plane, start_faces, ori
                 ray[b] = -1
                 continue
             steps[b] += 1
-            best_t, best_f, nxt = exit_face(cf_offsets, cf_faces, owner, neighbour, plane,
-                                            cell[b], entry[b], origin[r], direction[r],
-                                            parallel_eps)
-            if best_f >= 0:
-                stuck[b] = stuck[b] + 1 if best_t <= t_now[b] else 0
-            if best_f < 0 or stuck[b] > max_stalled:
-                reached[r] = t_now[b]                  # lost: the cells crossed so far
+            best_t, best_f, nxt, lost = advance(cf_offsets, cf_faces, owner, neighbour, plane,
+                                                cell, entry, t_now, stuck, b, origin[r],
+                                                direction[r], max_stalled, parallel_eps)
+            if lost:
+                reached[r] = t_now[b]                  # the cells crossed so far
                 ray[b] = -1
                 continue
-            if best_t < t_now[b]:
-                best_t = t_now[b]
             cut = best_t >= limit[r]                   # the limit falls in this cell
             inside = (limit[r] if cut else best_t) - t_now[b]
             d = depth(cf_offsets, cf_faces, face_offsets, face_points, points, cell[b],
