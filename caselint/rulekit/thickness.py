@@ -31,7 +31,9 @@ Thickness, x from the leading edge, Re_x = U x / nu:
   x = 0.01 Re D_h (laminar) and about 1.46 Re^1/4 D_h (turbulent, [computed] from the two
   formulas); White, Fluid Mechanics, gives entrance lengths of 0.06 Re D (laminar) and
   4.4 Re^1/6 D (turbulent) [memory]: the laminar estimate reaches D_h / 2 sooner than the
-  fully developed profile is reached. Without a local x: D_h / 2 (fully developed).
+  fully developed profile is reached. Without a local x: D_h / 2 (fully developed). A
+  flow that enters developed is declared with a leading edge upstream of the inlet by the
+  development length.
 """
 
 from __future__ import annotations
