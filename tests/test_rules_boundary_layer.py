@@ -103,6 +103,11 @@ def test_internal_flow_develops_until_half_the_hydraulic_diameter():
     assert any(f"downstream of x = {entrance:.3g} m" in n for n in notes)
     check, _, _ = grade(LAYER_COVER, plate(), case)
     assert check.measured == pytest.approx(PLATE.sum() / 0.01, rel=1e-9)   # capped at D_h/2
+    # a flow entering developed: its leading edge declared a development length upstream
+    developed = make_case(kind="internal", length=0.02, direction=(1.0, 0.0, 0.0),
+                          leading_edge=(-1.0, 0.0, 0.0))
+    check, _, _ = grade(BOUNDARY_LAYER_CELLS, plate(), developed, leading_zone=0.0)
+    assert check.measured == pytest.approx(across(PLATE, 0.01), rel=1e-9)
 
 
 # -- an aerofoil whose layer block is thicker than delta everywhere ------------------------------
