@@ -16,6 +16,12 @@ includes the first and the last cell. The face the ray came in through is never 
 where the plane-based exit can point back), or that is still marching after ``max_steps``
 cells is *lost*, so a damaged or non-convex mesh cannot loop forever.
 
+:func:`march` goes on to the boundary (the width of a passage, the cells entered across
+it); :func:`cells_within` stops at a distance of its own per ray (the boundary-layer
+thickness) and weighs each cell by the length of the ray inside it over the cell's depth
+along the ray (see :class:`Crossing`): a measure of resolution along the wall normal
+through any cell type, tetrahedra and triangles included.
+
 All rays march in lock step: one numpy step per cell crossed, over every ray still active
 (and over the face slots of a cell, as many as the cell with the most faces has), never a
 Python loop over rays or cells. On large meshes the compiled kernel

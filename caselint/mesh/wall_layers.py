@@ -5,9 +5,9 @@ face* and on to the neighbour across that face. The opposite face is found from 
 cell's faces, for any cell: the faces sharing no point with the entry face (the far side
 of a hexahedron, the other triangle of a wedge entered through a triangle, the far edge
 of a 2-D quadrilateral; several for a polyhedron whose far side is split by a refinement,
-of which the one the entry normal crosses first is taken, :func:`caselint.mesh.stack_walk.opposite`). All wall
-faces walk in lock-step: one vectorised numpy step per layer, never a Python loop over
-faces.
+of which the one the entry normal crosses first is taken,
+:func:`caselint.mesh.stack_walk.opposite`). All wall faces walk in lock-step: one
+vectorised numpy step per layer, never a Python loop over faces.
 
 A cell *continues the stack* while
 
@@ -26,19 +26,28 @@ A cell *continues the stack* while
   a facing wall or fill the middle of a passage (the centre of a pipe O-grid, whose
   radial cells go on to the axis), not to this stack.
 
-Defaults: ``max_aspect`` 1, ``min_ratio`` 0.9 (a tenth of room for the scatter of
-unstructured layer meshers), ``turn_deg`` 45, ``max_cells`` 200 (caselint's choices).
-
 The stack ends at the first cell failing one of these, when an opposite face is on the
-boundary, or after ``max_cells`` cells. A stack that runs into a *facing wall* (a face
-among the walked ``faces``: a channel or pipe whose cells are layer-shaped from wall to
-wall) is then cut at the middle of the passage: a layer stays when it starts before half
-the distance walked across (``passage``), so the cell holding the middle belongs to both
-walls' stacks and no stack reaches past it, e.g. beyond a pipe's axis. The walk itself may go on through cells that are
-layer-shaped but thick (a structured hexahedral core), so that the cells across a
-boundary layer can be counted beyond the inflation stack: it goes on while the walked
-cells reach less than ``reach_m`` from the wall (the boundary-layer thickness), and no
-further, since nothing asks about cells beyond it.
+boundary, or after ``max_cells`` cells. Then, from the heights walked:
+
+- a stack whose last cells are a *block of one height* entered with a jump (at least two
+  cells from the last layer that grew by more than ``jump_ratio`` on, none after it
+  growing by more than ``1 / min_ratio``) is cut before the jump: the block is a core of
+  a multi-block grid (the square core of a pipe O-grid), its first cell the core cell,
+  and the jump is judged as the transition to the core, not as layer growth. A jump
+  followed by layers that keep growing stays in the stack (a stack with a bad step);
+- a stack that runs into a *facing wall* (a face among the walked ``faces``: a channel or
+  pipe whose cells are layer-shaped from wall to wall) is cut at the middle of the
+  passage: a layer stays when it starts before half the distance walked across
+  (``passage``), so the cell holding the middle belongs to both walls' stacks and no
+  stack reaches past it.
+
+Defaults: ``max_aspect`` 1, ``min_ratio`` 0.9 (a tenth of room for the scatter of
+unstructured layer meshers), ``jump_ratio`` 1.3 (the largest growth common practice
+allows inside a stack), ``turn_deg`` 45, ``max_cells`` 200 (caselint's choices).
+
+The walk itself may go on through cells that are layer-shaped but thick (a structured
+hexahedral core): it goes on while the walked cells reach less than ``reach_m`` from the
+wall, and no further.
 
 Distances: the first cell centre's wall distance is its centroid's distance from the
 wall face centroid along the wall normal (half the first-layer height on a prism or
