@@ -173,30 +173,28 @@ def _spreads(console: Console, checks) -> None:
     """How each place-graded quantity is spread over the mesh (beyond its worst value)."""
     rows = [(c.rule, spread_sentence(c, d)) for c in in_summary_order(checks)
             for d in c.distributions]
-    if not rows:
-        return
-    console.print()
-    console.print(Text("Spread over the mesh", style="bold"))
-    grid = Table.grid(padding=(0, 1))
-    grid.add_column(no_wrap=True)
-    grid.add_column(ratio=1)
-    for rule, sentence in rows:
-        grid.add_row(Text(rule, style="bold"), sentence)
-    console.print(grid)
+    _titled_grid(console, "Spread over the mesh",
+                 [(Text(rule, style="bold"), sentence) for rule, sentence in rows])
 
 
 def _sources(console: Console, sources: SourceKeys) -> None:
     """Each cited rule's sources, once for the whole report."""
-    entries = sources.entries()
-    if not entries:
+    _titled_grid(console, "Sources",
+                 [(key, Text().append(rule, "bold").append(": " + source))
+                  for key, rule, source in sources.entries()])
+
+
+def _titled_grid(console: Console, title: str, rows: list) -> None:
+    """A bold title and two columns, the first kept on one line; nothing when no rows."""
+    if not rows:
         return
     console.print()
-    console.print(Text("Sources", style="bold"))
+    console.print(Text(title, style="bold"))
     grid = Table.grid(padding=(0, 1))
     grid.add_column(no_wrap=True)
     grid.add_column(ratio=1)
-    for key, rule, source in entries:
-        grid.add_row(key, Text().append(rule, "bold").append(": " + source))
+    for first, second in rows:
+        grid.add_row(first, second)
     console.print(grid)
 
 
