@@ -12,7 +12,9 @@ exactly the defects designed into it, with their analytic values [computed]:
 The near-wall rules judge the same coarse room mesh against the wall-function treatment
 the case declares [computed by hand below]: Colebrook, smooth, Re = 1.5 * 1.37 / nu with
 nu = 1.78e-5 / 1.23 gives f = 0.01674 and u_tau = U sqrt(f / 8) = 0.06862 m/s, so the
-0.4 m wall cells (first centre 0.2 m from the wall) sit at y+ = 0.2 u_tau / nu = 948.
+0.4 m wall cells (first centre 0.2 m from the wall) sit at y+ = 0.2 u_tau / nu = 948; the
+boundary layer developing down the walls from the ceiling is 14.8 mm thick 0.32 m below
+it, 0.037 of a 0.4 m wall cell.
 """
 
 from __future__ import annotations
@@ -95,7 +97,20 @@ def test_demo_near_wall_checks_follow_from_the_coarse_wall_cells(report):
     growth = checks["layer-growth"]  # the floor layers graded by 1.5, seen as a stack
     assert growth.measured == pytest.approx(1.5, abs=1e-9) and growth.severity == "error"
     assert checks["wall-spacing-uniformity"].outcome == "fail"
-    assert checks["boundary-layer-cells"].outcome == "fail"
+    # boundary-layer-cells: delta develops from the ceiling (the walls' most upstream point
+    # along the flow direction [0, 0, -1]); the top tenth of the 3.2 m is not graded. The
+    # fewest cells sit on the side walls at the highest graded face centre, the middle of
+    # the 12th of the 13 upper layers: x = 3.2 m - z, delta = 0.37 x Re_x^-1/5 = 14.8 mm,
+    # across 0.4 m wall cells [computed]
+    module = make_mesh_module()
+    z6 = module.z_levels()[module.FLOOR_LAYERS]                      # top of the floor layers
+    step = (module.HEIGHT_M - z6) / module.UPPER_LAYERS
+    x = module.HEIGHT_M - (z6 + 11.5 * step)
+    assert x == pytest.approx(0.3213, abs=1e-4) and x >= 0.1 * module.HEIGHT_M
+    delta = 0.37 * x * (1.5 * x / nu) ** -0.2
+    cells = checks["boundary-layer-cells"]
+    assert cells.measured == pytest.approx(delta / module.CELL_M, rel=1e-6)          # 0.037
+    assert (cells.outcome, cells.severity) == ("fail", "error")
 
 
 def test_demo_findings_locate_the_defects(report):

@@ -14,6 +14,7 @@ and nothing else of caselint (a test holds the built-in rules to that). The kit 
 - :mod:`.regions`: regions of interest and cell sizes;
 - :mod:`.rays`: the rays from the walls, cast once and shared;
 - :mod:`.wallflow` and :mod:`.velocity`: the flow a near-wall or time-step rule assumes;
+- :mod:`.thickness`: the boundary-layer thickness at each wall face;
 - :mod:`.cases`: what the case's physics means (storage location, scale-resolving models);
 - :mod:`.meshview`: points of cells and faces.
 
