@@ -143,19 +143,19 @@ def tet_uniform(folder: Path) -> Sample:
 
 
 def tet_graded(folder: Path) -> Sample:
-    """Optimised tetrahedra graded from 12 mm at the floor to 50 mm, size rate 0.15 per
-    unit length; the band over the floor is a region of interest (judged strictly)."""
+    """Optimised tetrahedra graded from 15 mm at the floor to 50 mm, size rate 0.15 per
+    unit height; the band over the floor is a region of interest (judged strictly)."""
     name = "tet-graded"
     with _gmsh(name) as gmsh:
         _box_channel(gmsh)
-        _graded_up(gmsh, floor=0.012, core=0.012, far=0.05, start=0.0, growth=0.15)
+        _graded_up(gmsh, floor=0.015, core=0.015, far=0.05, start=0.0, growth=0.15)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
     case = _channel_case(folder, name, extra=(
         "regions:\n  - {name: floor-band, box: {min: [0, 0, 0], max: [1.0, 0.4, 0.06]}, "
         "max_cell_size: 25 mm}\n"))
     return Sample(name, case, True,
-                  what="optimised tetrahedra graded 12 to 50 mm from the floor (inviscid)")
+                  what="optimised tetrahedra graded 15 to 50 mm from the floor (inviscid)")
 
 
 def _layered_box(gmsh, *, size: float, core: float, far: float, first: float, ratio: float,
