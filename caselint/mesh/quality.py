@@ -60,7 +60,7 @@ from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.celltypes import CORNERS, CORNERS_2D, EDGES, PYRAMID_TETS
 from caselint.mesh.geometry import chunks, coordinate_columns, cross, fan, size_classes
 # the size ratios live with their sizes; growth_ratio and volume_ratio are face metrics too
-from caselint.mesh.size_ratio import growth_ratio, sizes_across_faces, volume_ratio  # noqa: F401
+from caselint.mesh.size_ratio import growth_ratio, mean_sizes, volume_ratio  # noqa: F401
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
@@ -94,21 +94,7 @@ def non_orthogonality_deg(mesh: "Mesh") -> np.ndarray:
 def skewness(mesh: "Mesh") -> np.ndarray:
     """(F,) distance from the face centroid to where the P-N line crosses the face, over
     the larger of |d| and the cells' mean size across the face; 0 on boundary faces."""
-
-    def compute() -> np.ndarray:
-        skew = _face_metrics(mesh)[1].copy()
-        n = mesh.n_internal
-        own, nbr = sizes_across_faces(mesh)
-        spacing = 0.5 * (own + nbr)
-        d = mesh.cell_centroids[mesh.neighbour[:n]] - mesh.cell_centroids[mesh.owner[:n]]
-        dn = np.sqrt(d[:, 0] * d[:, 0] + d[:, 1] * d[:, 1] + d[:, 2] * d[:, 2])
-        # |x_f - x_i| / |d| becomes |x_f - x_i| / max(|d|, spacing); a link of no length
-        # (coincident centroids) stays degenerate
-        wider = (spacing > dn) & (dn > 0) & (skew[:n] < DEGENERATE)
-        skew[:n] = np.where(wider, skew[:n] * (dn / np.where(wider, spacing, 1.0)), skew[:n])
-        return skew
-
-    return mesh.cached("quality.skewness", compute)
+    return _face_metrics(mesh)[1]
 
 
 def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
@@ -146,7 +132,25 @@ def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
             skew[sl] = np.minimum(val, DEGENERATE)
         return angle, skew
 
-    return mesh.cached("quality.face_metrics", compute)
+    def measured() -> tuple[np.ndarray, np.ndarray]:
+        angle, skew = compute()
+        _over_cell_size(mesh, skew)
+        return angle, skew
+
+    return mesh.cached("quality.face_metrics", measured)
+
+
+def _over_cell_size(mesh: "Mesh", skew: np.ndarray) -> None:
+    """Turn |x_f - x_i| / |d| into |x_f - x_i| / max(|d|, the cells' mean size), in place;
+    a link of no length (coincident centroids) stays degenerate."""
+    n = mesh.n_internal
+    spacing = mean_sizes(mesh)
+    for sl in chunks(n):
+        d = mesh.cell_centroids[mesh.neighbour[sl]] - mesh.cell_centroids[mesh.owner[sl]]
+        dn = np.sqrt(d[:, 0] * d[:, 0] + d[:, 1] * d[:, 1] + d[:, 2] * d[:, 2])
+        s, part = spacing[sl], skew[sl]
+        wider = (s > dn) & (dn > 0) & (part < DEGENERATE)
+        skew[sl] = np.where(wider, part * (dn / np.where(wider, s, 1.0)), part)
 
 
 def face_warp_deg(mesh: "Mesh") -> np.ndarray:

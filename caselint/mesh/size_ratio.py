@@ -90,58 +90,64 @@ def rms_edge_lengths(mesh: "Mesh") -> np.ndarray:
     return mesh.cached("size_ratio.rms_edge_lengths", compute)
 
 
-def sizes_across_faces(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
-    """(I,) sizes (m) of the owner and of the neighbour across each internal face (see
-    the module docstring); 0 where a thickness is not positive."""
+def sizes_across_faces(mesh: "Mesh", faces: slice | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Sizes (m) of the owner and of the neighbour across the internal faces ``faces``
+    (default: all), see the module docstring; 0 where a thickness is not positive. The
+    numpy reference, not kept: the rules read :func:`growth_ratio` and :func:`mean_sizes`."""
+    sl = slice(0, mesh.n_internal) if faces is None else faces
+    iso = rms_edge_lengths(mesh)
+    area = mesh.face_areas[sl]
+    normal = mesh.face_area_vectors[sl] / np.where(area > 0, area, 1.0)[:, None]
+    centre = mesh.face_centroids[sl]
+    sizes = []
+    for cells, sign in ((mesh.owner[sl], -1.0), (mesh.neighbour[sl], 1.0)):
+        pts = mesh.points[cell_point_table(mesh.data, mesh.cell_faces, cells)]
+        rel = pts - centre[:, None, :]
+        # summed x + y + z in that order, as the compiled kernel does
+        dist = (rel[..., 0] * normal[:, None, 0] + rel[..., 1] * normal[:, None, 1]
+                + rel[..., 2] * normal[:, None, 2])
+        thick = np.maximum((sign * dist).max(axis=1), 0.0)
+        size = iso[cells]
+        sizes.append(np.where(np.isnan(size), thick, size))
+    return sizes[0], sizes[1]
+
+
+def _ratios(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
+    """(F,) growth ratio and (I,) mean size of the two cells across each internal face,
+    in one pass over the faces (the sizes themselves are not kept)."""
 
     def compute() -> tuple[np.ndarray, np.ndarray]:
         n = mesh.n_internal
-        iso = rms_edge_lengths(mesh)
+        growth, spacing = np.ones(mesh.n_faces), np.empty(n)
         kernel = compiled("face_checks", mesh.n_cells)
-        own, nbr = np.empty(n), np.empty(n)
         if kernel is not None:
             cf, data = mesh.cell_faces, mesh.data
-            in_threads(lambda p: kernel.sizes_across(
+            iso = rms_edge_lengths(mesh)
+            in_threads(lambda p: kernel.size_ratios(
                 mesh.owner, mesh.neighbour, cf.offsets, cf.faces, data.face_offsets,
                 data.face_points, mesh.points, mesh.face_area_vectors, mesh.face_areas,
-                mesh.face_centroids, iso, p.start, p.stop, own, nbr), n)
-            return own, nbr
+                mesh.face_centroids, iso, p.start, p.stop, growth, spacing), n)
+            return growth, spacing
         for sl in chunks(n):
-            normal = _unit_normals(mesh, sl)
-            centre = mesh.face_centroids[sl]
-            for cells, out, sign in ((mesh.owner[sl], own, -1.0), (mesh.neighbour[sl], nbr, 1.0)):
-                pts = mesh.points[cell_point_table(mesh.data, mesh.cell_faces, cells)]
-                rel = pts - centre[:, None, :]
-                # summed x + y + z in that order, as the compiled kernel does
-                dist = (rel[..., 0] * normal[:, None, 0] + rel[..., 1] * normal[:, None, 1]
-                        + rel[..., 2] * normal[:, None, 2])
-                thick = np.maximum((sign * dist).max(axis=1), 0.0)
-                size = iso[cells]
-                out[sl] = np.where(np.isnan(size), thick, size)
-        return own, nbr
+            own, nbr = sizes_across_faces(mesh, sl)
+            ok = (own > 0) & (nbr > 0)
+            big, small = np.maximum(own, nbr), np.minimum(own, nbr)
+            growth[sl] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
+            spacing[sl] = 0.5 * (own + nbr)
+        return growth, spacing
 
-    return mesh.cached("size_ratio.sizes_across_faces", compute)
-
-
-def _unit_normals(mesh: "Mesh", sl: slice) -> np.ndarray:
-    """Unit normals of the faces ``sl`` (owner to neighbour); 0 on faces of no area."""
-    area = mesh.face_areas[sl]
-    return mesh.face_area_vectors[sl] / np.where(area > 0, area, 1.0)[:, None]
+    return mesh.cached("size_ratio.ratios", compute)
 
 
 def growth_ratio(mesh: "Mesh") -> np.ndarray:
     """(F,) larger over smaller size of a face's two cells across it; 1.0 on boundary
     faces and where a size is not positive."""
+    return _ratios(mesh)[0]
 
-    def compute() -> np.ndarray:
-        out = np.ones(mesh.n_faces)
-        own, nbr = sizes_across_faces(mesh)
-        ok = (own > 0) & (nbr > 0)
-        big, small = np.maximum(own, nbr), np.minimum(own, nbr)
-        out[: mesh.n_internal] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
-        return out
 
-    return mesh.cached("size_ratio.growth_ratio", compute)
+def mean_sizes(mesh: "Mesh") -> np.ndarray:
+    """(I,) mean of the two cells' sizes across each internal face (m)."""
+    return _ratios(mesh)[1]
 
 
 def volume_ratio(mesh: "Mesh") -> np.ndarray:
@@ -161,5 +167,5 @@ def volume_ratio(mesh: "Mesh") -> np.ndarray:
     return mesh.cached("size_ratio.volume_ratio", compute)
 
 
-__all__ = ["ISOTROPIC_SHAPES", "growth_ratio", "rms_edge_lengths", "sizes_across_faces",
-           "volume_ratio"]
+__all__ = ["ISOTROPIC_SHAPES", "growth_ratio", "mean_sizes", "rms_edge_lengths",
+           "sizes_across_faces", "volume_ratio"]

@@ -183,22 +183,26 @@ def cell_closure(owner, neighbour, n_internal, n_cells, area, areas):
 
 
 @jit
-def sizes_across(owner, neighbour, cf_offsets, cf_faces, face_offsets, face_points, points,
-                 area, areas, centroid, iso, lo_face, hi_face, own, nbr):
-    """Sizes of the owner and the neighbour across internal faces ``lo_face`` ..
-    ``hi_face - 1`` into ``own`` and ``nbr``, as
-    :func:`caselint.mesh.size_ratio.sizes_across_faces`: ``iso[c]`` where it is a number
-    (the root-mean-square edge of a tetrahedron, pyramid or triangle), else the cell's
-    thickness normal to the face (its vertices' largest distance from the face's plane)."""
+def size_ratios(owner, neighbour, cf_offsets, cf_faces, face_offsets, face_points, points,
+                area, areas, centroid, iso, lo_face, hi_face, growth, spacing):
+    """Growth ratio (into ``growth``, ones) and mean size (into ``spacing``) of internal
+    faces ``lo_face`` .. ``hi_face - 1``, as :func:`caselint.mesh.size_ratio._ratios`: a
+    cell's size is ``iso[c]`` where that is a number (the root-mean-square edge of a
+    tetrahedron, pyramid or triangle), else its thickness normal to the face (its
+    vertices' largest distance from the face's plane), as
+    :func:`caselint.mesh.size_ratio.sizes_across_faces` measures it."""
     for f in range(lo_face, hi_face):
         a = areas[f]
         scale = a if a > 0 else 1.0
         n0, n1, n2 = area[f, 0] / scale, area[f, 1] / scale, area[f, 2] / scale
         x0, x1, x2 = centroid[f, 0], centroid[f, 1], centroid[f, 2]
-        own[f] = _size(cf_offsets, cf_faces, face_offsets, face_points, points, iso,
-                       owner[f], -1.0, n0, n1, n2, x0, x1, x2)
-        nbr[f] = _size(cf_offsets, cf_faces, face_offsets, face_points, points, iso,
-                       neighbour[f], 1.0, n0, n1, n2, x0, x1, x2)
+        own = _size(cf_offsets, cf_faces, face_offsets, face_points, points, iso,
+                    owner[f], -1.0, n0, n1, n2, x0, x1, x2)
+        nbr = _size(cf_offsets, cf_faces, face_offsets, face_points, points, iso,
+                    neighbour[f], 1.0, n0, n1, n2, x0, x1, x2)
+        if own > 0 and nbr > 0:
+            growth[f] = max(own, nbr) / min(own, nbr)
+        spacing[f] = 0.5 * (own + nbr)
 
 
 @jit(inline="always")
