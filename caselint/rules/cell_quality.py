@@ -195,12 +195,12 @@ CELL_SHAPE = Rule(
     id="cell-shape",
     title="Cell shape (scaled Jacobian)",
     rationale=(
-        "The scaled Jacobian of a cell (Verdict, " + VERDICT + "): 1 for a regular "
+        "The scaled Jacobian of a cell (" + VERDICT + "): 1 for a regular "
         "tetrahedron, a cube or a right prism, falling towards 0 as the cell flattens; a "
         "sliver (a tetrahedron whose four corners lie nearly in one plane) has almost no "
         "volume for its size, and gradients, non-orthogonal corrections and the linear "
         "systems built on it degrade. Measured on meshes made with gmsh [computed]: "
-        "optimised tetrahedra have no cell below 0.145 (lowest 0.145-0.19 on 7k-430k cells, "
+        "optimised tetrahedra have no cell below 0.145 (lowest 0.145-0.19 on 8k-430k cells, "
         "0.1 % of cells below 0.21-0.23), while the same box meshed by Delaunay insertion "
         "without optimisation has cells down to 0.015 (0.18 % below 0.05); hexahedra, "
         "prisms and layer cells stay near 1 whatever their aspect ratio. Warning below "
