@@ -8,9 +8,10 @@ from the mesh-quality rules; a bad one fails on the rule that names its defect.
 
 The good meshes are made as an engineer would make them for the case beside them: meshes
 without wall layers (tetrahedra, extruded quadrilaterals) go with inviscid cases, where no
-boundary layer is to be resolved; the prism-layer and aerofoil meshes carry layers that
-cover the laminar or turbulent boundary layer of their case, grown at 1.2 up to a last
-layer as thick as the core cells above it are big.
+boundary layer is to be resolved; the prism-layer plate strip and the 2-D strut carry
+layers that cover the laminar or turbulent boundary layer of their case, grown at 1.2 (1.18)
+up to a last layer about as thick as the core cells beside it are big. The helpers that
+drive gmsh are in tests/gmsh_cases.py.
 
 Scenarios are invented: a ventilated test channel of the Orrinby Instruments lab (an
 invented company), a fan-cooled heat-sink slot, a wind-tunnel plate insert.
@@ -18,12 +19,16 @@ invented company), a fan-cooled heat-sink slot, a wind-tunnel plate insert.
 
 from __future__ import annotations
 
-import contextlib
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
 import numpy as np
+
+from gmsh_cases import (
+    AIR, box_channel, case_file, channel_case, geometric_ratio, graded_up, grown_from,
+    layered_box, name_box_sides, no_size_from_geometry, plate_case, session,
+)
 
 #: The mesh-quality rules that must stay silent (no warning) on a good mesh.
 QUALITY_RULES = ("inverted-cells", "non-orthogonality", "skewness", "aspect-ratio",
@@ -41,104 +46,19 @@ class Sample:
     what: str = ""              # one line for the corpus table
 
 
-@contextlib.contextmanager
-def _gmsh(name: str):
-    import gmsh
-
-    gmsh.initialize(interruptible=False)
-    try:
-        gmsh.option.setNumber("General.Terminal", 0)
-        gmsh.option.setNumber("General.NumThreads", 1)
-        gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
-        gmsh.option.setNumber("Mesh.RandomSeed", 1)
-        gmsh.model.add(name)
-        yield gmsh
-    finally:
-        gmsh.finalize()
-
-
-def _name_box_sides(gmsh, lo, hi, names: dict[str, str], dim: int = 2) -> None:
-    """Physical groups of the boundary entities on each side of the box [lo, hi]; sides
-    map to group names (several sides may share one); entities elsewhere go to 'walls'."""
-    tol = 1e-6 * max(h - l for l, h in zip(lo, hi))
-    groups: dict[str, list[int]] = {}
-    for _, tag in gmsh.model.getEntities(dim):
-        box = gmsh.model.getBoundingBox(dim, tag)
-        emin, emax = np.array(box[:3]), np.array(box[3:])
-        side = "walls"
-        for axis, label in enumerate("xyz"[: len(lo)]):
-            for end, value in (("min", lo[axis]), ("max", hi[axis])):
-                if abs(emin[axis] - value) < tol and abs(emax[axis] - value) < tol:
-                    side = names.get(f"{label}{end}", "walls")
-        groups.setdefault(side, []).append(tag)
-    for group, tags in sorted(groups.items()):
-        gmsh.model.addPhysicalGroup(dim, tags, name=group)
-
-
-def _no_size_from_geometry(gmsh) -> None:
-    """Sizes from the background field only (not from points, curvature or boundaries)."""
-    for key in ("MeshSizeFromPoints", "MeshSizeFromCurvature", "MeshSizeExtendFromBoundary"):
-        gmsh.option.setNumber(f"Mesh.{key}", 0)
-
-
-def _graded_up(gmsh, *, floor: float, core: float, far: float, start: float,
-               growth: float) -> None:
-    """Background size ``floor`` on the floor z = 0, ``core`` at height ``start`` growing
-    by ``growth`` per unit height up to ``far`` (a gmsh MathEval field of z itself: a
-    Distance field samples the floor at points and overestimates the height between them)."""
-    field = gmsh.model.mesh.field
-    size = field.add("MathEval")
-    # max(..., floor - 1e3 z): the floor's own size at z = 0, gone within a millimetre
-    field.setString(size, "F", f"min({far:.9f}, max({core:.9f} + {growth:.9f} * (z - {start:.9f}), "
-                               f"{floor:.9f} - 1000 * z))")
-    field.setAsBackgroundMesh(size)
-    _no_size_from_geometry(gmsh)
-
-
-def _case(folder: Path, name: str, body: str) -> Path:
-    case = folder / f"{name}.yaml"
-    case.write_text(f"caselint: 1\ncase: {{name: {name}, safety: none}}\n{body}")
-    return case
-
-
-_AIR = """  fluid: {density: 1.2 kg/m^3, viscosity: 1.8e-5 Pa*s}
-"""
-#: Euler flow: what a mesh without wall layers is made for (no boundary layer to resolve).
-_INVISCID = "  turbulence: {model: inviscid}\n"
-
-
-def _channel_case(folder: Path, name: str, extra_bounds: str = "", physics: str = _INVISCID,
-                  extra: str = "") -> Path:
-    return _case(folder, name, f"""mesh:
-  file: {name}.msh
-  boundaries: {{inlet: inlet, outlet: outlet, walls: wall{extra_bounds}}}
-physics:
-{_AIR}{physics}time: {{mode: steady}}
-{extra}checks: {{rule_sets: [general]}}
-""")
-
-
-def _box_channel(gmsh, length: float = 1.0, side: float = 0.4) -> None:
-    """A channel box with groups inlet (x = 0), outlet (x = length), walls, air."""
-    gmsh.model.occ.addBox(0, 0, 0, length, side, side)
-    gmsh.model.occ.synchronize()
-    _name_box_sides(gmsh, (0, 0, 0), (length, side, side), {"xmin": "inlet", "xmax": "outlet"})
-    gmsh.model.addPhysicalGroup(3, [1], name="air")
-
-
 # -- good meshes ------------------------------------------------------------------------------
 
 
 def tet_uniform(folder: Path) -> Sample:
     """Optimised tetrahedra of one target size in a 1 m x 0.4 m x 0.4 m channel."""
     name = "tet-uniform"
-    with _gmsh(name) as gmsh:
-        _box_channel(gmsh)
+    with session(name) as gmsh:
+        box_channel(gmsh)
         gmsh.option.setNumber("Mesh.MeshSizeMin", 0.035)
         gmsh.option.setNumber("Mesh.MeshSizeMax", 0.035)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _channel_case(folder, name)
+    case = channel_case(folder, name)
     return Sample(name, case, True, what="optimised tetrahedra of one size (inviscid channel)")
 
 
@@ -146,62 +66,16 @@ def tet_graded(folder: Path) -> Sample:
     """Optimised tetrahedra graded from 15 mm at the floor to 50 mm, size rate 0.15 per
     unit height; the band over the floor is a region of interest (judged strictly)."""
     name = "tet-graded"
-    with _gmsh(name) as gmsh:
-        _box_channel(gmsh)
-        _graded_up(gmsh, floor=0.015, core=0.015, far=0.05, start=0.0, growth=0.15)
+    with session(name) as gmsh:
+        box_channel(gmsh)
+        graded_up(gmsh, floor=0.015, core=0.015, far=0.05, start=0.0, growth=0.15)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _channel_case(folder, name, extra=(
+    case = channel_case(folder, name, extra=(
         "regions:\n  - {name: floor-band, box: {min: [0, 0, 0], max: [1.0, 0.4, 0.06]}, "
         "max_cell_size: 25 mm}\n"))
     return Sample(name, case, True,
                   what="optimised tetrahedra graded 15 to 50 mm from the floor (inviscid)")
-
-
-def _layered_box(gmsh, *, size: float, core: float, far: float, first: float, ratio: float,
-                 n: int, length: float = 0.15, width: float = 0.01, height: float = 0.04,
-                 growth: float = 0.15) -> None:
-    """A strip of a test plate: the floor, meshed with triangles of ``size``, carries
-    ``n`` prism layers (first height ``first``, growing by ``ratio``) under tetrahedra of
-    ``core`` at the layer top, growing by ``growth`` per unit height to ``far``; groups
-    inlet, outlet, floor, sides (the two side planes and the top), air."""
-    geo = gmsh.model.geo
-    corners = ((0, 0), (length, 0), (length, width), (0, width))
-    pts = [geo.addPoint(x, y, 0, size) for x, y in corners]
-    lines = [geo.addLine(pts[i], pts[(i + 1) % 4]) for i in range(4)]
-    floor = geo.addPlaneSurface([geo.addCurveLoop(lines)])
-    tops = np.cumsum(first * ratio ** np.arange(n))
-    layers = geo.extrude([(2, floor)], 0, 0, float(tops[-1]), numElements=[1] * n,
-                         heights=list(tops / tops[-1]), recombine=True)
-    # the core: the layer top extruded without layers is meshed with tetrahedra
-    above = geo.extrude([layers[0]], 0, 0, height - float(tops[-1]))
-    geo.synchronize()
-    groups: dict[str, list[int]] = {"inlet": [], "outlet": [], "sides": [above[0][1]]}
-    for _, tag in layers[2:] + above[2:]:
-        box = gmsh.model.getBoundingBox(2, tag)
-        key = "inlet" if box[3] < 1e-9 else "outlet" if box[0] > length - 1e-9 else "sides"
-        groups[key].append(tag)
-    for group, tags in groups.items():
-        gmsh.model.addPhysicalGroup(2, tags, name=group)
-    gmsh.model.addPhysicalGroup(2, [floor], name="floor")
-    gmsh.model.addPhysicalGroup(3, [layers[1][1], above[1][1]], name="air")
-    _graded_up(gmsh, floor=size, core=core, far=far, start=float(tops[-1]), growth=growth)
-
-
-#: The laminar plate strip: 1 m/s in air over 0.15 m, Re_L = 1e4, Blasius delta99(L) =
-#: 5 L / sqrt(Re_L) = 7.5 mm.
-_PLATE = ("  flow: {kind: external, velocity: 1 m/s, direction: [1, 0, 0], length: 0.15 m}\n"
-          "  turbulence: {model: laminar}\n")
-
-
-def _plate_case(folder: Path, name: str) -> Path:
-    return _case(folder, name, f"""mesh:
-  file: {name}.msh
-  boundaries: {{inlet: inlet, outlet: outlet, floor: wall, sides: symmetry}}
-physics:
-{_AIR}{_PLATE}time: {{mode: steady}}
-checks: {{rule_sets: [general]}}
-""")
 
 
 def prism_tet(folder: Path) -> Sample:
@@ -210,12 +84,12 @@ def prism_tet(folder: Path) -> Sample:
     2.1 mm (the last layer is about as thick as the prisms are wide), under tetrahedra of
     1.4 mm just above the layers growing by 0.12 per unit height to 8 mm."""
     name = "prism-tet"
-    with _gmsh(name) as gmsh:
-        _layered_box(gmsh, size=0.0021, core=0.0014, far=0.008, first=1.355e-4, ratio=1.2,
+    with session(name) as gmsh:
+        layered_box(gmsh, size=0.0021, core=0.0014, far=0.008, first=1.355e-4, ratio=1.2,
                      n=14, growth=0.12)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    return Sample(name, _plate_case(folder, name), True,
+    return Sample(name, plate_case(folder, name), True,
                   what="14 prism layers at 1.2 under tetrahedra (laminar plate, Re 1e4)")
 
 
@@ -231,7 +105,7 @@ def strut_2d(folder: Path) -> Sample:
     round a thin section's nose it widens the outer layers to three times the triangles
     next to them; a blunt elliptic nose and tail are what it meshes cleanly."""
     name = "strut-2d"
-    with _gmsh(name) as gmsh:
+    with session(name) as gmsh:
         geo = gmsh.model.geo
         chord, b, n = 0.2, 0.02, 120
         theta = np.linspace(0.0, np.pi, n)           # nodes close where the ends curve
@@ -256,23 +130,23 @@ def strut_2d(folder: Path) -> Sample:
         for key, value in (("Size", 5e-5), ("Ratio", 1.18), ("Thickness", 9e-3), ("Quads", 1)):
             field.setNumber(layer, key, value)
         field.setAsBoundaryLayer(layer)
-        sizes = [_grown_from(gmsh, "CurvesList", curves, 1.5e-3),
-                 _grown_from(gmsh, "PointsList", [upper[0], upper[-1]], 7e-4)]
+        sizes = [grown_from(gmsh, "CurvesList", curves, 1.5e-3),
+                 grown_from(gmsh, "PointsList", [upper[0], upper[-1]], 7e-4)]
         smallest = field.add("Min")
         field.setNumbers(smallest, "FieldsList", sizes)
         field.setAsBackgroundMesh(smallest)
-        _no_size_from_geometry(gmsh)
+        no_size_from_geometry(gmsh)
         for group, tags in (("inlet", [walls[3]]), ("outlet", [walls[1]]),
                             ("walls", [walls[0], walls[2]]), ("strut", curves)):
             gmsh.model.addPhysicalGroup(1, tags, name=group)
         gmsh.model.addPhysicalGroup(2, [air], name="air")
         gmsh.model.mesh.generate(2)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _case(folder, name, f"""mesh:
+    case = case_file(folder, name, f"""mesh:
   file: {name}.msh
   boundaries: {{inlet: inlet, outlet: outlet, walls: symmetry, strut: wall}}
 physics:
-{_AIR}  flow: {{kind: external, velocity: 5 m/s, direction: [1, 0, 0], length: 0.2 m}}
+{AIR}  flow: {{kind: external, velocity: 5 m/s, direction: [1, 0, 0], length: 0.2 m}}
   turbulence: {{model: k-omega-sst, wall_treatment: resolved}}
 time: {{mode: steady}}
 checks: {{rule_sets: [general]}}
@@ -282,27 +156,11 @@ checks: {{rule_sets: [general]}}
                        "triangles outside")
 
 
-def _grown_from(gmsh, kind: str, tags: list[int], size: float, growth: float = 0.1,
-                far: float = 0.03) -> int:
-    """A size field: ``size`` at the curves or points ``tags`` (``kind`` CurvesList or
-    PointsList), growing by ``growth`` per unit distance up to ``far``."""
-    field = gmsh.model.mesh.field
-    dist = field.add("Distance")
-    field.setNumbers(dist, kind, tags)
-    field.setNumber(dist, "Sampling", 2000)
-    thr = field.add("Threshold")
-    field.setNumber(thr, "InField", dist)
-    for key, value in (("SizeMin", size), ("SizeMax", far), ("DistMin", 0.0),
-                       ("DistMax", (far - size) / growth)):
-        field.setNumber(thr, key, value)
-    return thr
-
-
 def hex_dominant(folder: Path) -> Sample:
     """A quadrilateral floor mesh (recombined, 10 mm at a round post to 30 mm) extruded
     in ten layers: unstructured hexahedra, for an inviscid channel flow round the post."""
     name = "hex-dominant"
-    with _gmsh(name) as gmsh:
+    with session(name) as gmsh:
         geo = gmsh.model.geo
         pts = [geo.addPoint(x, y, 0, 0.03) for x, y in ((0, 0), (1, 0), (1, 0.4), (0, 0.4))]
         hole = [geo.addPoint(0.5 + 0.06 * np.cos(a), 0.2 + 0.06 * np.sin(a), 0, 0.01)
@@ -325,7 +183,7 @@ def hex_dominant(folder: Path) -> Sample:
         gmsh.model.addPhysicalGroup(3, [out[1][1]], name="air")
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _channel_case(folder, name, ", post: wall")
+    case = channel_case(folder, name, ", post: wall")
     return Sample(name, case, True,
                   what="extruded recombined quadrilaterals round a post (inviscid)")
 
@@ -338,7 +196,7 @@ def size_jump(folder: Path) -> Sample:
     x = 0.72 m and 20 mm after it: a 4x jump at one plane. A size field cannot make the
     jump: gmsh smooths it (an 80 to 20 mm field on tetrahedra gives 2.19 at worst)."""
     name = "size-jump"
-    with _gmsh(name) as gmsh:
+    with session(name) as gmsh:
         geo = gmsh.model.geo
         pts = [geo.addPoint(0, y, z) for y, z in ((0, 0), (0.4, 0), (0.4, 0.4), (0, 0.4))]
         lines = [geo.addLine(pts[i], pts[(i + 1) % 4]) for i in range(4)]
@@ -356,7 +214,7 @@ def size_jump(folder: Path) -> Sample:
         gmsh.model.addPhysicalGroup(3, [coarse[1][1], fine[1][1]], name="air")
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _channel_case(folder, name)
+    case = channel_case(folder, name)
     return Sample(name, case, False, "growth-ratio",
                   "structured hexahedra jumping from 80 to 20 mm along the flow (inviscid)")
 
@@ -365,12 +223,12 @@ def layer_growth(folder: Path) -> Sample:
     """The prism-tet plate strip with seven layers growing by 1.6 (common practice: at
     most about 1.2-1.3)."""
     name = "layer-growth-1.6"
-    with _gmsh(name) as gmsh:
-        _layered_box(gmsh, size=0.0021, core=0.0014, far=0.008, first=2e-4, ratio=1.6, n=7,
+    with session(name) as gmsh:
+        layered_box(gmsh, size=0.0021, core=0.0014, far=0.008, first=2e-4, ratio=1.6, n=7,
                      growth=0.12)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    return Sample(name, _plate_case(folder, name), False, "layer-growth",
+    return Sample(name, plate_case(folder, name), False, "layer-growth",
                   "prism layers growing by 1.6 (laminar plate)")
 
 
@@ -378,7 +236,7 @@ def uneven_first_layer(folder: Path) -> Sample:
     """A 2-D channel of structured quadrilaterals (transfinite) whose first cell over the
     floor is 0.5 mm at the inlet and 2.5 mm at the outlet: 5x along the wall."""
     name = "uneven-first-layer"
-    with _gmsh(name) as gmsh:
+    with session(name) as gmsh:
         geo = gmsh.model.geo
         length, height, n_up = 1.0, 0.1, 25
         pts = [geo.addPoint(x, y, 0) for x, y in ((0, 0), (length, 0), (length, height),
@@ -390,8 +248,10 @@ def uneven_first_layer(folder: Path) -> Sample:
         mesh.setTransfiniteCurve(floor, 81)
         mesh.setTransfiniteCurve(top, 81)
         # geometric spacing up the inlet (first 0.5 mm) and the outlet (first 2.5 mm)
-        mesh.setTransfiniteCurve(left, n_up + 1, "Progression", -_ratio(5e-4, height, n_up))
-        mesh.setTransfiniteCurve(right, n_up + 1, "Progression", _ratio(2.5e-3, height, n_up))
+        inlet_ratio = geometric_ratio(5e-4, height, n_up)
+        outlet_ratio = geometric_ratio(2.5e-3, height, n_up)
+        mesh.setTransfiniteCurve(left, n_up + 1, "Progression", -inlet_ratio)
+        mesh.setTransfiniteCurve(right, n_up + 1, "Progression", outlet_ratio)
         mesh.setTransfiniteSurface(surface)
         mesh.setRecombine(2, surface)
         for group, tags in (("inlet", [left]), ("outlet", [right]), ("floor", [floor]),
@@ -400,30 +260,18 @@ def uneven_first_layer(folder: Path) -> Sample:
         gmsh.model.addPhysicalGroup(2, [surface], name="air")
         gmsh.model.mesh.generate(2)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _channel_case(folder, name, ", floor: wall", physics=(
+    case = channel_case(folder, name, ", floor: wall", physics=(
         "  flow: {kind: external, velocity: 3 m/s, direction: [1, 0, 0], length: 1 m}\n"
         "  turbulence: {model: k-omega-sst, wall_treatment: wall-function}\n"))
     return Sample(name, case, False, "wall-spacing-uniformity",
                   "2-D quadrilaterals, first cell 0.5 mm at the inlet, 2.5 mm at the outlet")
 
 
-def _ratio(first: float, total: float, n: int) -> float:
-    """The growth ratio r of ``n`` cells from ``first`` summing to ``total`` (bisection)."""
-    lo, hi = 1.0 + 1e-9, 3.0
-    for _ in range(200):
-        mid = 0.5 * (lo + hi)
-        if first * (mid ** n - 1) / (mid - 1) > total:
-            hi = mid
-        else:
-            lo = mid
-    return 0.5 * (lo + hi)
-
-
 def slivers(folder: Path) -> Sample:
     """Delaunay tetrahedra with every optimisation off: flat slivers among them."""
     name = "slivers"
-    with _gmsh(name) as gmsh:
-        _box_channel(gmsh)
+    with session(name) as gmsh:
+        box_channel(gmsh)
         gmsh.option.setNumber("Mesh.MeshSizeMin", 0.05)
         gmsh.option.setNumber("Mesh.MeshSizeMax", 0.05)
         gmsh.option.setNumber("Mesh.Algorithm3D", 1)
@@ -431,7 +279,7 @@ def slivers(folder: Path) -> Sample:
         gmsh.option.setNumber("Mesh.OptimizeNetgen", 0)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _channel_case(folder, name)
+    case = channel_case(folder, name)
     return Sample(name, case, False, "cell-shape",
                   "unoptimised Delaunay tetrahedra, slivers among them (inviscid)")
 
@@ -440,20 +288,20 @@ def narrow_gap(folder: Path) -> Sample:
     """A 10 mm slot between two heat-sink fins meshed with 8 mm tetrahedra: about two
     cells across it."""
     name = "narrow-gap"
-    with _gmsh(name) as gmsh:
+    with session(name) as gmsh:
         occ = gmsh.model.occ
         box = occ.addBox(0, 0, 0, 0.2, 0.1, 0.05)
         fin_a = occ.addBox(0.05, 0.0, 0.0, 0.04, 0.07, 0.05)
         fin_b = occ.addBox(0.10, 0.0, 0.0, 0.04, 0.07, 0.05)
         occ.cut([(3, box)], [(3, fin_a), (3, fin_b)])
         occ.synchronize()
-        _name_box_sides(gmsh, (0, 0, 0), (0.2, 0.1, 0.05), {"xmin": "inlet", "xmax": "outlet"})
+        name_box_sides(gmsh, (0, 0, 0), (0.2, 0.1, 0.05), {"xmin": "inlet", "xmax": "outlet"})
         gmsh.model.addPhysicalGroup(3, [t for _, t in gmsh.model.getEntities(3)], name="air")
         gmsh.option.setNumber("Mesh.MeshSizeMin", 0.008)
         gmsh.option.setNumber("Mesh.MeshSizeMax", 0.008)
         gmsh.model.mesh.generate(3)
         gmsh.write(str(folder / f"{name}.msh"))
-    case = _channel_case(folder, name)
+    case = channel_case(folder, name)
     return Sample(name, case, False, "gap-cells",
                   "a 10 mm slot between fins meshed with about 2 cells (inviscid)")
 

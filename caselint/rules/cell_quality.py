@@ -207,8 +207,9 @@ CELL_SHAPE = Rule(
         "0.1, error below 0.05: caselint defaults set under every optimised mesh measured "
         "and above the slivers an optimiser removes. Verdict's tabulated acceptable range "
         "for tetrahedra, 0.5 to 1, is not calibrated for meshes a mesher makes: it puts "
-        "19-25 % of the cells of those optimised meshes outside it. A sliver spoils the solution wherever "
-        "it sits, so elsewhere the error limit stays (grade elsewhere). Cells with a scaled "
+        "19-25 % of the cells of those optimised meshes outside it. A sliver spoils the "
+        "solution wherever it sits, so elsewhere the error limit stays (grade elsewhere). "
+        "Cells with a scaled "
         "Jacobian of 0 or less are inverted-cells' business; general polyhedra are counted "
         "as not measured." + places_words("cells").replace("beyond", "below")
     ),
