@@ -38,6 +38,7 @@ from caselint.mesh.quality import (
     skewness,
 )
 from caselint.mesh.refined import refined_block
+from caselint.mesh.size_ratio import mean_sizes, volume_ratio
 from caselint.rules.mesh_integrity import (
     cell_closure,
     cell_pieces,
@@ -124,6 +125,8 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
     out["angle:face_warp"] = face_warp_deg(mesh)
     out["closure"] = cell_closure(mesh)
     out["growth"] = growth_ratio(mesh)
+    out["mean_sizes"] = mean_sizes(mesh)
+    out["volume_ratio"] = volume_ratio(mesh)
     out["scaled_jacobian"] = scaled_jacobian(mesh)
     out["min_corner_jacobian"] = min_corner_jacobian(mesh)
     out["edge_ratio"] = edge_ratio(mesh)

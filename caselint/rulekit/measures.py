@@ -86,21 +86,24 @@ def face_measurement(mesh: "Mesh", values: np.ndarray, faces: np.ndarray | None,
 
 
 def cell_measurement(mesh: "Mesh", values: np.ndarray, cells: np.ndarray | None,
-                     limits: Limits, fmt: str) -> Measurement:
-    """The largest of a cell metric ``values`` (C,) over ``cells`` (None: all), with the
-    cells past the first limit counted and the worst located (ties: lowest file id)."""
+                     limits: Limits, fmt: str, worse: str = "higher") -> Measurement:
+    """The worst (largest, or smallest when ``worse`` is ``lower``) of a cell metric
+    ``values`` (C,) over ``cells`` (None: all), with the cells past the first limit
+    counted and the worst located (ties: lowest file id)."""
     considered = values if cells is None else values[cells]
     names = mesh.file_cell_ids() if cells is None else mesh.file_cell_ids(cells)
     threshold = first_limit(limits)
-    local, count = worst_ids(considered, threshold, names=names)
+    local, count = worst_ids(considered, threshold, worse, names=names)
     listed = local if cells is None else cells[local]
     worst = int(listed[0])
     name = int(mesh.file_cell_ids(worst))
+    past, extreme = ("above", "largest") if worse == "higher" else ("below", "lowest")
     if count:
-        detail = (f"{plural(count, 'cell')} above {threshold:g}, "
+        detail = (f"{plural(count, 'cell')} {past} {threshold:g}, "
                   f"worst cell {name} ({format(values[worst], fmt)})")
     else:
-        detail = f"no cell above the limit; largest {format(values[worst], fmt)} in cell {name}"
+        detail = (f"no cell {past} the limit; {extreme} {format(values[worst], fmt)} in "
+                  f"cell {name}")
     where = Where(cells=cell_names(mesh, listed) if count else (), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
     return Measurement(value=float(values[worst]), where=where, detail=detail)
@@ -120,7 +123,7 @@ def face_extent(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None
 
 
 def cell_extent(ctx: "RuleContext", values: np.ndarray, fmt: str,
-                cells: np.ndarray | None = None) -> Extent:
+                cells: np.ndarray | None = None, worse: str = "higher") -> Extent:
     """The cell metric ``values`` (C,) over ``cells`` (None: all), each cell with its place."""
     mesh = ctx.mesh
     places = cell_places(ctx)
@@ -128,7 +131,7 @@ def cell_extent(ctx: "RuleContext", values: np.ndarray, fmt: str,
     return Extent(values=values if cells is None else values[cells],
                   places=places if cells is None else places[cells], entity="cell",
                   measure=lambda subset, limits: cell_measurement(mesh, values, chosen[subset],
-                                                                  limits, fmt))
+                                                                  limits, fmt, worse))
 
 
 def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: float = 1.0,
