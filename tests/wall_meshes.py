@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from calibration import _gmsh          # gmsh started quietly, single-threaded, seeded
+from gmsh_cases import session as _gmsh   # gmsh started quietly, single-threaded, seeded
 
 
 def _grade_towards(gmsh, key: str, tags: list[int], wall_size: float, far_size: float,
