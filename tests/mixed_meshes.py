@@ -271,6 +271,50 @@ class Column(NamedTuple):
     options: dict = {}
 
 
+_VTK_NAMES = {10: "tetra", 12: "hexahedron", 13: "wedge", 14: "pyramid"}
+_SIDE_ROLES = {"xmin": "inlet", "xmax": "outlet", "ymin": "wall", "ymax": "wall",
+               "zmin": "wall", "zmax": "wall"}
+
+
+def element_mesh(m: MixedMesh):
+    """The element-only mesh as the SU2/CGNS writers take it (blocks by type, boundary
+    triangles and quadrilaterals by side)."""
+    from mixed_mesh import ElementMesh
+
+    blocks: dict[str, list] = {}
+    for kind, nodes in m.cells:
+        blocks.setdefault(_VTK_NAMES[kind], []).append(nodes)
+    data = m.data
+    faces = np.arange(data.n_internal, data.n_faces)
+    boundary: dict[tuple[str, str], list] = {}
+    for f in faces:
+        pts = data.face_points[data.face_offsets[f]:data.face_offsets[f + 1]]
+        kind = "triangle" if len(pts) == 3 else "quad"
+        side = data.group_names[data.face_group[f]]
+        boundary.setdefault((kind, side), []).append(pts)
+    return ElementMesh(
+        data.points, [(t, np.array(c)) for t, c in sorted(blocks.items())],
+        [(t, np.array(c), side) for (t, side), c in sorted(boundary.items())])
+
+
+def _other_format(kind: str):
+    """A writer of the SU2, face-based .msh or CGNS layouts (tests/format_writers.py)."""
+    from cgns_writer import write_cgns_elements, write_cgns_ngon
+    from format_writers import write_face_msh, write_su2
+
+    def write(m: MixedMesh, p: Path) -> Path:
+        if kind == "su2":
+            return write_su2(element_mesh(m), p.with_suffix(".su2"))
+        if kind.startswith("msh"):
+            return write_face_msh(m.data, p.with_suffix(".msh"), roles=_SIDE_ROLES,
+                                  binary=kind.endswith("binary"))
+        if kind == "cgns-ngon":
+            return write_cgns_ngon(m.data, p.with_suffix(".cgns"))
+        return write_cgns_elements(element_mesh(m), p.with_suffix(".cgns"),
+                                   mixed=kind == "cgns-mixed")
+    return write
+
+
 #: Every format caselint reads that can hold the test meshes. VTK writes version 0.1 VTU
 #: and legacy files without polyhedra, which go to meshio (with meshio's wedge order):
 #: those columns hold the mixed mesh only.
@@ -293,4 +337,10 @@ WRITERS: list[Column] = [
            lambda m, p: write_legacy_vtk(m, p.with_suffix(".vtk"), False, 42)),
     Column("vtu elements via meshio", ("elements",),
            lambda m, p: write_meshio_vtu(m, p.with_suffix(".vtu")), MESHIO_TAGS),
+    Column("su2", ("elements",), _other_format("su2")),
+    Column("cgns sections", ("elements",), _other_format("cgns-sections")),
+    Column("cgns mixed", ("elements",), _other_format("cgns-mixed")),
+    Column("cgns ngon/nface", BOTH, _other_format("cgns-ngon")),
+    Column("face .msh ascii", BOTH, _other_format("msh-ascii")),
+    Column("face .msh binary", BOTH, _other_format("msh-binary")),
 ]

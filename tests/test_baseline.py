@@ -82,7 +82,7 @@ def test_bad_baseline_files_are_usage_errors_naming_the_file(tmp_path, content, 
 
 def test_command_line_write_then_apply(tmp_path, review_formats):  # noqa: F811
     jump = write_case(tmp_path, write_block_mesh(tmp_path / "jump.msh",
-                                                 xs=[0.0, 0.1, 0.2, 0.45]))
+                                                 xs=[0.0, 0.1, 0.2, 0.6]))
     baseline = tmp_path / "known.json"
     code, _, err = run_cli("check", *TEST_SET, str(jump), "--write-baseline", str(baseline))
     assert code == 1          # writing a baseline does not hide anything in the same run

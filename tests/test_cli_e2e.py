@@ -3,7 +3,7 @@
 The meshes are axis-aligned hexahedral blocks written with meshio, so the expected values
 are known by hand: faces are orthogonal (non-orthogonality 0 deg), and the growth ratio
 between two neighbouring cells is the ratio of their x spacings (the y and z spacings are
-equal), e.g. 0.25 m / 0.1 m = 2.5.
+equal), e.g. 0.4 m / 0.1 m = 4.
 """
 
 from __future__ import annotations
@@ -88,8 +88,8 @@ def uniform_case(tmp_path):
 
 @pytest.fixture
 def jump_case(tmp_path):
-    # x spacings 0.1, 0.1, 0.25 m: the last pair of cells jumps by 2.5 in volume.
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    # x spacings 0.1, 0.1, 0.4 m: the last pair of cells jumps by 4 in size.
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     return write_case(tmp_path, mesh, name="Invented duct with a jump")
 
 
@@ -118,14 +118,14 @@ def test_growth_jump_fails_with_the_measured_ratio(jump_case):
     assert Draft202012Validator(report_schema()).is_valid(document)
     growth = _checks(document)["growth-ratio"]
     assert (growth["outcome"], growth["severity"]) == ("fail", "error")
-    assert growth["measured"] == pytest.approx(2.5, rel=1e-9)  # 0.25 m / 0.1 m
-    assert growth["limit"] == 2.0
+    assert growth["measured"] == pytest.approx(4.0, rel=1e-9)  # 0.4 m / 0.1 m
+    assert growth["limit"] == 3.0
     findings = [f for f in document["cases"][0]["findings"] if f["rule"] == "growth-ratio"]
     assert findings and findings[0]["severity"] == "error"
-    assert findings[0]["measured"] == pytest.approx(2.5, rel=1e-9)
+    assert findings[0]["measured"] == pytest.approx(4.0, rel=1e-9)
     code, text, _ = run_cli("check", str(jump_case))
     assert code == 1
-    assert "2.5" in text and "Invented duct with a jump" in text
+    assert " 4 " in text and "Invented duct with a jump" in text
     assert text.splitlines()[-1].endswith("worst severity: error (fail level: error)")
 
 

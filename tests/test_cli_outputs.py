@@ -47,7 +47,7 @@ def cases_tree(tmp_path):
     """cases/{a,b/deep}/case.yaml, a named *.caselint.yaml, plus files that are not cases."""
     root = tmp_path / "cases"
     paths = {}
-    for rel, xs in (("b/deep", [0.0, 0.1, 0.2, 0.45]), ("a", [0.0, 0.1, 0.2, 0.3])):
+    for rel, xs in (("b/deep", [0.0, 0.1, 0.2, 0.6]), ("a", [0.0, 0.1, 0.2, 0.3])):
         folder = root / rel
         folder.mkdir(parents=True)
         case = write_case(folder, write_block_mesh(folder / "m.msh", xs=xs))

@@ -38,13 +38,14 @@ from caselint.mesh.quality import (
     skewness,
 )
 from caselint.mesh.refined import refined_block
+from caselint.mesh.size_ratio import mean_sizes, volume_ratio
 from caselint.rules.mesh_integrity import (
     cell_closure,
     cell_pieces,
     coincident_points,
     short_faces,
 )
-from near_wall_meshes import prism_block
+from near_wall_meshes import prism_block, stack
 from regression_meshes import MESHES, _perturbed
 
 numba = pytest.importorskip("numba")
@@ -92,6 +93,10 @@ SOURCES = {
                                 seed=6),
     "triangle-2d": lambda: MESHES()["triangle"],
     "damaged": _damaged,
+    # layers growing by 1.2, a jump into a block of one height, then shrinking layers
+    "layer-block": lambda: shuffled(_perturbed(structured_hex(
+        np.linspace(0, 0.4, 5), np.linspace(0, 0.3, 4),
+        stack([0.01, 0.012, 0.0144, 0.03, 0.03, 0.03, 0.0144, 0.012, 0.01])), 0.0005, 5), seed=9),
     "mixed": lambda: MESHES()["mixed"],
 }
 
@@ -120,6 +125,8 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
     out["angle:face_warp"] = face_warp_deg(mesh)
     out["closure"] = cell_closure(mesh)
     out["growth"] = growth_ratio(mesh)
+    out["mean_sizes"] = mean_sizes(mesh)
+    out["volume_ratio"] = volume_ratio(mesh)
     out["scaled_jacobian"] = scaled_jacobian(mesh)
     out["min_corner_jacobian"] = min_corner_jacobian(mesh)
     out["edge_ratio"] = edge_ratio(mesh)
@@ -136,6 +143,12 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
         hits = rays.march(mesh, boundary, wall)
         for f in ("hit_face", "status", "width", "cells"):
             out[f"rays.{f}"] = getattr(hits, f)
+        # distances from none to past the far side, so that rays stop inside cells, on
+        # faces and on the boundary
+        limits = np.concatenate([[0.0, np.inf], np.linspace(0.01, 1.5, boundary.size - 2)])
+        within = rays.cells_within(mesh, boundary, limits)
+        for f in ("cells", "reached", "short"):
+            out[f"within.{f}"] = getattr(within, f)
         for reach in (0.0, math.inf):
             layers = wall_layers.wall_layers(mesh, boundary, reach_m=reach)
             for f in dataclasses.fields(layers):
@@ -175,6 +188,14 @@ def test_the_meshes_exercise_what_the_kernels_handle(monkeypatch):
     prism = _analyse("prism-tet", "numpy", monkeypatch)
     assert len(set(prism["layers0.0.end"].tolist())) >= 2
     assert prism["layers0.0.n_layers"].max() == 3
+    ends = set(_analyse("layer-block", "numpy", monkeypatch)["layers0.0.end"].tolist())
+    ends |= set(_analyse("hex", "numpy", monkeypatch)["layers0.0.end"].tolist())
+    assert {wall_layers.END_CORE, wall_layers.END_SHRINK, wall_layers.END_MIDDLE} <= ends
+    for name in ("hex", "tet", "polyhedra"):
+        within = _analyse(name, "numpy", monkeypatch)
+        short, cells = within["within.short"], within["within.cells"]
+        assert short.any() and not short.all()          # some rays end on the far side
+        assert np.any(cells % 1 > 0)                    # partial cells at the limit
 
 
 def test_mode_comes_from_the_environment(monkeypatch):

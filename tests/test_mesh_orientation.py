@@ -129,3 +129,15 @@ def test_a_few_inverted_cells_stay_findings_in_either_order(tmp_path, mirrored):
                       "right-hand normal of triangle (0, 1, 2) pointing away from (3, 4, 5)); "
                       "all 24 read in the other order; 2 of them are inverted in that order",)
                      if mirrored else ())
+
+
+def test_the_reports_say_what_reading_changed(tmp_path):
+    """The reader's note on a mirrored block reaches the report (rule mesh-reading)."""
+    path = vtu(tmp_path, "box.vtu", mixed_box(mirrored=True))
+    code, document, err = check(write_case(tmp_path, path))
+    checks = {c["rule"]: c for c in document["cases"][0]["checks"]}
+    assert checks["mesh-reading"]["outcome"] == "pass"
+    assert checks["mesh-reading"]["measured"] == 1.0
+    notes = [f["message"] for f in document["cases"][0]["findings"]
+             if f["rule"] == "mesh-reading"]
+    assert len(notes) == 1 and "mirrored node order" in notes[0]

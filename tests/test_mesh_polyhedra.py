@@ -77,8 +77,12 @@ def test_hanging_faces_non_orthogonality_and_skewness(octree):
                                rtol=1e-12)
     np.testing.assert_allclose(skew[hanging], math.sqrt(2) / 3 / math.sqrt(11), rtol=1e-12)
     assert np.abs(skew[~hanging]).max() < 1e-12
-    # size ratio 2 across the interface: the volume ratio is 8
-    assert quality.growth_ratio(octree)[: octree.n_internal].max() == pytest.approx(8.0)
+    # the size ratio across the interface is 2 (a coarse cube h thick against fine cubes
+    # h/2 thick), exactly on every hanging face; the volume ratio is 8
+    growth = quality.growth_ratio(octree)[: octree.n_internal]
+    np.testing.assert_allclose(growth[hanging], 2.0, rtol=1e-12)
+    assert np.abs(growth[~hanging] - 1.0).max() < 1e-12
+    assert quality.volume_ratio(octree)[: octree.n_internal].max() == pytest.approx(8.0)
 
 
 def test_hanging_edge_midpoints_make_five_point_faces(octree):
@@ -229,12 +233,12 @@ def test_mesh_rules_on_a_refined_block(octree):
 
     from caselint.engine.runner import check_rule
     from caselint.manifest.case import Case, CaseInfo, MeshSpec
-    from caselint.rules import mesh_integrity, mesh_quality
+    from caselint.rules import cell_growth, cell_quality, mesh_integrity, mesh_quality
 
     case = Case(path=Path("case.yaml"), version=1, info=CaseInfo(name="octree"),
                 mesh=MeshSpec(file=Path("mesh.vtu")))
     values, details = {}, {}
-    for rule in mesh_quality.RULES + mesh_integrity.RULES:
+    for rule in mesh_quality.RULES + cell_quality.RULES + cell_growth.RULES + mesh_integrity.RULES:
         result = check_rule(rule, case, octree)
         assert result.skipped is None, (rule.id, result.skipped)
         values[rule.id] = result.measurements[0].value
@@ -243,10 +247,13 @@ def test_mesh_rules_on_a_refined_block(octree):
     assert values["non-orthogonality"] == pytest.approx(25.2394018, rel=1e-8)
     assert values["skewness"] == pytest.approx(0.1421338, rel=1e-6)
     assert values["face-warp"] == pytest.approx(0.0, abs=1e-6)
-    assert values["growth-ratio"] == pytest.approx(8.0)
+    assert values["growth-ratio"] == pytest.approx(2.0, rel=1e-12)     # an octree's 2:1 step
+    assert values["volume-ratio"] == pytest.approx(8.0)
     # cubes everywhere the shape is known; the 48 polyhedra are not measured
     assert values["aspect-ratio"] == pytest.approx(1.0)
     assert "not defined for 48 general polyhedra" in details["aspect-ratio"]
+    assert values["cell-shape"] == pytest.approx(1.0)
+    assert "not defined for 48 general polyhedra" in details["cell-shape"]
     for rule in ("duplicate-points", "non-manifold-faces", "degenerate-faces",
                  "unmatched-boundary-elements"):
         assert values[rule] == 0, rule
@@ -274,7 +281,9 @@ def test_a_wall_stack_goes_on_through_a_hanging_face():
     # the second and third layers are split 2:1 above the middle of the wall
     mesh = Mesh(refined_block(axis, axis, zs, ((1, 3), (1, 3), (0.15, 0.3))))
     wall = mesh.group_faces("zmin")
-    layers = wall_layers(mesh, wall, max_aspect=1.0)
+    # the split halves the layer heights (0.12 to 0.06): let the stack go on through a
+    # shrink to 0.6 of the layer below (the default ends it below 0.9)
+    layers = wall_layers(mesh, wall, max_aspect=1.0, min_ratio=0.5)
     centre = np.abs(mesh.face_centroids[wall, :2] - 2.0).max(axis=1) < 1
     h = np.diff(zs)
     # outside: three coarse layers 0.1, 0.12, 0.144; inside the coarse first layer (a

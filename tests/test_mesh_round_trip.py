@@ -39,7 +39,8 @@ def results(case_path: str) -> dict[str, tuple]:
     document = json.loads(out)
     return {c["rule"]: (c["outcome"], None if c.get("measured") is None
                         else round(c["measured"], 9))
-            for c in document["cases"][0]["checks"]}
+            for c in document["cases"][0]["checks"]
+            if c["rule"] != "mesh-reading"}      # what the reader changed: per format
 
 
 @pytest.fixture(scope="module", params=[False, True], ids=["wedges", "mirrored-wedges"])

@@ -4,7 +4,9 @@ The mesh (``tests/mixed_meshes.py``: hexahedra, wedges, pyramids, tetrahedra and
 ``mixed`` variant, seven-faced polyhedra, conforming) is written by each column of
 ``mixed_meshes.WRITERS`` (the face-based mesh folder plain, binary/gzip/64-bit and
 decomposed; VTU 2.3 written by VTK 9 in three encodings; VTU 2.2 by the test writer;
-legacy VTK 5.1 and 4.2 written by VTK 9; element VTU written by meshio) and read back.
+legacy VTK 5.1 and 4.2 written by VTK 9; element VTU written by meshio; SU2; CGNS as
+element sections, one MIXED section and NGON_n/NFACE_n; the face-based .msh in ASCII and
+binary) and read back.
 Every column must give the same cell counts per shape, total volume, groups (faces and
 area) and rule results (``caselint check`` on one case file): the files differ, the mesh
 does not.
@@ -57,10 +59,11 @@ def _summary(mesh: Mesh) -> dict:
 def _rules(report) -> dict:
     """Outcome and measured value of every rule, and the number of findings per rule."""
     checks = {c.rule: (c.outcome, None if c.measured is None else float(f"{c.measured:.9g}"))
-              for c in report.checks}
+              for c in report.checks if c.rule != "mesh-reading"}   # per format
     counts: dict[str, int] = {}
     for f in report.findings:
-        counts[f.rule] = counts.get(f.rule, 0) + 1
+        if f.rule != "mesh-reading":
+            counts[f.rule] = counts.get(f.rule, 0) + 1
     return {"checks": checks, "findings": counts}
 
 
@@ -93,7 +96,7 @@ def test_every_format_reads_the_same_mesh(matrix):
     assert expected["cells"] == ({"hexahedron": 8, "polyhedron": 4, "pyramid": 44, "tetra": 56,
                                   "wedge": 16} if kind == "mixed" else
                                  {"hexahedron": 8, "pyramid": 44, "tetra": 56, "wedge": 16})
-    assert len(columns) >= (9 if kind == "mixed" else 5)
+    assert len(columns) >= (12 if kind == "mixed" else 11)
     for name, (summary, _, _) in columns.items():
         assert summary == expected, name
 

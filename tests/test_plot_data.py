@@ -77,21 +77,21 @@ def _plots(case: Path) -> dict[str, PlotData]:
     return {p.rule: p for p in lint_case(case).plots if p.kind != "cut"}
 
 
-def test_mesh_quality_histograms_on_a_block_with_a_volume_jump(tmp_path):
-    # 3 x 2 x 2 hexes, x spacings 0.1, 0.1, 0.25 m. Internal faces: 2 x-planes of 4 faces,
-    # 1 y-plane and 1 z-plane of 6: 20. Ratios: 4 faces at x = 0.2 m see 0.25/0.1 = 2.5,
+def test_mesh_quality_histograms_on_a_block_with_a_size_jump(tmp_path):
+    # 3 x 2 x 2 hexes, x spacings 0.1, 0.1, 0.4 m. Internal faces: 2 x-planes of 4 faces,
+    # 1 y-plane and 1 z-plane of 6: 20. Ratios: 4 faces at x = 0.2 m see 0.4/0.1 = 4,
     # the other 16 join equal cells (1.0). Boundary faces: 2*4 + 2*6 + 2*6 = 32, so 52 faces.
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     plots = _plots(write_case(tmp_path, mesh))
     growth = plots["growth-ratio"]
     (series,) = growth.series
     edges, counts = np.array(series.x), np.array(series.y)
-    # bins across the data 1.0 .. 2.5: the widest round width giving ten or more is 0.1
-    assert edges == pytest.approx(np.arange(1.0, 2.55, 0.1), abs=1e-12) and len(counts) == 15
+    # bins across the data 1.0 .. 4.0: the widest round width giving ten or more is 0.25
+    assert edges == pytest.approx(np.arange(1.0, 4.1, 0.25), abs=1e-12) and len(counts) == 12
     assert counts.sum() == 20 and (series.below, series.above) == (0, 0)
     assert counts[0] == 16
-    assert counts[-1] == 4                       # 2.5 up to round-off: the last, closed bin
-    assert growth.limits == Limits(1.3, 2.0) and growth.kind == "histogram"
+    assert counts[-1] == 4                       # 4 up to round-off: the last, closed bin
+    assert growth.limits == Limits(2.0, 3.0) and growth.kind == "histogram"
     # every angle is 0 up to round-off: no spread to resolve, one bin of the 0.5 deg resolution
     (angles,) = plots["non-orthogonality"].series
     assert angles.x == (0.0, 0.5) and angles.y == (20.0,) and angles.above == 0   # internal

@@ -101,12 +101,12 @@ def test_clean_cases_pass_and_other_yaml_is_left_alone(repo):
 def test_a_failing_case_fails_the_hook_with_its_finding(repo):
     root, env = repo
     _add_case(root, "rooms/a", GRID)
-    # x spacings 0.1, ..., 0.1, 0.25 m: a volume jump of 2.5, above the error limit 2.0
-    _add_case(root, "rooms/jump", GRID + [1.35])
+    # x spacings 0.1, ..., 0.1, 0.4 m: a size jump of 4, above the error limit 3
+    _add_case(root, "rooms/jump", GRID + [1.5])
     result = _pre_commit(root, env)
     assert result.returncode == 1, result.stdout + result.stderr
     assert "Failed" in result.stdout
-    assert "growth-ratio" in result.stdout and "2.5" in result.stdout
+    assert "growth-ratio" in result.stdout and " 4 " in result.stdout
     # both case files reached caselint in one call (pre-commit splits a file list across
     # processes only beyond 4 files), each mesh found beside its case file
     assert "Result for 2 cases:" in result.stdout

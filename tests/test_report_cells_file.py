@@ -92,14 +92,14 @@ def test_no_named_entities_gives_an_empty_but_valid_file(tmp_path):
 
 
 def test_check_cells_out_matches_the_json_findings(tmp_path):
-    """End to end: ``check --cells-out`` on a case whose mesh has a 2.5x volume jump (the
+    """End to end: ``check --cells-out`` on a case whose mesh has a 4x size jump (the
     growth-ratio findings name cells and faces); the file's ids and values are the JSON's."""
     import json
 
     from test_cli import run_cli
     from test_cli_e2e import write_block_mesh, write_case
 
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     case = write_case(tmp_path, mesh, name="Invented duct with a jump")
     cells = tmp_path / "where.vtu"
     code, out, err = run_cli("check", str(case), "--format", "json", "--cells-out", str(cells))

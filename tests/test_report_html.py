@@ -158,7 +158,7 @@ def test_registers_the_html_format():
 
 
 def test_end_to_end_histograms_of_a_real_mesh(tmp_path, review_formats):  # noqa: F811
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     case = write_case(tmp_path, mesh, name="Invented duct with a jump")
     out = tmp_path / "review.html"
     code, stdout, err = run_cli("check", *TEST_SET, str(case), "--format", "html", "--output", str(out))
@@ -169,16 +169,16 @@ def test_end_to_end_histograms_of_a_real_mesh(tmp_path, review_formats):  # noqa
     # ratio a cut through its worst cell
     assert text.count("<svg") == 3
     assert "Growth ratio: cells around the worst, cut at" in text
-    assert "<figcaption>Volume growth ratio (rule growth-ratio)</figcaption>" in text
+    assert "<figcaption>Growth (size) ratio (rule growth-ratio)</figcaption>" in text
     assert "<figcaption>Face non-orthogonality (rule non-orthogonality)</figcaption>" in text
-    assert "error limit 2" in text and "warning limit 1.3" in text
+    assert "error limit 3" in text and "warning limit 2" in text
 
 
 def test_end_to_end_safety_case_shows_caution_and_both_waivers(tmp_path,
                                                                 review_formats):  # noqa: F811
     from review_samples import write_review_case
 
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     case = write_review_case(tmp_path, mesh)
     code, text, err = run_cli("check", *TEST_SET, str(case), "--format", "html")
     assert code == 1, err

@@ -125,13 +125,13 @@ def test_output_is_stable_and_empty_report_is_said():
 
 
 def test_end_to_end_values_from_a_real_mesh(tmp_path, review_formats):  # noqa: F811
-    # x spacings 0.1, 0.1, 0.25 m: neighbouring volumes differ by 0.25 / 0.1 = 2.5.
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    # x spacings 0.1, 0.1, 0.4 m: neighbouring cell sizes differ by 0.4 / 0.1 = 4.
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     case = write_case(tmp_path, mesh, name="Invented duct with a jump")
     code, out, err = run_cli("check", *TEST_SET, str(case), "--format", "markdown")
     assert code == 1, err
     rows = _rows(out)
-    assert rows["growth-ratio"][1:4] == ["**FAIL (error)**", "2.5", "<= 2"]
+    assert rows["growth-ratio"][1:4] == ["**FAIL (error)**", "4", "<= 3"]
     # an axis-aligned hex block is orthogonal: 0 deg up to round-off
     measured = rows["non-orthogonality"][2]
     assert rows["non-orthogonality"][1] == "pass" and measured.endswith(" deg")

@@ -157,3 +157,24 @@ def test_registers_the_text_format():
     (reporter,) = caselint_register_reporters()
     assert reporter.name == "text"
     assert reporter.render(FULL, RenderOptions()) == plain(FULL)
+
+
+def test_place_graded_checks_show_their_spread(tmp_path):
+    """Issue 16: a report shows the distribution, not only the maximum; the demo's jump
+    block (growth 2.5 on 4 of 20 internal faces) in text, Markdown and HTML."""
+    from caselint.api import lint
+    from caselint.report.base import RenderOptions
+    from caselint.report.html import render_html
+    from caselint.report.markdown import render_markdown
+    from caselint.report.text import render_text
+    from test_cli_e2e import write_block_mesh, write_case
+
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    report = lint([write_case(tmp_path, mesh)])
+    (growth,) = [c for c in report.cases[0].checks if c.rule == "growth-ratio"]
+    assert growth.distributions and growth.distributions[0].count == 20
+    options = RenderOptions(color=False, width=100)
+    text = " ".join(render_text(report, options).split())
+    assert "Spread over the mesh" in text and "growth-ratio over 20 faces" in text
+    assert "over 20 faces" in render_markdown(report, options)
+    assert "Spread over the mesh" in render_html(report, options)

@@ -218,7 +218,7 @@ def test_piped_command_line_output_is_plain_and_fits(tmp_path):
     """The real command, its stdout a pipe: no colour, 100 columns, ids whole."""
     from test_cli_e2e import write_block_mesh, write_case
 
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     case = write_case(tmp_path, mesh, name="Invented duct with a jump")
     env = {k: v for k, v in os.environ.items() if k not in ("COLUMNS", "NO_COLOR")}
     run = subprocess.run([sys.executable, "-c", "import sys; from caselint.cli import main; "
@@ -231,7 +231,7 @@ def test_piped_command_line_output_is_plain_and_fits(tmp_path):
     assert lines[-1].startswith("Result for 1 case: ")
     table = _table_rows(run.stdout)
     assert table[0][1:3] == ["fail", "(error)"]
-    assert ["growth-ratio", "fail", "(error)", "2.5", "<=", "2"] in table
+    assert ["growth-ratio", "fail", "(error)", "4", "<=", "3"] in table
 
 
 def test_the_cases_table_keeps_every_column_at_80_columns():

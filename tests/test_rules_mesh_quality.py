@@ -3,7 +3,8 @@
 References: the shear angle of a sheared block is its non-orthogonality (finite-volume
 definition, Jasak 1996 [memory]); growth ratio of a geometrically graded block equals the
 grading ratio [computed]; Verdict's edge ratio is cross-checked against VTK's
-``vtkMeshQuality`` (SAND2007-1751, the library VTK implements).
+``vtkMeshQuality`` (SAND2007-1751, the library VTK implements). The rules live in
+``caselint.rules.mesh_quality`` (faces), ``cell_quality`` (cells) and ``cell_growth``.
 """
 
 from __future__ import annotations
@@ -20,10 +21,11 @@ from caselint.manifest.case import Case, CaseInfo, MeshSpec
 from caselint.mesh import Mesh, MeshData, mesh_from_meshio
 from caselint.mesh.blocks import graded, structured_hex, tetrahedralise
 from caselint.model import Limits, Rule, RuleResult
-from caselint.rules import mesh_quality
-from caselint.rules.mesh_quality import (
-    ASPECT_RATIO, GROWTH_RATIO, INVERTED_CELLS, NON_ORTHOGONALITY, SKEWNESS, worst_ids,
-)
+from caselint.rulekit import worst_ids
+from caselint.rules import cell_growth, cell_quality, mesh_quality
+from caselint.rules.cell_growth import GROWTH_RATIO
+from caselint.rules.cell_quality import ASPECT_RATIO, INVERTED_CELLS
+from caselint.rules.mesh_quality import NON_ORTHOGONALITY, SKEWNESS
 
 CASE = Case(path=Path("case.yaml"), version=1, info=CaseInfo(name="test"),
             mesh=MeshSpec(file=Path("mesh.msh")))
@@ -93,8 +95,8 @@ def test_graded_block_growth_ratio_equals_grading(ratio):
     mesh = mesh_from_meshio(structured_hex(graded(0.0, 1.0, nx, ratio), np.linspace(0, 1, ny + 1),
                                            np.linspace(0, 1, nz + 1)))
     m = only(run(GROWTH_RATIO, mesh))
-    assert m.value == pytest.approx(ratio, abs=1e-9)         # [computed] V_{i+1}/V_i = ratio
-    expected_count = (nx - 1) * ny * nz if ratio > 1.3 else 0
+    assert m.value == pytest.approx(ratio, abs=1e-9)         # [computed] h_{i+1}/h_i = ratio
+    expected_count = (nx - 1) * ny * nz if ratio > 2.0 else 0    # past the warning limit 2
     assert m.where.face_count == expected_count
     if expected_count:
         assert len(m.where.faces) == min(10, expected_count)
@@ -102,14 +104,14 @@ def test_graded_block_growth_ratio_equals_grading(ratio):
         assert m.where.point == pytest.approx(tuple(mesh.face_centroids[worst]))
         assert set(m.where.cells[:2]) == set(mesh.file_cell_ids(
             [mesh.owner[worst], mesh.neighbour[worst]]).tolist())      # the file's cell ids
-        assert m.detail.startswith(f"{expected_count} faces above 1.3, worst between cells")
+        assert m.detail.startswith(f"{expected_count} faces above 2, worst between cells")
 
 
 def test_growth_ratio_counts_against_the_error_limit_when_warning_is_disabled():
     mesh = mesh_from_meshio(structured_hex(graded(0.0, 1.0, 4, 1.5), [0, 1], [0, 1]))
-    m = only(run(GROWTH_RATIO, mesh, Limits(warn=None, error=2.0)))
+    m = only(run(GROWTH_RATIO, mesh, Limits(warn=None, error=1.4)))
     assert m.value == pytest.approx(1.5, abs=1e-9)
-    assert m.where.face_count == 0
+    assert m.where.face_count == 3
 
 
 # -- non-orthogonality and skewness --------------------------------------------------------
@@ -179,7 +181,7 @@ def test_mesh_without_cells_is_skipped_not_passed():
                           face_points=np.zeros(0, dtype=np.int32), owner=np.zeros(0, np.int32),
                           neighbour=np.zeros(0, np.int32), n_cells=0,
                           face_group=np.zeros(0, np.int32)))
-    for rule in mesh_quality.RULES:
+    for rule in mesh_quality.RULES + cell_quality.RULES + cell_growth.RULES:
         assert run(rule, empty).skipped == "the mesh has no volume cells"
 
 
@@ -267,13 +269,18 @@ def test_worst_ids_lists_worst_first_ties_by_id_and_counts_all():
 
 
 def test_rules_are_registered_and_documented():
-    rules = mesh_quality.caselint_register_rules()
-    assert [r.id for r in rules] == ["inverted-cells", "non-orthogonality", "skewness",
-                                     "aspect-ratio", "growth-ratio", "face-warp"]
+    rules = (mesh_quality.caselint_register_rules() + cell_quality.caselint_register_rules()
+             + cell_growth.caselint_register_rules())
+    assert [r.id for r in rules] == ["non-orthogonality", "skewness", "face-warp",
+                                     "inverted-cells", "aspect-ratio", "cell-shape",
+                                     "growth-ratio", "volume-ratio"]
     defaults = {r.id: (r.limits.warn, r.limits.error) for r in rules}
     assert defaults == {"inverted-cells": (None, 0), "non-orthogonality": (70.0, 85.0),
                         "skewness": (0.5, 1.0), "aspect-ratio": (1000.0, 10000.0),
-                        "growth-ratio": (1.3, 2.0), "face-warp": (20.0, 40.0)}
+                        "cell-shape": (0.1, 0.05), "growth-ratio": (2.0, 3.0),
+                        "volume-ratio": (10.0, 100.0), "face-warp": (20.0, 40.0)}
     for rule in rules:
-        assert rule.measures and rule.worse == "higher" and "mesh" in rule.needs
-        assert "common practice" in rule.rationale or "Verdict" in rule.rationale
+        assert rule.measures and "mesh" in rule.needs
+        assert rule.worse == ("lower" if rule.id == "cell-shape" else "higher")
+        assert ("common practice" in rule.rationale or "Verdict" in rule.rationale
+                or "caselint default" in rule.rationale)

@@ -262,12 +262,23 @@ def test_laminar_case_is_judged_as_resolved_with_blasius():
 DELTA = 0.37 * L * RE_L ** -0.2                      # 0.02529 m [computed]
 
 
+def across(heights, delta: float) -> float:
+    """Cells across ``delta`` above a wall, by hand: the layers wholly inside, plus the share
+    of the next layer's height below delta (the rule's definition of a partial cell)."""
+    tops = np.cumsum(heights)
+    k = int(np.count_nonzero(tops <= delta))
+    below = tops[k - 1] if k else 0.0
+    return k + (delta - below) / heights[k] if k < len(heights) else float(k)
+
+
 def test_cells_within_the_boundary_layer_and_stack_cover():
     heights = geometric(1e-4, 1.2, 30)
     within = int(np.count_nonzero(np.cumsum(heights) <= DELTA))
     assert within == 21                              # [computed] 1.2^k <= 51.6
+    expected = across(heights, DELTA)                # and 0.61 of the 22nd layer
+    assert expected == pytest.approx(21.61186, abs=1e-5)
     check, findings, notes = grade(BOUNDARY_LAYER_CELLS, block(1e-4, n=30), make_case())
-    assert check.outcome == "pass" and check.measured == 21
+    assert check.outcome == "pass" and check.measured == pytest.approx(expected, rel=1e-9)
     assert any(f"{DELTA:.3g} m" in n for n in notes)
     # 20 layers stop short of delta: enough cells (layer-cover passes 30 layers), but the
     # stack covers 0.738 of it
@@ -281,10 +292,19 @@ def test_cells_within_the_boundary_layer_and_stack_cover():
     assert check.measured == pytest.approx(thickness / DELTA, rel=1e-10)
 
 
-def test_few_prism_layers_in_a_thick_boundary_layer_is_an_error():
-    mesh = mesh_from_meshio(prism_block(geometric(1e-3, 1.2, 4), [0.05, 0.05]))
+def test_few_prism_layers_under_a_coarse_tetrahedral_core():
+    """Four prism layers (5.37 mm) under Kuhn tetrahedra of 0.05 m hexahedra, delta 25.3 mm.
+    Every Kuhn tetrahedron spans the whole height of its hexahedron (its corners run from
+    the bottom to the top face), so each counts the length of the ray inside it over
+    0.05 m: the tetrahedra of one hexahedron add up to one cell across it [computed], and
+    the count is 4 + 19.9 mm / 50 mm = 4.40, an error."""
+    heights = geometric(1e-3, 1.2, 4)
+    mesh = mesh_from_meshio(prism_block(heights, [0.05, 0.05]))
     check, findings, _ = grade(BOUNDARY_LAYER_CELLS, mesh, make_case())
-    assert (check.outcome, check.severity, check.measured) == ("fail", "error", 4)
+    expected = 4 + (DELTA - heights.sum()) / 0.05
+    assert expected == pytest.approx(4.399, abs=1e-3)
+    assert check.measured == pytest.approx(expected, rel=1e-9)
+    assert (check.outcome, check.severity) == ("fail", "error")
 
 
 def test_laminar_and_internal_thickness():
@@ -292,9 +312,9 @@ def test_laminar_and_internal_thickness():
     mesh = block(1e-4, n=30)
     laminar = 5.0 * L / math.sqrt(RE_L)             # Blasius delta99 = 6.12 mm
     check, _, _ = grade(BOUNDARY_LAYER_CELLS, mesh, make_case(model="laminar"))
-    assert check.measured == np.count_nonzero(np.cumsum(heights) <= laminar)
+    assert check.measured == pytest.approx(across(heights, laminar), rel=1e-9)
     check, _, notes = grade(BOUNDARY_LAYER_CELLS, mesh, make_case(kind="internal", length=0.02))
-    assert check.measured == np.count_nonzero(np.cumsum(heights) <= 0.01)
+    assert check.measured == pytest.approx(across(heights, 0.01), rel=1e-9)
     assert any("half the hydraulic diameter" in n for n in notes)
 
 

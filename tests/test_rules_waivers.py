@@ -19,7 +19,7 @@ WAIVERS = (
 
 
 def _check(tmp_path, waivers: str) -> tuple[dict, str]:
-    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.45])
+    mesh = write_block_mesh(tmp_path / "jump.msh", xs=[0.0, 0.1, 0.2, 0.6])
     case = write_case(tmp_path, mesh, name="Invented duct with a jump")
     text = case.read_text(encoding="utf-8").replace("checks: {rule_sets: [general]}\n",
                                                    "checks:\n  rule_sets: [general]\n" + waivers)

@@ -320,7 +320,9 @@ def _check_in_processes(case: Path, cache_dir: Path, n: int = 4,
     procs = [subprocess.Popen([sys.executable, "-c", _WORKER, "check", str(case), "--format",
                                "json"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
                               env=env) for _ in range(n)]
-    return [(p.wait(timeout=120), p.stdout.read(), p.stderr.read()) for p in procs]
+    # communicate, not wait: a report longer than the pipe's buffer would block the child
+    outputs = [p.communicate(timeout=120) for p in procs]
+    return [(p.returncode, out, err) for p, (out, err) in zip(procs, outputs)]
 
 
 def test_four_processes_checking_one_case_agree_and_share_the_cache(tmp_path):

@@ -16,7 +16,7 @@ import pytest
 from caselint.mesh import mesh_from_meshio
 from caselint.mesh.blocks import shuffled, structured_hex, structured_quad, tetrahedralise
 from caselint.mesh.wall_layers import (
-    END_BOUNDARY, END_CORE, END_TURN, NO_STACK, wall_layers,
+    END_BOUNDARY, END_CORE, END_MIDDLE, END_SHRINK, END_TURN, NO_STACK, wall_layers,
 )
 from near_wall_meshes import geometric, layer_block, prism_block, stack
 
@@ -206,3 +206,95 @@ def test_a_walk_that_reached_further_serves_a_shorter_request():
     assert further is not far and further.reach == 0.06
     with pytest.raises(ValueError, match="reach_m"):
         wall_layers(mesh, wall, reach_m=-1.0)
+
+
+# -- where a stack ends: shrinking layers, a block of one height, the middle of a passage ----
+
+
+def test_a_stack_ends_where_the_layers_shrink():
+    # three layers growing by 1.2, then cells thinner than 0.9 of the last layer
+    heights = [1e-3, 1.2e-3, 1.44e-3, 1.2e-3, 1.0e-3]
+    mesh, layers = _stacks(layer_block(heights, nx=2, ny=2, dx=0.05))
+    np.testing.assert_array_equal(layers.end, END_SHRINK)
+    np.testing.assert_array_equal(layers.n_layers, 3)
+    np.testing.assert_allclose(layers.thickness, sum(heights[:3]), rtol=1e-12)
+    np.testing.assert_array_equal(layers.core_cell, -1)         # no transition to judge
+    # 1.35 / 1.44 = 0.9375 is within the default 10 %: the stack goes on
+    _, kept = _stacks(layer_block(heights[:3] + [1.35e-3], nx=2, ny=2, dx=0.05))
+    np.testing.assert_array_equal(kept.n_layers, 4)
+
+
+def test_a_jump_into_a_block_of_one_height_ends_the_stack_before_the_jump():
+    # layers growing by 1.2, then three cells 2.5 times the last layer: the block of a
+    # multi-block grid, whose first cell is the core cell of the transition
+    layers_h = list(geometric(1e-3, 1.2, 5))
+    block = [2.5 * layers_h[-1]] * 3
+    mesh, layers = _stacks(layer_block(layers_h + block, nx=2, ny=2, dx=0.05))
+    np.testing.assert_array_equal(layers.end, END_CORE)
+    np.testing.assert_array_equal(layers.n_layers, 5)
+    np.testing.assert_allclose(layers.max_growth, 1.2, rtol=1e-12)
+    np.testing.assert_allclose(layers.core_jump, 2.5, rtol=1e-12)
+    rows = np.arange(len(layers.faces))
+    assert set(mesh.cell_shape[layers.core_cell].tolist()) == {mesh.cell_shape[0]}  # hexahedra
+    np.testing.assert_allclose(layers.heights[rows, 5], block[0], rtol=1e-12)
+    # the same jump followed by layers that keep growing is a stack with a bad step
+    grown = layers_h + list(geometric(block[0], 1.2, 3))
+    _, bad = _stacks(layer_block(grown, nx=2, ny=2, dx=0.05))
+    np.testing.assert_array_equal(bad.n_layers, 8)
+    np.testing.assert_allclose(bad.max_growth, 2.5, rtol=1e-12)
+    # one cell after the jump is not yet a block: it stays in the stack
+    _, single = _stacks(layer_block(layers_h + block[:1], nx=2, ny=2, dx=0.05))
+    np.testing.assert_array_equal(single.n_layers, 6)
+
+
+@pytest.mark.parametrize("n_cells, kept", [(10, 5), (11, 6)])
+def test_a_stack_across_to_a_facing_wall_is_cut_at_the_middle(n_cells, kept):
+    # equal thin cells from wall to wall (both walls walked): no stack reaches past the
+    # middle; with an odd count the middle cell belongs to both walls' stacks
+    m = structured_hex(np.linspace(0, 0.4, 3), np.linspace(0, 0.4, 3),
+                       np.linspace(0, 0.1, n_cells + 1))
+    mesh = mesh_from_meshio(m)
+    faces = np.concatenate([mesh.group_faces("zmin"), mesh.group_faces("zmax")])
+    layers = wall_layers(mesh, faces)
+    np.testing.assert_array_equal(layers.end, END_MIDDLE)
+    np.testing.assert_array_equal(layers.n_layers, kept)
+    np.testing.assert_allclose(layers.passage, 0.1, rtol=1e-12)
+    np.testing.assert_allclose(layers.thickness, kept * 0.1 / n_cells, rtol=1e-12)
+    # walked from one wall only, the other is just another boundary: the whole channel
+    one = wall_layers(mesh, mesh.group_faces("zmin"))
+    np.testing.assert_array_equal(one.end, END_BOUNDARY)
+    np.testing.assert_array_equal(one.n_layers, n_cells)
+    assert np.all(np.isinf(one.passage))
+
+
+def test_pipe_o_grid_stacks_are_the_radial_block(tmp_path):
+    """A gmsh pipe O-grid (tests/wall_meshes.py): 15 radial cells growing by 1 / 0.85
+    towards a square core. Every wall stack is the radial block, and no stack reaches the
+    axis. With a core of finer cells the layers shrink into it; with a coarser one the core
+    is a block of one height entered with a jump: the transition, not layer growth."""
+    from caselint.mesh import read_mesh
+    from wall_meshes import pipe_o_grid
+
+    radius = 0.05
+    fine = read_mesh(pipe_o_grid(tmp_path / "fine-core.msh", radius=radius))
+    layers = wall_layers(fine, fine.group_faces("wall"))
+    np.testing.assert_array_equal(layers.n_layers, 15)
+    np.testing.assert_array_equal(layers.end, END_SHRINK)
+    assert layers.thickness.max() < (1 - 0.45 / math.sqrt(2)) * radius   # not past the core
+    # transfinite spacing along each radial line: ratio 1 / 0.85 between successive cells,
+    # measured between face centroids of a polygonal column (within 0.5 %)
+    np.testing.assert_allclose(layers.max_growth, 1 / 0.85, rtol=5e-3)
+
+    # a coarse core (2.65 mm cells) after a uniform radial block of 1.5 mm cells
+    coarse = read_mesh(pipe_o_grid(tmp_path / "coarse-core.msh", radius=radius,
+                                   n_radial=20, progression=1.0))
+    layers = wall_layers(coarse, coarse.group_faces("wall"))
+    np.testing.assert_array_equal(layers.n_layers, 20)
+    np.testing.assert_array_equal(layers.end, END_CORE)
+    assert layers.max_growth.max() < 1.01                     # the radial block is uniform
+    side = 2 * 0.45 * radius / math.sqrt(2) / 12               # core cell, 2.65 mm
+    last = layers.heights[np.arange(len(layers.faces)), 19]
+    # the columns nearest the middles of the core's sides (3.75 deg off), 4 faces along z
+    central = np.abs(layers.normals[:, :2]).max(axis=1) > 0.99
+    assert np.count_nonzero(central) == 4 * 2 * 4
+    np.testing.assert_allclose(layers.core_jump[central], side / last[central], rtol=1e-6)

@@ -25,6 +25,8 @@ DISABLE_AUTOLOAD_ENV = "CASELINT_DISABLE_PLUGIN_AUTOLOAD"
 BUILTIN_PLUGINS: tuple[str, ...] = (
     "caselint.engine.builtin_sets",
     "caselint.rules.mesh_quality",
+    "caselint.rules.cell_quality",
+    "caselint.rules.cell_growth",
     "caselint.rules.boundaries",
     "caselint.rules.mesh_integrity",
     "caselint.rules.waivers",

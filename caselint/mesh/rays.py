@@ -16,6 +16,12 @@ includes the first and the last cell. The face the ray came in through is never 
 where the plane-based exit can point back), or that is still marching after ``max_steps``
 cells is *lost*, so a damaged or non-convex mesh cannot loop forever.
 
+:func:`march` goes on to the boundary (the width of a passage, the cells entered across
+it); :func:`cells_within` stops at a distance of its own per ray (the boundary-layer
+thickness) and weighs each cell by the length of the ray inside it over the cell's depth
+along the ray (see :class:`Crossing`): a measure of resolution along the wall normal
+through any cell type, tetrahedra and triangles included.
+
 All rays march in lock step: one numpy step per cell crossed, over every ray still active
 (and over the face slots of a cell, as many as the cell with the most faces has), never a
 Python loop over rays or cells. On large meshes the compiled kernel
@@ -34,6 +40,7 @@ import numpy as np
 
 from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.geometry import chunks
+from caselint.mesh.topology import cell_point_table
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
@@ -98,24 +105,19 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     if max_steps < 1:
         raise ValueError(f"max_steps must be at least 1, got {max_steps}")
     start_faces = np.asarray(start_faces, dtype=np.int64)
-    if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
-        raise ValueError("rays start from boundary faces only")
     n = start_faces.size
+    origin, direction, ok = _inward(mesh, start_faces)
     out = RayHits(
         start_face=start_faces,
         hit_face=np.full(n, -1, dtype=np.int64),
         status=np.full(n, LOST, dtype=np.int8),
         width=np.zeros(n),
         cells=np.zeros(n, dtype=np.int64),
-        origin=np.asarray(mesh.face_centroids[start_faces], dtype=np.float64).reshape(n, 3),
-        direction=np.zeros((n, 3)),
+        origin=origin,
+        direction=direction,
     )
     if n == 0:
         return out
-    area = mesh.face_area_vectors[start_faces]
-    norm = np.sqrt((area**2).sum(axis=1))
-    ok = norm > 0                      # a collapsed face has no normal: its ray is lost
-    out.direction[ok] = -area[ok] / norm[ok, None]
     wall = _wall_mask(mesh, wall_face)
     kernel = compiled("ray_march", mesh.n_cells)
     if kernel is not None:
@@ -131,6 +133,21 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     for sl in chunks(n, RAY_CHUNK):
         _march_chunk(faces, out, np.arange(sl.start, sl.stop)[ok[sl]], max_steps)
     return out
+
+
+def _inward(mesh: "Mesh", start_faces: np.ndarray):
+    """Origins (face centroids), unit inward normals and whether each face has one (a
+    collapsed face has none: its ray is lost) of the rays from boundary ``start_faces``."""
+    if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
+        raise ValueError("rays start from boundary faces only")
+    n = start_faces.size
+    origin = np.asarray(mesh.face_centroids[start_faces], dtype=np.float64).reshape(n, 3)
+    area = mesh.face_area_vectors[start_faces]
+    norm = np.sqrt((area**2).sum(axis=1))
+    ok = norm > 0
+    direction = np.zeros((n, 3))
+    direction[ok] = -area[ok] / norm[ok, None]
+    return origin, direction, ok
 
 
 class _FaceData:
@@ -203,13 +220,7 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
     for _ in range(max_steps):
         if idx.size == 0:
             return
-        t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
-        # a ray never goes back; one that stops advancing (cycling between non-convex
-        # cells) is lost after MAX_STALLED cells
-        stalled = t_exit <= t_now
-        stuck[idx] = np.where(stalled, stuck[idx] + 1, 0)
-        lost = (f_exit < 0) | (stuck[idx] > MAX_STALLED)
-        t_exit = np.maximum(t_exit, t_now)
+        t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
         ends = ~lost & (nxt < 0)
         ray = rays[idx]
         out.status[ray[ends]] = np.where(fd.wall[f_exit[ends]], WALL, OPEN)
@@ -222,6 +233,112 @@ def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) 
         cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
         count[idx] += 1
     out.cells[rays[idx]] = count[idx] - 1   # cells fully crossed before the step limit; LOST
+
+
+@dataclass(frozen=True)
+class Crossing:
+    """Cells a ray from each start face crosses within its own distance of the wall.
+
+    ``cells`` adds up, over the cells the ray crosses within ``limit`` (m) of its origin,
+    the length of the ray inside each cell (up to the limit) over the cell's *depth* along
+    the ray, the spread of its vertices along it. A layer cell crossed along its normal
+    counts 1, the cell the limit cuts the part of its depth before the limit (3.4: three
+    layers and four tenths of the fourth), and a cell the ray only clips near a vertex or
+    an edge little: a count that does not jump when a ray grazes a vertex, as a count of
+    the cells entered would, by a whole cell for each cell touched there. ``reached`` (m) is
+    how far the count went: the limit, or less where the ray ended on the boundary (up
+    to which every cell it crossed counts) or was lost first (``short`` True for both).
+    """
+
+    start_face: np.ndarray     # (R,) int64
+    limit: np.ndarray          # (R,) float64, m
+    cells: np.ndarray          # (R,) float64
+    reached: np.ndarray        # (R,) float64, m
+    short: np.ndarray          # (R,) bool
+
+
+def cells_within(mesh: "Mesh", start_faces: np.ndarray, limit_m,
+                 max_steps: int = MAX_STEPS) -> Crossing:
+    """Cast one ray inward from each of ``start_faces`` (boundary faces) and count the
+    cells it crosses within ``limit_m`` (one distance, or one per face) of the face."""
+    start_faces = np.asarray(start_faces, dtype=np.int64)
+    n = start_faces.size
+    limit = np.array(np.broadcast_to(np.asarray(limit_m, dtype=np.float64), (n,)))
+    if not np.all(limit >= 0):
+        raise ValueError("limit_m must be at least 0 (and not NaN)")
+    origin, direction, ok = _inward(mesh, start_faces)
+    out = Crossing(start_faces, limit, np.zeros(n), np.zeros(n), limit > 0)
+    if n == 0:
+        return out
+    kernel = compiled("ray_march", mesh.n_cells)
+    if kernel is not None:
+        cf = mesh.cell_faces
+        parts = in_threads(lambda p: kernel.march_within(
+            cf.offsets, cf.faces, mesh.owner, mesh.neighbour, mesh.face_area_vectors,
+            mesh.face_centroids, start_faces[p],
+            origin[p], direction[p], ok[p], limit[p], mesh.data.face_offsets,
+            mesh.data.face_points, mesh.points, max_steps, MAX_STALLED, _PARALLEL), n)
+        for k, values in enumerate(zip(*parts)):
+            (out.cells, out.reached, out.short)[k][:] = np.concatenate(values)
+        return out
+    faces = _FaceData(mesh, np.zeros(mesh.n_faces, dtype=bool))
+    for sl in chunks(n, RAY_CHUNK):
+        rays = np.arange(sl.start, sl.stop)
+        _within_chunk(mesh, faces, out, origin, direction, rays[ok[sl] & (limit[sl] > 0)],
+                      max_steps)
+    return out
+
+
+def _depths(mesh: "Mesh", cells: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """Spread of each cell's vertices along its ray's direction ``d`` (m), projections
+    summed x + y + z as :mod:`caselint.mesh.kernels.ray_march` does."""
+    rel = mesh.points[cell_point_table(mesh.data, mesh.cell_faces, cells)] - o[:, None, :]
+    along = rel[..., 0] * d[:, 0:1] + rel[..., 1] * d[:, 1:2] + rel[..., 2] * d[:, 2:3]
+    return along.max(axis=1) - along.min(axis=1)
+
+
+def _within_chunk(mesh: "Mesh", fd: _FaceData, out: Crossing, origin: np.ndarray,
+                  direction: np.ndarray, rays: np.ndarray, max_steps: int) -> None:
+    """Count the cells the rays ``rays`` cross within their limits, in lock step."""
+    o, d, limit = origin[rays], direction[rays], out.limit[rays]
+    entry = out.start_face[rays]
+    cell = fd.owner[entry]
+    t_now = np.zeros(rays.size)
+    stuck = np.zeros(rays.size, dtype=np.int64)
+    idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
+    for _ in range(max_steps):
+        if idx.size == 0:
+            return
+        t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
+        ray, lim = rays[idx], limit[idx]
+        out.reached[ray[lost]] = t_now[lost]
+        cut = ~lost & (t_exit >= lim)                   # the limit falls in this cell
+        inside = np.where(cut, lim, t_exit) - t_now
+        depth = _depths(mesh, cell, o[idx], d[idx])
+        share = np.where(depth > 0, inside / np.where(depth > 0, depth, 1.0), 0.0)
+        out.cells[ray[~lost]] += share[~lost]
+        out.reached[ray[cut]] = lim[cut]
+        out.short[ray[cut]] = False
+        crossed = ~lost & ~cut
+        ends = crossed & (nxt < 0)                      # on the boundary before the limit
+        out.reached[ray[ends]] = t_exit[ends]
+        go = crossed & ~ends
+        idx = idx[go]
+        cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
+    out.reached[rays[idx]] = t_now                     # the step limit: cells crossed so far
+
+
+def _advance(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o: np.ndarray, d: np.ndarray,
+             t_now: np.ndarray, stuck: np.ndarray, idx: np.ndarray):
+    """One step of the active rays ``idx``: the exit parameter (never behind ``t_now``), face
+    and cell beyond, and which rays are lost: no exit, or no advance for more than
+    :data:`MAX_STALLED` cells in a row (``stuck`` counts them)."""
+    t_exit, f_exit, nxt = _exit_faces(fd, cell, entry, o[idx], d[idx])
+    # a ray never goes back; one that stops advancing (cycling between non-convex cells)
+    # is lost after MAX_STALLED cells
+    stuck[idx] = np.where(t_exit <= t_now, stuck[idx] + 1, 0)
+    lost = (f_exit < 0) | (stuck[idx] > MAX_STALLED)
+    return np.maximum(t_exit, t_now), f_exit, nxt, lost
 
 
 def _exit_faces(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o, d):

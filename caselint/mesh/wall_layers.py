@@ -5,9 +5,9 @@ face* and on to the neighbour across that face. The opposite face is found from 
 cell's faces, for any cell: the faces sharing no point with the entry face (the far side
 of a hexahedron, the other triangle of a wedge entered through a triangle, the far edge
 of a 2-D quadrilateral; several for a polyhedron whose far side is split by a refinement,
-of which the one the entry normal crosses first is taken, :func:`_opposite`). All wall
-faces walk in lock-step: one vectorised numpy step per layer, never a Python loop over
-faces.
+of which the one the entry normal crosses first is taken,
+:func:`caselint.mesh.stack_walk.opposite`). All wall faces walk in lock-step: one
+vectorised numpy step per layer, never a Python loop over faces.
 
 A cell *continues the stack* while
 
@@ -20,16 +20,34 @@ A cell *continues the stack* while
 - it is thin: ``h < max_aspect * width``, width = the square root of the entry face
   area (in 2-D the entry edge length). A layer cell is flat; a cell as tall as it is
   wide belongs to the core. The wall cell's height is measured even when it is too
-  thick to count as a layer (then the face has no stack).
-
-Defaults: ``max_aspect`` 1, ``turn_deg`` 45, ``max_cells`` 200 (caselint's choices).
+  thick to count as a layer (then the face has no stack);
+- it does not shrink: ``h >= min_ratio * h_last``, the height of the layer below it.
+  Layers grow away from their wall; cells that get thinner again belong to the stack of
+  a facing wall or fill the middle of a passage (the centre of a pipe O-grid, whose
+  radial cells go on to the axis), not to this stack.
 
 The stack ends at the first cell failing one of these, when an opposite face is on the
-boundary, or after ``max_cells`` cells. The walk itself may go on through cells that are
-layer-shaped but thick (a structured hexahedral core), so that the cells across a
-boundary layer can be counted beyond the inflation stack: it goes on while the walked
-cells reach less than ``reach_m`` from the wall (the boundary-layer thickness), and no
-further, since nothing asks about cells beyond it.
+boundary, or after ``max_cells`` cells. Then, from the heights walked:
+
+- a stack whose last cells are a *block of one height* entered with a jump (at least two
+  cells from the last layer that grew by more than ``jump_ratio`` on, none after it
+  growing by more than ``1 / min_ratio``) is cut before the jump: the block is a core of
+  a multi-block grid (the square core of a pipe O-grid), its first cell the core cell,
+  and the jump is judged as the transition to the core, not as layer growth. A jump
+  followed by layers that keep growing stays in the stack (a stack with a bad step);
+- a stack that runs into a *facing wall* (a face among the walked ``faces``: a channel or
+  pipe whose cells are layer-shaped from wall to wall) is cut at the middle of the
+  passage: a layer stays when it starts before half the distance walked across
+  (``passage``), so the cell holding the middle belongs to both walls' stacks and no
+  stack reaches past it.
+
+Defaults: ``max_aspect`` 1, ``min_ratio`` 0.9 (a tenth of room for the scatter of
+unstructured layer meshers), ``jump_ratio`` 1.3 (the largest growth common practice
+allows inside a stack), ``turn_deg`` 45, ``max_cells`` 200 (caselint's choices).
+
+The walk itself may go on through cells that are layer-shaped but thick (a structured
+hexahedral core): it goes on while the walked cells reach less than ``reach_m`` from the
+wall, and no further.
 
 Distances: the first cell centre's wall distance is its centroid's distance from the
 wall face centroid along the wall normal (half the first-layer height on a prism or
@@ -50,24 +68,23 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from caselint.mesh.kernels import compiled, in_threads
-from caselint.mesh.geometry import chunks
-from caselint.mesh.topology import cell_point_table
+from caselint.mesh.stack_walk import (  # noqa: F401  (the end codes are part of this API)
+    END_BOUNDARY,
+    END_CORE,
+    END_DEGENERATE,
+    END_LIMIT,
+    END_MIDDLE,
+    END_SHRINK,
+    END_TURN,
+    END_WORDS,
+    NO_STACK,
+    Walked,
+    walk_lockstep,
+)
+from caselint.mesh.stack_walk import extent as cell_extent
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
-
-#: How a stack ended (``WallLayers.end``).
-NO_STACK = 0      #: the wall cell is no layer cell (a tetrahedron, or as tall as wide)
-END_CORE = 1      #: the next cell is a core cell: not layer-shaped, or not thin
-END_TURN = 2      #: the next cell's layer direction turns by more than ``turn_deg``
-END_BOUNDARY = 3  #: the last layer's opposite face is on the boundary
-END_LIMIT = 4     #: the stack reached ``max_cells``
-END_DEGENERATE = 5  #: the next layer-shaped cell has a non-positive height
-END_WORDS = {
-    NO_STACK: "no layer cell at the wall", END_CORE: "core cell", END_TURN: "layer direction turns",
-    END_BOUNDARY: "another boundary", END_LIMIT: "walk limit", END_DEGENERATE: "degenerate cell",
-}
-
 
 @dataclass(frozen=True)
 class WallLayers:
@@ -79,7 +96,8 @@ class WallLayers:
     ``max_growth`` is the largest ``h[k+1] / h[k]`` inside the stack (0 with fewer than
     two layers), at layer ``growth_layer`` (1-based number of the larger layer).
     ``core_jump`` is the core cell's height over the last layer's where ``end`` is
-    ``END_CORE`` (0 elsewhere).
+    ``END_CORE`` (0 elsewhere). ``passage`` is the distance across to the facing wall
+    along the stack where ``end`` is ``END_MIDDLE`` (inf elsewhere: not walked across).
     """
 
     faces: np.ndarray
@@ -97,6 +115,7 @@ class WallLayers:
     end: np.ndarray
     core_cell: np.ndarray
     core_jump: np.ndarray
+    passage: np.ndarray
     reach: float = math.inf
 
     def subset(self, rows: np.ndarray) -> "WallLayers":
@@ -128,8 +147,9 @@ class WallLayers:
         return np.count_nonzero(walked & (tops <= limit[:, None]), axis=1)
 
 
-def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, turn_deg: float = 45.0,
-                max_cells: int = 200, reach_m: float = math.inf) -> WallLayers:
+def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, min_ratio: float = 0.9,
+                jump_ratio: float = 1.3, turn_deg: float = 45.0, max_cells: int = 200,
+                reach_m: float = math.inf) -> WallLayers:
     """The layer stacks above boundary ``faces`` (ids), walked up to ``reach_m`` from the
     wall; cached on the mesh per face set (a walk that reached further serves too)."""
     faces = np.unique(np.asarray(faces, dtype=np.int64))
@@ -138,88 +158,39 @@ def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, turn_deg: float
         raise ValueError("wall_layers() needs ids of boundary faces (faces with no neighbour)")
     if not reach_m >= 0:
         raise ValueError(f"reach_m must be at least 0, got {reach_m!r}")
+    if not (0 < min_ratio <= 1 and jump_ratio >= 1):
+        raise ValueError(f"min_ratio must be in (0, 1] and jump_ratio at least 1, got "
+                         f"{min_ratio!r} and {jump_ratio!r}")
     digest = hashlib.sha1(faces.tobytes()).hexdigest()
-    key = f"wall_layers:{digest}:{max_aspect!r}:{turn_deg!r}:{int(max_cells)}"
+    key = (f"wall_layers:{digest}:{max_aspect!r}:{min_ratio!r}:{jump_ratio!r}:{turn_deg!r}:"
+           f"{int(max_cells)}")
     walks: dict[float, WallLayers] = mesh.cached(key, dict)
     for reach, layers in walks.items():
         if reach >= reach_m:
             return layers
-    layers = _walk(mesh, faces, max_aspect, turn_deg, int(max_cells), float(reach_m))
+    layers = _walk(mesh, faces, (float(max_aspect), float(min_ratio), float(jump_ratio)),
+                   turn_deg, int(max_cells), float(reach_m))
     walks[float(reach_m)] = layers
     return layers
 
 
-def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray, x_in: np.ndarray,
-              n_in: np.ndarray):
-    """The face of each cell opposite its entry face, and whether it has one.
-
-    Candidates are the cell's faces that share no point with the entry face: exactly the
-    opposite face of a hexahedron, of a wedge entered through a triangle and of a 2-D
-    quadrilateral, none for tetrahedra, pyramids and wedges entered through a
-    quadrilateral. Among several (a polyhedron with a split top face, a hexahedron whose
-    sides are split by a refinement), the first one crossed by the ray from the entry face
-    centroid along the entry normal ``n_in`` (into the cell) is taken.
-    """
-    slots = np.take(mesh.cell_face_table(), cells, axis=0)                      # (m, K)
-    valid = (slots >= 0) & (slots != entry[:, None])
-    table = mesh.face_point_table
-    entry_pts = table(entry)                                           # (m, Ve)
-    m, k = slots.shape
-    pts = table(np.where(valid, slots, 0).ravel()).reshape(m, k, -1)   # (m, K, V)
-    shared = (pts[:, :, :, None] == entry_pts[:, None, None, :]).any(axis=(2, 3))
-    cand = valid & ~shared
-    f = np.where(cand, slots, 0)
-    s = np.take(mesh.face_area_vectors, f.ravel(), axis=0).reshape(m, k, 3)
-    xf = np.take(mesh.face_centroids, f.ravel(), axis=0).reshape(m, k, 3)
-    sign = np.where(mesh.owner[f] == cells[:, None], 1.0, -1.0)
-    dn = _dot(s, n_in[:, None, :]) * sign
-    reach = _dot(s, xf - x_in[:, None, :]) * sign
-    leaving = cand & (dn > 0)
-    t = np.where(leaving, reach / np.where(leaving, dn, 1.0), np.inf)
-    # a candidate the ray does not leave through ranks after every one it does
-    score = np.where(leaving, t, np.where(cand, np.finfo(float).max, np.inf))
-    j = np.argmin(score, axis=1)
-    rows = np.arange(m)
-    shaped = cand[rows, j]
-    opp = np.where(shaped, slots[rows, j], entry).astype(np.int64)
-    return opp, shaped
-
-
-def _extent(mesh: "Mesh", cells: np.ndarray, origin: np.ndarray, normal: np.ndarray) -> np.ndarray:
-    """Largest distance of each cell's vertices from ``origin`` along unit ``normal`` (m)."""
-    out = np.zeros(len(cells))
-    for sl in chunks(len(cells)):
-        pts = mesh.points[cell_point_table(mesh.data, mesh.cell_faces, cells[sl])]
-        out[sl] = _dot(pts - origin[sl][:, None, :], normal[sl][:, None, :]).max(axis=1)
-    return out
-
-
-def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Dot product over the last axis (of length 3), summed x + y + z in that order: the
-    compiled walk (:mod:`caselint.mesh.kernels.layer_walk`) sums the same way."""
-    return a[..., 0] * b[..., 0] + a[..., 1] * b[..., 1] + a[..., 2] * b[..., 2]
-
-
-def _unit_normals(mesh: "Mesh", faces: np.ndarray, sign: np.ndarray) -> np.ndarray:
-    s = mesh.face_area_vectors[faces]
-    area = mesh.face_areas[faces]
-    return s * (sign / np.where(area > 0, area, 1.0))[:, None]
-
-
-def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
-          max_cells: int, reach_m: float = math.inf) -> WallLayers:
-    """Walk every stack (compiled, or in lock step with numpy) and sum up its layers."""
+def _walk(mesh: "Mesh", faces: np.ndarray, shape: tuple[float, float, float],
+          turn_deg: float, max_cells: int, reach_m: float = math.inf) -> WallLayers:
+    """Walk every stack (compiled, or in lock step with numpy) and sum up its layers;
+    ``shape`` is (max_aspect, min_ratio, jump_ratio)."""
     cos_turn = math.cos(math.radians(turn_deg))
+    walled = np.zeros(mesh.n_faces, dtype=bool)
+    walled[faces] = True
     kernel = compiled("layer_walk", mesh.n_cells)
     if kernel is None:
-        walked = _walk_lockstep(mesh, faces, max_aspect, cos_turn, max_cells, reach_m)
-        extent = functools.partial(_extent, mesh)
+        walked = walk_lockstep(mesh, faces, walled, *shape, cos_turn, max_cells, reach_m)
+        extent = functools.partial(cell_extent, mesh)
     else:
         cf, data = mesh.cell_faces, mesh.data
         topo = (cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.points)
         parts = in_threads(lambda p: kernel.walk(
             *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
-            mesh.face_centroids, mesh.cell_centroids, faces[p], float(max_aspect), cos_turn,
+            mesh.face_centroids, mesh.cell_centroids, faces[p], walled, *shape, cos_turn,
             max_cells, float(reach_m), mesh.dim == 3), len(faces))
         *per_face, tables = (list(values) for values in zip(*parts))
         per_face = [np.concatenate(values) for values in per_face]
@@ -229,112 +200,17 @@ def _walk(mesh: "Mesh", faces: np.ndarray, max_aspect: float, turn_deg: float,
         for t in tables:
             heights[at : at + len(t), : t.shape[1]] = t
             at += len(t)
-        walked = _Walked(*per_face[:6], heights, *per_face[6:])
+        walked = Walked(*per_face[:6], heights, *per_face[6:])   # the kernel's order
         extent = functools.partial(kernel.extents, *topo)
     return _stacks(faces, mesh.owner[faces], walked, extent, reach_m)
 
 
-@dataclass(frozen=True)
-class _Walked:
-    """What the walks found, per wall face (see :class:`WallLayers`)."""
-
-    n_wall: np.ndarray
-    centre: np.ndarray
-    first: np.ndarray
-    layered_first: np.ndarray
-    n_layers: np.ndarray
-    n_walked: np.ndarray
-    heights: np.ndarray
-    end: np.ndarray
-    core_cell: np.ndarray
-    core_origin: np.ndarray
-    core_normal: np.ndarray
-
-
-def _walk_lockstep(mesh: "Mesh", faces: np.ndarray, max_aspect: float, cos_turn: float,
-                   max_cells: int, reach_m: float) -> _Walked:
-    """March every stack one cell per step (see the module docstring)."""
-    n = len(faces)
-    owner, neighbour = mesh.owner, mesh.neighbour
-    xf, areas = mesh.face_centroids, mesh.face_areas
-
-    cells0 = owner[faces]
-    n_wall = _unit_normals(mesh, faces, -np.ones(n))      # area vectors point out of the domain
-    centre = _dot(mesh.cell_centroids[cells0] - xf[faces], n_wall)
-    first = _extent(mesh, cells0, xf[faces], n_wall)
-    layered_first = np.zeros(n, dtype=bool)
-
-    columns: list[np.ndarray] = []
-    n_walked = np.zeros(n, dtype=np.int64)
-    n_layers = np.zeros(n, dtype=np.int64)
-    in_stack = np.ones(n, dtype=bool)
-    end = np.full(n, END_LIMIT, dtype=np.int8)
-    core_cell = np.full(n, -1, dtype=np.int64)
-    core_origin = np.zeros((n, 3))
-    core_normal = np.zeros((n, 3))
-
-    # State of the active stacks; the entry face's centroid and width carry over a step.
-    act, cell, entry, nin = np.arange(n), cells0.copy(), faces.copy(), n_wall.copy()
-    x_in = xf[faces]
-    a_in = areas[faces]
-    top = np.zeros(n)                        # distance from the wall walked so far, per stack
-    for step in range(max_cells):
-        if act.size == 0:
-            break
-        opp, shaped = _opposite(mesh, cell, entry, x_in, nin)
-        mine = owner[opp] == cell
-        a_out = areas[opp]
-        x_out = np.take(xf, opp, axis=0)      # take and compress: see _opposite
-        nout = np.take(mesh.face_area_vectors, opp, axis=0) * (
-            np.where(mine, 1.0, -1.0) / np.where(a_out > 0, a_out, 1.0))[:, None]
-        h = _dot(x_out - x_in, nin)
-        straight = _dot(nout, np.take(n_wall, act, axis=0)) >= cos_turn
-        ok = shaped & straight & (h > 0)
-        width = np.sqrt(a_in) if mesh.dim == 3 else a_in
-        thin = ok & (h < max_aspect * width)
-        if step == 0:
-            first[ok] = h[ok]
-            layered_first[ok] = True
-        column = np.zeros(n)
-        column[act[ok]] = h[ok]
-        columns.append(column)
-        n_walked[act[ok]] += 1
-
-        stacking = in_stack[act]
-        n_layers[act[stacking & thin]] += 1
-        stops = stacking & ~thin
-        reason = np.where(~shaped | (ok & ~thin), END_CORE,
-                          np.where(~straight, END_TURN, END_DEGENERATE))
-        if step == 0:
-            reason[:] = NO_STACK
-        end[act[stops]] = reason[stops]
-        at_core = stops & (reason == END_CORE)
-        core_cell[act[at_core]] = cell[at_core]
-        core_origin[act[at_core]] = x_in[at_core]
-        core_normal[act[at_core]] = nin[at_core]
-        in_stack[act[stops]] = False
-
-        on_boundary = ok & (neighbour[opp] < 0)
-        closing = stacking & thin & on_boundary
-        end[act[closing]] = END_BOUNDARY
-        in_stack[act[closing]] = False
-        top[act[ok]] += h[ok]
-        # past its stack, a walk goes on only while it is within reach of the wall
-        go = ok & ~on_boundary & (in_stack[act] | (top[act] < reach_m))
-        nxt = np.where(mine, neighbour[opp], owner[opp])
-        act, cell, entry, nin = act[go], nxt[go], opp[go], np.compress(go, nout, axis=0)
-        x_in, a_in = np.compress(go, x_out, axis=0), a_out[go]
-
-    walked = int(n_walked.max(initial=0))    # the last step may have walked no cell
-    heights = np.column_stack(columns[:walked]) if walked else np.zeros((n, 0))
-    return _Walked(n_wall, centre, first, layered_first, n_layers, n_walked, heights, end,
-                   core_cell, core_origin, core_normal)
-
-
-def _stacks(faces: np.ndarray, cells0: np.ndarray, w: _Walked, extent,
+def _stacks(faces: np.ndarray, cells0: np.ndarray, w: Walked, extent,
             reach_m: float) -> WallLayers:
     """The stacks' thickness, growth and core jump from the walked heights."""
-    n, heights, n_layers, core_cell = len(faces), w.heights, w.n_layers, w.core_cell
+    n, heights = len(faces), w.heights
+    n_layers, end, core_cell, core_origin, core_normal = _cut_before_a_block(w)
+    n_layers, end, passage = _cut_at_the_middle(heights, n_layers, end, w.facing)
     depth = np.arange(heights.shape[1])[None, :]
     in_layers = depth < n_layers[:, None]
     thickness = np.where(in_layers, heights, 0.0).sum(axis=1)
@@ -349,9 +225,48 @@ def _stacks(faces: np.ndarray, cells0: np.ndarray, w: _Walked, extent,
     core_jump = np.zeros(n)
     has_core = np.flatnonzero(core_cell >= 0)
     if has_core.size:
-        core_h = extent(core_cell[has_core], w.core_origin[has_core], w.core_normal[has_core])
+        core_h = extent(core_cell[has_core], core_origin[has_core], core_normal[has_core])
         last = heights[has_core, n_layers[has_core] - 1]
         core_jump[has_core] = core_h / last
     return WallLayers(faces, cells0, w.n_wall, w.centre, w.first, w.layered_first, n_layers,
-                      w.n_walked, heights, thickness, max_growth, growth_layer, w.end, core_cell,
-                      core_jump, reach=reach_m)
+                      w.n_walked, heights, thickness, max_growth, growth_layer, end, core_cell,
+                      core_jump, passage, reach=reach_m)
+
+
+def _cut_before_a_block(w: Walked):
+    """Layers, end codes and core cells once the stacks that end in a block of cells of one
+    height, entered with a jump (at least two cells from the last jump on), are cut before
+    that jump: the block is a core (the centre of a pipe O-grid), its first cell the core
+    cell."""
+    n_layers, end = w.n_layers.copy(), w.end.copy()
+    core_cell, core_origin, core_normal = (w.core_cell.copy(), w.core_origin.copy(),
+                                           w.core_normal.copy())
+    cut = np.flatnonzero((w.jump_at >= 1) & (n_layers - w.jump_at >= 2))
+    n_layers[cut] = w.jump_at[cut]
+    end[cut] = END_CORE
+    core_cell[cut] = w.jump_cell[cut]
+    core_origin[cut] = w.jump_origin[cut]
+    core_normal[cut] = w.jump_normal[cut]
+    return n_layers, end, core_cell, core_origin, core_normal
+
+
+def _cut_at_the_middle(heights: np.ndarray, n_layers: np.ndarray, end: np.ndarray,
+                       facing: np.ndarray):
+    """Layers, end codes and passage widths once the stacks that reached a facing wall are
+    cut at the middle: a layer stays if it starts before half the distance across (the
+    cell holding the middle belongs to both walls' stacks)."""
+    passage = np.full(len(end), math.inf)
+    across = np.flatnonzero((end == END_BOUNDARY) & facing)
+    if across.size == 0:
+        return n_layers, end, passage
+    h, k = heights[across], n_layers[across]
+    inside = np.arange(h.shape[1])[None, :] < k[:, None]
+    tops = np.cumsum(np.where(inside, h, 0.0), axis=1)
+    width = tops[np.arange(across.size), k - 1]
+    # the bottom of a layer equal to the middle (an even count of equal cells) is past it
+    starts = inside & (tops - h < 0.5 * width[:, None] * (1 - 1e-9))
+    n_layers, end = n_layers.copy(), end.copy()
+    n_layers[across] = np.count_nonzero(starts, axis=1)
+    end[across] = END_MIDDLE
+    passage[across] = width
+    return n_layers, end, passage

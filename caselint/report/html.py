@@ -17,7 +17,7 @@ from caselint.engine.hookspecs import hookimpl
 from caselint.model import CaseReport, Report
 from caselint.report import signoff
 from caselint.report.base import RenderOptions, Reporter
-from caselint.report.presentation import SourceKeys
+from caselint.report.presentation import SourceKeys, in_summary_order, spread_sentence
 
 _STYLE = """
 body { font-family: system-ui, sans-serif; max-width: 60rem; margin: 1.5rem auto;
@@ -137,6 +137,12 @@ def _case(report: Report, case: CaseReport, index: int, stamp: str, tag: str,
         out.append("</ul>")
     else:
         out.append("<p>No findings.</p>")
+    spreads = [(c.rule, spread_sentence(c, d)) for c in in_summary_order(case.checks)
+               for d in c.distributions]
+    if spreads:
+        out.append(f"<{sub}>Spread over the mesh</{sub}>")
+        out += ["<ul>", *(f"<li><strong>{_e(rule)}</strong> {_e(text)}</li>"
+                          for rule, text in spreads), "</ul>"]
     out += _plots(case, index)
     out.append(f"<{sub}>Waivers</{sub}>")
     if case.waivers:

@@ -19,7 +19,7 @@ from caselint.engine.hookspecs import hookimpl
 from caselint.model import CaseReport, Report
 from caselint.report import signoff
 from caselint.report.base import RenderOptions, Reporter
-from caselint.report.presentation import SourceKeys
+from caselint.report.presentation import SourceKeys, in_summary_order, spread_sentence
 
 #: Characters escaped in text; "<=" and ">=" (limits) stay as they are: no tag opens so.
 _SPECIAL = re.compile(r"([\\`*_\[\]|#]|[<>](?!=))")
@@ -89,6 +89,11 @@ def _case(report: Report, case: CaseReport, stamp: str, level: str,
         if finding.waived and finding.waiver:
             line += f"; {md(finding.waiver)}"
         out.append(_cited(line, keys.cite(finding)))
+    spreads = [(c.rule, spread_sentence(c, d)) for c in in_summary_order(case.checks)
+               for d in c.distributions]
+    if spreads:
+        out += ["", f"{sub} Spread over the mesh", ""]
+        out += [f"- **{md(rule)}** {md(text)}" for rule, text in spreads]
     out += ["", f"{sub} Waivers", ""]
     if case.waivers:
         out += _table(("Rule", "Scope", "Reason", "Approved by", "Expires", "Status"),

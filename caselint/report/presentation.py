@@ -129,3 +129,48 @@ class SourceKeys:
     def entries(self) -> list[tuple[str, str, str]]:
         """``([n], rule, source)`` for every rule cited, in key order."""
         return [(f"[{n}]", rule, self._sources[rule]) for rule, n in self._keys.items()]
+
+
+#: Words for the places of a distribution.
+PLACE_WORDS = {"region": "in regions", "near-wall": "near walls", "elsewhere": "elsewhere"}
+
+
+def spread_sentence(check: Check, dist) -> str:
+    """One line on how a place-graded quantity is spread (a :class:`Distribution`):
+    ``over 74,212 faces: median 1.06, 99% below 1.25, worst 1.57 near walls; beyond 1.3:
+    0.4% (near walls 0.2%, elsewhere 0.5%)``."""
+    unit = f" {check.unit}" if check.unit else ""
+    pct = dict(dist.percentiles)
+    what = f"{dist.label}: " if dist.label else ""
+    weight = f" (by {dist.weighted})" if dist.weighted else ""
+    parts = [f"{what}over {dist.count:,} {dist.entity}{'' if dist.count == 1 else 's'}{weight}"]
+    if pct:
+        tail, end = (99.0, 100.0) if dist.worse == "higher" else (1.0, 0.0)
+        word = "below" if dist.worse == "higher" else "above"
+        text = f"median {_short(pct[50.0])}{unit}"
+        if tail in pct:
+            text += f", 99% {word} {_short(pct[tail])}{unit}"
+        text += f", worst {_short(pct[end])}{unit}"
+        if dist.worst_place:
+            text += f" {PLACE_WORDS.get(dist.worst_place, dist.worst_place)}"
+        parts.append(text)
+    for limit, share in dist.beyond:
+        per_place = [f"{PLACE_WORDS.get(p.place, p.place)} {share_of(p.beyond, limit)}"
+                     for p in dist.places if p.count]
+        inner = f" ({', '.join(per_place)})" if len(per_place) > 1 else ""
+        side = "beyond" if dist.worse == "higher" else "below"
+        parts.append(f"{side} {format_number(limit)}{unit}: {share:.2g}%{inner}")
+    return "; ".join(parts)
+
+
+def share_of(pairs, limit: float) -> str:
+    """The percent past ``limit`` from (limit, percent) pairs, as text ('-' if absent)."""
+    for lim, share in pairs:
+        if lim == limit:
+            return f"{share:.2g}%"
+    return "-"
+
+
+def _short(value: float) -> str:
+    """Four significant digits: a spread is read at a glance."""
+    return f"{value:.4g}"

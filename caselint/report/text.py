@@ -37,6 +37,7 @@ from caselint.report.presentation import (
     in_summary_order,
     measured_and_limit,
     outcome_label,
+    spread_sentence,
 )
 from caselint.wording import format_number, plural
 
@@ -168,18 +169,32 @@ def _findings(console: Console, findings: list[Finding], plain: bool,
             _finding_block(console, finding, plain, sources)
 
 
+def _spreads(console: Console, checks) -> None:
+    """How each place-graded quantity is spread over the mesh (beyond its worst value)."""
+    rows = [(c.rule, spread_sentence(c, d)) for c in in_summary_order(checks)
+            for d in c.distributions]
+    _titled_grid(console, "Spread over the mesh",
+                 [(Text(rule, style="bold"), sentence) for rule, sentence in rows])
+
+
 def _sources(console: Console, sources: SourceKeys) -> None:
     """Each cited rule's sources, once for the whole report."""
-    entries = sources.entries()
-    if not entries:
+    _titled_grid(console, "Sources",
+                 [(key, Text().append(rule, "bold").append(": " + source))
+                  for key, rule, source in sources.entries()])
+
+
+def _titled_grid(console: Console, title: str, rows: list) -> None:
+    """A bold title and two columns, the first kept on one line; nothing when no rows."""
+    if not rows:
         return
     console.print()
-    console.print(Text("Sources", style="bold"))
+    console.print(Text(title, style="bold"))
     grid = Table.grid(padding=(0, 1))
     grid.add_column(no_wrap=True)
     grid.add_column(ratio=1)
-    for key, rule, source in entries:
-        grid.add_row(key, Text().append(rule, "bold").append(": " + source))
+    for first, second in rows:
+        grid.add_row(first, second)
     console.print(grid)
 
 
@@ -235,6 +250,7 @@ def render_text(report: Report, options: RenderOptions) -> str:
         _checks_table(console, in_summary_order(case.checks), plain)
         console.print()
         _findings(console, sorted(case.findings, key=finding_sort_key), plain, sources)
+        _spreads(console, case.checks)
     _sources(console, sources)
     if len(report.cases) > 1:
         console.print()

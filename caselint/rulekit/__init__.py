@@ -8,12 +8,16 @@ and nothing else of caselint (a test holds the built-in rules to that). The kit 
 - :mod:`.words`: counts and numbers in a finding's words, distributions by area;
 - :mod:`.measures`: measurements of face and cell metrics, their extents for grading by
   extent and place, and the place grades such a rule declares;
+- :mod:`.face_metrics`: a face metric's result (worst located, extent, picture);
+- :mod:`.sources`: the sources and place-grading words the mesh-quality rules share;
+- :mod:`.stacks`: the cells of the wall-layer stacks, which the layer rules judge;
 - :mod:`.places`: the place of each cell and face (region of interest, near a no-slip
   wall, elsewhere);
 - :mod:`.walls`: choosing the no-slip walls of a case, their layer stacks;
 - :mod:`.regions`: regions of interest and cell sizes;
 - :mod:`.rays`: the rays from the walls, cast once and shared;
 - :mod:`.wallflow` and :mod:`.velocity`: the flow a near-wall or time-step rule assumes;
+- :mod:`.thickness`: the boundary-layer thickness at each wall face;
 - :mod:`.cases`: what the case's physics means (storage location, scale-resolving models);
 - :mod:`.meshview`: points of cells and faces.
 

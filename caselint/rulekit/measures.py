@@ -115,21 +115,24 @@ def face_measurement(mesh: "Mesh", values: np.ndarray, faces: np.ndarray | None,
 
 
 def cell_measurement(mesh: "Mesh", values: np.ndarray, cells: np.ndarray | None,
-                     limits: Limits, fmt: str) -> Measurement:
-    """The largest of a cell metric ``values`` (C,) over ``cells`` (None: all), with the
-    cells past the first limit counted and the worst located (ties: lowest file id)."""
+                     limits: Limits, fmt: str, worse: str = "higher") -> Measurement:
+    """The worst (largest, or smallest when ``worse`` is ``lower``) of a cell metric
+    ``values`` (C,) over ``cells`` (None: all), with the cells past the first limit
+    counted and the worst located (ties: lowest file id)."""
     chosen = _Chosen(cells)
     threshold = first_limit(limits)
-    local, count = worst_ids(chosen.take(values), threshold,
+    local, count = worst_ids(chosen.take(values), threshold, worse,
                              names=chosen.take(mesh.file_cell_ids()))
     listed = chosen.ids_of(local)
     worst = int(listed[0])
     name = int(mesh.file_cell_ids(worst))
+    past, extreme = ("above", "largest") if worse == "higher" else ("below", "lowest")
     if count:
-        detail = (f"{plural(count, 'cell')} above {threshold:g}, "
+        detail = (f"{plural(count, 'cell')} {past} {threshold:g}, "
                   f"worst cell {name} ({format(values[worst], fmt)})")
     else:
-        detail = f"no cell above the limit; largest {format(values[worst], fmt)} in cell {name}"
+        detail = (f"no cell {past} the limit; {extreme} {format(values[worst], fmt)} in "
+                  f"cell {name}")
     where = Where(cells=cell_names(mesh, listed) if count else (), cell_count=count,
                   point=finite_point(mesh.cell_centroids[worst]))
     return Measurement(value=float(values[worst]), where=where, detail=detail)
@@ -146,13 +149,13 @@ def face_extent(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None
 
 
 def cell_extent(ctx: "RuleContext", values: np.ndarray, fmt: str,
-                cells: np.ndarray | None = None) -> Extent:
+                cells: np.ndarray | None = None, worse: str = "higher") -> Extent:
     """The cell metric ``values`` (C,) over ``cells`` (None: all), each cell with its place."""
     mesh, chosen = ctx.mesh, _Chosen(cells)
     return Extent(
         values=chosen.take(values), places=chosen.take(cell_places(ctx)), entity="cell",
         measure=lambda subset, limits: cell_measurement(
-            mesh, values, chosen.ids_of(subset), limits, fmt))
+            mesh, values, chosen.ids_of(subset), limits, fmt, worse))
 
 
 def graded_by_place(*, elsewhere: Limits, elsewhere_source: str, share_warn: float = 1.0,

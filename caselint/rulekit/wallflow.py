@@ -232,17 +232,3 @@ def correlation_friction(flow: FlowData, centroids: np.ndarray,
              f"{u_tau.max():.4g} m/s"
     return Friction(u_tau, f"{name} at {where} ({at})", tuple(notes))
 
-
-def boundary_layer_thickness(flow: FlowData) -> tuple[float, str]:
-    """Estimated boundary-layer thickness (m) at the flow length, and how it was estimated."""
-    length = float(flow.length)
-    if flow.kind == "internal":
-        # Fully developed duct flow: the wall layers meet on the axis.
-        return 0.5 * length, f"half the hydraulic diameter {length:.4g} m (fully developed " \
-                             "internal flow: the boundary layers fill the duct)"
-    re = fr.reynolds(flow.velocity, length, flow.nu)
-    if flow.turbulent:
-        delta = fr.delta_turbulent(length, re)
-        return delta, f"0.37 x Re_x^-1/5 at x = {length:.4g} m (turbulent, Re_x = {fmt(re)})"
-    delta = fr.delta_laminar(length, re)
-    return delta, f"5.0 x / sqrt(Re_x) at x = {length:.4g} m (laminar, Re_x = {fmt(re)})"

@@ -288,6 +288,16 @@ def check_degenerate_faces(ctx: "RuleContext") -> RuleResult:
     return RuleResult(measurements=(Measurement(float(bad.size), where=where, detail=detail),))
 
 
+def check_mesh_reading(ctx: RuleContext) -> RuleResult:
+    """What the reader changed or left out (its notes), each as a note finding."""
+    notes = ctx.mesh.notes
+    counts = ", ".join(f"{n} {t}" for t, n in sorted(ctx.mesh.cell_counts.items()))
+    detail = (f"read {plural(ctx.mesh.n_cells, 'cell')} ({counts}) as written"
+              if not notes else f"{plural(len(notes), 'change')} made while reading")
+    return RuleResult(measurements=(Measurement(float(len(notes)), detail=detail),),
+                      notes=tuple(Note(f"reading the mesh: {n}") for n in notes))
+
+
 # -- the rules -------------------------------------------------------------------------------
 
 DUPLICATE_POINTS = Rule(
@@ -402,7 +412,27 @@ DEGENERATE_FACES = Rule(
     measures="number of faces with fewer than three distinct points (two in 2-D)",
 )
 
-RULES: tuple[Rule, ...] = (DUPLICATE_POINTS, NON_MANIFOLD_FACES, DISCONNECTED_PIECES,
+MESH_READING = Rule(
+    id="mesh-reading",
+    title="What reading the mesh changed",
+    rationale=(
+        "A reader sometimes has to read a file differently from how it is written, or leave "
+        "part of it out: higher-order cells read by their corners, a block of cells written "
+        "in the other node order read in that order, a one-cell-thick case read as 2-D, "
+        "boundary polygons it does not use. Each such change is listed as a note so that "
+        "the reviewer knows what was checked. It never fails a case: the rules that judge "
+        "the mesh see the result."
+    ),
+    source="caselint's mesh readers",
+    unit="changes",
+    limits=Limits(warn=None, error=None),
+    hint="Read the notes: where a change is not what the file means, re-export the mesh.",
+    check=check_mesh_reading,
+    measures="number of changes the reader made",
+    main_description="reported only: the changes are listed as notes, never graded",
+)
+
+RULES: tuple[Rule, ...] = (MESH_READING, DUPLICATE_POINTS, NON_MANIFOLD_FACES, DISCONNECTED_PIECES,
                            UNMATCHED_BOUNDARY_ELEMENTS, OPEN_CELLS, DEGENERATE_FACES)
 
 

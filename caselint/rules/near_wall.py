@@ -12,11 +12,13 @@ from __future__ import annotations
 import numpy as np
 
 from caselint import hookimpl
+from caselint.mesh.rays import cells_within
 from caselint.mesh.wall_layers import END_CORE, END_WORDS
 from caselint.model import (
     Limits,
     Measurement,
     Note,
+    Parameter,
     PlotData,
     PlotSeries,
     Rule,
@@ -32,7 +34,7 @@ from caselint.rulekit import (
     plural,
     settled,
 )
-from caselint.rulekit import wallflow
+from caselint.rulekit.thickness import along_walls
 from caselint.rulekit.walls import locate, walls
 
 _DPW = "AIAA Drag Prediction Workshop gridding guidelines"
@@ -83,59 +85,77 @@ def check_wall_spacing_uniformity(ctx: RuleContext) -> RuleResult:
 
 # -- boundary-layer-cells ------------------------------------------------------------------
 
+#: Default of ``leading_zone``: the fraction of the walls' length along the flow, from the
+#: leading edge, where boundary-layer-cells does not grade the count.
+LEADING_ZONE = 0.1
+
 
 def check_boundary_layer_cells(ctx: RuleContext) -> RuleResult:
-    """Cells within the estimated boundary-layer thickness above each wall face."""
-    found = _walls_within_delta(ctx)
-    if isinstance(found, RuleResult):
-        return found
-    found, delta, how = found
+    """Per wall boundary, the fewest cells across the local boundary-layer thickness, counted
+    along the inward normal of each wall face."""
+    got = along_walls(ctx)
+    if isinstance(got, str):
+        return RuleResult.skip(got)
+    found, delta, thick = got
     mesh, layers = ctx.mesh, found.layers
-    count = layers.cells_within(delta).astype(np.float64)
+    crossing = cells_within(mesh, layers.faces, delta)
+    count = settled(crossing.cells)
+    zone = float(ctx.params["leading_zone"])
+    graded = (np.ones(len(delta), dtype=bool) if thick.x is None
+              else thick.x >= zone * float(thick.x.max()))
     threshold = first_limit(ctx.limits)
+    notes = [Note(f"boundary-layer thickness {thick.how}; cells counted along the inward "
+                  "normal of each wall face through any cell type, each by the length of "
+                  "the normal inside it (up to delta) over the cell's depth along it"),
+             *(Note(text) for text in thick.notes)]
     measurements = []
-    notes = [Note(f"boundary-layer thickness {delta:.3g} m: {how}; cells are counted along "
-                  "the layer-shaped cells above each wall face (prisms, hexahedra), not into "
-                  "a tetrahedral core")]
     for name, rows in found.items():
+        short = rows[crossing.short[rows]]
+        if short.size:
+            notes.append(Note(f"{plural(short.size, 'face')} of '{name}' whose ray meets the "
+                              "boundary (or a damaged cell) within delta: counted up to it",
+                              Where(boundary=name)))
+        near_edge = rows[~graded[rows]]
+        if near_edge.size:
+            notes.append(Note(
+                f"{plural(near_edge.size, 'face')} of '{name}' in the first {zone:.0%} of the "
+                "walls' length along the flow not graded (the boundary layer grows from "
+                f"nothing at the leading edge); fewest {float(count[near_edge].min()):.3g} "
+                "cells there", Where(boundary=name)))
+        rows = rows[graded[rows]]
+        if not rows.size:
+            continue
         faces = layers.faces[rows]
         where, worst, n_bad = locate(mesh, faces, count[rows], threshold, "lower", name)
         r = rows[worst]
         lead = (f"{n_bad} of {plural(len(faces), 'face')} with fewer than {threshold:g} cells "
-                if n_bad else "no face below the limit; ")
-        detail = (f"{lead}within delta = {delta:.3g} m; fewest {int(count[r])} at "
-                  f"{at_face(mesh, int(faces[worst]))}, under a stack of "
+                "within the local delta" if n_bad else "no face below the limit")
+        detail = (f"{lead}; fewest {float(count[r]):.3g} at {at_face(mesh, int(faces[worst]))}"
+                  f"{thick.at(r)}, delta = {delta[r]:.3g} m, under a stack of "
                   f"{plural(int(layers.n_layers[r]), 'layer')} ({layers.thickness[r]:.3g} m)")
         fix = ""
         if threshold:
-            fix = (f"Refine normal to '{name}': {threshold:g} cells within delta = {delta:.3g} m "
-                   f"means cells of at most {delta / threshold:.3g} m on average there; add "
-                   "inflation layers or lower their growth ratio.")
+            fix = (f"Refine normal to '{name}': {threshold:g} cells within delta = "
+                   f"{delta[r]:.3g} m means cells of at most {delta[r] / threshold:.3g} m on "
+                   "average there; add inflation layers or lower their growth ratio.")
         measurements.append(Measurement(float(count[r]), where, detail, fix))
+    if not measurements:
+        return RuleResult(skipped=f"every wall face lies in the first {zone:.0%} of the walls' "
+                                  "length along the flow (parameter leading_zone)",
+                          notes=tuple(notes))
     return RuleResult(tuple(measurements), notes=tuple(notes))
-
-
-def _walls_within_delta(ctx: RuleContext):
-    """(walls walked up to delta, delta, how delta was estimated), or the skip result."""
-    flow = wallflow.flow_data(ctx.case)
-    if isinstance(flow, str):
-        return RuleResult.skip(flow)
-    delta, how = wallflow.boundary_layer_thickness(flow)
-    found = walls(ctx, reach_m=delta)            # cells are counted up to delta only
-    if isinstance(found, str):
-        return RuleResult.skip(found)
-    return found, delta, how
 
 
 # -- layer-cover ---------------------------------------------------------------------------
 
 
 def check_layer_cover(ctx: RuleContext) -> RuleResult:
-    """Per wall boundary, the thinnest layer stack over the boundary-layer thickness."""
-    found = _walls_within_delta(ctx)
-    if isinstance(found, RuleResult):
-        return found
-    found, delta, how = found
+    """Per wall boundary, the smallest ratio of a face's stack thickness to its local
+    boundary-layer thickness."""
+    got = along_walls(ctx)
+    if isinstance(got, str):
+        return RuleResult.skip(got)
+    found, delta, thick = got
     mesh, layers = ctx.mesh, found.layers
     cover = settled(layers.thickness / delta)
     measurements = []
@@ -147,11 +167,13 @@ def check_layer_cover(ctx: RuleContext) -> RuleResult:
         layer_words = plural(int(layers.n_layers[r]), "layer")
         measurements.append(Measurement(
             float(cover[r]), where,
-            f"thinnest stack {layers.thickness[r]:.3g} m ({layer_words}) at "
-            f"{at_face(mesh, int(faces[worst]))}; delta = {delta:.3g} m ({how})",
-            f"Grow the inflation stack on '{name}' to at least delta = {delta:.3g} m: more "
-            "layers, or a larger total thickness."))
-    return RuleResult(tuple(measurements))
+            f"thinnest stack for its boundary layer {layers.thickness[r]:.3g} m "
+            f"({layer_words}) at {at_face(mesh, int(faces[worst]))}{thick.at(r)}, where "
+            f"delta = {delta[r]:.3g} m",
+            f"Grow the inflation stack on '{name}' to at least delta = {delta[r]:.3g} m there: "
+            "more layers, or a larger total thickness."))
+    notes = (Note(f"boundary-layer thickness {thick.how}"), *(Note(t) for t in thick.notes))
+    return RuleResult(tuple(measurements), notes=notes)
 
 
 # -- layer-growth --------------------------------------------------------------------------
@@ -261,17 +283,31 @@ WALL_SPACING_UNIFORMITY = Rule(
     measures="ratio of the largest to the smallest first-layer height",
 )
 
+_THICKNESS = (
+    "The boundary-layer thickness delta is estimated at each wall face from its distance x "
+    "from the leading edge along the flow (physics.flow.leading_edge, or the walls' most "
+    "upstream point along physics.flow.direction): turbulent 0.37 x Re_x^-1/5 (1/7-power "
+    "law, Schlichting 1979, from memory), laminar 5.0 x / sqrt(Re_x) (Blasius); internal "
+    "flow develops the same way until delta reaches half the hydraulic diameter. Without a "
+    "direction or leading edge: at x = physics.flow.length (external), half the hydraulic "
+    "diameter (internal, fully developed). Where a layer stack runs into a facing wall, delta "
+    "is at most half the distance across."
+)
+
 BOUNDARY_LAYER_CELLS = Rule(
     id="boundary-layer-cells",
     title="Cells across the boundary layer",
     rationale=(
-        "The boundary-layer thickness is estimated at the flow length: turbulent "
-        "0.37 x Re_x^-1/5 (1/7-power law, Schlichting 1979, from memory), laminar "
-        "5.0 x / sqrt(Re_x) (Blasius); for internal flow half the hydraulic diameter (fully "
-        "developed flow). Counting the cells lined up above each wall face that lie wholly "
-        "within it, at least 10 are wanted (warning below 10, error below 5; common practice: "
-        "5-10 or more cells across a boundary layer). Whether the inflation stack reaches the "
-        "edge of the boundary layer is the rule layer-cover."
+        _THICKNESS + " A ray cast from each wall face along its inward normal counts the "
+        "cells it crosses within delta, through any cell type (layers, tetrahedra, "
+        "triangles, polyhedra): each cell by the length of the ray inside it, up to delta, "
+        "over the cell's depth along the ray (the spread of its vertices along it), so a "
+        "layer crossed along its normal counts 1, the layer delta cuts the part of it below "
+        "delta, and a tetrahedron the ray clips near a corner little. At least 10 are wanted (warning below 10, error below 5; "
+        "common practice: 5-10 or more cells across a boundary layer). Faces in the first "
+        "leading_zone of the walls' length along the flow are not graded: the boundary layer "
+        "grows from nothing at a leading edge, thinner there than any wall cell. Whether the "
+        "inflation stack reaches the edge of the boundary layer is the rule layer-cover."
     ),
     source="Schlichting 1979; Blasius 1908; cell counts: common practice",
     unit="cells",
@@ -281,15 +317,19 @@ BOUNDARY_LAYER_CELLS = Rule(
     check=check_boundary_layer_cells,
     worse="lower",
     needs=("walls", "physics.flow.length", "mesh"),
-    measures="fewest cells within the boundary-layer thickness",
+    measures="fewest cells within the local boundary-layer thickness",
+    parameters=(Parameter(
+        "leading_zone", LEADING_ZONE, "",
+        "fraction of the walls' length along the flow, from the leading edge, left "
+        "ungraded (caselint default 0.1; 0 grades every face)", minimum=0.0, maximum=1.0),),
 )
 
 LAYER_COVER = Rule(
     id="layer-cover",
     title="Wall layer stacks covering the boundary layer",
     rationale=(
-        "The thickness of the wall layer stack (prism or hexahedral layers) over the "
-        "estimated boundary-layer thickness delta (as for boundary-layer-cells). A stack that "
+        "The thickness of the wall layer stack (prism or hexahedral layers) over the local "
+        "boundary-layer thickness delta at each wall face. " + _THICKNESS + " A stack that "
         "stops well inside the boundary layer leaves the outer part of it to core cells, "
         "usually much coarser across the wall; a stack reaching delta keeps the whole "
         "profile in layers. Warning when thinner than delta (common practice)."
@@ -302,7 +342,7 @@ LAYER_COVER = Rule(
     check=check_layer_cover,
     worse="lower",
     needs=("walls", "physics.flow.length", "mesh"),
-    measures="thinnest layer stack over the boundary-layer thickness",
+    measures="thinnest layer stack over the local boundary-layer thickness",
 )
 
 LAYER_GROWTH = Rule(

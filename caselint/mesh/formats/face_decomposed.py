@@ -34,18 +34,18 @@ _ADDRESSING = ("pointProcAddressing", "faceProcAddressing", "cellProcAddressing"
 
 
 def read_decomposed(case: Path, folders: list[Path]) -> tuple[FolderMesh, tuple[str, ...]]:
-    """The whole mesh of a decomposed case and a note on how it was joined."""
+    """The whole mesh of a decomposed case, and a note when its numbering is not the
+    undecomposed mesh's (with the addressing files it is exactly that mesh: no note, so
+    the two give the same report)."""
     parts = [read_folder_mesh(folder) for folder in folders]
     _check_processor_patches(case, parts)
     addressing = [_addressing(folder, part) for folder, part in zip(folders, parts)]
     if all(a is not None for a in addressing):
-        mesh = _renumbered(case, parts, addressing)
-        how = "with the original numbering from the addressing files"
-    else:
-        mesh = _joined(case, parts)
-        how = ("numbered part after part (no addressing files: cell and point ids are not "
-               "the undecomposed mesh's)")
-    return mesh, (f"read from {len(parts)} processor folders, joined {how}",)
+        return _renumbered(case, parts, addressing), ()
+    mesh = _joined(case, parts)
+    return mesh, (f"read from {len(parts)} processor folders with no addressing files, "
+                  "numbered part after part: cell and point ids are not the undecomposed "
+                  "mesh's",)
 
 
 def _processor_patches(part: FolderMesh) -> list[Patch]:

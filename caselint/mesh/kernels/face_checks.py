@@ -1,5 +1,6 @@
 """Compiled per-face and per-cell passes (numba): the faces of each cell, face metrics,
-face warp, distinct points per face, cell closure, the points in use and coincident points.
+face warp, cell sizes across faces, distinct points per face, cell closure, the points in use
+and coincident points.
 
 Each function computes what its numpy reference computes, with the same arithmetic in the
 same order; the references are named in the docstrings. Angles go through ``arctan2``,
@@ -183,19 +184,42 @@ def cell_closure(owner, neighbour, n_internal, n_cells, area, areas):
 
 
 @jit
-def growth_ratio(owner, neighbour, volumes):
-    """(F,) larger over smaller volume of a face's two cells, 1 where undefined, as
-    :func:`caselint.mesh.quality.growth_ratio`."""
-    n = owner.shape[0]
-    out = np.ones(n)
-    for f in range(n):
-        nb = neighbour[f]
-        if nb < 0:
-            continue
-        vp, vn = volumes[owner[f]], volumes[nb]
-        if vp > 0 and vn > 0:
-            out[f] = max(vp, vn) / min(vp, vn)
-    return out
+def size_ratios(owner, neighbour, cf_offsets, cf_faces, face_offsets, face_points, points,
+                area, areas, centroid, iso, lo_face, hi_face, growth, spacing):
+    """Growth ratio (into ``growth``, ones) and mean size (into ``spacing``) of internal
+    faces ``lo_face`` .. ``hi_face - 1``, as :func:`caselint.mesh.size_ratio._ratios`: a
+    cell's size is ``iso[c]`` where that is a number (the root-mean-square edge of a
+    tetrahedron, pyramid or triangle), else its thickness normal to the face (its
+    vertices' largest distance from the face's plane), as
+    :func:`caselint.mesh.size_ratio.sizes_across_faces` measures it."""
+    for f in range(lo_face, hi_face):
+        a = areas[f]
+        scale = a if a > 0 else 1.0
+        n0, n1, n2 = area[f, 0] / scale, area[f, 1] / scale, area[f, 2] / scale
+        x0, x1, x2 = centroid[f, 0], centroid[f, 1], centroid[f, 2]
+        own = _size(cf_offsets, cf_faces, face_offsets, face_points, points, iso,
+                    owner[f], -1.0, n0, n1, n2, x0, x1, x2)
+        nbr = _size(cf_offsets, cf_faces, face_offsets, face_points, points, iso,
+                    neighbour[f], 1.0, n0, n1, n2, x0, x1, x2)
+        if own > 0 and nbr > 0:
+            growth[f] = max(own, nbr) / min(own, nbr)
+        spacing[f] = 0.5 * (own + nbr)
+
+
+@jit(inline="always")
+def _size(cf_offsets, cf_faces, face_offsets, face_points, points, iso, cell, sign,
+          n0, n1, n2, x0, x1, x2):
+    if not np.isnan(iso[cell]):
+        return iso[cell]
+    best = -np.inf
+    for i in range(cf_offsets[cell], cf_offsets[cell + 1]):
+        g = cf_faces[i]
+        for j in range(face_offsets[g], face_offsets[g + 1]):
+            p = face_points[j]
+            d = (points[p, 0] - x0) * n0 + (points[p, 1] - x1) * n1 + (points[p, 2] - x2) * n2
+            if sign * d > best:
+                best = sign * d
+    return best if best > 0.0 else 0.0
 
 
 @jit

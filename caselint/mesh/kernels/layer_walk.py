@@ -1,6 +1,6 @@
 """Compiled wall-layer walk: each wall face's stack walked on its own (numba).
 
-The numpy reference is :func:`caselint.mesh.wall_layers._walk` (all stacks in lock step,
+The numpy reference is :func:`caselint.mesh.stack_walk.walk_lockstep` (all stacks in lock step,
 one vectorised step per layer); this module walks one stack at a time with the same
 arithmetic in the same order, so the results are equal to the bit. See
 :mod:`caselint.mesh.wall_layers` for what a stack is and when it ends.
@@ -12,8 +12,8 @@ import numpy as np
 
 from caselint.mesh.kernels import jit
 
-# end codes, as in caselint.mesh.wall_layers
-NO_STACK, END_CORE, END_TURN, END_BOUNDARY, END_LIMIT, END_DEGENERATE = 0, 1, 2, 3, 4, 5
+# end codes, as in caselint.mesh.stack_walk
+NO_STACK, END_CORE, END_TURN, END_BOUNDARY, END_LIMIT, END_DEGENERATE, END_SHRINK = range(7)
 _BIG = np.finfo(np.float64).max
 
 
@@ -46,7 +46,7 @@ def _shares_point(face_offsets, face_points, f, g):
 def opposite(cf_offsets, cf_faces, face_offsets, face_points, owner, area, centroid, cell,
              entry, x_in, n_in):
     """The face of ``cell`` opposite ``entry`` and whether it has one, as
-    :func:`caselint.mesh.wall_layers._opposite` chooses it (first slot among equal scores)."""
+    :func:`caselint.mesh.stack_walk.opposite` chooses it (first slot among equal scores)."""
     lo, hi = cf_offsets[cell], cf_offsets[cell + 1]
     best_j, best, nan_j = -1, np.inf, -1
     best_cand = False
@@ -84,13 +84,15 @@ BATCH = 16
 
 @jit
 def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbour, area,
-         areas, centroid, cell_centroids, faces, max_aspect, cos_turn, max_cells, reach_m,
-         three_d):
+         areas, centroid, cell_centroids, faces, walled, max_aspect, min_ratio, jump_ratio,
+         cos_turn, max_cells, reach_m, three_d):
     """Walk the stack above every boundary face of ``faces``.
 
     Returns per face: wall normal (n, 3), centre distance, first height, layered first,
-    layers, cells walked, end code, core cell, core origin (n, 3), core normal (n, 3), and
-    the (n, most cells walked) heights of the walked cells (0 beyond ``n_walked``).
+    layers, cells walked, end code, core cell, core origin (n, 3), core normal (n, 3),
+    whether the stack ended on a face of ``walled`` (a facing wall), the last jump's layer,
+    cell, origin (n, 3) and normal (n, 3), and the (n, most cells walked) heights of the
+    walked cells (0 beyond ``n_walked``).
     """
     n = faces.shape[0]
     n_wall = np.empty((n, 3))
@@ -103,6 +105,12 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
     core_cell = np.full(n, -1, dtype=np.int64)
     core_origin = np.zeros((n, 3))
     core_normal = np.zeros((n, 3))
+    facing = np.zeros(n, dtype=np.bool_)
+    jump_at = np.full(n, -1, dtype=np.int64)
+    jump_cell = np.full(n, -1, dtype=np.int64)
+    jump_origin = np.zeros((n, 3))
+    jump_normal = np.zeros((n, 3))
+    uneven = 1.0 / min_ratio
     heights = np.zeros((n, 16))
     widest = 0
     # the state of the stack in each slot; the entry face's centroid and width carry over
@@ -114,6 +122,7 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
     nin = np.zeros((BATCH, 3))
     a_in = np.zeros(BATCH)
     top = np.zeros(BATCH)
+    h_last = np.zeros(BATCH)
     in_stack = np.zeros(BATCH, dtype=np.bool_)
     nout = np.empty(3)
     following = 0
@@ -162,7 +171,9 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
                         + nout[2] * n_wall[i, 2]) >= cos_turn
             ok = shaped and straight and h > 0
             width = np.sqrt(a_in[b]) if three_d else a_in[b]
-            thin = ok and h < max_aspect * width
+            flat = ok and h < max_aspect * width
+            grows = step[b] == 0 or h >= min_ratio * h_last[b]
+            thin = flat and grows
             if ok:
                 if step[b] == 0:
                     first[i] = h
@@ -178,12 +189,25 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
             stacking = in_stack[b]
             if stacking:
                 if thin:
+                    if step[b] > 0:
+                        q = h / h_last[b]
+                        if q > jump_ratio:
+                            jump_at[i] = n_layers[i]
+                            jump_cell[i] = c
+                            for k in range(3):
+                                jump_origin[i, k] = x_in[b, k]
+                                jump_normal[i, k] = nin[b, k]
+                        elif q > uneven:
+                            jump_at[i] = -1
                     n_layers[i] += 1
+                    h_last[b] = h
                 else:
                     if step[b] == 0:
                         reason = NO_STACK
-                    elif not shaped or ok:
+                    elif not shaped or (ok and not flat):
                         reason = END_CORE
+                    elif ok:
+                        reason = END_SHRINK
                     elif not straight:
                         reason = END_TURN
                     else:
@@ -198,6 +222,7 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
             on_boundary = ok and neighbour[opp] < 0
             if stacking and thin and on_boundary:
                 end[i] = END_BOUNDARY
+                facing[i] = walled[opp]
                 in_stack[b] = False
             if ok:
                 top[b] += h
@@ -212,7 +237,8 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
             a_in[b] = a_out
             step[b] += 1
     return (n_wall, centre, first, layered, n_layers, n_walked, end, core_cell, core_origin,
-            core_normal, heights[:, :widest].copy())
+            core_normal, facing, jump_at, jump_cell, jump_origin, jump_normal,
+            heights[:, :widest].copy())
 
 
 @jit

@@ -30,6 +30,64 @@ def _plane(area, centroid, f):
     return u0, u1, u2, u0 * centroid[f, 0] + u1 * centroid[f, 1] + u2 * centroid[f, 2]
 
 
+@jit(inline="always")
+def exit_face(cf_offsets, cf_faces, owner, neighbour, area, centroid, c, e, o, d,
+              parallel_eps):
+    """Parameter, id and far cell of the face a ray (origin ``o``, direction ``d``) leaves
+    cell ``c`` through, never ``e`` (the face it came in through); id -1 when none."""
+    o0, o1, o2 = o[0], o[1], o[2]
+    d0, d1, d2 = d[0], d[1], d[2]
+    best_t = np.inf
+    best_f = -1
+    nxt = -1
+    for i in range(cf_offsets[c], cf_offsets[c + 1]):
+        f = cf_faces[i]
+        if f == e:
+            continue
+        p0, p1, p2, p3 = _plane(area, centroid, f)
+        dn = p0 * d0 + p1 * d1 + p2 * d2
+        mine = owner[f] == c
+        sign = 1.0 if mine else -1.0
+        if dn * sign > parallel_eps:
+            on = p0 * o0 + p1 * o1 + p2 * o2
+            t = (p3 - on) / dn
+            if t < best_t:
+                best_t = t
+                best_f = f
+                nxt = neighbour[f] if mine else owner[f]
+    return best_t, best_f, nxt
+
+
+@jit(inline="always")
+def advance(cf_offsets, cf_faces, owner, neighbour, area, centroid, cell, entry, t_now, stuck, b, o, d,
+            max_stalled, parallel_eps):
+    """The exit of the ray in slot ``b`` from its cell (parameter never behind ``t_now[b]``,
+    face, cell beyond) and whether it is lost: no exit, or no advance for more than
+    ``max_stalled`` cells in a row (``stuck[b]`` counts them)."""
+    best_t, best_f, nxt = exit_face(cf_offsets, cf_faces, owner, neighbour, area, centroid, cell[b],
+                                    entry[b], o, d, parallel_eps)
+    if best_f < 0:
+        return best_t, best_f, nxt, True
+    stuck[b] = stuck[b] + 1 if best_t <= t_now[b] else 0
+    return max(best_t, t_now[b]), best_f, nxt, stuck[b] > max_stalled
+
+
+@jit(inline="always")
+def depth(cf_offsets, cf_faces, face_offsets, face_points, points, cell, o, d):
+    """Spread of ``cell``'s vertices along the direction ``d`` (m), as
+    :func:`caselint.mesh.rays._depths` computes it."""
+    low, high = np.inf, -np.inf
+    for i in range(cf_offsets[cell], cf_offsets[cell + 1]):
+        f = cf_faces[i]
+        for j in range(face_offsets[f], face_offsets[f + 1]):
+            p = face_points[j]
+            a = ((points[p, 0] - o[0]) * d[0] + (points[p, 1] - o[1]) * d[1]
+                 + (points[p, 2] - o[2]) * d[2])
+            low = min(low, a)
+            high = max(high, a)
+    return high - low
+
+
 #: Rays one thread marches in alternation: their memory reads overlap (the march waits on
 #: memory, not arithmetic); each ray's own steps are unchanged.
 BATCH = 16
@@ -78,38 +136,13 @@ def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, start_fa
                 ray[b] = -1
                 continue
             steps[b] += 1
-            c, e = cell[b], entry[b]
-            o0, o1, o2 = origin[r, 0], origin[r, 1], origin[r, 2]
-            d0, d1, d2 = direction[r, 0], direction[r, 1], direction[r, 2]
-            best_t = np.inf
-            best_f = -1
-            nxt = -1
-            for i in range(cf_offsets[c], cf_offsets[c + 1]):
-                f = cf_faces[i]
-                if f == e:
-                    continue
-                p0, p1, p2, p3 = _plane(area, centroid, f)
-                dn = p0 * d0 + p1 * d1 + p2 * d2
-                mine = owner[f] == c
-                sign = 1.0 if mine else -1.0
-                if dn * sign > parallel_eps:
-                    on = p0 * o0 + p1 * o1 + p2 * o2
-                    t = (p3 - on) / dn
-                    if t < best_t:
-                        best_t = t
-                        best_f = f
-                        nxt = neighbour[f] if mine else owner[f]
-            if best_f < 0:
-                cells[r] = count[b]                     # no exit: lost
-                ray[b] = -1
-                continue
-            stuck[b] = stuck[b] + 1 if best_t <= t_now[b] else 0
-            if stuck[b] > max_stalled:
+            best_t, best_f, nxt, lost = advance(cf_offsets, cf_faces, owner, neighbour, area, centroid,
+                                                cell, entry, t_now, stuck, b, origin[r],
+                                                direction[r], max_stalled, parallel_eps)
+            if lost:
                 cells[r] = count[b]
                 ray[b] = -1
                 continue
-            if best_t < t_now[b]:
-                best_t = t_now[b]
             if nxt < 0:
                 status[r] = WALL if wall[best_f] else OPEN
                 hit[r] = best_f
@@ -120,3 +153,66 @@ def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, start_fa
             cell[b], entry[b], t_now[b] = nxt, best_f, best_t
             count[b] += 1
     return hit, status, width, cells
+
+
+@jit
+def march_within(cf_offsets, cf_faces, owner, neighbour, area, centroid, start_faces, origin,
+                 direction, active, limit, face_offsets, face_points, points, max_steps,
+                 max_stalled, parallel_eps):
+    """Cells crossed within ``limit[r]`` of each ray's origin, how far the count went, and
+    whether the ray stopped short of its limit, as
+    :func:`caselint.mesh.rays._within_chunk` computes them (see :func:`caselint.mesh.rays.cells_within`)."""
+    n = start_faces.shape[0]
+    cells = np.zeros(n)
+    reached = np.zeros(n)
+    short = limit > 0                                  # a zero limit is reached at once
+    ray = np.full(BATCH, -1, dtype=np.int64)
+    cell = np.zeros(BATCH, dtype=np.int64)
+    entry = np.zeros(BATCH, dtype=np.int64)
+    t_now = np.zeros(BATCH)
+    stuck = np.zeros(BATCH, dtype=np.int64)
+    steps = np.zeros(BATCH, dtype=np.int64)
+    following = 0
+    busy = True
+    while busy:
+        busy = False
+        for b in range(BATCH):
+            r = ray[b]
+            if r < 0:                                  # start the next ray in this slot
+                while following < n and not (active[following] and limit[following] > 0):
+                    following += 1
+                if following == n:
+                    continue
+                r = following
+                following += 1
+                ray[b], entry[b], t_now[b] = r, start_faces[r], 0.0
+                cell[b], stuck[b], steps[b] = owner[start_faces[r]], 0, 0
+            busy = True
+            if steps[b] == max_steps:
+                reached[r] = t_now[b]
+                ray[b] = -1
+                continue
+            steps[b] += 1
+            best_t, best_f, nxt, lost = advance(cf_offsets, cf_faces, owner, neighbour, area, centroid,
+                                                cell, entry, t_now, stuck, b, origin[r],
+                                                direction[r], max_stalled, parallel_eps)
+            if lost:
+                reached[r] = t_now[b]                  # the cells crossed so far
+                ray[b] = -1
+                continue
+            cut = best_t >= limit[r]                   # the limit falls in this cell
+            inside = (limit[r] if cut else best_t) - t_now[b]
+            d = depth(cf_offsets, cf_faces, face_offsets, face_points, points, cell[b],
+                      origin[r], direction[r])
+            cells[r] += inside / d if d > 0 else 0.0
+            if cut:
+                reached[r] = limit[r]
+                short[r] = False
+                ray[b] = -1
+                continue
+            if nxt < 0:                                # on the boundary before the limit
+                reached[r] = best_t
+                ray[b] = -1
+                continue
+            cell[b], entry[b], t_now[b] = nxt, best_f, best_t
+    return cells, reached, short
