@@ -278,3 +278,29 @@ def _components(n: int, pairs: list[tuple[np.ndarray, np.ndarray]]) -> np.ndarra
         label = label[label]
         if np.array_equal(label, before):
             return label
+
+
+def cell_processors(case: Path) -> np.ndarray:
+    """(C,) the processor each cell of the decomposed ``case`` came from, in the numbering
+    :func:`read_decomposed` gives the whole mesh: the cells' original ids where every part
+    has its ``cellProcAddressing``, else part after part."""
+    from caselint.mesh.formats.face_folder import processor_folders
+
+    folders = [p / "constant" / "polyMesh" for p in processor_folders(case)]
+    if not folders:
+        raise MeshReadError(str(case), "no processor<N> folders: not a decomposed case")
+    files = [open_list_file(folder, "cellProcAddressing", required=False) for folder in folders]
+    if all(f is not None for f in files):
+        cells = [read_labels(lf, lf.start, lf.path.name)[0].astype(np.int64) for lf in files]
+        labels = np.full(sum(len(c) for c in cells), -1, dtype=np.int32)
+        for k, ids in enumerate(cells):
+            if len(ids) and (ids.min() < 0 or ids.max() >= len(labels)):
+                raise MeshReadError(files[k].name, f"cell ids {ids.min()} .. {ids.max()} for a "
+                                                   f"mesh of {len(labels)} cells")
+            labels[ids] = k
+        if np.any(labels < 0):
+            raise MeshReadError(str(case), "the cellProcAddressing files do not cover every "
+                                           "cell exactly once")
+        return labels
+    counts = [read_folder_mesh(folder).n_cells for folder in folders]
+    return np.repeat(np.arange(len(counts), dtype=np.int32), counts)

@@ -20,6 +20,7 @@ writable folder exists, the kernels are compiled in memory for each process (num
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import importlib
 import os
@@ -58,8 +59,28 @@ def numba_available() -> bool:
     return True
 
 
+#: The decision :func:`decided_for` holds while a part of a mesh is analysed (None: decide
+#: by the size of the mesh at hand).
+_HELD: list[bool] = []
+
+
+@contextlib.contextmanager
+def decided_for(n_cells: int):
+    """Within the block, every mesh gets the kernels a mesh of ``n_cells`` cells gets: a
+    partition of a large mesh (:mod:`caselint.partition`) must run the same arithmetic as
+    the whole mesh, or its results could differ in the last bits (see the kernels'
+    docstrings on ``arctan2``)."""
+    _HELD.append(use_compiled(n_cells))
+    try:
+        yield
+    finally:
+        _HELD.pop()
+
+
 def use_compiled(n_cells: int) -> bool:
     """Whether a mesh of ``n_cells`` cells gets the compiled kernels (see the module doc)."""
+    if _HELD:
+        return _HELD[-1]
     choice = mode()
     if choice == "numpy" or (choice == "auto" and n_cells < MIN_CELLS):
         return False

@@ -1,0 +1,11 @@
+"""A mesh analysed in partitions: each part of the cells with the rings of neighbours its
+face metrics need, results put back together equal to the bit to the whole-mesh ones.
+
+- :mod:`caselint.partition.plan`: which cells each partition owns (ranges of caselint's
+  cell ids, which are in locality order, or the processor of each cell of a decomposed
+  case);
+- :mod:`caselint.partition.piece`: one partition cut out of the mesh with its halo, as a
+  :class:`~caselint.mesh.model.MeshData` of its own;
+- :mod:`caselint.partition.measure`: the per-cell and per-face quantities of a piece, for
+  the cells and faces it owns, and their assembly into whole-mesh arrays.
+"""

@@ -1,0 +1,114 @@
+"""One partition cut out of a mesh, with the neighbours its quantities need, as a mesh of
+its own.
+
+A piece holds the cells the partition owns, **ring 1** (every cell across a face of an
+owned cell) and **ring 2** (every cell across a face of a ring-1 cell), and every face of
+the owned and ring-1 cells. Then:
+
+- every face of an owned or ring-1 cell is in the piece with both its cells, unchanged:
+  internal faces stay internal with the same orientation, boundary faces keep their group;
+  no face is turned round or cut (ring 2 is there for that: a face between ring 1 and the
+  rest keeps its owner);
+- the geometry of owned and ring-1 cells (volume, centroid, the points of their corners)
+  is computed from the same faces, points and shapes as in the whole mesh, so it is equal
+  to the bit: cells, faces and points keep their relative order (local ids ascend with the
+  global ones), and the per-cell sums of :mod:`caselint.mesh.geometry` add the same terms
+  in the same order;
+- every per-face quantity of an owned face (non-orthogonality, skewness, size and volume
+  ratio, warp) reads only its two cells, which are owned or in ring 1: equal to the bit.
+
+Ring-2 cells are incomplete (only their faces towards ring 1): their own quantities are
+never read. They carry no shape, so no per-shape metric is computed for them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
+from caselint.mesh.topology import CellFaces
+
+
+@dataclass(frozen=True, eq=False)
+class Piece:
+    """A partition's mesh (``data``, local ids) and where its cells and faces are in the
+    whole mesh: ``cells`` / ``faces`` / ``points`` (global id of each local one,
+    ascending); ``owned_cells`` / ``owned_faces``: local ids of the cells the partition
+    owns and of the faces whose owner it owns (what it reports)."""
+
+    index: int
+    data: MeshData
+    cells: np.ndarray
+    faces: np.ndarray
+    points: np.ndarray
+    owned_cells: np.ndarray
+    owned_faces: np.ndarray
+    whole_cells: int               # cells of the whole mesh (for the choice of kernels)
+
+
+def faces_of(cf: CellFaces, cells: np.ndarray) -> np.ndarray:
+    """All faces of ``cells`` (with repeats), from the whole mesh's cell-face lists."""
+    return cf.of(cells).astype(np.int64)
+
+
+def _across(data: MeshData, faces: np.ndarray) -> np.ndarray:
+    """The cells on either side of ``faces`` (unique, ascending)."""
+    both = np.concatenate([data.owner[faces], data.neighbour[faces]])
+    return np.unique(both[both >= 0]).astype(np.int64)
+
+
+def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) -> Piece:
+    """The piece of ``data`` for the partition owning the cells ``owned`` (ascending ids);
+    ``cf`` the whole mesh's cell-face lists (:func:`caselint.mesh.topology.cell_faces`)."""
+    owned = np.asarray(owned, dtype=np.int64)
+    own_faces = faces_of(cf, owned)
+    ring1 = np.setdiff1d(_across(data, own_faces), owned, assume_unique=True)
+    complete = np.union1d(owned, ring1)                     # cells with all their faces
+    faces = np.unique(np.concatenate([own_faces, faces_of(cf, ring1)]))
+    cells = _across(data, faces)                            # owned, ring 1 and ring 2
+    local_owner = np.searchsorted(cells, data.owner[faces])
+    nbr = data.neighbour[faces]
+    local_nbr = np.where(nbr >= 0, np.searchsorted(cells, np.maximum(nbr, 0)), -1)
+
+    start, stop = data.face_offsets[faces], data.face_offsets[faces + 1]
+    size = stop - start
+    offsets = np.zeros(len(faces) + 1, dtype=data.face_offsets.dtype)
+    np.cumsum(size, out=offsets[1:])
+    base = np.repeat(start - offsets[:-1], size)
+    global_fp = data.face_points[base + np.arange(int(offsets[-1]))]
+    points = np.unique(global_fp)
+    face_points = np.searchsorted(points, global_fp).astype(data.face_points.dtype)
+
+    shapes = []
+    for block in data.shapes:
+        keep = np.isin(block.cells, complete)
+        if not keep.any():
+            continue
+        conn = block.connectivity[keep]
+        local_conn = np.searchsorted(points, conn)
+        if np.any(points[np.minimum(local_conn, len(points) - 1)] != conn):
+            raise ValueError(f"partition {index}: a {block.type} corner lies on none of the "
+                             "cell's faces")
+        shapes.append(ShapeBlock(block.type, np.searchsorted(cells, block.cells[keep]),
+                                 local_conn.astype(conn.dtype)))
+
+    clash = data.report.clashing
+    clash = clash[np.isin(clash, faces)] if len(clash) else clash
+    local = MeshData(
+        path=f"{data.path} [partition {index}]", dim=data.dim, points=data.points[points],
+        face_offsets=offsets, face_points=face_points,
+        owner=local_owner.astype(data.owner.dtype), neighbour=local_nbr.astype(data.neighbour.dtype),
+        n_cells=len(cells), face_group=data.face_group[faces], group_names=data.group_names,
+        group_types=data.group_types, shapes=tuple(shapes),
+        cell_zone=None if data.cell_zone is None else data.cell_zone[cells],
+        zone_names=data.zone_names,
+        report=ReadReport(clashing=np.searchsorted(faces, clash).astype(np.int64)),
+    )
+    owned_local = np.searchsorted(cells, owned)
+    owned_faces = np.flatnonzero(np.isin(local_owner, owned_local))
+    return Piece(index, local, cells, faces, points, owned_local, owned_faces, data.n_cells)
+
+
+__all__ = ["Piece", "cut_piece", "faces_of"]

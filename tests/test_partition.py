@@ -1,0 +1,141 @@
+"""A mesh analysed partition by partition gives, to the bit, the whole mesh's per-cell and
+per-face quantities (caselint.partition).
+
+The reference is the whole-mesh computation of the same code; what is tested is that a
+partition with its two rings of neighbours sees exactly the faces, points and order the
+whole mesh sees. Meshes: a gmsh prism-layer plate (tetrahedra and wedges, made by gmsh,
+not designed for this test), a 2:1 octree block (polyhedra with hanging faces), a 2-D gmsh
+strut mesh (quads and triangles), and a decomposed mesh folder split by processor.
+Partitions are contiguous ranges, or cells dealt at random so that nearly every face
+crosses a partition boundary.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import calibration
+from mesh_writers import write_decomposed
+from caselint.mesh import kernels
+from caselint.mesh.analysis import Mesh
+from caselint.mesh.reader import read_mesh
+from caselint.mesh.refined import refined_block
+from caselint.mesh.topology import cell_faces
+from caselint.partition import measure, plan
+from caselint.partition.piece import cut_piece
+
+
+@pytest.fixture(scope="module")
+def prism_plate(tmp_path_factory):
+    sample = calibration.prism_tet(tmp_path_factory.mktemp("prism"))
+    return read_mesh(sample.case.with_suffix(".msh")).data
+
+
+@pytest.fixture(scope="module")
+def strut(tmp_path_factory):
+    sample = calibration.strut_2d(tmp_path_factory.mktemp("strut"))
+    return read_mesh(sample.case.with_suffix(".msh")).data
+
+
+@pytest.fixture(scope="module")
+def octree():
+    axis = np.linspace(0.0, 1.0, 7)
+    return refined_block(axis, axis[:5], axis[:4], ((0.2, 0.7), (0.1, 0.6), (0.2, 0.9)))
+
+
+def _assert_same(data, split: plan.Plan) -> None:
+    whole = Mesh(data)
+    parts = measure.measure_pieces(data, split)
+    for q in measure.QUANTITIES:
+        ref = np.asarray(q.compute(whole))
+        got = parts[q.name]
+        assert got.shape == ref.shape and got.dtype == ref.dtype, q.name
+        # equal to the bit (NaN where the whole mesh has NaN: cells of no known shape)
+        assert np.array_equal(got, ref, equal_nan=ref.dtype.kind == "f"), q.name
+
+
+def _dealt(n_cells: int, n_parts: int, seed: int = 3) -> plan.Plan:
+    return plan.by_labels(np.random.default_rng(seed).integers(0, n_parts, n_cells))
+
+
+@pytest.mark.parametrize("kind", ["numpy", "numba"])
+def test_prism_plate_in_ranges_and_dealt_cells(prism_plate, kind, monkeypatch):
+    monkeypatch.setenv(kernels.ENV_KERNELS, kind)
+    _assert_same(prism_plate, plan.by_ranges(prism_plate.n_cells, 5))
+    _assert_same(prism_plate, _dealt(prism_plate.n_cells, 4))
+
+
+@pytest.mark.parametrize("kind", ["numpy", "numba"])
+def test_octree_polyhedra(octree, kind, monkeypatch):
+    monkeypatch.setenv(kernels.ENV_KERNELS, kind)
+    assert (Mesh(octree).cell_shape < 0).any()          # polyhedra with hanging faces
+    _assert_same(octree, plan.by_ranges(octree.n_cells, 3))
+    _assert_same(octree, _dealt(octree.n_cells, 6))
+
+
+def test_two_dimensional_mesh(strut):
+    assert strut.dim == 2
+    _assert_same(strut, plan.by_ranges(strut.n_cells, 4))
+    _assert_same(strut, _dealt(strut.n_cells, 3))
+
+
+def test_one_partition_and_one_cell_per_partition(octree):
+    _assert_same(octree, plan.by_ranges(octree.n_cells, 1))
+    _assert_same(octree, plan.by_ranges(octree.n_cells, octree.n_cells))
+
+
+def test_decomposed_case_split_by_processor(octree, tmp_path):
+    mesh = Mesh(octree)
+    c = mesh.cell_centroids
+    part = (c[:, 0] > 0.5).astype(int) + 2 * (c[:, 2] > 0.4).astype(int)
+    write_decomposed(tmp_path, octree, part)
+    data = read_mesh(tmp_path).data
+    split = plan.by_processors(tmp_path)
+    assert split.n_parts == 4
+    assert sorted(split.sizes()) == sorted(np.bincount(part))
+    _assert_same(data, split)
+
+
+def test_decomposed_without_addressing_numbers_part_after_part(octree, tmp_path):
+    part = (Mesh(octree).cell_centroids[:, 1] > 0.3).astype(int)
+    write_decomposed(tmp_path, octree, part, addressing=False)
+    split = plan.by_processors(tmp_path)
+    assert split.order.tolist() == list(range(octree.n_cells))
+    assert split.sizes().tolist() == np.bincount(part).tolist()
+
+
+def test_piece_holds_two_rings_and_owns_each_face_once(prism_plate):
+    cf = cell_faces(prism_plate)
+    split = plan.by_ranges(prism_plate.n_cells, 3)
+    owned_faces = []
+    for k in range(split.n_parts):
+        piece = cut_piece(prism_plate, cf, split.cells(k), k)
+        owned = piece.cells[piece.owned_cells]
+        assert np.array_equal(owned, split.cells(k))
+        # every face of an owned cell is in the piece, with both its cells
+        assert np.isin(cf.of(owned), piece.faces).all()
+        assert np.all(np.diff(piece.cells) > 0) and np.all(np.diff(piece.faces) > 0)
+        owned_faces.append(piece.faces[piece.owned_faces])
+        # local faces keep their orientation: same owner, same points
+        g = piece.faces
+        assert np.array_equal(piece.cells[piece.data.owner], prism_plate.owner[g])
+    every = np.sort(np.concatenate(owned_faces))
+    assert np.array_equal(every, np.arange(prism_plate.n_faces))
+
+
+def test_plans_are_checked():
+    with pytest.raises(ValueError, match="at least 1"):
+        plan.by_ranges(10, 0)
+    with pytest.raises(ValueError, match="rise from 0 to 10"):
+        plan.Plan(10, np.array([0, 4, 9]))
+    assert plan.by_cell_budget(10, 4).sizes().tolist() == [3, 4, 3]
+    assert plan.by_ranges(2, 5).n_parts == 2
+
+
+def test_assembly_refuses_a_plan_that_misses_cells(octree):
+    cf = cell_faces(octree)
+    piece = cut_piece(octree, cf, np.arange(5), 0)
+    result = measure.measure_piece(piece, ["cell_volumes"])
+    with pytest.raises(ValueError, match=f"wrote 5 of {octree.n_cells} rows of cell_volumes"):
+        measure.assemble([result], octree.n_cells, octree.n_faces, octree.n_internal)
