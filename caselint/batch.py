@@ -34,6 +34,7 @@ if TYPE_CHECKING:
     from caselint.engine.registry import Registry
     from caselint.manifest.case import Case
     from caselint.model import CaseReport
+    from caselint.partition.runners import PartitionRequest
 
 
 #: How long to wait for a Dask scheduler to answer (a Dask time string).
@@ -61,6 +62,7 @@ class _Task:
     cache: "MeshCache | None"
     memory_limit: tuple[int | None, str] | None
     today: dt.date | None
+    partitions: "PartitionRequest | None" = None
 
 
 def _run_task(task: _Task,
@@ -73,7 +75,7 @@ def _run_task(task: _Task,
 
     if registry is None:
         registry = Registry(get_plugin_manager(blocked=task.blocked))
-    store = MeshStore(task.cache, task.memory_limit)
+    store = MeshStore(task.cache, task.memory_limit, task.partitions)
     extra = {} if task.today is None else {"today": task.today}
     out = []
     for index, path, case in zip(task.indices, task.paths, task.cases):
@@ -84,6 +86,7 @@ def _run_task(task: _Task,
         except UsageError as exc:
             out.append((index, CaseOutcome(path, error=str(exc))))
     store.save()
+    store.close()
     return out
 
 
@@ -123,12 +126,15 @@ def lint_batch(
     memory_limit: tuple[int | None, str] | None = None,
     today: dt.date | None = None,
     progress: Callable[[int], None] | None = None,
+    partitions: "PartitionRequest | None" = None,
 ) -> list[CaseOutcome]:
     """Check every case file; one outcome per path, in the order given.
 
     ``progress(n)`` is called as each group of n cases finishes. Internal errors in a
     worker are raised here; bad input becomes the outcome's ``error``. ``memory_limit`` (a
-    :data:`caselint.mesh.limits.MemoryLimit`) holds for every mesh the workers read.
+    :data:`caselint.mesh.limits.MemoryLimit`) holds for every mesh the workers read;
+    ``partitions`` has each mesh analysed partition by partition (on its scheduler, if it
+    names one).
     :raises UsageError: ``jobs`` below 1, or the Dask scheduler cannot be used.
     """
     from caselint.engine.plugins import get_plugin_manager
@@ -148,7 +154,8 @@ def lint_batch(
     if errors and progress is not None:
         progress(len(errors))
     tasks = [_Task(tuple(g), tuple(paths[i] for i in g), tuple(cases[i] for i in g),
-                   rule_sets, tuple(blocked), cache, memory_limit, today) for g in groups]
+                   rule_sets, tuple(blocked), cache, memory_limit, today, partitions)
+             for g in groups]
 
     def collect(done: list[tuple[int, CaseOutcome]]) -> None:
         results.update(done)

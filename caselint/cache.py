@@ -35,6 +35,7 @@ from caselint.files import file_sha256
 
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
+    from caselint.partition.runners import PartitionRequest
 
 #: Environment variable with the most the folder may hold, in GB.
 ENV_MAX_GB = "CASELINT_CACHE_MAX_GB"
@@ -142,9 +143,12 @@ class MeshStore:
     """
 
     def __init__(self, cache: MeshCache | None = None,
-                 memory_limit: tuple[int | None, str] | None = None) -> None:
+                 memory_limit: tuple[int | None, str] | None = None,
+                 partitions: "PartitionRequest | None" = None) -> None:
         self.cache = cache
         self.memory_limit = memory_limit
+        self.partitions = partitions
+        self._run = None                       # the partitions' runner, made on first use
         self._meshes: dict[tuple, Mesh] = {}
         self._fresh: dict[tuple, str] = {}      # read from file: settings -> cache key
 
@@ -165,10 +169,29 @@ class MeshStore:
         if mesh is None:
             mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags,
                              zone=zone, readers=readers, memory_limit=self.memory_limit)
+            if self.partitions is not None:
+                mesh = self._in_partitions(path, mesh)
             if key is not None:
                 self._fresh[settings] = key
         self._meshes[settings] = mesh
         return mesh
+
+    def _in_partitions(self, path, mesh: "Mesh") -> "Mesh":
+        """``mesh`` with its geometry and metrics computed partition by partition."""
+        from caselint.partition.measure import analysed_in_partitions
+
+        if self._run is None:
+            self._run = self.partitions.runner()
+        split = self.partitions.plan(path, mesh.n_cells)
+        return analysed_in_partitions(mesh.data, split, self._run)
+
+    def close(self) -> None:
+        """Let go of the partitions' runner (a Dask client)."""
+        if self._run is not None:
+            from caselint.partition.runners import close_runner
+
+            close_runner(self._run)
+            self._run = None
 
     def save(self) -> None:
         """Write the meshes read from files to the cache (no-op without a cache)."""

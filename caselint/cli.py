@@ -106,7 +106,14 @@ def build_parser() -> argparse.ArgumentParser:
                             "cases sharing a mesh go to one process, which reads it once")
     check.add_argument("--scheduler", metavar="ADDRESS",
                        help="check the case files on the Dask distributed scheduler at "
-                            "ADDRESS (e.g. tcp://10.0.0.5:8786); needs dask[distributed]")
+                            "ADDRESS (e.g. tcp://10.0.0.5:8786); with --partitions, the "
+                            "partitions of each mesh run there instead; needs "
+                            "dask[distributed]")
+    check.add_argument("--partitions", metavar="N",
+                       help="analyse each mesh in N partitions of neighbouring cells (or "
+                            "'auto': the processor folders of a decomposed case, else parts "
+                            "of at most 1M cells); results are identical to the whole-mesh "
+                            "analysis")
     check.add_argument("--no-cache", action="store_true",
                        help="neither read nor write the mesh cache (analysed meshes of 100k "
                             "cells or more, kept by file hash in $CASELINT_CACHE_DIR, default "

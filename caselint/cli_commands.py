@@ -148,6 +148,7 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
         write_baseline=args.write_baseline,
         stamp=dt.date.today().isoformat() if args.stamp else "",
         jobs=getattr(args, "jobs", 1), scheduler=getattr(args, "scheduler", None),
+        partitions=getattr(args, "partitions", None),
         use_cache=not getattr(args, "no_cache", True), memory_limit=_memory_limit(args),
         blocked=tuple(args.blocked), stdout_color=use_color(sys.stdout),
         stdout_width=output_width(sys.stdout), progress=_progress_bar,

@@ -49,6 +49,7 @@ class CheckOptions:
     stamp: str = ""
     jobs: int = 1
     scheduler: str | None = None
+    partitions: str | None = None
     use_cache: bool = True
     memory_limit: tuple[int | None, str] | None = None
     blocked: tuple[str, ...] = ()
@@ -151,6 +152,11 @@ def run_check(options: CheckOptions, pm: "pluggy.PluginManager | None" = None) -
     for path, option in written:
         _protect_inputs(path, option, [Path(p) for p in paths], "one of the case files")
     baseline = load_baseline(options.baseline) if options.baseline else None
+    partitions = None
+    if options.partitions is not None:
+        from caselint.partition.runners import PartitionRequest
+
+        partitions = PartitionRequest.parse(options.partitions, options.scheduler)
     if options.scheduler is not None and options.jobs != 1:
         raise UsageError("give either --jobs or --scheduler, not both (the scheduler's "
                          "workers decide how many cases run at once)")
@@ -160,7 +166,8 @@ def run_check(options: CheckOptions, pm: "pluggy.PluginManager | None" = None) -
     with progress(len(paths)) as advance:
         outcomes = lint_batch(paths, rule_sets=options.rule_sets or None, registry=registry,
                               blocked=options.blocked, jobs=options.jobs,
-                              scheduler=options.scheduler,
+                              scheduler=None if partitions is not None else options.scheduler,
+                              partitions=partitions,
                               cache=None if folder is None else MeshCache(folder),
                               memory_limit=options.memory_limit, progress=advance)
     checked = []

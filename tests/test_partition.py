@@ -139,3 +139,55 @@ def test_assembly_refuses_a_plan_that_misses_cells(octree):
     result = measure.measure_piece(piece, ["cell_volumes"])
     with pytest.raises(ValueError, match=f"wrote 5 of {octree.n_cells} rows of cell_volumes"):
         measure.assemble([result], octree.n_cells, octree.n_faces, octree.n_internal)
+
+
+# -- a check in partitions: the same report ----------------------------------------------
+
+
+def _report(case, *options) -> dict:
+    import json
+    import subprocess
+    import sys
+
+    out = case.parent / f"report{len(options)}.json"
+    done = subprocess.run([sys.executable, "-m", "caselint", "check", str(case), "--no-cache",
+                           "--format", "json", "--output", str(out), *options],
+                          capture_output=True, text=True, timeout=600)
+    assert done.returncode in (0, 1), done.stderr
+    report = json.loads(out.read_text())
+    for case_report in report["cases"]:
+        case_report.pop("duration_s", None)
+    return report
+
+
+@pytest.fixture(scope="module")
+def plate_case(tmp_path_factory):
+    return calibration.layer_growth(tmp_path_factory.mktemp("plate")).case
+
+
+def test_check_in_partitions_gives_the_same_report(plate_case):
+    whole = _report(plate_case)
+    assert whole["cases"][0]["findings"]                  # a mesh with findings to compare
+    assert _report(plate_case, "--partitions", "7") == whole
+    assert _report(plate_case, "--partitions", "auto") == whole
+
+
+def test_partitions_on_a_dask_cluster_give_the_same_report(plate_case):
+    import distributed  # a test dependency: the cluster path must really run
+
+    whole = _report(plate_case)
+    with distributed.LocalCluster(processes=True, n_workers=2, threads_per_worker=1,
+                                  dashboard_address=None) as cluster:
+        got = _report(plate_case, "--partitions", "4", "--scheduler", cluster.scheduler_address)
+    assert got == whole
+
+
+def test_partitions_option_is_checked(plate_case):
+    import subprocess
+    import sys
+
+    done = subprocess.run([sys.executable, "-m", "caselint", "check", str(plate_case),
+                           "--partitions", "none"], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 2
+    assert "--partitions takes a whole number of at least 1 or 'auto', got 'none'" in done.stderr
+    assert "Traceback" not in done.stderr

@@ -28,9 +28,12 @@ T = TypeVar("T")
 class Mesh:
     """A read mesh with lazily derived topology and geometry (see the module docstring)."""
 
-    def __init__(self, data: MeshData, *, geometry: Geometry | None = None) -> None:
+    def __init__(self, data: MeshData, *, geometry: Geometry | None = None,
+                 known: dict[str, Any] | None = None) -> None:
         self.data = data
-        self._memo: dict[str, Any] = {}
+        # results computed elsewhere (e.g. partition by partition, caselint.partition),
+        # under the keys the computing functions use
+        self._memo: dict[str, Any] = dict(known or {})
         if geometry is not None:
             if len(geometry.volumes) != data.n_cells or len(geometry.area_vectors) != data.n_faces:
                 raise ValueError(f"geometry of {len(geometry.volumes)} cells and "
@@ -211,6 +214,13 @@ class Mesh:
         if key not in self._memo:
             self._memo[key] = compute()
         return self._memo[key]
+
+    def provided(self, key: str, compute: Callable[[], T]) -> T:
+        """The value given under ``key`` when the mesh was made (``known``), else
+        ``compute()``, not kept: for results read once, too large to keep for nothing."""
+        if key in self._memo:
+            return self._memo[key]
+        return compute()
 
     def has(self, key: str) -> bool:
         """Whether the value under ``key`` has been computed."""

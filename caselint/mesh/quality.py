@@ -139,7 +139,7 @@ def _face_metrics(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
 
     # not kept: each of the two rules reads one of them, and a kept pair held the other's
     # 8 bytes a face through the first rule's grading, the check's peak (benchmarks/README.md)
-    return measured()
+    return mesh.provided("quality.face_metrics", measured)
 
 
 def _over_cell_size(mesh: "Mesh", skew: np.ndarray) -> None:
@@ -188,7 +188,8 @@ def face_warp_deg(mesh: "Mesh") -> np.ndarray:
                     out[sl.start + sel] = worst
         return out
 
-    return compute()      # not kept: one rule reads it once (8 bytes a face held for nothing)
+    # not kept: one rule reads it once (8 bytes a face held for nothing)
+    return mesh.provided("quality.face_warp", compute)
 
 
 def folded_polyhedra(mesh: "Mesh") -> np.ndarray:

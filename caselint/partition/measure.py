@@ -15,6 +15,7 @@ of a Dask cluster.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 from typing import Callable, Iterable
 
@@ -24,9 +25,10 @@ from caselint.mesh import kernels, quality
 from caselint.mesh.analysis import Mesh
 from caselint.mesh.geometry import Geometry
 from caselint.mesh.model import MeshData
-from caselint.mesh.topology import cell_faces
+from caselint.mesh.topology import CellFaces, cell_faces
 from caselint.partition.piece import Piece, cut_piece
 from caselint.partition.plan import Plan
+from caselint.partition.runners import serial
 
 
 @dataclass(frozen=True)
@@ -110,25 +112,43 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
     return out
 
 
-def serial(function: Callable, items: list) -> list:
-    """Run ``function`` on each item in turn (the default ``run``)."""
-    return [function(item) for item in items]
-
-
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
-                   run: Callable[[Callable, list], list] = serial) -> dict[str, np.ndarray]:
+                   run: Callable[[Callable, list], list] = serial,
+                   cf: CellFaces | None = None) -> dict[str, np.ndarray]:
     """Every quantity ``names`` (default all) of ``data``, computed partition by partition
     as ``plan`` splits the cells; ``run(function, items)`` maps the work over the
-    partitions."""
+    partitions; ``cf`` the mesh's cell-face lists when already known."""
     if plan.n_cells != data.n_cells:
         raise ValueError(f"a plan for {plan.n_cells} cells given for a mesh of {data.n_cells}")
     names = None if names is None else tuple(names)
+    if cf is None:
+        with kernels.decided_for(data.n_cells):
+            cf = cell_faces(data)
+    pieces = [cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts)]
+    results = run(functools.partial(measure_piece, names=names), pieces)
+    return assemble(results, data.n_cells, data.n_faces, data.n_internal)
+
+
+def analysed_in_partitions(data: MeshData, plan: Plan,
+                           run: Callable[[Callable, list], list] = serial) -> Mesh:
+    """The :class:`~caselint.mesh.analysis.Mesh` of ``data`` with its geometry and quality
+    metrics computed partition by partition (equal to the bit to what it would compute
+    itself), given to it under the keys its own functions use."""
     with kernels.decided_for(data.n_cells):
         cf = cell_faces(data)
-    pieces = [cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts)]
-    del cf
-    results = run(lambda piece: measure_piece(piece, names), pieces)
-    return assemble(results, data.n_cells, data.n_faces, data.n_internal)
+    v = measure_pieces(data, plan, run=run, cf=cf)
+    known = {
+        "topology.cell_faces": cf,
+        "geometry": geometry_of(v),
+        "quality.face_metrics": (v["non_orthogonality_deg"], v["skewness"]),
+        "quality.face_warp": v["face_warp_deg"],
+        "quality.cell_metrics": (v["scaled_jacobian"], v["min_corner_jacobian"],
+                                 v["edge_ratio"]),
+        "quality.folded_polyhedra": v["folded_polyhedra"],
+        "size_ratio.ratios": (v["growth_ratio"], v["mean_sizes"]),
+        "size_ratio.volume_ratio": v["volume_ratio"],
+    }
+    return Mesh(data, known=known)
 
 
 def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
@@ -137,5 +157,6 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
                     values["cell_volumes"], values["cell_centroids"], values["cell_apex"])
 
 
-__all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "assemble", "geometry_of",
-           "measure_piece", "measure_pieces", "serial"]
+__all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
+           "assemble", "geometry_of",
+           "measure_piece", "measure_pieces"]

@@ -25,6 +25,7 @@ import functools
 import importlib
 import os
 import tempfile
+import threading
 from pathlib import Path
 from types import ModuleType
 from typing import Callable
@@ -59,9 +60,9 @@ def numba_available() -> bool:
     return True
 
 
-#: The decision :func:`decided_for` holds while a part of a mesh is analysed (None: decide
-#: by the size of the mesh at hand).
-_HELD: list[bool] = []
+#: The decisions :func:`decided_for` holds, per thread (several partitions of a mesh may be
+#: analysed at once on the threads of one Dask worker).
+_HELD = threading.local()
 
 
 @contextlib.contextmanager
@@ -70,17 +71,21 @@ def decided_for(n_cells: int):
     partition of a large mesh (:mod:`caselint.partition`) must run the same arithmetic as
     the whole mesh, or its results could differ in the last bits (see the kernels'
     docstrings on ``arctan2``)."""
-    _HELD.append(use_compiled(n_cells))
+    held = _HELD.__dict__.setdefault("stack", [])
+    held.append(_by_size(n_cells))
     try:
         yield
     finally:
-        _HELD.pop()
+        held.pop()
 
 
 def use_compiled(n_cells: int) -> bool:
     """Whether a mesh of ``n_cells`` cells gets the compiled kernels (see the module doc)."""
-    if _HELD:
-        return _HELD[-1]
+    held = getattr(_HELD, "stack", None)
+    return held[-1] if held else _by_size(n_cells)
+
+
+def _by_size(n_cells: int) -> bool:
     choice = mode()
     if choice == "numpy" or (choice == "auto" and n_cells < MIN_CELLS):
         return False
