@@ -229,12 +229,14 @@ def test_kernels_compile_uncached_when_no_cache_folder_is_writable(tmp_path):
         from caselint.mesh.kernels import ray_march
         assert kernels.kernel_cache_dir() is None
         mesh = Mesh(meshio_data(structured_hex(*(np.linspace(0, 1, 4),) * 3)))
+        from caselint.mesh.rays import RayState
+        start = mesh.boundary_faces
         hits = ray_march.march(mesh.cell_faces.offsets, mesh.cell_faces.faces, mesh.owner,
                                mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids,
-                               np.ones(mesh.n_faces, bool), mesh.boundary_faces,
-                               mesh.face_centroids[mesh.boundary_faces],
-                               -mesh.face_area_vectors[mesh.boundary_faces] * 9.0,
-                               np.ones(len(mesh.boundary_faces), bool), 100, 64, 1e-9)
+                               np.ones(mesh.n_faces, bool), np.zeros(0, bool),
+                               mesh.face_centroids[start], -mesh.face_area_vectors[start] * 9.0,
+                               np.ones(len(start), bool),
+                               *RayState.at_start(mesh.owner, start, 1).arrays(), 100, 64, 1e-9)
         print(type(ray_march.march._cache).__name__, int(hits[3].max()))
         """, {"CASELINT_CACHE_DIR": str(blocker / "sub"), "CASELINT_KERNELS": "numba"})
     assert done.returncode == 0, done.stderr

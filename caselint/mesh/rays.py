@@ -105,34 +105,87 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     if max_steps < 1:
         raise ValueError(f"max_steps must be at least 1, got {max_steps}")
     start_faces = np.asarray(start_faces, dtype=np.int64)
-    n = start_faces.size
     origin, direction, ok = _inward(mesh, start_faces)
-    out = RayHits(
-        start_face=start_faces,
-        hit_face=np.full(n, -1, dtype=np.int64),
-        status=np.full(n, LOST, dtype=np.int8),
-        width=np.zeros(n),
-        cells=np.zeros(n, dtype=np.int64),
-        origin=origin,
-        direction=direction,
-    )
+    state = RayState.at_start(mesh.owner, start_faces, 1)
+    hit, status, width, cells, _ = march_on(mesh, origin, direction, ok, state,
+                                            _wall_mask(mesh, wall_face), max_steps)
+    return RayHits(start_faces, hit, status, width, cells, origin, direction)
+
+
+@dataclass(frozen=True, eq=False)
+class RayState:
+    """Where each of a set of rays is on its way: the cell it is in (to be crossed next),
+    the face it came in through, the distance marched (m), the cells counted so far (the
+    count of :func:`march`, int64; the weighted sum of :func:`cells_within`, float64), the
+    cells crossed in a row without advancing, and the steps taken.
+
+    A march resumed from a state (:func:`march_on`, :func:`within_on`) goes on exactly as
+    the march that left it would have; a ray that enters a cell marked ``foreign`` stops
+    there with its state written back (a partition hands it to the one owning that cell,
+    :mod:`caselint.partition.walks`).
+    """
+
+    cell: np.ndarray
+    entry: np.ndarray
+    t_now: np.ndarray
+    counted: np.ndarray
+    stuck: np.ndarray
+    steps: np.ndarray
+
+    @classmethod
+    def at_start(cls, owner: np.ndarray, start_faces: np.ndarray, counted) -> "RayState":
+        """Rays about to enter the owner cells of boundary ``start_faces``, having counted
+        ``counted`` (1 for :func:`march`, which counts the first cell on entry; 0.0 for
+        :func:`cells_within`)."""
+        n = len(start_faces)
+        return cls(owner[start_faces].astype(np.int64), np.array(start_faces, dtype=np.int64),
+                   np.zeros(n), np.full(n, counted), np.zeros(n, dtype=np.int64),
+                   np.zeros(n, dtype=np.int64))
+
+    def arrays(self, part: slice = slice(None)) -> tuple[np.ndarray, ...]:
+        """The state's arrays in the order of the kernels' arguments, for the rays ``part``
+        (views: what a kernel writes into them lands in the state)."""
+        return (self.cell[part], self.entry[part], self.t_now[part], self.counted[part],
+                self.stuck[part], self.steps[part])
+
+
+def march_on(mesh: "Mesh", origin: np.ndarray, direction: np.ndarray, active: np.ndarray,
+             state: RayState, wall: np.ndarray, max_steps: int = MAX_STEPS,
+             foreign: np.ndarray | None = None):
+    """March rays on from ``state`` (updated in place) until each ends, as :func:`march`
+    does; ``active`` False: a ray without direction, left lost. With ``foreign`` (C,) bool,
+    a ray entering a foreign cell stops there, its state kept (``moved``).
+
+    :returns: per ray the hit face, status, width, cells crossed (see :class:`RayHits`)
+        and ``moved``.
+    """
+    n = len(active)
+    hit, status = np.full(n, -1, dtype=np.int64), np.full(n, LOST, dtype=np.int8)
+    width, cells = np.zeros(n), np.zeros(n, dtype=np.int64)
+    moved = np.zeros(n, dtype=bool)
     if n == 0:
-        return out
-    wall = _wall_mask(mesh, wall_face)
+        return hit, status, width, cells, moved
     kernel = compiled("ray_march", mesh.n_cells)
     if kernel is not None:
         cf = mesh.cell_faces
+        stop = _NONE_FOREIGN if foreign is None else foreign
         parts = in_threads(lambda p: kernel.march(
             cf.offsets, cf.faces, mesh.owner, mesh.neighbour, mesh.face_area_vectors,
-            mesh.face_centroids, wall, start_faces[p],
-            out.origin[p], out.direction[p], ok[p], max_steps, MAX_STALLED, _PARALLEL), n)
+            mesh.face_centroids, wall, stop, origin[p], direction[p], active[p],
+            *state.arrays(p), max_steps, MAX_STALLED, _PARALLEL), n)
         for k, values in enumerate(zip(*parts)):
-            (out.hit_face, out.status, out.width, out.cells)[k][:] = np.concatenate(values)
-        return out
+            (hit, status, width, cells, moved)[k][:] = np.concatenate(values)
+        return hit, status, width, cells, moved
     faces = _FaceData(mesh, wall)
+    ends = (hit, status, width, cells, moved)
     for sl in chunks(n, RAY_CHUNK):
-        _march_chunk(faces, out, np.arange(sl.start, sl.stop)[ok[sl]], max_steps)
-    return out
+        _march_chunk(faces, ends, origin, direction, state,
+                     np.arange(sl.start, sl.stop)[active[sl]], max_steps, foreign)
+    return hit, status, width, cells, moved
+
+
+#: ``foreign`` for the compiled kernels when no cell is foreign (a whole mesh).
+_NONE_FOREIGN = np.zeros(0, dtype=bool)
 
 
 def _inward(mesh: "Mesh", start_faces: np.ndarray):
@@ -207,32 +260,56 @@ def _slot_tables(mesh: "Mesh", table: np.ndarray):
     return sign, across
 
 
-def _march_chunk(fd: _FaceData, out: RayHits, rays: np.ndarray, max_steps: int) -> None:
-    """March the rays ``rays`` (indices into ``out``) in lock step until they all stop."""
-    o = out.origin[rays]
-    d = out.direction[rays]
-    entry = out.start_face[rays]
-    cell = fd.owner[entry]
-    t_now = np.zeros(rays.size)
-    count = np.ones(rays.size, dtype=np.int64)
-    stuck = np.zeros(rays.size, dtype=np.int64)
+def _march_chunk(fd: _FaceData, ends: tuple, origin: np.ndarray, direction: np.ndarray,
+                 state: RayState, rays: np.ndarray, max_steps: int,
+                 foreign: np.ndarray | None) -> None:
+    """March the rays ``rays`` (indices into ``state`` and the arrays of ``ends``: hit
+    face, status, width, cells, moved) in lock step until they all stop."""
+    hit_face, status, width, cells, moved = ends
+    o, d = origin[rays], direction[rays]
+    cell, entry, t_now = state.cell[rays], state.entry[rays], state.t_now[rays]
+    count, stuck, steps = state.counted[rays], state.stuck[rays], state.steps[rays]
     idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
-    for _ in range(max_steps):
-        if idx.size == 0:
-            return
+    while idx.size:
+        limit = steps[idx] >= max_steps
+        if limit.any():                 # cells fully crossed before the step limit; LOST
+            cells[rays[idx[limit]]] = count[idx[limit]] - 1
+            idx, cell, entry, t_now = idx[~limit], cell[~limit], entry[~limit], t_now[~limit]
+            continue
+        steps[idx] += 1
         t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
-        ends = ~lost & (nxt < 0)
+        end = ~lost & (nxt < 0)
         ray = rays[idx]
-        out.status[ray[ends]] = np.where(fd.wall[f_exit[ends]], WALL, OPEN)
-        out.hit_face[ray[ends]] = f_exit[ends]
-        out.width[ray[ends]] = t_exit[ends]
-        out.cells[ray[ends]] = count[idx[ends]]
-        out.cells[ray[lost]] = count[idx[lost]]
-        go = ~lost & ~ends
+        status[ray[end]] = np.where(fd.wall[f_exit[end]], WALL, OPEN)
+        hit_face[ray[end]] = f_exit[end]
+        width[ray[end]] = t_exit[end]
+        cells[ray[end]] = count[idx[end]]
+        cells[ray[lost]] = count[idx[lost]]
+        go = ~lost & ~end
         idx = idx[go]
         cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
         count[idx] += 1
-    out.cells[rays[idx]] = count[idx] - 1   # cells fully crossed before the step limit; LOST
+        if foreign is not None:
+            idx, cell, entry, t_now = _hand_over(state, rays, idx, cell, entry, t_now,
+                                                 count, stuck, steps, foreign, moved)
+
+
+def _hand_over(state: RayState, rays, idx, cell, entry, t_now, counted, stuck, steps,
+               foreign, moved):
+    """Write the state of the active rays ``idx`` that entered a foreign cell back into
+    ``state`` (``counted`` None: counted there already) and mark them ``moved``; the
+    positions and state of the others."""
+    away = foreign[cell]
+    if not away.any():
+        return idx, cell, entry, t_now
+    gone, ray = idx[away], rays[idx[away]]
+    moved[ray] = True
+    state.cell[ray], state.entry[ray], state.t_now[ray] = cell[away], entry[away], t_now[away]
+    state.stuck[ray], state.steps[ray] = stuck[gone], steps[gone]
+    if counted is not None:
+        state.counted[ray] = counted[gone]
+    stay = ~away
+    return idx[stay], cell[stay], entry[stay], t_now[stay]
 
 
 @dataclass(frozen=True)
@@ -267,26 +344,43 @@ def cells_within(mesh: "Mesh", start_faces: np.ndarray, limit_m,
     if not np.all(limit >= 0):
         raise ValueError("limit_m must be at least 0 (and not NaN)")
     origin, direction, ok = _inward(mesh, start_faces)
-    out = Crossing(start_faces, limit, np.zeros(n), np.zeros(n), limit > 0)
+    state = RayState.at_start(mesh.owner, start_faces, 0.0)
+    reached, short, _ = within_on(mesh, origin, direction, ok, limit, state, max_steps)
+    return Crossing(start_faces, limit, state.counted, reached, short)
+
+
+def within_on(mesh: "Mesh", origin: np.ndarray, direction: np.ndarray, active: np.ndarray,
+              limit: np.ndarray, state: RayState, max_steps: int = MAX_STEPS,
+              foreign: np.ndarray | None = None):
+    """Count on from ``state`` (updated in place; ``state.counted`` the weighted cells)
+    the cells rays cross within ``limit`` (m), as :func:`cells_within` does; ``active``
+    and ``foreign`` as for :func:`march_on`.
+
+    :returns: per ray how far the count went, whether it stopped short of its limit
+        (see :class:`Crossing`) and ``moved``.
+    """
+    n = len(active)
+    reached, short, moved = np.zeros(n), limit > 0, np.zeros(n, dtype=bool)
     if n == 0:
-        return out
+        return reached, short, moved
     kernel = compiled("ray_march", mesh.n_cells)
     if kernel is not None:
         cf = mesh.cell_faces
+        stop = _NONE_FOREIGN if foreign is None else foreign
         parts = in_threads(lambda p: kernel.march_within(
             cf.offsets, cf.faces, mesh.owner, mesh.neighbour, mesh.face_area_vectors,
-            mesh.face_centroids, start_faces[p],
-            origin[p], direction[p], ok[p], limit[p], mesh.data.face_offsets,
-            mesh.data.face_points, mesh.points, max_steps, MAX_STALLED, _PARALLEL), n)
+            mesh.face_centroids, stop, origin[p], direction[p], active[p], limit[p],
+            *state.arrays(p), mesh.data.face_offsets, mesh.data.face_points, mesh.points,
+            max_steps, MAX_STALLED, _PARALLEL), n)
         for k, values in enumerate(zip(*parts)):
-            (out.cells, out.reached, out.short)[k][:] = np.concatenate(values)
-        return out
+            (reached, short, moved)[k][:] = np.concatenate(values)
+        return reached, short, moved
     faces = _FaceData(mesh, np.zeros(mesh.n_faces, dtype=bool))
     for sl in chunks(n, RAY_CHUNK):
         rays = np.arange(sl.start, sl.stop)
-        _within_chunk(mesh, faces, out, origin, direction, rays[ok[sl] & (limit[sl] > 0)],
-                      max_steps)
-    return out
+        _within_chunk(mesh, faces, (reached, short, moved), origin, direction, limit, state,
+                      rays[active[sl] & (limit[sl] > 0)], max_steps, foreign)
+    return reached, short, moved
 
 
 def _depths(mesh: "Mesh", cells: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
@@ -297,35 +391,44 @@ def _depths(mesh: "Mesh", cells: np.ndarray, o: np.ndarray, d: np.ndarray) -> np
     return along.max(axis=1) - along.min(axis=1)
 
 
-def _within_chunk(mesh: "Mesh", fd: _FaceData, out: Crossing, origin: np.ndarray,
-                  direction: np.ndarray, rays: np.ndarray, max_steps: int) -> None:
-    """Count the cells the rays ``rays`` cross within their limits, in lock step."""
-    o, d, limit = origin[rays], direction[rays], out.limit[rays]
-    entry = out.start_face[rays]
-    cell = fd.owner[entry]
-    t_now = np.zeros(rays.size)
-    stuck = np.zeros(rays.size, dtype=np.int64)
+def _within_chunk(mesh: "Mesh", fd: _FaceData, ends: tuple, origin: np.ndarray,
+                  direction: np.ndarray, limit_all: np.ndarray, state: RayState,
+                  rays: np.ndarray, max_steps: int, foreign: np.ndarray | None) -> None:
+    """Count the cells the rays ``rays`` cross within their limits, in lock step, into
+    ``state.counted``; ``ends``: how far each got, short, moved."""
+    reached, short, moved = ends
+    o, d, limit = origin[rays], direction[rays], limit_all[rays]
+    cell, entry, t_now = state.cell[rays], state.entry[rays], state.t_now[rays]
+    stuck, steps = state.stuck[rays], state.steps[rays]
+    counted = state.counted                # added to in place, ray by ray
     idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
-    for _ in range(max_steps):
-        if idx.size == 0:
-            return
+    while idx.size:
+        limit_hit = steps[idx] >= max_steps
+        if limit_hit.any():                     # the step limit: cells crossed so far
+            reached[rays[idx[limit_hit]]] = t_now[limit_hit]
+            keep = ~limit_hit
+            idx, cell, entry, t_now = idx[keep], cell[keep], entry[keep], t_now[keep]
+            continue
+        steps[idx] += 1
         t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
         ray, lim = rays[idx], limit[idx]
-        out.reached[ray[lost]] = t_now[lost]
+        reached[ray[lost]] = t_now[lost]
         cut = ~lost & (t_exit >= lim)                   # the limit falls in this cell
         inside = np.where(cut, lim, t_exit) - t_now
         depth = _depths(mesh, cell, o[idx], d[idx])
         share = np.where(depth > 0, inside / np.where(depth > 0, depth, 1.0), 0.0)
-        out.cells[ray[~lost]] += share[~lost]
-        out.reached[ray[cut]] = lim[cut]
-        out.short[ray[cut]] = False
+        counted[ray[~lost]] += share[~lost]
+        reached[ray[cut]] = lim[cut]
+        short[ray[cut]] = False
         crossed = ~lost & ~cut
         ends = crossed & (nxt < 0)                      # on the boundary before the limit
-        out.reached[ray[ends]] = t_exit[ends]
+        reached[ray[ends]] = t_exit[ends]
         go = crossed & ~ends
         idx = idx[go]
         cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
-    out.reached[rays[idx]] = t_now                     # the step limit: cells crossed so far
+        if foreign is not None:
+            idx, cell, entry, t_now = _hand_over(state, rays, idx, cell, entry, t_now,
+                                                 None, stuck, steps, foreign, moved)
 
 
 def _advance(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o: np.ndarray, d: np.ndarray,

@@ -6,7 +6,7 @@ What a stack is and where it ends: :mod:`caselint.mesh.wall_layers`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -112,50 +112,122 @@ class Walked:
     jump_normal: np.ndarray
 
 
-def walk_lockstep(mesh: "Mesh", faces: np.ndarray, walled: np.ndarray, max_aspect: float,
+@dataclass(frozen=True, eq=False)
+class StackState:
+    """The walks of a set of stacks so far, one row per wall face: what :class:`Walked`
+    holds but the heights (the fields up to ``jump_normal``), and where each walk is:
+    the cell it enters next, through the face ``entry`` (its centroid ``x_in``, unit
+    normal into the cell ``nin``, area ``a_in``), the distance walked from the wall
+    ``top``, the last layer's height ``h_last``, whether the stack still grows
+    (``in_stack``); the cells walked (``n_walked``) count the steps taken.
+
+    A walk resumed from a state goes on exactly as the walk that left it would have; a
+    walk that enters a cell marked ``foreign`` stops there with its state written back
+    (a partition hands it to the one owning that cell, :mod:`caselint.partition.walks`).
+    The place of a walk that ended is left as it was.
+    """
+
+    n_wall: np.ndarray            # (n, 3)
+    centre: np.ndarray
+    first: np.ndarray
+    layered_first: np.ndarray
+    n_layers: np.ndarray
+    n_walked: np.ndarray
+    end: np.ndarray
+    core_cell: np.ndarray
+    core_origin: np.ndarray       # (n, 3)
+    core_normal: np.ndarray       # (n, 3)
+    facing: np.ndarray
+    jump_at: np.ndarray
+    jump_cell: np.ndarray
+    jump_origin: np.ndarray       # (n, 3)
+    jump_normal: np.ndarray       # (n, 3)
+    cell: np.ndarray
+    entry: np.ndarray
+    x_in: np.ndarray              # (n, 3)
+    nin: np.ndarray               # (n, 3)
+    a_in: np.ndarray
+    top: np.ndarray
+    h_last: np.ndarray
+    in_stack: np.ndarray
+
+    @classmethod
+    def at_walls(cls, mesh: "Mesh", faces: np.ndarray, extent) -> "StackState":
+        """Walks about to enter the cells behind boundary ``faces``; ``extent(cells, origin,
+        normal)`` the largest distance of each cell's vertices from its origin along its
+        normal (:func:`extent`, or the compiled one)."""
+        n = len(faces)
+        cells0 = mesh.owner[faces].astype(np.int64)
+        n_wall = unit_normals(mesh, faces, -np.ones(n))      # area vectors point out of the domain
+        xf = mesh.face_centroids[faces]
+        centre = dot(mesh.cell_centroids[cells0] - xf, n_wall)
+        first = extent(cells0, xf, n_wall)      # the wall cell's height if it has no layer shape
+        none = np.full(n, -1, dtype=np.int64)
+        return cls(n_wall, centre, first, np.zeros(n, dtype=bool),
+                   np.zeros(n, dtype=np.int64), np.zeros(n, dtype=np.int64),
+                   np.full(n, END_LIMIT, dtype=np.int8), none, np.zeros((n, 3)),
+                   np.zeros((n, 3)), np.zeros(n, dtype=bool), none.copy(), none.copy(),
+                   np.zeros((n, 3)), np.zeros((n, 3)), cells0, faces.astype(np.int64), xf,
+                   n_wall.copy(), mesh.face_areas[faces], np.zeros(n), np.zeros(n),
+                   np.ones(n, dtype=bool))
+
+    def arrays(self, rows=slice(None)) -> tuple[np.ndarray, ...]:
+        """The arrays in field order (the compiled walk's arguments), of ``rows`` (a slice
+        gives views: what a kernel writes lands in the state)."""
+        return tuple(getattr(self, f.name)[rows] for f in fields(self))
+
+    def take(self, rows: np.ndarray) -> "StackState":
+        """The state of ``rows`` (a copy)."""
+        return StackState(*self.arrays(rows))
+
+    def put(self, rows: np.ndarray, other: "StackState") -> None:
+        """Write ``other`` (one row per entry of ``rows``) into ``rows``."""
+        for f in fields(self):
+            getattr(self, f.name)[rows] = getattr(other, f.name)
+
+    def walked(self, heights: np.ndarray) -> Walked:
+        """What the walks found, with the ``heights`` of the cells walked."""
+        found = {f.name: getattr(self, f.name) for f in fields(Walked) if f.name != "heights"}
+        return Walked(heights=heights, **found)
+
+
+def walk_lockstep(mesh: "Mesh", s: StackState, walled: np.ndarray, max_aspect: float,
                   min_ratio: float, jump_ratio: float, cos_turn: float, max_cells: int,
-                  reach_m: float) -> Walked:
-    """March every stack one cell per step (see :mod:`caselint.mesh.wall_layers`).
+                  reach_m: float, foreign: np.ndarray | None = None,
+                  cell_ids: np.ndarray | None = None):
+    """March every stack of ``s`` on, one cell per step, updating ``s`` (see
+    :mod:`caselint.mesh.wall_layers`).
 
     Besides the stack, each walk keeps its last *jump*: the layer (index, cell, entry face
     centroid and normal) that grew by more than ``jump_ratio``, forgotten when a later
     layer grows by more than ``1 / min_ratio`` (the stack's cells above it are then not of
-    one height); :func:`caselint.mesh.wall_layers._stacks` cuts a stack there.
+    one height); :func:`caselint.mesh.wall_layers.stacks_from` cuts a stack there. A walk
+    entering a cell of ``foreign`` (C,) bool stops there (``moved``); core and jump cells
+    are recorded as ``cell_ids[cell]`` (the cell's own id when None).
+
+    :returns: the (n, most cells walked) heights of the cells walked in this call (0 for
+        the others) and ``moved``.
     """
-    n = len(faces)
+    n = len(s.cell)
     owner, neighbour = mesh.owner, mesh.neighbour
     xf, areas = mesh.face_centroids, mesh.face_areas
-
-    cells0 = owner[faces]
-    n_wall = unit_normals(mesh, faces, -np.ones(n))      # area vectors point out of the domain
-    centre = dot(mesh.cell_centroids[cells0] - xf[faces], n_wall)
-    first = extent(mesh, cells0, xf[faces], n_wall)
-    layered_first = np.zeros(n, dtype=bool)
-
-    columns: list[np.ndarray] = []
-    n_walked = np.zeros(n, dtype=np.int64)
-    n_layers = np.zeros(n, dtype=np.int64)
-    in_stack = np.ones(n, dtype=bool)
-    end = np.full(n, END_LIMIT, dtype=np.int8)
-    core_cell = np.full(n, -1, dtype=np.int64)
-    core_origin = np.zeros((n, 3))
-    core_normal = np.zeros((n, 3))
-    h_last = np.zeros(n)                     # height of each stack's last layer so far
-    facing = np.zeros(n, dtype=bool)
-    jump_at = np.full(n, -1, dtype=np.int64)
-    jump_cell = np.full(n, -1, dtype=np.int64)
-    jump_origin = np.zeros((n, 3))
-    jump_normal = np.zeros((n, 3))
+    named = (lambda c: c) if cell_ids is None else (lambda c: cell_ids[c])
     uneven = 1.0 / min_ratio
+    moved = np.zeros(n, dtype=bool)
+    walked_rows, walked_at, walked_h = [], [], []
+    top, h_last, in_stack = s.top, s.h_last, s.in_stack       # per row, kept up to date
 
     # State of the active stacks; the entry face's centroid and width carry over a step.
-    act, cell, entry, nin = np.arange(n), cells0.copy(), faces.copy(), n_wall.copy()
-    x_in = xf[faces]
-    a_in = areas[faces]
-    top = np.zeros(n)                        # distance from the wall walked so far, per stack
-    for step in range(max_cells):
-        if act.size == 0:
-            break
+    act, cell, entry, nin = np.arange(n), s.cell.copy(), s.entry.copy(), s.nin.copy()
+    x_in, a_in = s.x_in.copy(), s.a_in.copy()
+    while act.size:
+        step = s.n_walked[act]               # a walk has walked one cell a step
+        live = step < max_cells
+        if not live.all():
+            act, cell, entry, step = act[live], cell[live], entry[live], step[live]
+            nin, x_in, a_in = nin[live], x_in[live], a_in[live]
+            continue
+        start = step == 0
         opp, shaped = opposite(mesh, cell, entry, x_in, nin)
         mine = owner[opp] == cell
         a_out = areas[opp]
@@ -163,49 +235,47 @@ def walk_lockstep(mesh: "Mesh", faces: np.ndarray, walled: np.ndarray, max_aspec
         nout = np.take(mesh.face_area_vectors, opp, axis=0) * (
             np.where(mine, 1.0, -1.0) / np.where(a_out > 0, a_out, 1.0))[:, None]
         h = dot(x_out - x_in, nin)
-        straight = dot(nout, np.take(n_wall, act, axis=0)) >= cos_turn
+        straight = dot(nout, np.take(s.n_wall, act, axis=0)) >= cos_turn
         ok = shaped & straight & (h > 0)
         width = np.sqrt(a_in) if mesh.dim == 3 else a_in
         flat = ok & (h < max_aspect * width)
-        grows = (h >= min_ratio * h_last[act]) if step else np.ones(act.size, dtype=bool)
-        thin = flat & grows
-        if step == 0:
-            first[ok] = h[ok]
-            layered_first[ok] = True
-        column = np.zeros(n)
-        column[act[ok]] = h[ok]
-        columns.append(column)
-        n_walked[act[ok]] += 1
+        thin = flat & (start | (h >= min_ratio * h_last[act]))
+        lead = ok & start
+        s.first[act[lead]] = h[lead]
+        s.layered_first[act[lead]] = True
+        walked_rows.append(act[ok])
+        walked_at.append(step[ok])
+        walked_h.append(h[ok])
+        s.n_walked[act[ok]] += 1
 
         stacking = in_stack[act]
         layer = stacking & thin
-        if step:
-            q = h / np.where(layer, h_last[act], 1.0)
-            jumped = layer & (q > jump_ratio)
-            rows = act[jumped]
-            jump_at[rows] = n_layers[rows]
-            jump_cell[rows] = cell[jumped]
-            jump_origin[rows] = x_in[jumped]
-            jump_normal[rows] = nin[jumped]
-            jump_at[act[layer & ~jumped & (q > uneven)]] = -1
-        n_layers[act[layer]] += 1
+        later = layer & ~start
+        q = h / np.where(later, h_last[act], 1.0)
+        jumped = later & (q > jump_ratio)
+        rows = act[jumped]
+        s.jump_at[rows] = s.n_layers[rows]
+        s.jump_cell[rows] = named(cell[jumped])
+        s.jump_origin[rows] = x_in[jumped]
+        s.jump_normal[rows] = nin[jumped]
+        s.jump_at[act[later & ~jumped & (q > uneven)]] = -1
+        s.n_layers[act[layer]] += 1
         h_last[act[layer]] = h[layer]
         stops = stacking & ~thin
         reason = np.where(~shaped | (ok & ~flat), END_CORE,
                           np.where(ok, END_SHRINK, np.where(~straight, END_TURN, END_DEGENERATE)))
-        if step == 0:
-            reason[:] = NO_STACK
-        end[act[stops]] = reason[stops]
+        reason[start] = NO_STACK
+        s.end[act[stops]] = reason[stops]
         at_core = stops & (reason == END_CORE)
-        core_cell[act[at_core]] = cell[at_core]
-        core_origin[act[at_core]] = x_in[at_core]
-        core_normal[act[at_core]] = nin[at_core]
+        s.core_cell[act[at_core]] = named(cell[at_core])
+        s.core_origin[act[at_core]] = x_in[at_core]
+        s.core_normal[act[at_core]] = nin[at_core]
         in_stack[act[stops]] = False
 
         on_boundary = ok & (neighbour[opp] < 0)
         closing = stacking & thin & on_boundary
-        end[act[closing]] = END_BOUNDARY
-        facing[act[closing]] = walled[opp[closing]]
+        s.end[act[closing]] = END_BOUNDARY
+        s.facing[act[closing]] = walled[opp[closing]]
         in_stack[act[closing]] = False
         top[act[ok]] += h[ok]
         # past its stack, a walk goes on only while it is within reach of the wall
@@ -213,9 +283,18 @@ def walk_lockstep(mesh: "Mesh", faces: np.ndarray, walled: np.ndarray, max_aspec
         nxt = np.where(mine, neighbour[opp], owner[opp])
         act, cell, entry, nin = act[go], nxt[go], opp[go], np.compress(go, nout, axis=0)
         x_in, a_in = np.compress(go, x_out, axis=0), a_out[go]
+        if foreign is not None:
+            away = foreign[cell]
+            if away.any():
+                rows = act[away]
+                moved[rows] = True
+                s.cell[rows], s.entry[rows], s.nin[rows] = cell[away], entry[away], nin[away]
+                s.x_in[rows], s.a_in[rows] = x_in[away], a_in[away]
+                stay = ~away
+                act, cell, entry, nin = act[stay], cell[stay], entry[stay], nin[stay]
+                x_in, a_in = x_in[stay], a_in[stay]
 
-    walked = int(n_walked.max(initial=0))    # the last step may have walked no cell
-    heights = np.column_stack(columns[:walked]) if walked else np.zeros((n, 0))
-    return Walked(n_wall, centre, first, layered_first, n_layers, n_walked, heights, end,
-                  core_cell, core_origin, core_normal, facing, jump_at, jump_cell, jump_origin,
-                  jump_normal)
+    heights = np.zeros((n, int(s.n_walked.max(initial=0))))
+    if walked_rows:
+        heights[np.concatenate(walked_rows), np.concatenate(walked_at)] = np.concatenate(walked_h)
+    return heights, moved

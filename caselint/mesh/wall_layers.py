@@ -78,6 +78,7 @@ from caselint.mesh.stack_walk import (  # noqa: F401  (the end codes are part of
     END_TURN,
     END_WORDS,
     NO_STACK,
+    StackState,
     Walked,
     walk_lockstep,
 )
@@ -178,36 +179,71 @@ def _walk(mesh: "Mesh", faces: np.ndarray, shape: tuple[float, float, float],
           turn_deg: float, max_cells: int, reach_m: float = math.inf) -> WallLayers:
     """Walk every stack (compiled, or in lock step with numpy) and sum up its layers;
     ``shape`` is (max_aspect, min_ratio, jump_ratio)."""
-    cos_turn = math.cos(math.radians(turn_deg))
     walled = np.zeros(mesh.n_faces, dtype=bool)
     walled[faces] = True
+    extent = functools.partial(extents, mesh)
+    state = StackState.at_walls(mesh, faces, extent)
+    heights, _ = walk_on(mesh, state, walled, shape, turn_deg, max_cells, reach_m)
+    return stacks_from(faces, mesh.owner[faces], state.walked(heights), extent, reach_m)
+
+
+def walk_on(mesh: "Mesh", state: StackState, walled: np.ndarray,
+            shape: tuple[float, float, float], turn_deg: float, max_cells: int,
+            reach_m: float, foreign: np.ndarray | None = None,
+            cell_ids: np.ndarray | None = None):
+    """Walk the stacks of ``state`` on (updated in place), compiled or in lock step with
+    numpy; ``walled`` (F,) the faces of the walls walked from; ``foreign`` and
+    ``cell_ids`` as for :func:`caselint.mesh.stack_walk.walk_lockstep`.
+
+    :returns: the heights of the cells walked here (row, cells walked so far) and
+        ``moved``.
+    """
+    cos_turn = math.cos(math.radians(turn_deg))
     kernel = compiled("layer_walk", mesh.n_cells)
     if kernel is None:
-        walked = walk_lockstep(mesh, faces, walled, *shape, cos_turn, max_cells, reach_m)
-        extent = functools.partial(cell_extent, mesh)
-    else:
-        cf, data = mesh.cell_faces, mesh.data
-        topo = (cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.points)
-        parts = in_threads(lambda p: kernel.walk(
-            *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
-            mesh.face_centroids, mesh.cell_centroids, faces[p], walled, *shape, cos_turn,
-            max_cells, float(reach_m), mesh.dim == 3), len(faces))
-        *per_face, tables = (list(values) for values in zip(*parts))
-        per_face = [np.concatenate(values) for values in per_face]
-        widest = max(t.shape[1] for t in tables)
-        heights = np.zeros((len(faces), widest))
-        at = 0
-        for t in tables:
-            heights[at : at + len(t), : t.shape[1]] = t
-            at += len(t)
-        walked = Walked(*per_face[:6], heights, *per_face[6:])   # the kernel's order
-        extent = functools.partial(kernel.extents, *topo)
-    return _stacks(faces, mesh.owner[faces], walked, extent, reach_m)
+        return walk_lockstep(mesh, state, walled, *shape, cos_turn, max_cells, reach_m,
+                             foreign, cell_ids)
+    cf, data = mesh.cell_faces, mesh.data
+    topo = (cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.points)
+    stop = _NONE if foreign is None else foreign
+    ids = _NO_IDS if cell_ids is None else cell_ids
+    n = len(state.cell)
+    parts = in_threads(lambda p: kernel.walk(
+        *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
+        mesh.face_centroids, walled, stop, ids, *state.arrays(p), *shape, cos_turn,
+        max_cells, float(reach_m), mesh.dim == 3), n)
+    tables, moved = zip(*parts)
+    heights = np.zeros((n, max(t.shape[1] for t in tables)))
+    at = 0
+    for t in tables:
+        heights[at : at + len(t), : t.shape[1]] = t
+        at += len(t)
+    return heights, np.concatenate(moved)
 
 
-def _stacks(faces: np.ndarray, cells0: np.ndarray, w: Walked, extent,
-            reach_m: float) -> WallLayers:
-    """The stacks' thickness, growth and core jump from the walked heights."""
+#: ``foreign`` and ``cell_ids`` for the compiled walk on a whole mesh: none.
+_NONE = np.zeros(0, dtype=bool)
+_NO_IDS = np.zeros(0, dtype=np.int64)
+
+
+def extents(mesh: "Mesh", cells: np.ndarray, origin: np.ndarray,
+            normal: np.ndarray) -> np.ndarray:
+    """Largest distance of each of ``cells``' vertices from its ``origin`` along its unit
+    ``normal`` (m), compiled or with numpy (equal results)."""
+    kernel = compiled("layer_walk", mesh.n_cells)
+    if kernel is None:
+        return cell_extent(mesh, cells, origin, normal)
+    cf, data = mesh.cell_faces, mesh.data
+    return kernel.extents(cf.offsets, cf.faces, data.face_offsets, data.face_points,
+                          mesh.points, np.asarray(cells, dtype=np.int64),
+                          np.ascontiguousarray(origin), np.ascontiguousarray(normal))
+
+
+def stacks_from(faces: np.ndarray, cells0: np.ndarray, w: Walked, extent,
+                reach_m: float) -> WallLayers:
+    """The stacks above ``faces`` (wall cells ``cells0``) from what their walks found:
+    cut before a block or at the middle of a passage, thickness, growth and core jump
+    (``extent`` as for :meth:`StackState.at_walls`)."""
     n, heights = len(faces), w.heights
     n_layers, end, core_cell, core_origin, core_normal = _cut_before_a_block(w)
     n_layers, end, passage = _cut_at_the_middle(heights, n_layers, end, w.facing)

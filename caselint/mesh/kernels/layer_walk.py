@@ -2,8 +2,10 @@
 
 The numpy reference is :func:`caselint.mesh.stack_walk.walk_lockstep` (all stacks in lock step,
 one vectorised step per layer); this module walks one stack at a time with the same
-arithmetic in the same order, so the results are equal to the bit. See
-:mod:`caselint.mesh.wall_layers` for what a stack is and when it ends.
+arithmetic in the same order, so the results are equal to the bit. Each walk goes on from a
+state (:class:`caselint.mesh.stack_walk.StackState`: a walk starting at its wall, or one
+handed over from another partition). See :mod:`caselint.mesh.wall_layers` for what a stack
+is and when it ends.
 """
 
 from __future__ import annotations
@@ -84,35 +86,26 @@ BATCH = 16
 
 @jit
 def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbour, area,
-         areas, centroid, cell_centroids, faces, walled, max_aspect, min_ratio, jump_ratio,
-         cos_turn, max_cells, reach_m, three_d):
-    """Walk the stack above every boundary face of ``faces``.
+         areas, centroid, walled, foreign, cell_ids,
+         n_wall, centre, first, layered, n_layers, n_walked, end, core_cell, core_origin,
+         core_normal, facing, jump_at, jump_cell, jump_origin, jump_normal,
+         cell0, entry0, x_in0, nin0, a_in0, top0, h_last0, in_stack0,
+         max_aspect, min_ratio, jump_ratio, cos_turn, max_cells, reach_m, three_d):
+    """Walk every stack on from its state (the arrays ``n_wall`` ... ``in_stack0``, the
+    fields of :class:`caselint.mesh.stack_walk.StackState` in order, updated in place).
 
-    Returns per face: wall normal (n, 3), centre distance, first height, layered first,
-    layers, cells walked, end code, core cell, core origin (n, 3), core normal (n, 3),
-    whether the stack ended on a face of ``walled`` (a facing wall), the last jump's layer,
-    cell, origin (n, 3) and normal (n, 3), and the (n, most cells walked) heights of the
-    walked cells (0 beyond ``n_walked``).
+    A walk entering a cell of ``foreign`` (C,) bool (none when empty) stops there, its
+    place written back; core and jump cells are recorded as ``cell_ids[cell]`` (the
+    cell's own id when empty). Returns the (n, most cells walked) heights of the cells
+    walked here (0 elsewhere) and which walks moved.
     """
-    n = faces.shape[0]
-    n_wall = np.empty((n, 3))
-    centre = np.empty(n)
-    first = np.empty(n)
-    layered = np.zeros(n, dtype=np.bool_)
-    n_layers = np.zeros(n, dtype=np.int64)
-    n_walked = np.zeros(n, dtype=np.int64)
-    end = np.full(n, END_LIMIT, dtype=np.int8)
-    core_cell = np.full(n, -1, dtype=np.int64)
-    core_origin = np.zeros((n, 3))
-    core_normal = np.zeros((n, 3))
-    facing = np.zeros(n, dtype=np.bool_)
-    jump_at = np.full(n, -1, dtype=np.int64)
-    jump_cell = np.full(n, -1, dtype=np.int64)
-    jump_origin = np.zeros((n, 3))
-    jump_normal = np.zeros((n, 3))
+    n = cell0.shape[0]
     uneven = 1.0 / min_ratio
     heights = np.zeros((n, 16))
     widest = 0
+    moved = np.zeros(n, dtype=np.bool_)
+    handing = foreign.shape[0] > 0
+    naming = cell_ids.shape[0] > 0
     # the state of the stack in each slot; the entry face's centroid and width carry over
     row = np.full(BATCH, -1, dtype=np.int64)
     cell = np.zeros(BATCH, dtype=np.int64)
@@ -136,24 +129,13 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
                     continue
                 i = following
                 following += 1
-                face = faces[i]
-                a = areas[face]
-                scale = -1.0 / (a if a > 0 else 1.0)   # area vectors point out of the domain
+                row[b], cell[b], entry[b], step[b] = i, cell0[i], entry0[i], n_walked[i]
                 for k in range(3):
-                    n_wall[i, k] = area[face, k] * scale
-                c0 = owner[face]
-                centre[i] = ((cell_centroids[c0, 0] - centroid[face, 0]) * n_wall[i, 0]
-                             + (cell_centroids[c0, 1] - centroid[face, 1]) * n_wall[i, 1]
-                             + (cell_centroids[c0, 2] - centroid[face, 2]) * n_wall[i, 2])
-                for k in range(3):
-                    x_in[b, k] = centroid[face, k]
-                    nin[b, k] = n_wall[i, k]
-                first[i] = extent(cf_offsets, cf_faces, face_offsets, face_points, points, c0,
-                                  x_in[b], nin[b])
-                row[b], cell[b], entry[b], step[b] = i, c0, face, 0
-                a_in[b], top[b], in_stack[b] = a, 0.0, True
+                    x_in[b, k] = x_in0[i, k]
+                    nin[b, k] = nin0[i, k]
+                a_in[b], top[b], h_last[b], in_stack[b] = a_in0[i], top0[i], h_last0[i], in_stack0[i]
             busy = True
-            if step[b] == max_cells:
+            if step[b] >= max_cells:
                 row[b] = -1
                 continue
             c = cell[b]
@@ -174,14 +156,15 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
             flat = ok and h < max_aspect * width
             grows = step[b] == 0 or h >= min_ratio * h_last[b]
             thin = flat and grows
+            named = cell_ids[c] if naming else c
             if ok:
                 if step[b] == 0:
                     first[i] = h
                     layered[i] = True
                 k = n_walked[i]
-                if k == heights.shape[1]:
-                    grown = np.zeros((n, 2 * k))
-                    grown[:, :k] = heights
+                if k >= heights.shape[1]:
+                    grown = np.zeros((n, max(2 * heights.shape[1], k + 1)))
+                    grown[:, :heights.shape[1]] = heights
                     heights = grown
                 heights[i, k] = h
                 n_walked[i] = k + 1
@@ -193,7 +176,7 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
                         q = h / h_last[b]
                         if q > jump_ratio:
                             jump_at[i] = n_layers[i]
-                            jump_cell[i] = c
+                            jump_cell[i] = named
                             for k in range(3):
                                 jump_origin[i, k] = x_in[b, k]
                                 jump_normal[i, k] = nin[b, k]
@@ -214,7 +197,7 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
                         reason = END_DEGENERATE
                     end[i] = reason
                     if reason == END_CORE:
-                        core_cell[i] = c
+                        core_cell[i] = named
                         for k in range(3):
                             core_origin[i, k] = x_in[b, k]
                             core_normal[i, k] = nin[b, k]
@@ -236,9 +219,15 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
                 x_in[b, k] = centroid[opp, k]
             a_in[b] = a_out
             step[b] += 1
-    return (n_wall, centre, first, layered, n_layers, n_walked, end, core_cell, core_origin,
-            core_normal, facing, jump_at, jump_cell, jump_origin, jump_normal,
-            heights[:, :widest].copy())
+            if handing and foreign[cell[b]]:
+                cell0[i], entry0[i], a_in0[i] = cell[b], opp, a_out
+                top0[i], h_last0[i], in_stack0[i] = top[b], h_last[b], in_stack[b]
+                for k in range(3):
+                    nin0[i, k] = nout[k]
+                    x_in0[i, k] = centroid[opp, k]
+                moved[i] = True
+                row[b] = -1
+    return heights[:, :widest].copy(), moved
 
 
 @jit

@@ -6,6 +6,9 @@ the results are equal to the bit: the exit face of a cell is, among the faces th
 leaves through (``d . n_out > 1e-9``), the one whose plane it meets first (the first in the
 cell's face order among equals), never the face it came in through; a ray is lost when a
 cell has no exit, when it stalls for more than ``max_stalled`` cells, or at ``max_steps``.
+Each ray goes on from a state (:class:`caselint.mesh.rays.RayState`: a ray starting at a
+wall, or one handed over from another partition), and one entering a cell marked foreign
+stops there with its state written back.
 """
 
 from __future__ import annotations
@@ -94,20 +97,26 @@ BATCH = 16
 
 
 @jit
-def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, start_faces, origin,
-          direction, active, max_steps, max_stalled, parallel_eps):
-    """Hit face, status, width and cells crossed of every ray (see the module docstring).
+def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, foreign, origin,
+          direction, active, cell0, entry0, t0, count0, stuck0, steps0, max_steps,
+          max_stalled, parallel_eps):
+    """Hit face, status, width, cells crossed and whether it moved, of every ray marched
+    on from its state (see the module docstring and :class:`caselint.mesh.rays.RayState`).
 
     ``cf_offsets`` / ``cf_faces``: the faces of every cell (CSR, ascending face id);
     ``area`` / ``centroid``: (F, 3) face area vectors and centroids (the planes of the faces
     met are computed from them); ``active``: rays that have a direction (the others stay
-    lost with no cell counted).
+    lost with no cell counted); ``cell0`` ... ``steps0``: each ray's state, where a ray
+    that enters a cell of ``foreign`` (C,) bool (none when empty) stops, moved, its state
+    written back.
     """
-    n = start_faces.shape[0]
+    n = origin.shape[0]
     hit = np.full(n, -1, dtype=np.int64)
     status = np.full(n, LOST, dtype=np.int8)
     width = np.zeros(n)
     cells = np.zeros(n, dtype=np.int64)
+    moved = np.zeros(n, dtype=np.bool_)
+    handing = foreign.shape[0] > 0
     ray = np.full(BATCH, -1, dtype=np.int64)
     cell = np.zeros(BATCH, dtype=np.int64)
     entry = np.zeros(BATCH, dtype=np.int64)
@@ -128,10 +137,10 @@ def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, start_fa
                     continue
                 r = following
                 following += 1
-                ray[b], entry[b], t_now[b] = r, start_faces[r], 0.0
-                cell[b], count[b], stuck[b], steps[b] = owner[start_faces[r]], 1, 0, 0
+                ray[b], cell[b], entry[b], t_now[b] = r, cell0[r], entry0[r], t0[r]
+                count[b], stuck[b], steps[b] = count0[r], stuck0[r], steps0[r]
             busy = True
-            if steps[b] == max_steps:
+            if steps[b] >= max_steps:
                 cells[r] = count[b] - 1     # cells fully crossed before the step limit; LOST
                 ray[b] = -1
                 continue
@@ -152,20 +161,27 @@ def march(cf_offsets, cf_faces, owner, neighbour, area, centroid, wall, start_fa
                 continue
             cell[b], entry[b], t_now[b] = nxt, best_f, best_t
             count[b] += 1
-    return hit, status, width, cells
+            if handing and foreign[nxt]:
+                cell0[r], entry0[r], t0[r] = nxt, best_f, best_t
+                count0[r], stuck0[r], steps0[r] = count[b], stuck[b], steps[b]
+                moved[r] = True
+                ray[b] = -1
+    return hit, status, width, cells, moved
 
 
 @jit
-def march_within(cf_offsets, cf_faces, owner, neighbour, area, centroid, start_faces, origin,
-                 direction, active, limit, face_offsets, face_points, points, max_steps,
-                 max_stalled, parallel_eps):
-    """Cells crossed within ``limit[r]`` of each ray's origin, how far the count went, and
-    whether the ray stopped short of its limit, as
-    :func:`caselint.mesh.rays._within_chunk` computes them (see :func:`caselint.mesh.rays.cells_within`)."""
-    n = start_faces.shape[0]
-    cells = np.zeros(n)
+def march_within(cf_offsets, cf_faces, owner, neighbour, area, centroid, foreign, origin,
+                 direction, active, limit, cell0, entry0, t0, cells, stuck0, steps0,
+                 face_offsets, face_points, points, max_steps, max_stalled, parallel_eps):
+    """Cells crossed within ``limit[r]`` of each ray's origin, added to ``cells`` (the
+    state's count), how far the count went, whether the ray stopped short of its limit
+    and whether it moved, as :func:`caselint.mesh.rays._within_chunk` computes them (see
+    :func:`caselint.mesh.rays.cells_within` and :func:`march`)."""
+    n = origin.shape[0]
     reached = np.zeros(n)
     short = limit > 0                                  # a zero limit is reached at once
+    moved = np.zeros(n, dtype=np.bool_)
+    handing = foreign.shape[0] > 0
     ray = np.full(BATCH, -1, dtype=np.int64)
     cell = np.zeros(BATCH, dtype=np.int64)
     entry = np.zeros(BATCH, dtype=np.int64)
@@ -185,10 +201,10 @@ def march_within(cf_offsets, cf_faces, owner, neighbour, area, centroid, start_f
                     continue
                 r = following
                 following += 1
-                ray[b], entry[b], t_now[b] = r, start_faces[r], 0.0
-                cell[b], stuck[b], steps[b] = owner[start_faces[r]], 0, 0
+                ray[b], cell[b], entry[b], t_now[b] = r, cell0[r], entry0[r], t0[r]
+                stuck[b], steps[b] = stuck0[r], steps0[r]
             busy = True
-            if steps[b] == max_steps:
+            if steps[b] >= max_steps:
                 reached[r] = t_now[b]
                 ray[b] = -1
                 continue
@@ -215,4 +231,9 @@ def march_within(cf_offsets, cf_faces, owner, neighbour, area, centroid, start_f
                 ray[b] = -1
                 continue
             cell[b], entry[b], t_now[b] = nxt, best_f, best_t
-    return cells, reached, short
+            if handing and foreign[nxt]:
+                cell0[r], entry0[r], t0[r] = nxt, best_f, best_t
+                stuck0[r], steps0[r] = stuck[b], steps[b]
+                moved[r] = True
+                ray[b] = -1
+    return reached, short, moved
