@@ -105,7 +105,7 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     if max_steps < 1:
         raise ValueError(f"max_steps must be at least 1, got {max_steps}")
     start_faces = np.asarray(start_faces, dtype=np.int64)
-    origin, direction, ok = _inward(mesh, start_faces)
+    origin, direction, ok = inward(mesh, start_faces)
     state = RayState.at_start(mesh.owner, start_faces, 1)
     hit, status, width, cells, _ = march_on(mesh, origin, direction, ok, state,
                                             _wall_mask(mesh, wall_face), max_steps)
@@ -122,7 +122,7 @@ class RayState:
     A march resumed from a state (:func:`march_on`, :func:`within_on`) goes on exactly as
     the march that left it would have; a ray that enters a cell marked ``foreign`` stops
     there with its state written back (a partition hands it to the one owning that cell,
-    :mod:`caselint.partition.walks`).
+    :mod:`caselint.partition.exchange`).
     """
 
     cell: np.ndarray
@@ -188,7 +188,7 @@ def march_on(mesh: "Mesh", origin: np.ndarray, direction: np.ndarray, active: np
 _NONE_FOREIGN = np.zeros(0, dtype=bool)
 
 
-def _inward(mesh: "Mesh", start_faces: np.ndarray):
+def inward(mesh: "Mesh", start_faces: np.ndarray):
     """Origins (face centroids), unit inward normals and whether each face has one (a
     collapsed face has none: its ray is lost) of the rays from boundary ``start_faces``."""
     if start_faces.size and np.any(mesh.neighbour[start_faces] >= 0):
@@ -267,16 +267,17 @@ def _march_chunk(fd: _FaceData, ends: tuple, origin: np.ndarray, direction: np.n
     face, status, width, cells, moved) in lock step until they all stop."""
     hit_face, status, width, cells, moved = ends
     o, d = origin[rays], direction[rays]
-    cell, entry, t_now = state.cell[rays], state.entry[rays], state.t_now[rays]
-    count, stuck, steps = state.counted[rays], state.stuck[rays], state.steps[rays]
+    count, stuck = state.counted[rays], state.stuck[rays]
     idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
+    # per active ray: cell, entry face, distance marched, steps it may still take
+    cell, entry, t_now = state.cell[rays], state.entry[rays], state.t_now[rays]
+    left = max_steps - state.steps[rays]
     while idx.size:
-        limit = steps[idx] >= max_steps
-        if limit.any():                 # cells fully crossed before the step limit; LOST
-            cells[rays[idx[limit]]] = count[idx[limit]] - 1
-            idx, cell, entry, t_now = idx[~limit], cell[~limit], entry[~limit], t_now[~limit]
+        if left.min() <= 0:             # cells fully crossed before the step limit; LOST
+            out = left <= 0
+            cells[rays[idx[out]]] = count[idx[out]] - 1
+            idx, cell, entry, t_now, left = (v[~out] for v in (idx, cell, entry, t_now, left))
             continue
-        steps[idx] += 1
         t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
         end = ~lost & (nxt < 0)
         ray = rays[idx]
@@ -286,30 +287,30 @@ def _march_chunk(fd: _FaceData, ends: tuple, origin: np.ndarray, direction: np.n
         cells[ray[end]] = count[idx[end]]
         cells[ray[lost]] = count[idx[lost]]
         go = ~lost & ~end
-        idx = idx[go]
-        cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
+        idx, cell, entry, t_now, left = idx[go], nxt[go], f_exit[go], t_exit[go], left[go] - 1
         count[idx] += 1
         if foreign is not None:
-            idx, cell, entry, t_now = _hand_over(state, rays, idx, cell, entry, t_now,
-                                                 count, stuck, steps, foreign, moved)
+            idx, cell, entry, t_now, left = _hand_over(
+                state, rays, (idx, cell, entry, t_now, left), count, stuck, max_steps,
+                foreign, moved)
 
 
-def _hand_over(state: RayState, rays, idx, cell, entry, t_now, counted, stuck, steps,
-               foreign, moved):
-    """Write the state of the active rays ``idx`` that entered a foreign cell back into
-    ``state`` (``counted`` None: counted there already) and mark them ``moved``; the
-    positions and state of the others."""
+def _hand_over(state: RayState, rays, active: tuple, counted, stuck, max_steps: int,
+               foreign, moved) -> tuple:
+    """Write the state of the active rays that entered a foreign cell back into ``state``
+    and mark them ``moved``; ``active`` (positions, cell, entry, distance, steps left) of
+    the others. ``counted`` None: the rays count in ``state`` already."""
+    idx, cell, entry, t_now, left = active
     away = foreign[cell]
     if not away.any():
-        return idx, cell, entry, t_now
+        return active
     gone, ray = idx[away], rays[idx[away]]
     moved[ray] = True
     state.cell[ray], state.entry[ray], state.t_now[ray] = cell[away], entry[away], t_now[away]
-    state.stuck[ray], state.steps[ray] = stuck[gone], steps[gone]
+    state.stuck[ray], state.steps[ray] = stuck[gone], max_steps - left[away]
     if counted is not None:
         state.counted[ray] = counted[gone]
-    stay = ~away
-    return idx[stay], cell[stay], entry[stay], t_now[stay]
+    return tuple(v[~away] for v in active)
 
 
 @dataclass(frozen=True)
@@ -343,7 +344,7 @@ def cells_within(mesh: "Mesh", start_faces: np.ndarray, limit_m,
     limit = np.array(np.broadcast_to(np.asarray(limit_m, dtype=np.float64), (n,)))
     if not np.all(limit >= 0):
         raise ValueError("limit_m must be at least 0 (and not NaN)")
-    origin, direction, ok = _inward(mesh, start_faces)
+    origin, direction, ok = inward(mesh, start_faces)
     state = RayState.at_start(mesh.owner, start_faces, 0.0)
     reached, short, _ = within_on(mesh, origin, direction, ok, limit, state, max_steps)
     return Crossing(start_faces, limit, state.counted, reached, short)
@@ -398,18 +399,17 @@ def _within_chunk(mesh: "Mesh", fd: _FaceData, ends: tuple, origin: np.ndarray,
     ``state.counted``; ``ends``: how far each got, short, moved."""
     reached, short, moved = ends
     o, d, limit = origin[rays], direction[rays], limit_all[rays]
-    cell, entry, t_now = state.cell[rays], state.entry[rays], state.t_now[rays]
-    stuck, steps = state.stuck[rays], state.steps[rays]
+    stuck = state.stuck[rays]
     counted = state.counted                # added to in place, ray by ray
     idx = np.arange(rays.size)          # positions (in this chunk) of the active rays
+    cell, entry, t_now = state.cell[rays], state.entry[rays], state.t_now[rays]
+    left = max_steps - state.steps[rays]
     while idx.size:
-        limit_hit = steps[idx] >= max_steps
-        if limit_hit.any():                     # the step limit: cells crossed so far
-            reached[rays[idx[limit_hit]]] = t_now[limit_hit]
-            keep = ~limit_hit
-            idx, cell, entry, t_now = idx[keep], cell[keep], entry[keep], t_now[keep]
+        if left.min() <= 0:             # the step limit: cells crossed so far
+            out = left <= 0
+            reached[rays[idx[out]]] = t_now[out]
+            idx, cell, entry, t_now, left = (v[~out] for v in (idx, cell, entry, t_now, left))
             continue
-        steps[idx] += 1
         t_exit, f_exit, nxt, lost = _advance(fd, cell, entry, o, d, t_now, stuck, idx)
         ray, lim = rays[idx], limit[idx]
         reached[ray[lost]] = t_now[lost]
@@ -424,11 +424,11 @@ def _within_chunk(mesh: "Mesh", fd: _FaceData, ends: tuple, origin: np.ndarray,
         ends = crossed & (nxt < 0)                      # on the boundary before the limit
         reached[ray[ends]] = t_exit[ends]
         go = crossed & ~ends
-        idx = idx[go]
-        cell, entry, t_now = nxt[go], f_exit[go], t_exit[go]
+        idx, cell, entry, t_now, left = idx[go], nxt[go], f_exit[go], t_exit[go], left[go] - 1
         if foreign is not None:
-            idx, cell, entry, t_now = _hand_over(state, rays, idx, cell, entry, t_now,
-                                                 None, stuck, steps, foreign, moved)
+            idx, cell, entry, t_now, left = _hand_over(
+                state, rays, (idx, cell, entry, t_now, left), None, stuck, max_steps,
+                foreign, moved)
 
 
 def _advance(fd: _FaceData, cell: np.ndarray, entry: np.ndarray, o: np.ndarray, d: np.ndarray,

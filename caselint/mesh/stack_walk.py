@@ -123,7 +123,7 @@ class StackState:
 
     A walk resumed from a state goes on exactly as the walk that left it would have; a
     walk that enters a cell marked ``foreign`` stops there with its state written back
-    (a partition hands it to the one owning that cell, :mod:`caselint.partition.walks`).
+    (a partition hands it to the one owning that cell, :mod:`caselint.partition.exchange`).
     The place of a walk that ended is left as it was.
     """
 
@@ -177,13 +177,12 @@ class StackState:
         return tuple(getattr(self, f.name)[rows] for f in fields(self))
 
     def take(self, rows: np.ndarray) -> "StackState":
-        """The state of ``rows`` (a copy)."""
+        """The state of ``rows`` (indices or a mask: a copy)."""
         return StackState(*self.arrays(rows))
 
-    def put(self, rows: np.ndarray, other: "StackState") -> None:
-        """Write ``other`` (one row per entry of ``rows``) into ``rows``."""
-        for f in fields(self):
-            getattr(self, f.name)[rows] = getattr(other, f.name)
+    def copy(self) -> "StackState":
+        """A copy of the state."""
+        return StackState(*(a.copy() for a in self.arrays()))
 
     def walked(self, heights: np.ndarray) -> Walked:
         """What the walks found, with the ``heights`` of the cells walked."""

@@ -153,15 +153,7 @@ def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, min_ratio: floa
                 reach_m: float = math.inf) -> WallLayers:
     """The layer stacks above boundary ``faces`` (ids), walked up to ``reach_m`` from the
     wall; cached on the mesh per face set (a walk that reached further serves too)."""
-    faces = np.unique(np.asarray(faces, dtype=np.int64))
-    if faces.size and (faces.min() < 0 or faces.max() >= mesh.n_faces
-                       or np.any(mesh.neighbour[faces] >= 0)):
-        raise ValueError("wall_layers() needs ids of boundary faces (faces with no neighbour)")
-    if not reach_m >= 0:
-        raise ValueError(f"reach_m must be at least 0, got {reach_m!r}")
-    if not (0 < min_ratio <= 1 and jump_ratio >= 1):
-        raise ValueError(f"min_ratio must be in (0, 1] and jump_ratio at least 1, got "
-                         f"{min_ratio!r} and {jump_ratio!r}")
+    faces = checked_walls(mesh, faces, min_ratio, jump_ratio, reach_m)
     digest = hashlib.sha1(faces.tobytes()).hexdigest()
     key = (f"wall_layers:{digest}:{max_aspect!r}:{min_ratio!r}:{jump_ratio!r}:{turn_deg!r}:"
            f"{int(max_cells)}")
@@ -173,6 +165,22 @@ def wall_layers(mesh: "Mesh", faces, *, max_aspect: float = 1.0, min_ratio: floa
                    turn_deg, int(max_cells), float(reach_m))
     walks[float(reach_m)] = layers
     return layers
+
+
+def checked_walls(mesh, faces, min_ratio: float, jump_ratio: float,
+                  reach_m: float) -> np.ndarray:
+    """``faces`` as sorted unique ids, checked to be boundary faces of ``mesh`` (a
+    :class:`~caselint.mesh.analysis.Mesh` or its data), and the walk's settings checked."""
+    faces = np.unique(np.asarray(faces, dtype=np.int64))
+    if faces.size and (faces.min() < 0 or faces.max() >= mesh.n_faces
+                       or np.any(mesh.neighbour[faces] >= 0)):
+        raise ValueError("wall_layers() needs ids of boundary faces (faces with no neighbour)")
+    if not reach_m >= 0:
+        raise ValueError(f"reach_m must be at least 0, got {reach_m!r}")
+    if not (0 < min_ratio <= 1 and jump_ratio >= 1):
+        raise ValueError(f"min_ratio must be in (0, 1] and jump_ratio at least 1, got "
+                         f"{min_ratio!r} and {jump_ratio!r}")
+    return faces
 
 
 def _walk(mesh: "Mesh", faces: np.ndarray, shape: tuple[float, float, float],

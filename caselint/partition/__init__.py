@@ -7,5 +7,8 @@ face metrics need, results put back together equal to the bit to the whole-mesh 
 - :mod:`caselint.partition.piece`: one partition cut out of the mesh with its halo, as a
   :class:`~caselint.mesh.model.MeshData` of its own;
 - :mod:`caselint.partition.measure`: the per-cell and per-face quantities of a piece, for
-  the cells and faces it owns, and their assembly into whole-mesh arrays.
+  the cells and faces it owns, and their assembly into whole-mesh arrays;
+- :mod:`caselint.partition.exchange`: walks that go on from partition to partition, handed
+  over with their state in exchange rounds; :mod:`caselint.partition.rays` (gap rays) and
+  :mod:`caselint.partition.stacks` (wall-layer stacks) drive them.
 """

@@ -50,6 +50,15 @@ class Plan:
         """(K,) number of cells of each partition."""
         return np.diff(self.offsets)
 
+    def labels(self) -> np.ndarray:
+        """(C,) the partition owning each cell."""
+        parts = np.repeat(np.arange(self.n_parts, dtype=np.int32), self.sizes())
+        if self.order is None:
+            return parts
+        out = np.empty(self.n_cells, dtype=np.int32)
+        out[self.order] = parts
+        return out
+
 
 def by_ranges(n_cells: int, n_parts: int) -> Plan:
     """``n_parts`` consecutive ranges of cell ids of (nearly) equal size; fewer when there
