@@ -12,6 +12,7 @@ The timing targets are in benchmarks/, not here.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 import os
 import subprocess
@@ -38,6 +39,7 @@ from caselint.mesh.quality import (
     skewness,
 )
 from caselint.mesh.refined import refined_block
+from caselint.mesh.stack_walk import StackState
 from caselint.mesh.size_ratio import mean_sizes, volume_ratio
 from caselint.rules.mesh_integrity import (
     cell_closure,
@@ -153,7 +155,39 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
             layers = wall_layers.wall_layers(mesh, boundary, reach_m=reach)
             for f in dataclasses.fields(layers):
                 out[f"layers{reach}.{f.name}"] = getattr(layers, f.name)
+        out.update(_stopped_at_foreign_cells(mesh, boundary, wall, limits))
     return out
+
+
+def _stopped_at_foreign_cells(mesh: Mesh, boundary: np.ndarray, wall: np.ndarray,
+                              limits: np.ndarray) -> dict:
+    """Marches and walks that stop where they enter a cell marked foreign (a third of the
+    cells, at random), with the state they stop in: what a partition hands to the next."""
+    foreign = np.random.default_rng(7).random(mesh.n_cells) < 0.3
+    out = {}
+    origin, direction, ok = rays.inward(mesh, boundary)
+    state = rays.RayState.at_start(mesh.owner, boundary, 1)
+    ends = rays.march_on(mesh, origin, direction, ok, state, wall, rays.MAX_STEPS, foreign)
+    out.update({f"handed.rays.{k}": v for k, v in enumerate(ends + state.arrays())})
+    state = rays.RayState.at_start(mesh.owner, boundary, 0.0)
+    ends = rays.within_on(mesh, origin, direction, ok, limits, state, rays.MAX_STEPS, foreign)
+    out.update({f"handed.within.{k}": v for k, v in enumerate(ends + state.arrays())})
+    walls = np.zeros(mesh.n_faces, dtype=bool)
+    walls[boundary] = True
+    stacks = StackState.at_walls(mesh, boundary, functools.partial(wall_layers.extents, mesh))
+    ids = np.arange(mesh.n_cells, dtype=np.int64) + 1000      # recorded as other ids
+    heights, moved = wall_layers.walk_on(mesh, stacks, walls, (1.0, 0.9, 1.3), 45.0, 200,
+                                         math.inf, foreign, ids)
+    out["handed.stacks.heights"], out["handed.stacks.moved"] = heights, moved
+    for f in dataclasses.fields(stacks):
+        # where a walk is is kept for the walks handed over only
+        rows = moved if f.name in _WHERE else slice(None)
+        out[f"handed.stacks.{f.name}"] = getattr(stacks, f.name)[rows]
+    assert out["handed.within.2"].any()               # some rays were stopped
+    return out
+
+
+_WHERE = ("cell", "entry", "x_in", "nin", "a_in", "top", "h_last", "in_stack")
 
 
 @pytest.mark.parametrize("name", sorted(SOURCES))
@@ -177,7 +211,8 @@ def test_compiled_kernels_equal_the_numpy_reference(name, monkeypatch):
 def test_the_meshes_exercise_what_the_kernels_handle(monkeypatch):
     """The damaged mesh has non-manifold, clashing and collapsed faces; the polyhedra have
     faces of more than four points; rays reach walls and open boundaries; stacks end in
-    several ways. Otherwise the equality above would test less than it claims."""
+    several ways; rays and stacks stop at foreign cells. Otherwise the equality above
+    would test less than it claims."""
     damaged = _analyse("damaged", "numpy", monkeypatch)
     assert damaged["data.nonmanifold"].size and damaged["data.clashing"].size
     assert damaged["copies"] == 15 and len(set(damaged["pieces"].tolist())) >= 2
@@ -188,9 +223,14 @@ def test_the_meshes_exercise_what_the_kernels_handle(monkeypatch):
     prism = _analyse("prism-tet", "numpy", monkeypatch)
     assert len(set(prism["layers0.0.end"].tolist())) >= 2
     assert prism["layers0.0.n_layers"].max() == 3
-    ends = set(_analyse("layer-block", "numpy", monkeypatch)["layers0.0.end"].tolist())
+    block = _analyse("layer-block", "numpy", monkeypatch)
+    ends = set(block["layers0.0.end"].tolist())
     ends |= set(_analyse("hex", "numpy", monkeypatch)["layers0.0.end"].tolist())
     assert {wall_layers.END_CORE, wall_layers.END_SHRINK, wall_layers.END_MIDDLE} <= ends
+    # stacks stopped at foreign cells after some layers, with a jump recorded before
+    moved = block["handed.stacks.moved"]
+    assert moved.any() and (block["handed.stacks.n_walked"][moved] > 1).any()
+    assert (block["handed.stacks.jump_cell"] >= 1000).any()
     for name in ("hex", "tet", "polyhedra"):
         within = _analyse(name, "numpy", monkeypatch)
         short, cells = within["within.short"], within["within.cells"]
