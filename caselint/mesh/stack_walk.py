@@ -90,32 +90,12 @@ def unit_normals(mesh: "Mesh", faces: np.ndarray, sign: np.ndarray) -> np.ndarra
     return s * (sign / np.where(area > 0, area, 1.0))[:, None]
 
 
-@dataclass(frozen=True)
-class Walked:
-    """What the walks found, per wall face (see :class:`WallLayers`)."""
-
-    n_wall: np.ndarray
-    centre: np.ndarray
-    first: np.ndarray
-    layered_first: np.ndarray
-    n_layers: np.ndarray
-    n_walked: np.ndarray
-    heights: np.ndarray
-    end: np.ndarray
-    core_cell: np.ndarray
-    core_origin: np.ndarray
-    core_normal: np.ndarray
-    facing: np.ndarray
-    jump_at: np.ndarray
-    jump_cell: np.ndarray
-    jump_origin: np.ndarray
-    jump_normal: np.ndarray
-
-
 @dataclass(frozen=True, eq=False)
 class StackState:
-    """The walks of a set of stacks so far, one row per wall face: what :class:`Walked`
-    holds but the heights (the fields up to ``jump_normal``), and where each walk is:
+    """The walks of a set of stacks so far, one row per wall face: what they found (the
+    fields up to ``jump_normal``, see :class:`~caselint.mesh.wall_layers.WallLayers` and
+    :func:`walk_lockstep`; with the heights walked, what the stacks are made from), and
+    where each walk is:
     the cell it enters next, through the face ``entry`` (its centroid ``x_in``, unit
     normal into the cell ``nin``, area ``a_in``), the distance walked from the wall
     ``top``, the last layer's height ``h_last``, whether the stack still grows
@@ -184,10 +164,6 @@ class StackState:
         """A copy of the state."""
         return StackState(*(a.copy() for a in self.arrays()))
 
-    def walked(self, heights: np.ndarray) -> Walked:
-        """What the walks found, with the ``heights`` of the cells walked."""
-        found = {f.name: getattr(self, f.name) for f in fields(Walked) if f.name != "heights"}
-        return Walked(heights=heights, **found)
 
 
 def walk_lockstep(mesh: "Mesh", s: StackState, walled: np.ndarray, max_aspect: float,

@@ -79,7 +79,6 @@ from caselint.mesh.stack_walk import (  # noqa: F401  (the end codes are part of
     END_WORDS,
     NO_STACK,
     StackState,
-    Walked,
     walk_lockstep,
 )
 from caselint.mesh.stack_walk import extent as cell_extent
@@ -192,7 +191,7 @@ def _walk(mesh: "Mesh", faces: np.ndarray, shape: tuple[float, float, float],
     extent = functools.partial(extents, mesh)
     state = StackState.at_walls(mesh, faces, extent)
     heights, _ = walk_on(mesh, state, walled, shape, turn_deg, max_cells, reach_m)
-    return stacks_from(faces, mesh.owner[faces], state.walked(heights), extent, reach_m)
+    return stacks_from(faces, mesh.owner[faces], state, heights, extent, reach_m)
 
 
 def walk_on(mesh: "Mesh", state: StackState, walled: np.ndarray,
@@ -247,12 +246,12 @@ def extents(mesh: "Mesh", cells: np.ndarray, origin: np.ndarray,
                           np.ascontiguousarray(origin), np.ascontiguousarray(normal))
 
 
-def stacks_from(faces: np.ndarray, cells0: np.ndarray, w: Walked, extent,
-                reach_m: float) -> WallLayers:
-    """The stacks above ``faces`` (wall cells ``cells0``) from what their walks found:
-    cut before a block or at the middle of a passage, thickness, growth and core jump
-    (``extent`` as for :meth:`StackState.at_walls`)."""
-    n, heights = len(faces), w.heights
+def stacks_from(faces: np.ndarray, cells0: np.ndarray, w: StackState, heights: np.ndarray,
+                extent, reach_m: float) -> WallLayers:
+    """The stacks above ``faces`` (wall cells ``cells0``) from what their walks found and
+    the ``heights`` of the cells walked: cut before a block or at the middle of a passage,
+    thickness, growth and core jump (``extent`` as for :meth:`StackState.at_walls`)."""
+    n = len(faces)
     n_layers, end, core_cell, core_origin, core_normal = _cut_before_a_block(w)
     n_layers, end, passage = _cut_at_the_middle(heights, n_layers, end, w.facing)
     depth = np.arange(heights.shape[1])[None, :]
@@ -277,7 +276,7 @@ def stacks_from(faces: np.ndarray, cells0: np.ndarray, w: Walked, extent,
                       core_jump, passage, reach=reach_m)
 
 
-def _cut_before_a_block(w: Walked):
+def _cut_before_a_block(w: StackState):
     """Layers, end codes and core cells once the stacks that end in a block of cells of one
     height, entered with a jump (at least two cells from the last jump on), are cut before
     that jump: the block is a core (the centre of a pipe O-grid), its first cell the core

@@ -108,7 +108,7 @@ def wall_layers(data: MeshData, plan: Plan, faces, *, max_aspect: float = 1.0,
         every = joined(walked)
         heights[every.row, every.at] = every.h
     extent = functools.partial(_extents, team, labels, run)
-    return layers.stacks_from(faces, cells0, walks.state.walked(heights), extent,
+    return layers.stacks_from(faces, cells0, walks.state, heights, extent,
                               settings.reach_m), rounds
 
 
