@@ -189,7 +189,7 @@ def face_mesh_counts(n_cells: int, n_faces: int) -> dict[str, int]:
     return {"hexahedron": max(int(n_cells), int(n_faces) // 3)}
 
 
-def check_folder_memory(path: str, folders: list[Path]) -> None:
+def check_folder_memory(path: str, folders: list[Path], limit: MemoryLimit | None = None) -> None:
     """Refuse (MeshReadError) a face-based mesh folder (or the processor folders of one
     decomposed mesh) whose declared counts would pass the memory limit, before reading
     its lists. Counts come from the owner file's header note (nCells, nFaces); a folder
@@ -200,7 +200,7 @@ def check_folder_memory(path: str, folders: list[Path]) -> None:
         if counts is None:
             return
         cells, faces = cells + counts[0], faces + counts[1]
-    check_memory(path, face_mesh_counts(cells, faces), "the mesh files' headers")
+    check_memory(path, face_mesh_counts(cells, faces), "the mesh files' headers", limit)
 
 
 def _folder_counts(folder: Path) -> tuple[int, int] | None:
