@@ -26,7 +26,7 @@ def folder_data(raw: FolderMesh, options: ReadOptions, *, path: str,
     from caselint.mesh.limits import check_memory, face_mesh_counts
 
     check_memory(path, face_mesh_counts(raw.n_cells, len(raw.owner)), "the cells read",
-                 options.memory_limit)
+                 options.memory_limit, cells=raw.n_cells)
     points = checked_points(path, raw.points, options.scale_to_m)
     names, types, group = raw.groups()
     cell_zone, zone_names = zone_array(path, raw.zones, raw.n_cells)
