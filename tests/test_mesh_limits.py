@@ -177,3 +177,51 @@ def test_small_files_skip_the_header_scan(tmp_path):
     write_gmsh22(structured_hex([0.0, 1.0], [0.0, 1.0], [0.0, 1.0]), tmp_path / "small.msh")
     assert limits.header_cell_count(str(tmp_path / "small.msh")) is None
     assert np.isclose(read_mesh(tmp_path / "small.msh").cell_volumes.sum(), 1.0)
+
+
+def _face_folder(folder, data):
+    from mesh_writers import write_face_folder
+
+    return write_face_folder(folder / "constant" / "polyMesh", data).parent.parent
+
+
+def _decomposed(folder, data):
+    from caselint.mesh.analysis import Mesh
+    from mesh_writers import write_decomposed
+
+    return write_decomposed(folder, data, (Mesh(data).cell_centroids[:, 0] > 0.5).astype(int))
+
+
+def _vtu_polyhedra(folder, data):
+    from vtk_writers import write_vtu_22_polyhedra
+
+    return write_vtu_22_polyhedra(folder / "cells.vtu", data)
+
+
+def _legacy_vtk(folder, data):
+    import vtk
+
+    from vtk_writers import vtk_polyhedral_grid
+
+    writer = vtk.vtkUnstructuredGridWriter()
+    writer.SetFileName(str(folder / "cells.vtk"))
+    writer.SetInputData(vtk_polyhedral_grid(data))
+    assert writer.Write() == 1
+    return folder / "cells.vtk"
+
+
+@pytest.mark.parametrize("write", [_face_folder, _decomposed, _vtu_polyhedra, _legacy_vtk])
+def test_every_face_based_reader_obeys_the_limit_it_is_given(tmp_path, write):
+    """The face-folder (whole and decomposed), polyhedral VTU and legacy VTK readers refuse
+    a mesh over the limit passed to them, not the default share of the machine's memory."""
+    from caselint.mesh.refined import refined_block
+
+    axis = np.linspace(0.0, 1.0, 5)
+    data = refined_block(axis, axis, axis, ((0.2, 0.6),) * 3)
+    path = write(tmp_path, data)
+    small = limits.memory_limit(str(limits.FIXED_BYTES + 100))
+    with pytest.raises(MeshReadError, match=r"the limit is .* \(set by --memory-limit\)") as err:
+        read_mesh(path, memory_limit=small)
+    if write is not _legacy_vtk:       # counted from the cells read, named as they are
+        assert f"({data.n_cells:,} cells, counted from" in str(err.value)
+    assert read_mesh(path, memory_limit=(None, "off")).n_cells == data.n_cells

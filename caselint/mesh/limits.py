@@ -157,11 +157,13 @@ def estimate_bytes(cell_counts: dict[str, int], volume: bool = True) -> int:
 
 
 def check_memory(path: str, cell_counts: dict[str, int], source: str,
-                 limit: MemoryLimit | None = None) -> None:
+                 limit: MemoryLimit | None = None, *, cells: int | None = None) -> None:
     """Refuse (MeshReadError) when checking these cells would pass the memory ``limit``
     (None: :func:`memory_limit`'s default).
 
-    ``source`` says where the counts come from ("the file header", "the cells read").
+    ``source`` says where the counts come from ("the file header", "the cells read");
+    ``cells`` the number of cells to name when ``cell_counts`` charge another number
+    (:func:`face_mesh_counts`).
     """
     limit, origin = limit if limit is not None else memory_limit()
     if limit is None:
@@ -170,7 +172,7 @@ def check_memory(path: str, cell_counts: dict[str, int], source: str,
     need = estimate_bytes(cell_counts, volume)
     if need <= limit:
         return
-    cells = sum(cell_counts.values())
+    cells = sum(cell_counts.values()) if cells is None else cells
     suggestion = format_size(1.2 * need).replace(" ", "")
     digits = 3 if format_size(need) != format_size(limit) else 6     # 100.018 MB > 100 MB
     raise MeshReadError(
@@ -189,7 +191,7 @@ def face_mesh_counts(n_cells: int, n_faces: int) -> dict[str, int]:
     return {"hexahedron": max(int(n_cells), int(n_faces) // 3)}
 
 
-def check_folder_memory(path: str, folders: list[Path]) -> None:
+def check_folder_memory(path: str, folders: list[Path], limit: MemoryLimit | None = None) -> None:
     """Refuse (MeshReadError) a face-based mesh folder (or the processor folders of one
     decomposed mesh) whose declared counts would pass the memory limit, before reading
     its lists. Counts come from the owner file's header note (nCells, nFaces); a folder
@@ -200,7 +202,8 @@ def check_folder_memory(path: str, folders: list[Path]) -> None:
         if counts is None:
             return
         cells, faces = cells + counts[0], faces + counts[1]
-    check_memory(path, face_mesh_counts(cells, faces), "the mesh files' headers")
+    check_memory(path, face_mesh_counts(cells, faces), "the mesh files' headers", limit,
+                 cells=cells)
 
 
 def _folder_counts(folder: Path) -> tuple[int, int] | None:

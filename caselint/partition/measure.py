@@ -9,8 +9,9 @@ meshes, 2:1 octree polyhedra and decomposed mesh folders, with the numpy and the
 kernels).
 
 Pieces are independent: :func:`measure_pieces` takes a ``run`` that maps a function over
-the partitions, so they can run one after the other (the default), in threads, or as tasks
-of a Dask cluster.
+the partitions (:mod:`caselint.partition.runners`), so they can run one after the other
+(the default; each piece is cut when its turn comes and dropped after) or as tasks of a Dask
+cluster.
 """
 
 from __future__ import annotations
@@ -113,7 +114,7 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
 
 
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
-                   run: Callable[[Callable, list], list] = serial,
+                   run: Callable[[Callable, Iterable], Iterable] = serial,
                    cf: CellFaces | None = None) -> dict[str, np.ndarray]:
     """Every quantity ``names`` (default all) of ``data``, computed partition by partition
     as ``plan`` splits the cells; ``run(function, items)`` maps the work over the
@@ -124,13 +125,15 @@ def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = Non
     if cf is None:
         with kernels.decided_for(data.n_cells):
             cf = cell_faces(data)
-    pieces = [cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts)]
+    # cut as the runner asks for them, results written into the whole-mesh arrays as they
+    # come: one piece and one piece's results at a time in memory when run here
+    pieces = (cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts))
     results = run(functools.partial(measure_piece, names=names), pieces)
     return assemble(results, data.n_cells, data.n_faces, data.n_internal)
 
 
 def analysed_in_partitions(data: MeshData, plan: Plan,
-                           run: Callable[[Callable, list], list] = serial) -> Mesh:
+                           run: Callable[[Callable, Iterable], Iterable] = serial) -> Mesh:
     """The :class:`~caselint.mesh.analysis.Mesh` of ``data`` with its geometry and quality
     metrics computed partition by partition (equal to the bit to what it would compute
     itself), given to it under the keys its own functions use."""

@@ -1,17 +1,19 @@
 """How the partitions of one mesh are analysed: here, one after the other, or as tasks of a
 Dask distributed cluster; and how a run asks for it (``caselint check --partitions``).
 
-A runner is a callable ``run(function, items) -> results`` (results in the order of the
-items). Each partition's task receives its piece (the cells it owns and their two rings,
+A runner is a callable ``run(function, items)`` that yields ``function(item)`` for every
+item, in any order, as each is done; ``items`` may be a generator, consumed only as work
+can start, so that neither the items nor the results all need to be in memory at once. Each partition's task receives its piece (the cells it owns and their two rings,
 :mod:`caselint.partition.piece`) and returns the quantities of what it owns; the client
 assembles them. The results do not depend on the runner.
 """
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable
+from typing import Callable, Iterable, Iterator
 
 from caselint.errors import UsageError
 from caselint.partition.plan import Plan, by_cell_budget, by_processors, by_ranges
@@ -23,9 +25,12 @@ AUTO_CELLS = 1_000_000
 CONNECT_TIMEOUT = "10s"
 
 
-def serial(function: Callable, items: list) -> list:
-    """Each item in turn, in this process."""
-    return [function(item) for item in items]
+def serial(function: Callable, items: Iterable) -> Iterator:
+    """Each item in turn, in this process (the next item is made after the last is done)."""
+    for item in items:
+        result = function(item)
+        del item                    # not held while the next item is made
+        yield result
 
 
 class DaskRunner:
@@ -50,10 +55,21 @@ class DaskRunner:
                                  f"{type(exc).__name__}: {exc}") from None
         return self._client
 
-    def __call__(self, function: Callable, items: list) -> list:
+    def __call__(self, function: Callable, items: Iterable) -> Iterator:
+        from distributed import as_completed
+
         client = self._connect()
-        futures = client.map(function, items, pure=False)
-        return client.gather(futures)
+        # a window of tasks in flight, two per worker thread: the client holds that many
+        # pieces, not all of them, and the workers never wait for the next one
+        window = max(2, 2 * sum(client.nthreads().values()))
+        items = iter(items)
+        running = as_completed([client.submit(function, item, pure=False)
+                                for item in itertools.islice(items, window)])
+        for future in running:
+            yield future.result()
+            future.release()
+            for item in itertools.islice(items, 1):
+                running.add(client.submit(function, item, pure=False))
 
     def close(self) -> None:
         """Disconnect from the scheduler (the cluster keeps running)."""

@@ -25,7 +25,8 @@ def folder_data(raw: FolderMesh, options: ReadOptions, *, path: str,
     """The :class:`MeshData` of folder arrays: groups from patches, zones, shapes, 2-D."""
     from caselint.mesh.limits import check_memory, face_mesh_counts
 
-    check_memory(path, face_mesh_counts(raw.n_cells, len(raw.owner)), "the cells read")
+    check_memory(path, face_mesh_counts(raw.n_cells, len(raw.owner)), "the cells read",
+                 options.memory_limit, cells=raw.n_cells)
     points = checked_points(path, raw.points, options.scale_to_m)
     names, types, group = raw.groups()
     cell_zone, zone_names = zone_array(path, raw.zones, raw.n_cells)
@@ -49,10 +50,10 @@ def read_face_folder(path: Path, options: ReadOptions) -> MeshData:
     name = str(path)
     if folder is None:
         folders = [p / "constant" / "polyMesh" for p in processor_folders(path)]
-        check_folder_memory(name, folders)
+        check_folder_memory(name, folders, options.memory_limit)
         raw, notes = read_decomposed(path, folders)
         return folder_data(raw, options, path=name, notes=notes)
-    check_folder_memory(name, [folder])
+    check_folder_memory(name, [folder], options.memory_limit)
     raw = read_folder_mesh(folder)
     try:
         return folder_data(raw, options, path=name)

@@ -159,7 +159,8 @@ def grid_data(grid: VtkGrid, options: ReadOptions) -> MeshData:
     if len(poly):
         _polyhedron_halves(halves, grid, poly, cell_of[poly], n_points)
     n_half = sum(len(h.cells) for parts in halves.values() for h in parts)
-    check_memory(path, face_mesh_counts(n_cells, n_half // 2), "the cells read")
+    check_memory(path, face_mesh_counts(n_cells, n_half // 2), "the cells read",
+                 options.memory_limit, cells=n_cells)
     points = checked_points(path, grid.points, options.scale_to_m)
     paired = pair_polygons(halves, points, n_cells)
     names, face_group, unmatched, internal, multi = _groups(grid, types, paired, options,

@@ -248,7 +248,8 @@ def read_legacy(path: Path, options: ReadOptions) -> MeshData:
             n = int(words[1])
             points = cursor.values(3 * n, words[2], "POINTS").reshape(n, 3).astype(np.float64)
         elif key == "CELLS":
-            check_memory(name, {"polyhedron": int(words[1])}, "the CELLS header")
+            check_memory(name, {"polyhedron": int(words[1])}, "the CELLS header",
+                         options.memory_limit)
             offsets, conn = _cells(cursor, words, version)
         elif key == "CELL_TYPES":
             types = cursor.values(int(words[1]), "int", "CELL_TYPES").astype(np.int64)

@@ -327,7 +327,8 @@ def read_vtu(path: Path, options: ReadOptions) -> MeshData:
                                   "piece: merge the pieces into one (e.g. by writing the "
                                   "whole grid from one process)")
     declared = int(pieces[0].get("NumberOfCells", "0") or 0)
-    check_memory(name, {"polyhedron": declared}, "the file's NumberOfCells")
+    check_memory(name, {"polyhedron": declared}, "the file's NumberOfCells",
+                 options.memory_limit)
     grid = _piece(arrays, pieces[0], 0)
     for el in grid_el.findall("FieldData/DataArray"):
         if el.get("type") in _TYPES:
