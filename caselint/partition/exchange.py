@@ -14,7 +14,8 @@ whole mesh takes, to the bit.
 What moves between rounds is a *batch*: a dataclass of arrays with one row per walk (the
 walk's number and its state, cells and faces by their ids in the whole mesh, the cell it
 enters next as ``cell``). :func:`in_rounds` routes batches to partitions and runs each
-round's tasks with a runner (:mod:`caselint.partition.runners`); the drivers
+round's tasks with a runner (:mod:`caselint.partition.runners`; results in any order);
+the drivers
 (:mod:`caselint.partition.rays`, :mod:`caselint.partition.stacks`) say what a task does.
 """
 
@@ -22,7 +23,7 @@ from __future__ import annotations
 
 import dataclasses
 import functools
-from typing import Callable
+from typing import Callable, Iterable
 
 import numpy as np
 
@@ -111,7 +112,7 @@ def by_partition(batch, part: np.ndarray) -> list[tuple[int, object]]:
 
 def in_rounds(start: Callable, first: list, resume: Callable, team: list[Walker],
               flags: list, labels: np.ndarray,
-              run: Callable[[Callable, list], list]) -> tuple[list, int]:
+              run: Callable[[Callable, Iterable], Iterable]) -> tuple[list, int]:
     """Walk until every walk has ended: ``run(start, ...)`` on the ``first`` (partition,
     batch) pairs, then ``run(resume, ...)`` on the walks handed over, each to the partition
     owning the cell it enters (``labels``, :meth:`Plan.labels`), round after round. A task
@@ -123,7 +124,8 @@ def in_rounds(start: Callable, first: list, resume: Callable, team: list[Walker]
     ended, rounds = [], 0
     task, pairs = start, first
     while pairs:
-        results = run(task, [(team[k], flags[k], batch) for k, batch in pairs])
+        # in any order: every batch carries the numbers of its walks
+        results = list(run(task, [(team[k], flags[k], batch) for k, batch in pairs]))
         rounds += 1
         ended.extend(done for done, _ in results)
         onward = [batch for _, batch in results if len(batch.cell)]

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import functools
 from dataclasses import dataclass
-from typing import Callable
+from typing import Callable, Iterable
 
 import numpy as np
 
@@ -83,7 +83,7 @@ class CountEnds:
 
 
 def march(data: MeshData, plan: Plan, start_faces: np.ndarray, wall_face: np.ndarray,
-          max_steps: int = rays.MAX_STEPS, run: Callable[[Callable, list], list] = serial,
+          max_steps: int = rays.MAX_STEPS, run: Callable[[Callable, Iterable], Iterable] = serial,
           team: list[Walker] | None = None) -> tuple[rays.RayHits, int]:
     """:func:`caselint.mesh.rays.march` of ``data``, partition by partition as ``plan``
     splits the cells; ``run`` maps each round's tasks; ``team`` the partitions' walkers
@@ -108,7 +108,7 @@ def march(data: MeshData, plan: Plan, start_faces: np.ndarray, wall_face: np.nda
 
 def cells_within(data: MeshData, plan: Plan, start_faces: np.ndarray, limit_m,
                  max_steps: int = rays.MAX_STEPS,
-                 run: Callable[[Callable, list], list] = serial,
+                 run: Callable[[Callable, Iterable], Iterable] = serial,
                  team: list[Walker] | None = None) -> tuple[rays.Crossing, int]:
     """:func:`caselint.mesh.rays.cells_within` of ``data``, partition by partition as
     ``plan`` splits the cells (``run`` and ``team`` as for :func:`march`). Returns the

@@ -18,7 +18,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
-from typing import Callable
+from typing import Callable, Iterable
 
 import numpy as np
 
@@ -82,7 +82,7 @@ class Settings:
 def wall_layers(data: MeshData, plan: Plan, faces, *, max_aspect: float = 1.0,
                 min_ratio: float = 0.9, jump_ratio: float = 1.3, turn_deg: float = 45.0,
                 max_cells: int = 200, reach_m: float = math.inf,
-                run: Callable[[Callable, list], list] = serial,
+                run: Callable[[Callable, Iterable], Iterable] = serial,
                 team: list[Walker] | None = None) -> tuple[layers.WallLayers, int]:
     """:func:`caselint.mesh.wall_layers.wall_layers` of ``data`` (same settings), partition
     by partition as ``plan`` splits the cells; ``run`` maps each round's tasks; ``team``
@@ -148,8 +148,8 @@ def _extents(team: list[Walker], labels: np.ndarray, run, cells: np.ndarray,
     out = np.zeros(len(cells))
     asked = _Asked(np.arange(len(cells)), np.asarray(cells, dtype=np.int64), origin, normal)
     split = by_partition(asked, labels[asked.cell])
-    for part, values in zip(split, run(_extent_task, [(team[k], a) for k, a in split])):
-        out[part[1].row] = values
+    for rows, values in run(_extent_task, [(team[k], a) for k, a in split]):
+        out[rows] = values
     return out
 
 
@@ -164,12 +164,12 @@ class _Asked:
     normal: np.ndarray
 
 
-def _extent_task(item: tuple[Walker, _Asked]) -> np.ndarray:
-    """One partition's task: the extents of the cells asked of it."""
+def _extent_task(item: tuple[Walker, _Asked]) -> tuple[np.ndarray, np.ndarray]:
+    """One partition's task: the extents of the cells asked of it, and where they go."""
     walker, asked = item
     with walker.same_kernels():
-        return layers.extents(walker.mesh, walker.local_cells(asked.cell), asked.origin,
-                              asked.normal)
+        return asked.row, layers.extents(walker.mesh, walker.local_cells(asked.cell),
+                                         asked.origin, asked.normal)
 
 
 def _no_stacks(faces: np.ndarray, cells0: np.ndarray, reach_m: float) -> layers.WallLayers:

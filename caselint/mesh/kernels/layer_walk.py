@@ -133,7 +133,8 @@ def walk(cf_offsets, cf_faces, face_offsets, face_points, points, owner, neighbo
                 for k in range(3):
                     x_in[b, k] = x_in0[i, k]
                     nin[b, k] = nin0[i, k]
-                a_in[b], top[b], h_last[b], in_stack[b] = a_in0[i], top0[i], h_last0[i], in_stack0[i]
+                a_in[b], top[b], h_last[b] = a_in0[i], top0[i], h_last0[i]
+                in_stack[b] = in_stack0[i]
             busy = True
             if step[b] >= max_cells:
                 row[b] = -1
