@@ -308,3 +308,127 @@ def test_the_demo_check_does_not_import_numba(tmp_path):
         """, {"CASELINT_CACHE_DIR": str(tmp_path)})
     assert done.returncode == 0, done.stderr
     assert done.stdout.strip().splitlines()[-1].startswith("NUMBA False")
+
+
+# -- shape recognition of face-based meshes ------------------------------------------------
+
+
+def _faces_of(name: str):
+    """The mesh ``name`` of SOURCES as faces alone: the shapes the file gave forgotten."""
+    source = SOURCES[name]()
+    data = source if not isinstance(source, meshio.Mesh) else meshio_data(source, path=name)
+    return data, dataclasses.replace(data, shapes=())
+
+
+def _turned(data, seed: int):
+    """``data`` described otherwise: internal and boundary faces each shuffled, about half
+    the internal faces turned round (owner and neighbour swapped, points reversed), every
+    face starting from a random point of its own. The cells are the same."""
+    rng = np.random.default_rng(seed)
+    n, n_int = data.n_faces, data.n_internal
+    order = np.concatenate([rng.permutation(n_int), n_int + rng.permutation(n - n_int)])
+    sizes = np.diff(data.face_offsets)[order]
+    flip = np.zeros(n, dtype=bool)
+    flip[:n_int] = rng.random(n_int) < 0.5
+    shift = rng.integers(0, sizes)
+    offsets = np.concatenate([[0], np.cumsum(sizes)])
+    rank = np.arange(offsets[-1]) - np.repeat(offsets[:-1], sizes)
+    each = np.repeat(sizes, sizes)
+    turn = np.repeat(shift, sizes)
+    slot = np.where(np.repeat(flip, sizes), (turn - rank) % each, (turn + rank) % each)
+    owner, neighbour = data.owner[order], data.neighbour[order]
+    return dataclasses.replace(
+        data, face_offsets=offsets, face_points=data.face_points[
+            np.repeat(data.face_offsets[:-1][order], sizes) + slot],
+        owner=np.where(flip, neighbour, owner), neighbour=np.where(flip, owner, neighbour),
+        face_group=data.face_group[order])
+
+
+def _scrambled(data, seed: int):
+    """``data`` with a third of its faces damaged: the points of some put in a random
+    order, one point of others replaced by a random point, so that edges repeat or go
+    missing, apexes disagree, corners repeat and faces do not close as a shape."""
+    rng = np.random.default_rng(seed)
+    points = data.face_points.copy()
+    sizes = np.diff(data.face_offsets)
+    for f in rng.choice(data.n_faces, data.n_faces // 3, replace=False):
+        lo, hi = data.face_offsets[f], data.face_offsets[f + 1]
+        if rng.random() < 0.5:
+            points[lo:hi] = rng.permutation(points[lo:hi])
+        else:
+            points[lo + rng.integers(sizes[f])] = rng.integers(data.n_points)
+    return dataclasses.replace(data, face_points=points)
+
+
+def _both_ways(data, monkeypatch) -> tuple:
+    """The shape blocks of ``data`` from the numpy reference and from the kernel (split
+    into parts on threads), checked equal block for block, array for array."""
+    from caselint.mesh.shapes import recognise_shapes
+
+    monkeypatch.setenv(kernels.ENV_KERNELS, "numpy")
+    reference = recognise_shapes(data)
+    monkeypatch.setenv(kernels.ENV_KERNELS, "numba")
+    monkeypatch.setattr(kernels, "THREADED_ITEMS", 1)
+    got = recognise_shapes(data)
+    assert [b.type for b in got] == [b.type for b in reference]
+    for a, b in zip(got, reference):
+        for field in ("cells", "connectivity"):
+            x, y = getattr(a, field), getattr(b, field)
+            assert x.dtype == y.dtype, (a.type, field)
+            np.testing.assert_array_equal(x, y, err_msg=f"{a.type} {field}")
+    return reference
+
+
+def _node_sets(blocks) -> dict:
+    return {b.type: (b.cells, np.sort(b.connectivity, axis=1)) for b in blocks}
+
+
+@pytest.mark.parametrize("name", ["hex", "tet", "prism-tet", "mixed", "polyhedra", "damaged",
+                                  "quad-2d"])
+def test_shape_recognition_kernel_equals_the_numpy_reference(name, monkeypatch):
+    """The kernel finds the cells and corners the reference finds, in the faces as built,
+    in the same faces shuffled and turned round and in faces damaged at random; on valid
+    meshes the cells and corner sets do not depend on how the faces are described, and
+    (element files) equal the file's own cells. (A face two cells list the same way round,
+    on the damaged mesh, is wrong for one of them; turning it round moves the fault to the
+    other.)"""
+    given, bare = _faces_of(name)
+    found = _both_ways(bare, monkeypatch)
+    turned = _both_ways(_turned(bare, seed=len(name)), monkeypatch)
+    scrambled = _both_ways(_scrambled(bare, seed=len(name)), monkeypatch)
+    if bare.dim == 2:
+        assert found == turned == scrambled == ()
+        return
+    # the damage is partial: some cells keep their shape, most lose it
+    assert 0 < sum(len(b.cells) for b in scrambled) < sum(len(b.cells) for b in found) / 2
+    if name == "damaged":
+        return
+    sets = _node_sets(found)
+    assert sets.keys() == _node_sets(turned).keys()
+    for shape, (cells, nodes) in _node_sets(turned).items():
+        np.testing.assert_array_equal(cells, sets[shape][0])
+        np.testing.assert_array_equal(nodes, sets[shape][1])
+    if name in ("hex", "tet", "prism-tet", "mixed"):        # every cell as the file gave it
+        assert sets.keys() == _node_sets(given.shapes).keys()
+        for block in given.shapes:
+            cells, nodes = sets[block.type]
+            np.testing.assert_array_equal(cells, np.sort(block.cells))
+            np.testing.assert_array_equal(nodes, np.sort(block.connectivity, axis=1)[
+                np.argsort(block.cells)])
+
+
+def test_shape_recognition_keeps_the_shapes_given_and_skips_damaged_cells(monkeypatch):
+    given, bare = _faces_of("prism-tet")
+    wedges = next(b for b in given.shapes if b.type == "wedge")
+    blocks = _both_ways(dataclasses.replace(bare, shapes=(wedges,)), monkeypatch)
+    assert blocks[0] is wedges and [b.type for b in blocks] == ["wedge", "tetra"]
+    # every cell away from the faults is a hexahedron; the collapsed one (a triangle and a
+    # two-point face among its faces) is none of the four shapes
+    given, bare = _faces_of("damaged")
+    (hexes,) = _both_ways(bare, monkeypatch)
+    faults = np.concatenate([given.report.clashing, given.report.nonmanifold])
+    near = np.concatenate([given.owner[faults], given.neighbour[faults]])
+    collapsed = int(np.flatnonzero(given.file_cell_ids == 9)[0])
+    clean = np.setdiff1d(np.arange(given.n_cells), np.append(near, collapsed))
+    assert hexes.type == "hexahedron" and len(clean) > 60
+    assert np.isin(clean, hexes.cells).all() and collapsed not in hexes.cells

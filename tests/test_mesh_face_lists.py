@@ -134,3 +134,53 @@ def test_binary_face_list_of_class_facelist_is_refused(cube_data, tmp_path):
     folder = write_face_folder(tmp_path / "p", cube_data, binary=True, compact=False)
     with pytest.raises(MeshReadError, match="a binary face list of class faceList is not read"):
         read_mesh(folder)
+
+
+@pytest.mark.parametrize("text, offsets, points", [
+    # triangles only, a comment and a line break inside a face
+    (b"3\n(\n3(0 1 2) // first\n3(2 1\n 3)\n3(3 4 5))\n", [0, 3, 6, 9],
+     [0, 1, 2, 2, 1, 3, 3, 4, 5]),
+    # quadrilaterals only, several on one line, 64-bit ids
+    (b"2\n(4(0 1 2 3) 4(9 8 7 3000000000))\n", [0, 4, 8], [0, 1, 2, 3, 9, 8, 7, 3000000000]),
+    # as many numbers as three quadrilaterals would give: a quadrilateral, a triangle and
+    # a pentagon
+    (b"3\n(\n4(0 1 2 3)\n3(0 1 2)\n5(2 1 3 4 5)\n)\n", [0, 4, 7, 12],
+     [0, 1, 2, 3, 0, 1, 2, 2, 1, 3, 4, 5]),
+    # quadrilaterals with a negative point id: read, refused later by the range check
+    (b"2\n(\n4(0 1 2 3)\n4(4 -5 6 7)\n)\n", [0, 4, 8], [0, 1, 2, 3, 4, -5, 6, 7]),
+])
+def test_face_lists_of_one_size_and_of_several(tmp_path, text, offsets, points):
+    lf = list_file(tmp_path, text, cls="faceList", arch="LSB;label=64;scalar=64")
+    got_offsets, got_points = read_faces(lf)
+    assert got_offsets.tolist() == offsets and got_offsets.dtype == np.int64
+    assert got_points.tolist() == points and got_points.dtype == np.int64
+
+
+@pytest.mark.parametrize("text, message", [
+    # the numbers of two quadrilaterals with one end misplaced
+    (b"2\n(\n4(0 1 2)\n4 3(4 5 6 7)\n)\n", "face 0 of the face list does not hold the number"),
+    # a -1 among the points reads as one face more
+    (b"2\n(\n4(0 -1 2 3)\n4(4 5 6 7)\n)\n", "declares 2 faces but holds 3"),
+    (b"3\n(\n4(0 1 2 3)\n4(4 5 6 7)\n)\n", "declares 3 faces but holds 2"),
+])
+def test_face_lists_out_of_step_are_refused(tmp_path, text, message):
+    lf = list_file(tmp_path, text, cls="faceList")
+    with pytest.raises(MeshReadError, match=message):
+        read_faces(lf)
+
+
+def test_a_face_list_reads_as_its_offsets_and_points_form(tmp_path):
+    """One mesh's faces written as a face list (quadrilaterals only: read by stride) and
+    as offsets + points (read as two label lists): the same arrays."""
+    from caselint.mesh.blocks import structured_hex
+    from caselint.mesh.formats.meshio_files import meshio_data
+
+    data = meshio_data(structured_hex(*(np.linspace(0.0, 1.0, 7),) * 3))
+    arrays = []
+    for compact in (False, True):
+        folder = write_face_folder(tmp_path / str(compact), data, compact=compact)
+        arrays.append(read_faces(parse_list_file(folder / "faces",
+                                                 (folder / "faces").read_bytes())))
+    assert arrays[0][1].size == 4 * data.n_faces
+    for a, b in zip(*arrays):
+        assert a.dtype == b.dtype and np.array_equal(a, b)

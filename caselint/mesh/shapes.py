@@ -38,6 +38,7 @@ import numpy as np
 
 import caselint.mesh.topology as topology
 from caselint.mesh.celltypes import FACES
+from caselint.mesh.kernels import compiled, in_threads
 from caselint.mesh.model import ShapeBlock
 
 if TYPE_CHECKING:
@@ -56,13 +57,29 @@ CHUNK = 65_536
 
 def recognise_shapes(data: "MeshData") -> tuple[ShapeBlock, ...]:
     """Shape blocks of every cell whose faces make a tetrahedron, pyramid, wedge or
-    hexahedron (see the module docstring); cells in ``data.shapes`` keep their blocks."""
+    hexahedron (see the module docstring); cells in ``data.shapes`` keep their blocks.
+    On large meshes the compiled kernel of :mod:`caselint.mesh.kernels.cell_shapes` does
+    the same, cell by cell (the same blocks)."""
     if data.dim != 3 or data.n_cells == 0:
         return data.shapes
     known = np.zeros(data.n_cells, dtype=bool)
     for block in data.shapes:
         known[block.cells] = True
     cf = topology.cell_faces(data)
+    kernel = compiled("cell_shapes", data.n_cells)
+    found = (_compiled_shapes(kernel, data, cf, known) if kernel is not None
+             else _numpy_shapes(data, cf, known))
+    blocks = list(data.shapes)
+    cell_type = np.int32 if data.n_cells < 2**31 else np.int64
+    for shape, cells, corners in found:
+        if len(cells):
+            blocks.append(ShapeBlock(shape, cells.astype(cell_type),
+                                     corners.astype(data.face_points.dtype, copy=False)))
+    return tuple(blocks)
+
+
+def _numpy_shapes(data: "MeshData", cf: topology.CellFaces, known: np.ndarray) -> list:
+    """(shape, cells, corners) of each kind in the order of ``_KINDS``: the reference."""
     counts = cf.counts()
     face_sizes = np.diff(data.face_offsets)
     table = _face_table(data)
@@ -70,21 +87,42 @@ def recognise_shapes(data: "MeshData") -> tuple[ShapeBlock, ...]:
     owner_of = np.repeat(np.arange(data.n_cells), counts)
     n_tri = np.bincount(owner_of, weights=sizes == 3, minlength=data.n_cells)
     n_quad = np.bincount(owner_of, weights=sizes == 4, minlength=data.n_cells)
-    blocks = list(data.shapes)
-    cell_type = np.int32 if data.n_cells < 2**31 else np.int64
+    found = []
     for shape, n_faces, tris, quads, base, off in _KINDS:
         cells = np.flatnonzero((counts == n_faces) & (n_tri == tris) & (n_quad == quads) & ~known)
-        found_cells, found_corners = [], []
+        found_cells, found_corners = [np.zeros(0, dtype=np.int64)], []
         for lo in range(0, len(cells), CHUNK):
             part = cells[lo:lo + CHUNK]
             corners, ok = _corners(table, face_sizes, cf, part, shape, n_faces, base, off)
             found_cells.append(part[ok])
             found_corners.append(corners[ok])
-        if found_cells and sum(len(c) for c in found_cells):
-            conn = np.concatenate(found_corners).astype(data.face_points.dtype, copy=False)
-            blocks.append(ShapeBlock(shape, np.concatenate(found_cells).astype(cell_type),
-                                     conn))
-    return tuple(blocks)
+        found.append((shape, np.concatenate(found_cells),
+                      np.concatenate(found_corners) if found_corners else None))
+    return found
+
+
+def _compiled_shapes(kernel, data: "MeshData", cf: topology.CellFaces,
+                     known: np.ndarray) -> list:
+    """What :func:`_numpy_shapes` gives, from the compiled kernel over parts of the cells
+    on threads (each part writes its own rows)."""
+    kinds = np.array([row[1:] for row in _KINDS], dtype=np.int64)
+    templates = np.zeros((len(_KINDS), 6, 4), dtype=np.int64)
+    for k, row in enumerate(_KINDS):
+        templates[k, :row[1]] = FACES[row[0]]
+    kind = np.full(data.n_cells, -1, dtype=np.int8)
+    corners = np.empty((data.n_cells, 8), dtype=data.face_points.dtype)
+
+    def run(part: slice) -> tuple:
+        kernel.cell_shapes(data.face_offsets, data.face_points, cf.offsets, cf.faces, cf.owned,
+                           known, kinds, templates, part.start, part.stop, kind, corners)
+        return ()
+
+    in_threads(run, data.n_cells)
+    found = []
+    for k, row in enumerate(_KINDS):
+        cells = np.flatnonzero(kind == k)
+        found.append((row[0], cells, corners[cells, :row[4] + row[5]]))
+    return found
 
 
 def with_shapes(data: "MeshData") -> "MeshData":

@@ -13,7 +13,8 @@ as ``NAME.gz``.
 ASCII lists are parsed by :func:`numpy.fromstring` after mapping the parentheses to
 blanks, not by a loop over items (about 5 times faster than splitting the bytes): a face
 list gets ``-1`` in place of each closing parenthesis, so that face sizes and point ids
-come out of one parse. Every count the file declares is checked against what was read;
+come out of one parse (a list of faces all of one size is then read by stride, others by
+finding the ``-1``). Every count the file declares is checked against what was read;
 a short or inconsistent list is a :class:`~caselint.errors.MeshReadError` naming the
 file, the line and what is wrong.
 """
@@ -292,6 +293,15 @@ def read_faces(lf: ListFile) -> tuple[np.ndarray, np.ndarray]:
     body = lf.data[pos:close].replace(b")", b" -1 ").translate(_OPEN_TO_BLANK)
     values = _ascii_numbers(lf, body, np.int64 if lf.label.itemsize == 8 else np.int32, pos,
                             "faces")
+    # every face of the first one's size (all quadrilaterals, all triangles): rows of
+    # (k, k points, -1), read by stride; anything else (another size, a misplaced -1, a
+    # negative point id) goes the general way below, which reads it or names the fault
+    k = int(values[0]) if len(values) else 0
+    if k >= 1 and len(values) == size * (k + 2):
+        rows = values.reshape(size, k + 2)
+        ids = rows[:, 1:-1].reshape(-1)
+        if np.all(rows[:, 0] == k) and np.all(rows[:, -1] == -1) and int(ids.min()) >= 0:
+            return np.arange(size + 1, dtype=np.int64) * k, ids
     ends = np.flatnonzero(values == -1)
     _check_count(lf, pos, "faces", size, len(ends), "faces")
     starts = np.empty_like(ends)
