@@ -9,6 +9,8 @@ the definitions (Jasak 1996; Verdict, SAND2007-1751); Verdict's tetrahedron chec
 from __future__ import annotations
 
 import math
+import threading
+import time
 
 import meshio
 import numpy as np
@@ -183,3 +185,30 @@ def test_metrics_are_cached():
     assert q.growth_ratio(mesh) is q.growth_ratio(mesh)
     assert mesh.cached("anything", lambda: 42) == 42
     assert mesh.cached("anything", lambda: 43) == 42
+
+
+def test_a_value_asked_for_by_several_threads_at_once_is_computed_once():
+    """The worker threads of a kernel may be the first to read the geometry; all but one
+    wait for the result instead of computing it again (twice the time and memory)."""
+    mesh = mesh_from_meshio(structured_hex([0, 1, 2], [0, 1], [0, 1]))
+    calls = []
+
+    def slow():
+        calls.append(threading.get_ident())
+        time.sleep(0.2)
+        # a computation may itself ask for other values, on this thread or on others
+        return mesh.cached("inner", lambda: 7) + 1
+
+    start = threading.Barrier(4)
+    results = []
+
+    def ask():
+        start.wait()
+        results.append(mesh.cached("slow", slow))
+
+    threads = [threading.Thread(target=ask) for _ in range(4)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert results == [8, 8, 8, 8] and len(calls) == 1
