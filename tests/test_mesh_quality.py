@@ -181,8 +181,19 @@ def test_metrics_are_cached():
         first, again = metric(mesh), metric(mesh)
         assert first is not again and np.array_equal(first, again)
     # the growth ratio comes in one pass with the mean sizes across the faces, which the
-    # skewness reads as well: the pair is kept
+    # skewness reads as well: asked for first, the ratio is computed on each call and the
+    # mean sizes are kept; the mean sizes asked for first keep the pair (no second pass)
+    growth_first = mesh_from_meshio(structured_hex([0, 1, 2], [0, 1], [0, 1]))
+    first, again = q.growth_ratio(growth_first), q.growth_ratio(growth_first)
+    assert first is not again and np.array_equal(first, again)
+    assert growth_first.has("size_ratio.mean_sizes")
+    assert not growth_first.has("size_ratio.ratios")
+    assert q.mean_sizes(growth_first) is q.mean_sizes(growth_first)
+    # (above, the skewness asked for the mean sizes first)
+    assert q.mean_sizes(mesh) is q.mean_sizes(mesh)
     assert q.growth_ratio(mesh) is q.growth_ratio(mesh)
+    np.testing.assert_array_equal(q.growth_ratio(mesh), first)
+    np.testing.assert_array_equal(q.mean_sizes(mesh), q.mean_sizes(growth_first))
     assert mesh.cached("anything", lambda: 42) == 42
     assert mesh.cached("anything", lambda: 43) == 42
 

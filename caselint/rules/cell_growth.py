@@ -56,9 +56,9 @@ def _ratio_result(ctx: RuleContext, ratios: np.ndarray, what: str, resolution: f
     # a grading designed at exactly a limit must not cross it by round-off
     values = settled(ratios)
     result = face_result(ctx, values, internal, what, "", ".4g")
-    edges = linear_bin_edges(values[internal], resolution=resolution, limits=ctx.limits)
-    return with_histogram(result, ctx.limits, values[internal], edges, title, x_label,
-                          "internal faces")
+    inner = values[: ctx.mesh.n_internal]         # the internal faces come first: a view
+    edges = linear_bin_edges(inner, resolution=resolution, limits=ctx.limits)
+    return with_histogram(result, ctx.limits, inner, edges, title, x_label, "internal faces")
 
 
 GROWTH_RATIO = Rule(
