@@ -175,9 +175,9 @@ def test_metrics_are_cached():
     mesh = mesh_from_meshio(structured_hex([0, 1, 2], [0, 1], [0, 1]))
     for metric in METRICS_C:
         assert metric(mesh) is metric(mesh)
-    # the angle, skewness and warp are read by one rule each: computed on each call, not
-    # kept with the mesh (8 bytes a face each), the same values every time
-    for metric in (q.non_orthogonality_deg, q.skewness, q.face_warp_deg):
+    # the angle, skewness, warp and volume ratio are read by one rule each: computed on
+    # each call, not kept with the mesh (8 bytes a face each), the same values every time
+    for metric in (q.non_orthogonality_deg, q.skewness, q.face_warp_deg, q.volume_ratio):
         first, again = metric(mesh), metric(mesh)
         assert first is not again and np.array_equal(first, again)
     # the growth ratio comes in one pass with the mean sizes across the faces, which the

@@ -164,7 +164,7 @@ def mean_sizes(mesh: "Mesh") -> np.ndarray:
 
 def volume_ratio(mesh: "Mesh") -> np.ndarray:
     """(F,) larger over smaller volume of the two cells of a face; 1.0 on boundary faces
-    and where a volume is not positive."""
+    and where a volume is not positive. Computed on each call (one rule reads it)."""
 
     def compute() -> np.ndarray:
         out = np.ones(mesh.n_faces)
@@ -177,7 +177,8 @@ def volume_ratio(mesh: "Mesh") -> np.ndarray:
             out[sl] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
         return out
 
-    return mesh.cached("size_ratio.volume_ratio", compute)
+    # not kept: 8 bytes a face held for nothing
+    return mesh.provided("size_ratio.volume_ratio", compute)
 
 
 __all__ = ["ISOTROPIC_SHAPES", "growth_ratio", "mean_sizes", "rms_edge_lengths",

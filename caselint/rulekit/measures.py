@@ -48,7 +48,7 @@ if TYPE_CHECKING:
 
 
 def nonfinite_skip(values: np.ndarray, what: str,
-                   ids: np.ndarray | None = None) -> RuleResult | None:
+                   ids: np.ndarray | slice | None = None) -> RuleResult | None:
     """Skip (instead of reporting NaN) when a damaged mesh gives a non-finite metric
     (over the entities ``ids``, all when None)."""
     values = _Chosen(ids).take(values)
@@ -62,10 +62,14 @@ def nonfinite_skip(values: np.ndarray, what: str,
 
 
 class _Chosen:
-    """Entities chosen by their ids (None: all of them); where the ids are a range (the
-    internal faces), values are taken as views instead of gathered."""
+    """Entities chosen by their ids (None: all of them), or as ``slice(a, b)`` for the ids
+    ``a .. b - 1`` (the internal faces); where the ids are a range, values are taken as
+    views instead of gathered."""
 
-    def __init__(self, ids: np.ndarray | None) -> None:
+    def __init__(self, ids: np.ndarray | slice | None) -> None:
+        if isinstance(ids, slice):
+            self.span, self.every, self.ids = ids, False, None
+            return
         self.span = None if ids is None else id_range(ids)
         self.every = ids is None
         # a range is kept as its bounds: an extent that keeps this for the engine's
@@ -87,9 +91,10 @@ class _Chosen:
         return local if self.span.start == 0 else local + self.span.start
 
 
-def face_measurement(mesh: "Mesh", values: np.ndarray, faces: np.ndarray | None,
+def face_measurement(mesh: "Mesh", values: np.ndarray, faces: np.ndarray | slice | None,
                      limits: Limits, unit_words: str, fmt: str) -> Measurement:
-    """The largest of a face metric ``values`` (F,) over ``faces`` (None: all), with the
+    """The largest of a face metric ``values`` (F,) over ``faces`` (ids, ``slice(a, b)``, or
+    None: all), with the
     faces past the first limit counted and the worst located."""
     chosen = _Chosen(faces)
     threshold = first_limit(limits)
@@ -138,9 +143,10 @@ def cell_measurement(mesh: "Mesh", values: np.ndarray, cells: np.ndarray | None,
     return Measurement(value=float(values[worst]), where=where, detail=detail)
 
 
-def face_extent(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None,
+def face_extent(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | slice | None,
                 unit_words: str, fmt: str) -> Extent:
-    """The face metric ``values`` (F,) over ``faces`` (None: all), each with its place."""
+    """The face metric ``values`` (F,) over ``faces`` (ids, ``slice(a, b)``, or None: all),
+    each with its place."""
     mesh, chosen = ctx.mesh, _Chosen(faces)
     return Extent(
         values=chosen.take(values), places=chosen.take(face_places(ctx)), entity="face",
