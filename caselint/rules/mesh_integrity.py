@@ -125,7 +125,8 @@ def cell_closure(mesh: "Mesh") -> np.ndarray:
         s, area = mesh.face_area_vectors, mesh.face_areas
         kernel = compiled("face_checks", n)
         if kernel is not None:
-            return kernel.cell_closure(mesh.owner, mesh.neighbour, n_int, n, s, area)
+            cf = mesh.cell_faces
+            return kernel.cell_closure(cf.offsets, cf.faces, cf.owned, s, area)
         nbr = mesh.neighbour[:n_int]
         total = (np.bincount(mesh.owner, weights=area, minlength=n)
                  + np.bincount(nbr, weights=area[:n_int], minlength=n))
