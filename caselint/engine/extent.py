@@ -86,24 +86,31 @@ def beyond_limit(grade: Grade, main: Grade) -> float | None:
 
 
 def _share(rule: Rule, grade: Grade, main: Grade, extent: Extent, values: np.ndarray,
-           weights: np.ndarray | None, subset: np.ndarray, worse: str,
+           weights: np.ndarray | None, subset: np.ndarray | None, worse: str,
            unit: str) -> Measurement | None:
-    """The share of the entities ``subset`` beyond the grade's quality limit."""
+    """The share of the entities ``subset`` (None: all of them) beyond the grade's quality
+    limit."""
     beyond = beyond_limit(grade, main)
     if beyond is None:
         return None
-    past = _past(values[subset], beyond, worse)
-    share = _percent(past, None if weights is None else weights[subset])
-    offenders = subset[past]
-    located = extent.measure(offenders if offenders.size else subset, Limits(warn=beyond))
+    # all entities (a share over every place): the values themselves, no gathered copy
+    picked = values if subset is None else values[subset]
+    past = _past(picked, beyond, worse)
+    share = _percent(past, weights if weights is None or subset is None else weights[subset])
+    offenders = np.flatnonzero(past) if subset is None else subset[past]
+    count = values.size if subset is None else subset.size
+    if not offenders.size:
+        offenders = np.arange(values.size) if subset is None else subset
+    located = extent.measure(offenders, Limits(warn=beyond))
     whole = f"{extent.weight_words} of the " if weights is not None and extent.weight_words \
         else ""
     words = place_words(grade.places)
     unit_words = f" {unit}" if unit else ""
     relation = "beyond" if worse == "higher" else "below"
-    detail = (f"{int(offenders.size)} of {int(subset.size)} {extent.entity}s {words} are "
+    n_past = int(np.count_nonzero(past))
+    detail = (f"{n_past} of {count} {extent.entity}s {words} are "
               f"{relation} {beyond:g}{unit_words}")
-    if offenders.size:
+    if n_past:
         detail += f"; {located.detail}" if located.detail else ""
     label = f"share of the {whole}{extent.entity}s {relation} {beyond:g}{unit_words}"
     return Measurement(
@@ -128,8 +135,11 @@ def expand(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> list[Meas
     main = grades[rule.main_grade]
     out = []
     for grade in (g for g in grades.values() if g.places):
-        subset = np.flatnonzero(_in_places(places, grade.places))
-        if subset.size == 0:
+        inside = _in_places(places, grade.places)
+        # None: every entity (no id array until the extent's measure needs one)
+        subset = None if inside.all() else np.flatnonzero(inside)
+        del inside
+        if values.size == 0 or (subset is not None and subset.size == 0):
             continue
         # the measured quantity's direction and unit (a share grade's own are its percent's)
         worse = m.worse or rule.worse
@@ -139,7 +149,8 @@ def expand(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> list[Meas
             if shared is not None:
                 out.append(shared)
             continue
-        located = extent.measure(subset, grade.limits)
+        located = extent.measure(np.arange(values.size) if subset is None else subset,
+                                 grade.limits)
         out.append(dataclasses.replace(
             located, grade=grade.name, label=located.label or m.label, extent=None,
             where=dataclasses.replace(located.where, place=place_label(grade.places))))
