@@ -157,6 +157,22 @@ def face_metrics(owner, neighbour, area, fcent, ccent, degenerate, lo_face, hi_f
 
 
 @jit
+def over_cell_size(owner, neighbour, ccent, spacing, degenerate, lo_face, hi_face, skew):
+    """Internal faces ``lo_face`` .. ``hi_face - 1``: ``skew`` turned from |x_f - x_i| / |d|
+    into |x_f - x_i| / max(|d|, the cells' mean size ``spacing``), in place, as
+    :func:`caselint.mesh.quality._over_cell_size`."""
+    for f in range(lo_face, hi_face):
+        p, nb = owner[f], neighbour[f]
+        d0 = ccent[nb, 0] - ccent[p, 0]
+        d1 = ccent[nb, 1] - ccent[p, 1]
+        d2 = ccent[nb, 2] - ccent[p, 2]
+        dn = np.sqrt(d0 * d0 + d1 * d1 + d2 * d2)
+        s, part = spacing[f], skew[f]
+        if s > dn and dn > 0 and part < degenerate:
+            skew[f] = part * (dn / s)
+
+
+@jit
 def cell_closure(cf_offsets, cf_faces, cf_owned, area, areas):
     """(C,) |sum of outward area vectors| / sum of face areas, as
     :func:`caselint.rules.mesh_integrity.cell_closure`: the owner and neighbour sums apart,
