@@ -180,7 +180,7 @@ class Mesh:
     @property
     def geometry(self) -> Geometry:
         """Face and cell geometry (:func:`caselint.mesh.geometry.compute_geometry`)."""
-        return self.cached("geometry", lambda: compute_geometry(self.data))
+        return self.cached("geometry", lambda: compute_geometry(self.data, self.cell_faces))
 
     @property
     def face_area_vectors(self) -> np.ndarray:
