@@ -86,28 +86,29 @@ def beyond_limit(grade: Grade, main: Grade) -> float | None:
 
 
 def _share(rule: Rule, grade: Grade, main: Grade, extent: Extent, values: np.ndarray,
-           weights: np.ndarray | None, subset: np.ndarray | None, worse: str,
+           weights: np.ndarray | None, inside: np.ndarray, worse: str,
            unit: str) -> Measurement | None:
-    """The share of the entities ``subset`` (None: all of them) beyond the grade's quality
-    limit."""
+    """The share of the entities where ``inside`` (a mask) beyond the grade's quality
+    limit (judged over all values and masked: no gathered copy of them)."""
     beyond = beyond_limit(grade, main)
     if beyond is None:
         return None
-    # all entities (a share over every place): the values themselves, no gathered copy
-    picked = values if subset is None else values[subset]
-    past = _past(picked, beyond, worse)
-    share = _percent(past, weights if weights is None or subset is None else weights[subset])
-    offenders = np.flatnonzero(past) if subset is None else subset[past]
-    count = values.size if subset is None else subset.size
-    if not offenders.size:
-        offenders = np.arange(values.size) if subset is None else subset
-    located = extent.measure(offenders, Limits(warn=beyond))
+    past = _past(values, beyond, worse)
+    past &= inside
+    count = int(np.count_nonzero(inside))
+    if weights is None:
+        share = 100.0 * float(np.count_nonzero(past)) / count
+    else:
+        share = _percent(past[inside], weights[inside])
+    offenders = np.flatnonzero(past)
+    n_past = int(offenders.size)
+    located = extent.measure(offenders if n_past else np.flatnonzero(inside),
+                             Limits(warn=beyond))
     whole = f"{extent.weight_words} of the " if weights is not None and extent.weight_words \
         else ""
     words = place_words(grade.places)
     unit_words = f" {unit}" if unit else ""
     relation = "beyond" if worse == "higher" else "below"
-    n_past = int(np.count_nonzero(past))
     detail = (f"{n_past} of {count} {extent.entity}s {words} are "
               f"{relation} {beyond:g}{unit_words}")
     if n_past:
@@ -136,21 +137,19 @@ def expand(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> list[Meas
     out = []
     for grade in (g for g in grades.values() if g.places):
         inside = _in_places(places, grade.places)
-        # None: every entity (no id array until the extent's measure needs one)
-        subset = None if inside.all() else np.flatnonzero(inside)
-        del inside
-        if values.size == 0 or (subset is not None and subset.size == 0):
+        if not inside.any():
             continue
         # the measured quantity's direction and unit (a share grade's own are its percent's)
         worse = m.worse or rule.worse
         unit = m.unit if m.unit is not None else rule.unit
         if grade.share:
-            shared = _share(rule, grade, main, extent, values, weights, subset, worse, unit)
+            shared = _share(rule, grade, main, extent, values, weights, inside, worse, unit)
             if shared is not None:
                 out.append(shared)
             continue
-        located = extent.measure(np.arange(values.size) if subset is None else subset,
-                                 grade.limits)
+        subset = np.flatnonzero(inside)
+        del inside
+        located = extent.measure(subset, grade.limits)
         out.append(dataclasses.replace(
             located, grade=grade.name, label=located.label or m.label, extent=None,
             where=dataclasses.replace(located.where, place=place_label(grade.places))))
