@@ -69,9 +69,13 @@ ISOTROPIC_SHAPES: tuple[str, ...] = ("tetra", "pyramid", "triangle")
 
 def rms_edge_lengths(mesh: "Mesh") -> np.ndarray:
     """(C,) root mean square of the edge lengths of each tetrahedron, pyramid and
-    triangle (m); NaN for the other cells, whose size is measured across each face."""
+    triangle (m); NaN for the other cells, whose size is measured across each face
+    (read-only; on a mesh with none of these shapes one NaN seen through every index, not
+    an array as long as the cells)."""
 
     def compute() -> np.ndarray:
+        if not any(b.type in ISOTROPIC_SHAPES and len(b.cells) for b in mesh.data.shapes):
+            return np.broadcast_to(np.float64(np.nan), (mesh.n_cells,))
         out = np.full(mesh.n_cells, np.nan)
         points = mesh.points
         for block in mesh.data.shapes:
@@ -85,6 +89,7 @@ def rms_edge_lengths(mesh: "Mesh") -> np.ndarray:
                     v = points[conn[:, b]] - points[conn[:, a]]
                     total += v[:, 0] * v[:, 0] + v[:, 1] * v[:, 1] + v[:, 2] * v[:, 2]
                 out[block.cells[sl]] = np.sqrt(total / len(edges))
+        out.flags.writeable = False
         return out
 
     return mesh.cached("size_ratio.rms_edge_lengths", compute)

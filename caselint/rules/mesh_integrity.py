@@ -137,7 +137,8 @@ def cell_closure(mesh: "Mesh") -> np.ndarray:
             net += part * part
         return np.sqrt(net) / np.where(total > 0, total, 1.0)
 
-    return mesh.cached("mesh_integrity.closure", compute)
+    # not kept: one rule reads it (8 bytes a cell held for nothing)
+    return mesh.provided("mesh_integrity.closure", compute)
 
 
 def short_faces(mesh: "Mesh") -> np.ndarray:
