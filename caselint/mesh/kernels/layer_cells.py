@@ -1,9 +1,9 @@
 """Compiled marking of the cells in the wall-layer stacks (numba).
 
-The numpy reference is :func:`caselint.rulekit.stacks.walk_stacks` (all stacks in lock
-step, one vectorised step per layer); here each stack is walked on its own, with the same
-choice of opposite face and the same arithmetic in the same order, so the same cells are
-marked.
+The numpy reference is the lock-step walk of :func:`caselint.rulekit.stacks.layer_cells`
+(all stacks together, one vectorised step per layer); here each stack is walked on its
+own, with the same choice of opposite face and the same arithmetic in the same order, so
+the same cells are marked.
 """
 
 from __future__ import annotations
@@ -11,16 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from caselint.mesh.kernels import jit
-
-
-@jit(inline="always")
-def _shares_point(face_offsets, face_points, f, g):
-    for i in range(face_offsets[f], face_offsets[f + 1]):
-        p = face_points[i]
-        for j in range(face_offsets[g], face_offsets[g + 1]):
-            if face_points[j] == p:
-                return True
-    return False
+from caselint.mesh.kernels.layer_walk import _shares_point  # the wall walk's own test
 
 
 @jit(inline="always")
