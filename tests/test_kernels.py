@@ -41,6 +41,7 @@ from caselint.mesh.quality import (
 from caselint.mesh.refined import refined_block
 from caselint.mesh.stack_walk import StackState
 from caselint.mesh.size_ratio import mean_sizes, volume_ratio
+from caselint.rulekit.stacks import layer_cells
 from caselint.rules.mesh_integrity import (
     cell_closure,
     cell_pieces,
@@ -156,6 +157,12 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
             for f in dataclasses.fields(layers):
                 out[f"layers{reach}.{f.name}"] = getattr(layers, f.name)
         out.update(_stopped_at_foreign_cells(mesh, boundary, wall, limits))
+        # the cells of the stacks as walked, and walked on for up to 7 cells (through the
+        # split far sides of the polyhedra, into tetrahedra, out at the far boundary)
+        cells0 = mesh.owner[boundary]
+        out["layer_cells"] = layer_cells(mesh, boundary, cells0, layers.n_layers)
+        deeper = np.arange(boundary.size) % 8
+        out["layer_cells.deeper"] = layer_cells(mesh, boundary, cells0, deeper)
     return out
 
 

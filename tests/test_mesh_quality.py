@@ -9,6 +9,8 @@ the definitions (Jasak 1996; Verdict, SAND2007-1751); Verdict's tetrahedron chec
 from __future__ import annotations
 
 import math
+import threading
+import time
 
 import meshio
 import numpy as np
@@ -173,13 +175,51 @@ def test_metrics_are_cached():
     mesh = mesh_from_meshio(structured_hex([0, 1, 2], [0, 1], [0, 1]))
     for metric in METRICS_C:
         assert metric(mesh) is metric(mesh)
-    # the angle, skewness and warp are read by one rule each: computed on each call, not
-    # kept with the mesh (8 bytes a face each), the same values every time
-    for metric in (q.non_orthogonality_deg, q.skewness, q.face_warp_deg):
+    # the angle, skewness, warp and volume ratio are read by one rule each: computed on
+    # each call, not kept with the mesh (8 bytes a face each), the same values every time
+    for metric in (q.non_orthogonality_deg, q.skewness, q.face_warp_deg, q.volume_ratio):
         first, again = metric(mesh), metric(mesh)
         assert first is not again and np.array_equal(first, again)
     # the growth ratio comes in one pass with the mean sizes across the faces, which the
-    # skewness reads as well: the pair is kept
+    # skewness reads as well: asked for first, the ratio is computed on each call and the
+    # mean sizes are kept; the mean sizes asked for first keep the pair (no second pass)
+    growth_first = mesh_from_meshio(structured_hex([0, 1, 2], [0, 1], [0, 1]))
+    first, again = q.growth_ratio(growth_first), q.growth_ratio(growth_first)
+    assert first is not again and np.array_equal(first, again)
+    assert growth_first.has("size_ratio.mean_sizes")
+    assert not growth_first.has("size_ratio.ratios")
+    assert q.mean_sizes(growth_first) is q.mean_sizes(growth_first)
+    # (above, the skewness asked for the mean sizes first)
+    assert q.mean_sizes(mesh) is q.mean_sizes(mesh)
     assert q.growth_ratio(mesh) is q.growth_ratio(mesh)
+    np.testing.assert_array_equal(q.growth_ratio(mesh), first)
+    np.testing.assert_array_equal(q.mean_sizes(mesh), q.mean_sizes(growth_first))
     assert mesh.cached("anything", lambda: 42) == 42
     assert mesh.cached("anything", lambda: 43) == 42
+
+
+def test_a_value_asked_for_by_several_threads_at_once_is_computed_once():
+    """The worker threads of a kernel may be the first to read the geometry; all but one
+    wait for the result instead of computing it again (twice the time and memory)."""
+    mesh = mesh_from_meshio(structured_hex([0, 1, 2], [0, 1], [0, 1]))
+    calls = []
+
+    def slow():
+        calls.append(threading.get_ident())
+        time.sleep(0.2)
+        # a computation may itself ask for other values, on this thread or on others
+        return mesh.cached("inner", lambda: 7) + 1
+
+    start = threading.Barrier(4)
+    results = []
+
+    def ask():
+        start.wait()
+        results.append(mesh.cached("slow", slow))
+
+    threads = [threading.Thread(target=ask) for _ in range(4)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert results == [8, 8, 8, 8] and len(calls) == 1

@@ -213,3 +213,24 @@ def test_faces_sharing_a_diagonal_are_told_apart_by_the_other_one():
     assert pair == {0, 2}
     diagonal = [f for f in mesh.file_point_ids(mesh.face_point_table()).tolist() if {0, 2} <= set(f)]
     assert sorted(map(sorted, diagonal)) == [[0, 1, 2, 3], [0, 2, 8, 9]]
+
+
+def test_cell_face_table_pads_mixed_cells_and_is_the_lists_themselves_on_one_shape():
+    """Row c of the table holds cell c's faces in list order, padded with -1 where a cell
+    has fewer; on a mesh of one shape the lists are the table (a view, no copy)."""
+    hexes = mesh_from_meshio(shuffled(structured_hex(*(np.linspace(0, 1, 3),) * 3), seed=2))
+    table = hexes.cell_face_table()
+    assert table.shape == (8, 6) and np.shares_memory(table, hexes.cell_faces.faces)
+    np.testing.assert_array_equal(table.ravel(), hexes.cell_faces.faces)
+    pts = np.array([(0, 0, 0), (1, 0, 0), (0, 1, 0), (0, 0, 1), (1, 0, 1), (0, 1, 1),
+                    (0, 0, 2)], float)
+    mixed = mesh_from_meshio(meshio.Mesh(pts, [("wedge", np.array([[0, 1, 2, 3, 4, 5]])),
+                                               ("tetra", np.array([[3, 4, 5, 6]]))]))
+    cf, table = mixed.cell_faces, mixed.cell_face_table()
+    assert table.shape == (2, 5) and not np.shares_memory(table, cf.faces)
+    for c in range(2):
+        row = cf.faces[cf.offsets[c]:cf.offsets[c + 1]]
+        assert table[c, :len(row)].tolist() == row.tolist()
+        assert np.all(table[c, len(row):] == -1)
+    assert (table >= 0).sum(axis=1).tolist() == [5, 4]
+    assert not table.flags.writeable and not hexes.cell_face_table().flags.writeable

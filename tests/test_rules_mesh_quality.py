@@ -22,6 +22,7 @@ from caselint.mesh import Mesh, MeshData, mesh_from_meshio
 from caselint.mesh.blocks import graded, structured_hex, tetrahedralise
 from caselint.model import Limits, Rule, RuleResult
 from caselint.rulekit import worst_ids
+from caselint.rulekit.locate import worst_and_past, worst_and_past_within
 from caselint.rules import cell_growth, cell_quality, mesh_quality
 from caselint.rules.cell_growth import GROWTH_RATIO
 from caselint.rules.cell_quality import ASPECT_RATIO, INVERTED_CELLS
@@ -266,6 +267,27 @@ def test_worst_ids_lists_worst_first_ties_by_id_and_counts_all():
     ids, count = worst_ids(np.array([1.0, np.nan, 3.0]), None)   # NaN is the worst
     assert ids.tolist() == [1]
     assert worst_ids(np.array([]), None)[0].size == 0
+
+
+@pytest.mark.parametrize("threshold", [None, 0.5, 0.9, 2.0])
+def test_worst_through_a_mask_equals_the_worst_of_the_gathered_values(threshold):
+    """The ids of a place judged through a mask of them (no gathered copy) give the same
+    worst, the same listed ids and the same ids past the threshold as the gathered values:
+    values with many ties at the cut, NaN and infinities, and ids not a range."""
+    rng = np.random.default_rng(4)
+    values = np.round(rng.random(5000), 1)                  # ties everywhere
+    for hole in (None, 17, 4000):
+        if hole is not None:
+            values = values.copy()
+            values[hole] = np.nan if hole == 17 else np.inf
+        ids = np.flatnonzero(rng.random(values.size) < 0.6)
+        within = np.zeros(values.size, dtype=bool)
+        within[ids] = True
+        local, past = worst_and_past(values[ids], threshold)
+        listed, past_ids = worst_and_past_within(values, within, threshold)
+        assert listed.tolist() == ids[local].tolist()
+        assert past_ids.tolist() == ids[past].tolist() and past_ids.dtype == np.int64
+    assert worst_and_past_within(values, np.zeros(values.size, dtype=bool), 0.5)[0].size == 0
 
 
 def test_rules_are_registered_and_documented():

@@ -134,3 +134,15 @@ def test_skewness_is_over_the_larger_of_the_centre_distance_and_the_cells_size()
     assert value == pytest.approx(offset / spacing, rel=1e-12)
     assert offset / d / value == pytest.approx(spacing / d)   # the textbook value: 3.2 x
     assert spacing / d == pytest.approx(3.17, abs=0.01)
+
+
+def test_a_mesh_with_no_isotropic_cells_keeps_no_array_of_their_sizes():
+    """Hexahedra only: every cell's size is its thickness across the face, so the
+    root-mean-square edges are NaN everywhere, one NaN seen through every index (8 bytes,
+    not 8 a cell); the growth ratio is the grading ratio all the same."""
+    mesh = mesh_from_meshio(structured_hex([0.0, 1.0, 2.2], [0.0, 1.0], [0.0, 1.0]))
+    sizes = rms_edge_lengths(mesh)
+    assert sizes.shape == (2,) and np.all(np.isnan(sizes)) and sizes.strides == (0,)
+    assert not sizes.flags.writeable
+    inner = quality.growth_ratio(mesh)[: mesh.n_internal]
+    np.testing.assert_allclose(inner, [1.2], rtol=1e-12)

@@ -86,24 +86,32 @@ def beyond_limit(grade: Grade, main: Grade) -> float | None:
 
 
 def _share(rule: Rule, grade: Grade, main: Grade, extent: Extent, values: np.ndarray,
-           weights: np.ndarray | None, subset: np.ndarray, worse: str,
+           weights: np.ndarray | None, inside: np.ndarray, worse: str,
            unit: str) -> Measurement | None:
-    """The share of the entities ``subset`` beyond the grade's quality limit."""
+    """The share of the entities where ``inside`` (a mask) beyond the grade's quality
+    limit (judged over all values and masked: no gathered copy of them)."""
     beyond = beyond_limit(grade, main)
     if beyond is None:
         return None
-    past = _past(values[subset], beyond, worse)
-    share = _percent(past, None if weights is None else weights[subset])
-    offenders = subset[past]
-    located = extent.measure(offenders if offenders.size else subset, Limits(warn=beyond))
+    past = _past(values, beyond, worse)
+    past &= inside
+    count = int(np.count_nonzero(inside))
+    if weights is None:
+        share = 100.0 * float(np.count_nonzero(past)) / count
+    else:
+        share = _percent(past[inside], weights[inside])
+    offenders = np.flatnonzero(past)
+    n_past = int(offenders.size)
+    located = extent.measure(offenders if n_past else np.flatnonzero(inside),
+                             Limits(warn=beyond))
     whole = f"{extent.weight_words} of the " if weights is not None and extent.weight_words \
         else ""
     words = place_words(grade.places)
     unit_words = f" {unit}" if unit else ""
     relation = "beyond" if worse == "higher" else "below"
-    detail = (f"{int(offenders.size)} of {int(subset.size)} {extent.entity}s {words} are "
+    detail = (f"{n_past} of {count} {extent.entity}s {words} are "
               f"{relation} {beyond:g}{unit_words}")
-    if offenders.size:
+    if n_past:
         detail += f"; {located.detail}" if located.detail else ""
     label = f"share of the {whole}{extent.entity}s {relation} {beyond:g}{unit_words}"
     return Measurement(
@@ -128,17 +136,19 @@ def expand(rule: Rule, grades: Mapping[str, Grade], m: Measurement) -> list[Meas
     main = grades[rule.main_grade]
     out = []
     for grade in (g for g in grades.values() if g.places):
-        subset = np.flatnonzero(_in_places(places, grade.places))
-        if subset.size == 0:
+        inside = _in_places(places, grade.places)
+        if not inside.any():
             continue
         # the measured quantity's direction and unit (a share grade's own are its percent's)
         worse = m.worse or rule.worse
         unit = m.unit if m.unit is not None else rule.unit
         if grade.share:
-            shared = _share(rule, grade, main, extent, values, weights, subset, worse, unit)
+            shared = _share(rule, grade, main, extent, values, weights, inside, worse, unit)
             if shared is not None:
                 out.append(shared)
             continue
+        subset = np.flatnonzero(inside)
+        del inside
         located = extent.measure(subset, grade.limits)
         out.append(dataclasses.replace(
             located, grade=grade.name, label=located.label or m.label, extent=None,

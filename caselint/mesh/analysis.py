@@ -13,6 +13,7 @@ All lengths are metres; cell ids, face ids and point ids are caselint's (see
 
 from __future__ import annotations
 
+import threading
 from functools import cached_property
 from typing import Any, Callable, TypeVar
 
@@ -34,6 +35,8 @@ class Mesh:
         # results computed elsewhere (e.g. partition by partition, caselint.partition),
         # under the keys the computing functions use
         self._memo: dict[str, Any] = dict(known or {})
+        self._key_locks: dict[str, threading.RLock] = {}
+        self._locks_lock = threading.Lock()
         if geometry is not None:
             if len(geometry.volumes) != data.n_cells or len(geometry.area_vectors) != data.n_faces:
                 raise ValueError(f"geometry of {len(geometry.volumes)} cells and "
@@ -177,7 +180,7 @@ class Mesh:
     @property
     def geometry(self) -> Geometry:
         """Face and cell geometry (:func:`caselint.mesh.geometry.compute_geometry`)."""
-        return self.cached("geometry", lambda: compute_geometry(self.data))
+        return self.cached("geometry", lambda: compute_geometry(self.data, self.cell_faces))
 
     @property
     def face_area_vectors(self) -> np.ndarray:
@@ -210,10 +213,19 @@ class Mesh:
 
     # -- memo ----------------------------------------------------------------------------
     def cached(self, key: str, compute: Callable[[], T]) -> T:
-        """The value kept under ``key``, computed once with ``compute()``."""
-        if key not in self._memo:
-            self._memo[key] = compute()
-        return self._memo[key]
+        """The value kept under ``key``, computed once with ``compute()``, also when
+        several threads ask for it at once (the worker threads of a kernel may be the
+        first to read the geometry): one computes, the others wait for its result."""
+        memo = self._memo
+        if key in memo:
+            return memo[key]
+        # one lock per key: a computation may start threads that ask for other keys
+        with self._locks_lock:
+            lock = self._key_locks.setdefault(key, threading.RLock())
+        with lock:
+            if key not in memo:
+                memo[key] = compute()
+        return memo[key]
 
     def provided(self, key: str, compute: Callable[[], T]) -> T:
         """The value given under ``key`` when the mesh was made (``known``), else

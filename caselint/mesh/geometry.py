@@ -38,7 +38,9 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh.kernels import compiled, in_threads, side_by_side
+from caselint.mesh.kernels import compiled, in_threads
+from caselint.mesh.topology import CellFaces
+from caselint.mesh.topology import cell_faces as faces_of_cells
 
 if TYPE_CHECKING:
     from caselint.mesh.model import MeshData
@@ -169,34 +171,38 @@ def face_geometry(mesh: "MeshData") -> tuple[np.ndarray, np.ndarray, np.ndarray]
     return out[0], out[1], out[2]
 
 
-def compute_geometry(mesh: "MeshData") -> Geometry:
-    """Face and cell geometry of ``mesh`` (see the module docstring for the formulas)."""
+def compute_geometry(mesh: "MeshData", cell_faces: CellFaces | None = None) -> Geometry:
+    """Face and cell geometry of ``mesh`` (see the module docstring for the formulas);
+    ``cell_faces`` are its cells' face lists when known (the compiled kernels sum per cell
+    over them; :func:`caselint.mesh.topology.cell_faces` else)."""
     kernel = compiled("geometry", mesh.n_cells)
     n_cells, n_int, dim = mesh.n_cells, mesh.n_internal, mesh.dim
-    owner, nbr = mesh.owner, mesh.neighbour[:n_int]
     # the neighbour sees -S; an orientation clash (both cells list the face the same way
     # round) means its own cell definition sees +S
     sign = np.full(n_int, -1.0)
     clash = mesh.report.clashing
     sign[clash[clash < n_int]] = 1.0
     if kernel is not None:
+        if cell_faces is None:
+            cell_faces = faces_of_cells(mesh)
+        cf = (cell_faces.offsets, cell_faces.faces, cell_faces.owned)
         area, fcent, fmean = (np.empty((mesh.n_faces, 3)) for _ in range(3))
         in_threads(lambda p: kernel.face_geometry(
             mesh.face_offsets, mesh.face_points, mesh.points, dim == 3, p.start, p.stop, area,
             fcent, fmean), mesh.n_faces)
-        apex = kernel.face_mean_apex(*side_by_side(
-            lambda: kernel.face_mean_side(owner, n_cells, fmean),
-            lambda: kernel.face_mean_side(nbr, n_cells, fmean)))
+        # cell by cell over each cell's faces (owner and neighbour sides summed apart, as
+        # the two bincounts of the numpy path): no per-cell tables of the sums
+        apex = np.empty((n_cells, 3))
+        shape = mesh.cell_shape()
+        in_threads(lambda p: kernel.face_mean_apex(*cf, fmean, shape, p.start, p.stop, apex),
+                   n_cells)
+        del shape
         for block in mesh.shapes:       # cells of known shape: their vertex mean
             in_threads(lambda p, b=block: kernel.vertex_mean_apex(
                 b.connectivity[p], b.cells[p], mesh.points, apex), len(block.cells))
-        # owner sides and neighbour sides summed apart (as the two bincounts of the numpy
-        # path), each on its own thread; their sum is never stored as a (5, C) array
-        own, side = side_by_side(
-            lambda: kernel.pyramid_side(owner, np.empty(0), area, fcent, fmean, apex, dim),
-            lambda: kernel.pyramid_side(nbr, sign, area, fcent, fmean, apex, dim))
-        del fmean
-        volumes, cent = kernel.cell_volumes_centroids(own, side, apex, dim)
+        volumes, cent = np.empty(n_cells), np.empty((n_cells, 3))
+        in_threads(lambda p: kernel.cell_volumes_centroids(
+            *cf, sign, area, fcent, fmean, apex, dim, p.start, p.stop, volumes, cent), n_cells)
         return Geometry(area, fcent, volumes, cent, apex)
     area, fcent, fmean = face_geometry(mesh)
     apex = _apex(mesh, fmean)

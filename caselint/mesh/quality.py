@@ -147,6 +147,12 @@ def _over_cell_size(mesh: "Mesh", skew: np.ndarray) -> None:
     a link of no length (coincident centroids) stays degenerate."""
     n = mesh.n_internal
     spacing = mean_sizes(mesh)
+    kernel = compiled("face_checks", mesh.n_cells)
+    if kernel is not None:
+        in_threads(lambda p: kernel.over_cell_size(
+            mesh.owner, mesh.neighbour, mesh.cell_centroids, spacing, DEGENERATE, p.start,
+            p.stop, skew), n)
+        return
     for sl in chunks(n):
         d = mesh.cell_centroids[mesh.neighbour[sl]] - mesh.cell_centroids[mesh.owner[sl]]
         dn = np.sqrt(d[:, 0] * d[:, 0] + d[:, 1] * d[:, 1] + d[:, 2] * d[:, 2])

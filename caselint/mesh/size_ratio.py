@@ -69,9 +69,13 @@ ISOTROPIC_SHAPES: tuple[str, ...] = ("tetra", "pyramid", "triangle")
 
 def rms_edge_lengths(mesh: "Mesh") -> np.ndarray:
     """(C,) root mean square of the edge lengths of each tetrahedron, pyramid and
-    triangle (m); NaN for the other cells, whose size is measured across each face."""
+    triangle (m); NaN for the other cells, whose size is measured across each face
+    (read-only; on a mesh with none of these shapes one NaN seen through every index, not
+    an array as long as the cells)."""
 
     def compute() -> np.ndarray:
+        if not any(b.type in ISOTROPIC_SHAPES and len(b.cells) for b in mesh.data.shapes):
+            return np.broadcast_to(np.float64(np.nan), (mesh.n_cells,))
         out = np.full(mesh.n_cells, np.nan)
         points = mesh.points
         for block in mesh.data.shapes:
@@ -85,6 +89,7 @@ def rms_edge_lengths(mesh: "Mesh") -> np.ndarray:
                     v = points[conn[:, b]] - points[conn[:, a]]
                     total += v[:, 0] * v[:, 0] + v[:, 1] * v[:, 1] + v[:, 2] * v[:, 2]
                 out[block.cells[sl]] = np.sqrt(total / len(edges))
+        out.flags.writeable = False
         return out
 
     return mesh.cached("size_ratio.rms_edge_lengths", compute)
@@ -112,59 +117,73 @@ def sizes_across_faces(mesh: "Mesh", faces: slice | None = None) -> tuple[np.nda
     return sizes[0], sizes[1]
 
 
+#: Memo keys: the pair (growth ratio, mean sizes) of one pass, and the mean sizes alone.
+_PAIR, _SIZES = "size_ratio.ratios", "size_ratio.mean_sizes"
+
+
 def _ratios(mesh: "Mesh") -> tuple[np.ndarray, np.ndarray]:
     """(F,) growth ratio and (I,) mean size of the two cells across each internal face,
-    in one pass over the faces (the sizes themselves are not kept)."""
-
-    def compute() -> tuple[np.ndarray, np.ndarray]:
-        n = mesh.n_internal
-        growth, spacing = np.ones(mesh.n_faces), np.empty(n)
-        kernel = compiled("face_checks", mesh.n_cells)
-        if kernel is not None:
-            cf, data = mesh.cell_faces, mesh.data
-            iso = rms_edge_lengths(mesh)
-            in_threads(lambda p: kernel.size_ratios(
-                mesh.owner, mesh.neighbour, cf.offsets, cf.faces, data.face_offsets,
-                data.face_points, mesh.points, mesh.face_area_vectors, mesh.face_areas,
-                mesh.face_centroids, iso, p.start, p.stop, growth, spacing), n)
-            return growth, spacing
-        for sl in chunks(n):
-            own, nbr = sizes_across_faces(mesh, sl)
-            ok = (own > 0) & (nbr > 0)
-            big, small = np.maximum(own, nbr), np.minimum(own, nbr)
-            growth[sl] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
-            spacing[sl] = 0.5 * (own + nbr)
+    in one pass over the faces (the sizes themselves are not kept); not kept either."""
+    n = mesh.n_internal
+    growth, spacing = np.ones(mesh.n_faces), np.empty(n)
+    kernel = compiled("face_checks", mesh.n_cells)
+    if kernel is not None:
+        cf, data = mesh.cell_faces, mesh.data
+        iso = rms_edge_lengths(mesh)
+        in_threads(lambda p: kernel.size_ratios(
+            mesh.owner, mesh.neighbour, cf.offsets, cf.faces, data.face_offsets,
+            data.face_points, mesh.points, mesh.face_area_vectors, mesh.face_areas,
+            mesh.face_centroids, iso, p.start, p.stop, growth, spacing), n)
         return growth, spacing
-
-    return mesh.cached("size_ratio.ratios", compute)
+    for sl in chunks(n):
+        own, nbr = sizes_across_faces(mesh, sl)
+        ok = (own > 0) & (nbr > 0)
+        big, small = np.maximum(own, nbr), np.minimum(own, nbr)
+        growth[sl] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
+        spacing[sl] = 0.5 * (own + nbr)
+    return growth, spacing
 
 
 def growth_ratio(mesh: "Mesh") -> np.ndarray:
     """(F,) larger over smaller size of a face's two cells across it; 1.0 on boundary
-    faces and where a size is not positive."""
-    return _ratios(mesh)[0]
+    faces and where a size is not positive.
+
+    Computed on each call unless the pair with the mean sizes is kept (one rule reads it:
+    8 bytes a face held for nothing); the mean sizes that come with it are kept, for the
+    skewness."""
+    if mesh.has(_PAIR):
+        return mesh.cached(_PAIR, lambda: _ratios(mesh))[0]
+    growth, spacing = _ratios(mesh)
+    mesh.cached(_SIZES, lambda: spacing)
+    return growth
 
 
 def mean_sizes(mesh: "Mesh") -> np.ndarray:
-    """(I,) mean of the two cells' sizes across each internal face (m)."""
-    return _ratios(mesh)[1]
+    """(I,) mean of the two cells' sizes across each internal face (m), kept. Asked for
+    before the growth ratio (by the skewness alone, or by partitions, which compute every
+    quantity), the pair is kept, so that the growth ratio needs no second pass."""
+    if mesh.has(_SIZES):
+        return mesh.cached(_SIZES, lambda: _ratios(mesh)[1])
+    return mesh.cached(_PAIR, lambda: _ratios(mesh))[1]
 
 
 def volume_ratio(mesh: "Mesh") -> np.ndarray:
     """(F,) larger over smaller volume of the two cells of a face; 1.0 on boundary faces
-    and where a volume is not positive."""
+    and where a volume is not positive. Computed on each call (one rule reads it)."""
 
     def compute() -> np.ndarray:
-        n = mesh.n_internal
         out = np.ones(mesh.n_faces)
         volumes = mesh.cell_volumes
-        vp, vn = volumes[mesh.owner[:n]], volumes[mesh.neighbour[:n]]
-        ok = (vp > 0) & (vn > 0)
-        big, small = np.maximum(vp, vn), np.minimum(vp, vn)
-        out[:n] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
+        # in cache-sized pieces: no temporaries as long as the faces
+        for sl in chunks(mesh.n_internal):
+            vp, vn = volumes[mesh.owner[sl]], volumes[mesh.neighbour[sl]]
+            ok = (vp > 0) & (vn > 0)
+            big, small = np.maximum(vp, vn), np.minimum(vp, vn)
+            out[sl] = np.where(ok, big / np.where(ok, small, 1.0), 1.0)
         return out
 
-    return mesh.cached("size_ratio.volume_ratio", compute)
+    # not kept: 8 bytes a face held for nothing
+    return mesh.provided("size_ratio.volume_ratio", compute)
 
 
 __all__ = ["ISOTROPIC_SHAPES", "growth_ratio", "mean_sizes", "rms_edge_lengths",

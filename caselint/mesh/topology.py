@@ -47,12 +47,18 @@ class CellFaces:
         return np.take(self.faces, slots)
 
     def table(self) -> np.ndarray:
-        """(C, K) face ids of each cell, K its most faces, padded with -1."""
+        """(C, K) face ids of each cell, K its most faces, padded with -1 (read-only)."""
         counts = self.counts()
         width = int(counts.max(initial=0))
+        if len(counts) and int(counts.min()) == width:
+            # every cell has K faces (a mesh of one shape): the lists are the table, no copy
+            table = self.faces.reshape(len(counts), width)
+            table.flags.writeable = False
+            return table
         out = np.full((len(counts), width), -1, dtype=self.faces.dtype)
         rank = np.arange(len(self.faces)) - np.repeat(self.offsets[:-1], counts)
         out[np.repeat(np.arange(len(counts)), counts), rank] = self.faces
+        out.flags.writeable = False
         return out
 
 

@@ -28,18 +28,19 @@ def past_limit(limits: Limits, value: float, worse: str = "higher") -> bool:
     return limit is not None and (value > limit if worse == "higher" else value < limit)
 
 
-def internal_faces(ctx: "RuleContext", what: str) -> np.ndarray | RuleResult:
-    """Ids of the internal faces, or a skip naming ``what`` when there are none."""
-    internal = np.flatnonzero(ctx.mesh.neighbour >= 0)
-    if internal.size == 0:
+def internal_faces(ctx: "RuleContext", what: str) -> slice | RuleResult:
+    """The internal faces as ``slice(0, n)`` (they come first: no id array as long as the
+    faces), or a skip naming ``what`` when there are none."""
+    n = ctx.mesh.n_internal
+    if n == 0:
         return RuleResult.skip(f"the mesh has no internal faces (a single cell): {what}")
-    return internal
+    return slice(0, n)
 
 
-def face_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None, what: str,
-                unit_words: str, fmt: str) -> RuleResult:
-    """The largest of a face metric over ``faces`` (None: all), with its extent by place
-    and a picture at the worst face."""
+def face_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | slice | None,
+                what: str, unit_words: str, fmt: str) -> RuleResult:
+    """The largest of a face metric over ``faces`` (ids, ``slice(a, b)``, or None: all),
+    with its extent by place and a picture at the worst face."""
     if (skip := nonfinite_skip(values, what, faces)) is not None:
         return skip
     measurement = face_measurement(ctx.mesh, values, faces, ctx.limits, unit_words, fmt)
@@ -48,7 +49,7 @@ def face_result(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None
                       plots=face_picture(ctx, values, faces, measurement.value, what))
 
 
-def face_picture(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | None,
+def face_picture(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | slice | None,
                  worst_value: float, what: str) -> tuple:
     """A cut through the cells at the worst face, when the worst crosses the limit."""
     if not past_limit(ctx.limits, worst_value):
@@ -56,7 +57,11 @@ def face_picture(ctx: "RuleContext", values: np.ndarray, faces: np.ndarray | Non
     mesh = ctx.mesh
     per_cell = face_values_per_cell(mesh, values, faces)
     considered = values if faces is None else values[faces]
-    worst_face = int(np.argmax(considered)) if faces is None else int(faces[np.argmax(considered)])
+    at = int(np.argmax(considered))
+    if faces is None:
+        worst_face = at
+    else:
+        worst_face = at + faces.start if isinstance(faces, slice) else int(faces[at])
     owner, nbr = int(mesh.owner[worst_face]), int(mesh.neighbour[worst_face])
     worst_cell = nbr if nbr >= 0 and per_cell[nbr] > per_cell[owner] else owner
     picture = cut_picture(ctx, per_cell, worst_cell, what.capitalize(),

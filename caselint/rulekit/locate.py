@@ -41,9 +41,36 @@ def worst_and_past(values: np.ndarray, threshold: float | None, worse: str = "hi
         candidates = np.flatnonzero(badness > sign * threshold)
     if candidates.size == 0:
         return _single_worst(badness, names), candidates
-    past = candidates
+    return _worst_of(candidates, badness[candidates], names), candidates
+
+
+def worst_and_past_within(values: np.ndarray, within: np.ndarray,
+                          threshold: float | None) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`worst_and_past` of ``values[ids]`` (float64, worse is higher, ties to the
+    lowest id) for the ids where the mask ``within`` holds, given as those ids: judged over
+    all values through the mask, without a gathered copy of them (8 bytes an id)."""
+    candidates = np.empty(0, dtype=np.int64)
+    if threshold is not None:
+        over = values > 1.0 * threshold
+        over &= within
+        candidates = np.flatnonzero(over)
+        del over
+    if candidates.size:
+        return _worst_of(candidates, values[candidates], None), candidates
+    if not within.any():
+        return np.empty(0, dtype=np.int64), candidates
+    # as _single_worst: a NaN counts as worst, ties go to the lowest id
+    top = np.max(values, where=within, initial=-np.inf)
+    tied = np.isnan(values) if np.isnan(top) else values == top
+    tied &= within
+    return np.array([int(np.argmax(tied))], dtype=np.int64), candidates
+
+
+def _worst_of(candidates: np.ndarray, cand_bad: np.ndarray,
+              names: np.ndarray | None) -> np.ndarray:
+    """The ids past the threshold (``candidates``, ascending, with their badness), worst
+    first, at most :data:`MAX_LISTED_IDS` (ties: the lowest id or name)."""
     keep = MAX_LISTED_IDS
-    cand_bad = badness[candidates]
     if candidates.size > keep:
         # the candidates worse than the keep-th worst, then the lowest ids of those tied
         # with it (candidates are in id order); a structured mesh can tie millions of
@@ -59,7 +86,7 @@ def worst_and_past(values: np.ndarray, threshold: float | None, worse: str = "hi
         candidates, cand_bad = candidates[sel], cand_bad[sel]
     tie = candidates if names is None else names[candidates]
     order = np.lexsort((tie, -cand_bad))
-    return candidates[order][:keep].astype(np.int64), past
+    return candidates[order][:keep].astype(np.int64)
 
 
 def id_range(ids: np.ndarray) -> slice | None:

@@ -7,8 +7,10 @@ a wall-layer cell is flat by design) need the cells: from each wall face the sta
 walked again for its ``n_layers`` cells, each step crossing from a cell to the neighbour
 behind its face opposite the entry face (the face sharing no point with it, as the walk
 defines it; where several qualify, as on a polyhedron whose far side is split by a
-refinement, the one whose centroid lies farthest along the entry face's normal). All
-stacks step together, one vectorised step per layer; no loop over faces or cells.
+refinement, the one whose centroid lies farthest along the entry face's normal). In the
+numpy reference all stacks step together, one vectorised step per layer (no loop over faces
+or cells); on large meshes the compiled kernel :mod:`caselint.mesh.kernels.layer_cells`
+walks each stack on its own and marks the same cells.
 """
 
 from __future__ import annotations
@@ -17,6 +19,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from caselint.mesh.kernels import compiled, in_threads
 from caselint.rulekit.walls import walls
 
 if TYPE_CHECKING:
@@ -33,11 +36,29 @@ def stack_cells(ctx: "RuleContext") -> np.ndarray:
         return np.zeros(mesh.n_cells, dtype=bool)
     layers = found.layers
     key = f"rulekit.stacks:{hash(layers.faces.tobytes())}:{layers.faces.size}"
-    return mesh.cached(key, lambda: _walk(mesh, layers.faces, layers.cells, layers.n_layers))
+    return mesh.cached(key, lambda: layer_cells(mesh, layers.faces, layers.cells,
+                                                 layers.n_layers))
+
+
+def layer_cells(mesh: "Mesh", faces: np.ndarray, cells: np.ndarray,
+                n_layers: np.ndarray) -> np.ndarray:
+    """(C,) bool: the first ``n_layers[i]`` cells above each wall face ``faces[i]``, whose
+    cell is ``cells[i]`` (compiled on large meshes, else in lock step with numpy)."""
+    kernel = compiled("layer_cells", mesh.n_cells)
+    if kernel is None:
+        return _walk(mesh, faces, cells, n_layers)
+    marked = np.zeros(mesh.n_cells, dtype=bool)
+    cf, data = mesh.cell_faces, mesh.data
+    # the parts write True into one array: a cell in two stacks is marked either way
+    in_threads(lambda p: kernel.mark(
+        cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.owner,
+        mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids, cells[p], faces[p],
+        n_layers[p], marked), len(faces))
+    return marked
 
 
 def _walk(mesh: "Mesh", faces: np.ndarray, cells: np.ndarray, n_layers: np.ndarray) -> np.ndarray:
-    """Mark the first ``n_layers[i]`` cells above each wall face ``faces[i]``."""
+    """Mark the first ``n_layers[i]`` cells above each wall face ``faces[i]`` (numpy)."""
     marked = np.zeros(mesh.n_cells, dtype=bool)
     rows = n_layers >= 1
     cell, entry, left = cells[rows], faces[rows], n_layers[rows].astype(np.int64)
@@ -68,8 +89,12 @@ def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray) -> np.ndarray:
     # the entry normal points into the cell: out of it when the cell owns the entry face
     inward = mesh.face_area_vectors[entry] * np.where(
         mesh.owner[entry] == cells, -1.0, 1.0)[:, None]
-    ahead = np.einsum("mkj,mj->mk", mesh.face_centroids[np.where(candidate, slots, 0)]
-                      - mesh.face_centroids[entry][:, None, :], inward)
+    d = mesh.face_centroids[np.where(candidate, slots, 0)] - mesh.face_centroids[entry][:, None, :]
+    # summed (x + z) + y: the order numpy's einsum took here before, kept so that ties
+    # between coplanar candidates (a split far side) resolve as they did; the compiled
+    # kernel sums the same way
+    ahead = ((d[..., 0] * inward[:, None, 0] + d[..., 2] * inward[:, None, 2])
+             + d[..., 1] * inward[:, None, 1])
     pick = np.argmax(np.where(candidate, ahead, -np.inf), axis=1)
     rows = np.arange(m)
     return np.where(candidate[rows, pick], slots[rows, pick], -1)

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from caselint.mesh.geometry import chunks
+
 
 def plural(count: int, noun: str) -> str:
     """``1 face``, ``3 faces``."""
@@ -26,11 +28,22 @@ def settled(values):
     (layers growing by 1.2 against a limit of 1.2) must not cross it by round-off.
     """
     v = np.asarray(values, dtype=np.float64)
+    if v.ndim == 0:
+        return float(_settled(v))
+    out = np.empty(v.shape)
+    flat, into = v.reshape(-1), out.reshape(-1)
+    # in cache-sized pieces: one value at a time, so the same result, without five
+    # temporaries as long as a face array
+    for sl in chunks(flat.size):
+        into[sl] = _settled(flat[sl])
+    return out
+
+
+def _settled(v: np.ndarray) -> np.ndarray:
     nonzero = v != 0
     exponent = np.floor(np.log10(np.abs(np.where(nonzero, v, 1.0))))
     scale = 10.0 ** (9 - exponent)
-    out = np.where(nonzero, np.round(v * scale) / scale, 0.0)
-    return float(out) if out.ndim == 0 else out
+    return np.where(nonzero, np.round(v * scale) / scale, 0.0)
 
 
 def area_quantile(values: np.ndarray, areas: np.ndarray, q: float) -> float:

@@ -46,8 +46,7 @@ def check_non_orthogonality(ctx: RuleContext) -> RuleResult:
         edges = linear_bin_edges(values, resolution=0.5, limits=ctx.limits)
         return with_histogram(result, ctx.limits, values, edges, "Face non-orthogonality",
                               "non-orthogonality (deg)", "boundary faces")
-    internal = np.arange(n)
-    result = face_result(ctx, values, internal, "non-orthogonality", " deg", ".1f")
+    result = face_result(ctx, values, slice(0, n), "non-orthogonality", " deg", ".1f")
     if result.skipped is None and n < mesh.n_faces:
         boundary = _boundary_angle(ctx, values, np.arange(n, mesh.n_faces))
         result = dataclasses.replace(result, measurements=(*result.measurements, boundary))

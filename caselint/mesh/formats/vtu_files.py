@@ -41,6 +41,7 @@ from caselint.mesh.readers import MeshReader, ReadOptions
 _TYPES = {"Int8": "i1", "UInt8": "u1", "Int16": "i2", "UInt16": "u2", "Int32": "i4",
           "UInt32": "u4", "Int64": "i8", "UInt64": "u8", "Float32": "f4", "Float64": "f8"}
 _POLY_NAMES = (b'Name="faceoffsets"', b'Name="polyhedron_offsets"', b'Name="face_offsets"')
+_OFFSETS = b'offsets"'          # how every name of _POLY_NAMES ends
 
 
 def accepts(path: Path) -> bool:
@@ -54,11 +55,25 @@ def accepts(path: Path) -> bool:
             version = re.search(rb'<VTKFile[^>]*\sversion="([^"]*)"', data[:4096])
             if version is not None and version.group(1) not in (b"0.1", b"1.0"):
                 return True
-            end = data.find(b"<AppendedData")
-            end = len(data) if end < 0 else end
-            return any(data.find(name, 0, end) >= 0 for name in _POLY_NAMES)
+            return _has_polyhedron_arrays(data)
     except (OSError, ValueError):
         return False
+
+
+def _has_polyhedron_arrays(data) -> bool:
+    """Whether a polyhedron array is named before the appended data (if any): one pass
+    over the file for the ``offsets"`` every such name ends with (the cells' own
+    ``Name="offsets"`` is the usual only hit; base64 text holds no quote), instead of a
+    pass per name."""
+    at = data.find(_OFFSETS)
+    while at >= 0:
+        for name in _POLY_NAMES:
+            start = at + len(_OFFSETS) - len(name)
+            if start >= 0 and data[start : at + len(_OFFSETS)] == name:
+                appended = data.find(b"<AppendedData", 0, start)
+                return appended < 0
+        at = data.find(_OFFSETS, at + 1)
+    return False
 
 
 class _Arrays:

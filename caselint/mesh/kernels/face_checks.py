@@ -157,28 +157,52 @@ def face_metrics(owner, neighbour, area, fcent, ccent, degenerate, lo_face, hi_f
 
 
 @jit
-def cell_closure(owner, neighbour, n_internal, n_cells, area, areas):
+def over_cell_size(owner, neighbour, ccent, spacing, degenerate, lo_face, hi_face, skew):
+    """Internal faces ``lo_face`` .. ``hi_face - 1``: ``skew`` turned from |x_f - x_i| / |d|
+    into |x_f - x_i| / max(|d|, the cells' mean size ``spacing``), in place, as
+    :func:`caselint.mesh.quality._over_cell_size`."""
+    for f in range(lo_face, hi_face):
+        p, nb = owner[f], neighbour[f]
+        d0 = ccent[nb, 0] - ccent[p, 0]
+        d1 = ccent[nb, 1] - ccent[p, 1]
+        d2 = ccent[nb, 2] - ccent[p, 2]
+        dn = np.sqrt(d0 * d0 + d1 * d1 + d2 * d2)
+        s, part = spacing[f], skew[f]
+        if s > dn and dn > 0 and part < degenerate:
+            skew[f] = part * (dn / s)
+
+
+@jit
+def cell_closure(cf_offsets, cf_faces, cf_owned, area, areas):
     """(C,) |sum of outward area vectors| / sum of face areas, as
-    :func:`caselint.rules.mesh_integrity.cell_closure` (owner and neighbour sums apart)."""
-    own = np.zeros((n_cells, 4))
-    nbr = np.zeros((n_cells, 4))
-    for f in range(owner.shape[0]):
-        c = owner[f]
-        own[c, 0] += areas[f]
-        for k in range(3):
-            own[c, k + 1] += area[f, k]
-    for f in range(n_internal):
-        c = neighbour[f]
-        nbr[c, 0] += areas[f]
-        for k in range(3):
-            nbr[c, k + 1] += area[f, k]
+    :func:`caselint.rules.mesh_integrity.cell_closure`: the owner and neighbour sums apart,
+    each in ascending face id (a cell's list holds them so), as its two bincounts add them;
+    no per-cell table of the sums."""
+    n_cells = cf_offsets.shape[0] - 1
     out = np.empty(n_cells)
     for c in range(n_cells):
-        total = own[c, 0] + nbr[c, 0]
+        own0, own1, own2, own3 = 0.0, 0.0, 0.0, 0.0
+        nbr0, nbr1, nbr2, nbr3 = 0.0, 0.0, 0.0, 0.0
+        for i in range(cf_offsets[c], cf_offsets[c + 1]):
+            f = cf_faces[i]
+            if cf_owned[i]:
+                own0 += areas[f]
+                own1 += area[f, 0]
+                own2 += area[f, 1]
+                own3 += area[f, 2]
+            else:
+                nbr0 += areas[f]
+                nbr1 += area[f, 0]
+                nbr2 += area[f, 1]
+                nbr3 += area[f, 2]
+        total = own0 + nbr0
         net = 0.0
-        for k in range(1, 4):
-            part = own[c, k] - nbr[c, k]
-            net += part * part
+        part = own1 - nbr1
+        net += part * part
+        part = own2 - nbr2
+        net += part * part
+        part = own3 - nbr3
+        net += part * part
         out[c] = np.sqrt(net) / (total if total > 0 else 1.0)
     return out
 

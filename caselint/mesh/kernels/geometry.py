@@ -2,7 +2,10 @@
 
 The numpy reference is :mod:`caselint.mesh.geometry` (formulas and sources in its
 docstring). These loops do the same arithmetic in the same order (sums taken one term at
-a time in face order, as ``bincount`` does), so the results are equal to the bit.
+a time in face order, as ``bincount`` does), so the results are equal to the bit. The
+per-cell sums run cell by cell over each cell's face list (owner faces and neighbour
+faces summed apart, each in ascending face id, as the two ``bincount`` passes add them),
+so no (C, 5) table of sums is made.
 """
 
 from __future__ import annotations
@@ -78,30 +81,34 @@ def _polygon(face_points, points, lo, k, area, cent, mean, f):
 
 
 @jit
-def face_mean_side(cells, n_cells, fmean):
-    """(C, 3) sums of the face vertex means ``fmean`` of faces ``0 .. len(cells) - 1`` into
-    the cell of each on one side, in face order, and (C,) how many each cell got."""
-    total = np.zeros((n_cells, 3))
-    count = np.zeros(n_cells, dtype=np.int64)
-    for f in range(cells.shape[0]):
-        c = cells[f]
-        count[c] += 1
-        for a in range(3):
-            total[c, a] += fmean[f, a]
-    return total, count
-
-
-@jit
-def face_mean_apex(owner_side, neighbour_side):
-    """(C, 3) mean of each cell's face vertex means from the owner-side and neighbour-side
-    sums of :func:`face_mean_side` (owner sums, then neighbour sums), in the owner's array."""
-    so, n_own = owner_side
-    sn, n_nbr = neighbour_side
-    for c in range(so.shape[0]):
-        d = max(float(n_own[c] + n_nbr[c]), 1.0)
-        for a in range(3):
-            so[c, a] = (so[c, a] + sn[c, a]) / d
-    return so
+def face_mean_apex(cf_offsets, cf_faces, cf_owned, fmean, shape, lo_cell, hi_cell, apex):
+    """Rows ``lo_cell`` .. ``hi_cell - 1`` of ``apex`` for the cells of no known shape
+    (``shape`` < 0; the others get their vertex mean, :func:`vertex_mean_apex`): the mean
+    of each cell's face vertex means ``fmean``, as :func:`caselint.mesh.geometry._apex`
+    sums them: the owner side and the neighbour side apart (each in ascending face id, as
+    a cell's list holds them, and as a ``bincount`` adds them), then together, over the
+    number of faces."""
+    for c in range(lo_cell, hi_cell):
+        if shape[c] >= 0:
+            continue
+        o0 = o1 = o2 = 0.0
+        n0 = n1 = n2 = 0.0
+        count = 0
+        for i in range(cf_offsets[c], cf_offsets[c + 1]):
+            f = cf_faces[i]
+            count += 1
+            if cf_owned[i]:
+                o0 += fmean[f, 0]
+                o1 += fmean[f, 1]
+                o2 += fmean[f, 2]
+            else:
+                n0 += fmean[f, 0]
+                n1 += fmean[f, 1]
+                n2 += fmean[f, 2]
+        d = max(float(count), 1.0)
+        apex[c, 0] = (o0 + n0) / d
+        apex[c, 1] = (o1 + n1) / d
+        apex[c, 2] = (o2 + n2) / d
 
 
 @jit
@@ -117,36 +124,33 @@ def vertex_mean_apex(connectivity, cells, points, apex):
 
 
 @jit
-def pyramid_side(cells, signs, area, fcent, fmean, apex, dim):
-    """(C, 5) per cell: volume, volume-weighted centroid offset (x, y, z) and sum of |volume|
-    of the face pyramids about the apex, from faces ``0 .. len(cells) - 1`` on the side of
-    ``cells`` (area vectors times ``signs``, or as they are when ``signs`` is empty), summed
-    in face order. The owner sides and the neighbour sides are two calls (two threads)."""
-    out = np.zeros((apex.shape[0], 5))
-    signed = signs.shape[0] > 0
-    for f in range(cells.shape[0]):
-        _add_pyramid(out, cells[f], signs[f] if signed else 1.0, area, fcent, fmean, apex, f,
-                     dim)
-    return out
-
-
-@jit
-def cell_volumes_centroids(own, nbr, apex, dim):
-    """Volumes and centroids from the owner-side and neighbour-side sums, as
-    :func:`caselint.mesh.geometry.compute_geometry` derives them from their sum."""
-    n_cells = apex.shape[0]
-    volumes = np.empty(n_cells)
-    cent = np.empty((n_cells, 3))
+def cell_volumes_centroids(cf_offsets, cf_faces, cf_owned, signs, area, fcent, fmean, apex,
+                           dim, lo_cell, hi_cell, volumes, cent):
+    """Rows ``lo_cell`` .. ``hi_cell - 1`` of ``volumes`` and ``cent``: the face pyramids
+    about each cell's apex, as :func:`caselint.mesh.geometry.compute_geometry` sums them
+    (volume, volume-weighted centroid offset and sum of |volume|, the owner sides and the
+    neighbour sides apart, each in ascending face id, the neighbour's area vectors times
+    ``signs``), then the volume and the centroid from the two sums."""
     frac = dim / (dim + 1.0)
-    for c in range(n_cells):
-        v = own[c, 0] + nbr[c, 0]
+    own = np.empty(5)
+    nbr = np.empty(5)
+    for c in range(lo_cell, hi_cell):
+        for j in range(5):
+            own[j] = 0.0
+            nbr[j] = 0.0
+        for i in range(cf_offsets[c], cf_offsets[c + 1]):
+            f = cf_faces[i]
+            if cf_owned[i]:
+                _add_pyramid(own, c, 1.0, area, fcent, fmean, apex, f, dim)
+            else:
+                _add_pyramid(nbr, c, signs[f], area, fcent, fmean, apex, f, dim)
+        v = own[0] + nbr[0]
         volumes[c] = v
-        good = abs(v) > 1e-12 * (own[c, 4] + nbr[c, 4])
+        good = abs(v) > 1e-12 * (own[4] + nbr[4])
         safe = v if good else 1.0
         for a in range(3):
-            cent[c, a] = apex[c, a] + (frac * (own[c, a + 1] + nbr[c, a + 1]) / safe
+            cent[c, a] = apex[c, a] + (frac * (own[a + 1] + nbr[a + 1]) / safe
                                        if good else 0.0)
-    return volumes, cent
 
 
 @jit(inline="always")
@@ -154,8 +158,8 @@ def _add_pyramid(out, c, sign, area, fcent, fmean, apex, f, dim):
     x0, x1, x2 = apex[c, 0], apex[c, 1], apex[c, 2]
     v = ((area[f, 0] * sign) * (fmean[f, 0] - x0) + (area[f, 1] * sign) * (fmean[f, 1] - x1)
          + (area[f, 2] * sign) * (fmean[f, 2] - x2)) / dim
-    out[c, 0] += v
-    out[c, 1] += v * (fcent[f, 0] - x0)
-    out[c, 2] += v * (fcent[f, 1] - x1)
-    out[c, 3] += v * (fcent[f, 2] - x2)
-    out[c, 4] += abs(v)
+    out[0] += v
+    out[1] += v * (fcent[f, 0] - x0)
+    out[2] += v * (fcent[f, 1] - x1)
+    out[3] += v * (fcent[f, 2] - x2)
+    out[4] += abs(v)
