@@ -99,7 +99,8 @@ def build_parser() -> argparse.ArgumentParser:
                             "*.caselint.yaml below it (hidden folders skipped)")
     _report_options(check)
     check.add_argument("--rule-set", action="append", metavar="NAME",
-                       help="use rule set NAME instead of those the case files name "
+                       help="use rule set NAME, or the rule-set YAML file at a path (relative "
+                            "to the current folder), instead of those the case files name "
                             "(repeatable)")
     check.add_argument("--jobs", "-j", type=int, default=1, metavar="N",
                        help="check N case files at once, in parallel processes (default 1); "
