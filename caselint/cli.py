@@ -157,8 +157,8 @@ def build_parser() -> argparse.ArgumentParser:
     init = command("init", commands.cmd_init, "write a starter case file for a mesh")
     init.add_argument("mesh", metavar="MESH", help="mesh file or folder the case will use")
     init.add_argument("--output", "-o", metavar="FILE",
-                      help="case file to write (default: case.yaml beside the mesh); "
-                           "an existing file is never overwritten")
+                      help="case file to write (default: case.yaml beside the mesh; - for "
+                           "stdout); an existing file is never overwritten")
 
     from caselint import grid_study_command  # light: numpy loads only when the command runs
 

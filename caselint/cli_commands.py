@@ -386,10 +386,16 @@ def cmd_mesh(args: argparse.Namespace) -> int:
 
 def cmd_init(args: argparse.Namespace) -> int:
     """``caselint init``: write a starter case file for a mesh, never over an existing file."""
+    if args.output == "-":
+        from caselint.manifest.starter import starter_for
+
+        # to stdout: the mesh path in it is relative to the current folder
+        sys.stdout.write(starter_for(Path(args.mesh), Path.cwd()))
+        return ExitCode.OK
     out = Path(args.output) if args.output else None
     if out is not None and (out.exists() or out.is_symlink()):
         raise UsageError(f"{out} already exists; caselint init never overwrites a file "
-                         "(give another name with --output)")
+                         "(give another name with --output, or - for stdout)")
     from caselint.manifest.starter import write_starter
 
     # Without --output the starter goes beside the mesh; write_starter refuses to overwrite.

@@ -195,3 +195,17 @@ def test_demo_runs_the_shipped_example():
     assert worst - {"note"} == {"error", "warning"}
     code_error_level, _, _ = run_cli("demo", "--format", "json", "--fail-on", "error")
     assert code_error_level == 1
+
+
+def test_init_to_stdout_names_the_mesh_from_the_current_folder(tmp_path, monkeypatch):
+    (tmp_path / "meshes").mkdir()
+    mesh = write_block_mesh(tmp_path / "meshes" / "room.msh", xs=[0.0, 0.1, 0.2],
+                            ys=np.linspace(0.0, 0.2, 13), zs=np.linspace(0.0, 0.2, 13))
+    monkeypatch.chdir(tmp_path)
+    code, out, err = run_cli("init", str(mesh), "--output", "-")
+    assert (code, err) == (0, "")
+    assert "file: meshes/room.msh" in out and "inlet" in out
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["meshes"]   # nothing written
+    (tmp_path / "case.yaml").write_text(out, encoding="utf-8")
+    code, _, err = run_cli("check", str(tmp_path / "case.yaml"))
+    assert code == 0, err

@@ -18,6 +18,7 @@ EXPECTED = {"Supply-Duct": "inlet", "exhaust_2": "outlet", "symmetry-mid": "symm
 
 @pytest.mark.parametrize("name, role", [
     ("inlet", "inlet"), ("air-supply", "inlet"), ("INTAKE_1", "inlet"),
+    ("inflow", "inlet"), ("duct-entry", "inlet"), ("outflow", "outlet"), ("exit_2", "outlet"),
     ("outlet", "outlet"), ("fan-exhaust", "outlet"), ("return-grille", "outlet"),
     ("extract", "outlet"), ("sym-plane", "symmetry"), ("periodic-left", "periodic"),
     ("cyclic_a", "periodic"), ("open-top", "open"), ("far-field", "open"),

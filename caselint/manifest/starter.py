@@ -21,8 +21,8 @@ from caselint.errors import UsageError
 
 #: (role, name fragments) tried in order; the first role with a fragment in the name wins.
 ROLE_HINTS: tuple[tuple[str, tuple[str, ...]], ...] = (
-    ("inlet", ("inlet", "supply", "intake")),
-    ("outlet", ("outlet", "exhaust", "return", "extract")),
+    ("inlet", ("inlet", "inflow", "supply", "intake", "entry", "entrance")),
+    ("outlet", ("outlet", "outflow", "exhaust", "return", "extract", "exit", "discharge")),
     ("symmetry", ("sym",)),
     ("periodic", ("periodic", "cyclic")),
     ("open", ("open", "far", "atmos")),
@@ -160,6 +160,27 @@ def _case_folder(folder: Path) -> Path:
     return folder
 
 
+def starter_for(mesh_path: str | Path, folder: str | Path) -> str:
+    """The starter case file text for ``mesh_path``, for a case file kept in ``folder``
+    (the mesh path in it is relative to that folder).
+
+    :raises MeshReadError: the mesh cannot be read.
+    """
+    import numpy as np
+
+    from caselint.mesh import read_mesh
+
+    mesh_path = Path(mesh_path).resolve()
+    mesh = read_mesh(mesh_path)
+    counts = np.bincount(mesh.face_group[mesh.face_group >= 0], minlength=len(mesh.group_names))
+    types = mesh.data.group_types
+    groups = [(name, int(counts[i]), types.get(name)) for i, name in enumerate(mesh.group_names)]
+    lo, hi = mesh.bounds
+    extent = tuple(float(b - a) for a, b in zip(lo, hi))
+    name = (_case_folder(mesh_path) if mesh_path.is_dir() else mesh_path).stem
+    return starter_text(_relative(mesh_path, Path(folder).resolve()), name, groups, extent)
+
+
 def write_starter(mesh_path: str | Path, out_path: str | Path | None = None) -> Path:
     """Write a starter case file for ``mesh_path`` (default: ``case.yaml`` beside it).
 
@@ -168,10 +189,6 @@ def write_starter(mesh_path: str | Path, out_path: str | Path | None = None) -> 
     :raises UsageError: the target file already exists.
     :raises MeshReadError: the mesh cannot be read.
     """
-    import numpy as np
-
-    from caselint.mesh import read_mesh
-
     mesh_path = Path(mesh_path).resolve()
     home = _case_folder(mesh_path) if mesh_path.is_dir() else mesh_path.parent
     target = Path(out_path) if out_path is not None else home / "case.yaml"
@@ -179,14 +196,7 @@ def write_starter(mesh_path: str | Path, out_path: str | Path | None = None) -> 
     if target.exists():
         raise UsageError(f"{target}: already exists; caselint never overwrites a file "
                          "(choose another output path or move the file away)")
-    mesh = read_mesh(mesh_path)
-    counts = np.bincount(mesh.face_group[mesh.face_group >= 0], minlength=len(mesh.group_names))
-    types = mesh.data.group_types
-    groups = [(name, int(counts[i]), types.get(name)) for i, name in enumerate(mesh.group_names)]
-    lo, hi = mesh.bounds
-    extent = tuple(float(b - a) for a, b in zip(lo, hi))
-    name = (_case_folder(mesh_path) if mesh_path.is_dir() else mesh_path).stem
-    text = starter_text(_relative(mesh_path, target.parent), name, groups, extent)
+    text = starter_for(mesh_path, target.parent)
     target.parent.mkdir(parents=True, exist_ok=True)
     try:
         # "x" mode: fails rather than overwrite a file created since the check above
