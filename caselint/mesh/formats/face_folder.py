@@ -167,8 +167,7 @@ def read_folder_mesh(folder: Path) -> FolderMesh:
     points_file = open_list_file(folder, "points")
     faces_file = open_list_file(folder, "faces")
     kernel = _text_kernel(faces_file)
-    points = read_points(points_file, kernel=kernel)
-    offsets, face_points = read_faces(faces_file, kernel)
+    points, (offsets, face_points) = _points_and_faces(points_file, faces_file, kernel)
     owner_file = open_list_file(folder, "owner")
     owner, _ = read_labels(owner_file, owner_file.start, "owner", kernel)
     neighbour_file = open_list_file(folder, "neighbour")
@@ -205,6 +204,28 @@ def _text_kernel(faces_file: ListFile):
     except MeshReadError:
         return None
     return kernels.compiled("text_lists", n_faces // 3)
+
+
+def _points_and_faces(points_file: ListFile, faces_file: ListFile, kernel):
+    """The points and the faces; with the compiled parser on two threads at once (its
+    kernels release the interpreter lock). A fault in the points is named first, as when
+    the two are read one after the other."""
+    if kernel is None:
+        return read_points(points_file), read_faces(faces_file)
+    from caselint.mesh import kernels
+
+    def outcome(read, lf):
+        try:
+            return read(lf, kernel=kernel), None
+        except MeshReadError as exc:
+            return None, exc
+
+    done = kernels.side_by_side(lambda: outcome(read_points, points_file),
+                                lambda: outcome(read_faces, faces_file))
+    for _, error in done:
+        if error is not None:
+            raise error
+    return done[0][0], done[1][0]
 
 
 def _full_neighbour(lf: ListFile, inner: np.ndarray, n_faces: int) -> np.ndarray:

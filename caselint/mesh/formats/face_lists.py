@@ -208,15 +208,26 @@ def _ascii_numbers(lf: ListFile, body: bytes, dtype, offset: int, what: str) -> 
         body = _COMMENT.sub(b" ", body)
     if _NON_BLANK.search(body) is None:          # (a strip() would copy the body)
         return np.zeros(0, dtype=dtype)
+    # numpy wraps 32-bit integers that overflow (4294967297 reads as 1): read 64 bits
+    wide = np.dtype(np.int64) if np.dtype(dtype) == np.int32 else dtype
     with warnings.catch_warnings():
         warnings.simplefilter("error", DeprecationWarning)
         try:
-            return np.fromstring(body, dtype=dtype, sep=" ")
+            values = np.fromstring(body, dtype=wide, sep=" ")
         except (DeprecationWarning, ValueError):
             bad = re.search(rb"[^\s0-9eE+\-.]", body)
             where = offset + (bad.start() if bad else 0)
             raise lf.fail(where, f"the {what} list holds text that is not a number "
                                  f"({lf.data[where:where + 20]!r})") from None
+    if wide is dtype:
+        return values
+    narrow = values.astype(dtype)
+    if not np.array_equal(narrow, values):
+        big = str(values[np.argmax(narrow != values)]).encode()
+        raise lf.fail(offset + max(body.find(big), 0),
+                      f"the {what} list holds {big.decode()}, beyond the 32-bit labels of the "
+                      "header's arch entry")
+    return narrow
 
 
 def _uniform(lf: ListFile, pos: int, size: int, dtype, what: str) -> tuple[np.ndarray, int]:

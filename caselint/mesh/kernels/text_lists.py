@@ -273,7 +273,7 @@ def _faces(data, start, stop, offsets, ids, limit):
     -1 for text outside the grammar, a face of no points or not of its size, or a face
     count other than declared."""
     n_faces = offsets.size - 1
-    face = count = size = 0
+    face = at = end = 0
     expect_size = True
     i = start
     while True:
@@ -282,10 +282,10 @@ def _faces(data, start, stop, offsets, ids, limit):
         if i >= stop:
             break
         if data[i] == 41:
-            if expect_size or count != size or face == n_faces:
+            if expect_size or at != end or face == n_faces:
                 return -1, ids
             face += 1
-            offsets[face] = offsets[face - 1] + size
+            offsets[face] = end
             expect_size = True
             i += 1
             continue
@@ -295,18 +295,18 @@ def _faces(data, start, stop, offsets, ids, limit):
         if expect_size:
             if value == 0:
                 return -1, ids
-            size, count, expect_size = value, 0, False
+            end = at + value
+            expect_size = False
             continue
-        if count == size:
+        if at == end:
             return -1, ids
-        at = offsets[face] + count
         if at == ids.size:
             ids = np.concatenate((ids, ids))
         ids[at] = value
-        count += 1
+        at += 1
     if not expect_size or face != n_faces:
         return -1, ids
-    return offsets[n_faces], ids
+    return at, ids
 
 
 def labels(data: bytes, start: int, stop: int, size: int, dtype: np.dtype) -> np.ndarray | None:
