@@ -40,6 +40,7 @@ from caselint.mesh.formats.face_dicts import read_dict_list
 from caselint.mesh.formats.face_lists import (
     ListFile, find_file, list_head, open_list_file, read_faces, read_labels, read_points,
 )
+from caselint.mesh.kernels import compiled, side_by_side
 
 #: The files that make the mesh of one folder, in the order they are read.
 MESH_FILES = ("points", "faces", "owner", "neighbour", "boundary")
@@ -197,13 +198,11 @@ def _text_kernel(faces_file: ListFile):
     cell (hexahedra; fewer cells a face for tetrahedra and polyhedra). A head the reference
     would refuse leaves the choice to numpy, which names the fault.
     """
-    from caselint.mesh import kernels
-
     try:
         n_faces = list_head(faces_file, faces_file.start, "faces")[0]
     except MeshReadError:
         return None
-    return kernels.compiled("text_lists", n_faces // 3)
+    return compiled("text_lists", n_faces // 3)
 
 
 def _points_and_faces(points_file: ListFile, faces_file: ListFile, kernel):
@@ -212,7 +211,6 @@ def _points_and_faces(points_file: ListFile, faces_file: ListFile, kernel):
     the two are read one after the other."""
     if kernel is None:
         return read_points(points_file), read_faces(faces_file)
-    from caselint.mesh import kernels
 
     def outcome(read, lf):
         try:
@@ -220,7 +218,7 @@ def _points_and_faces(points_file: ListFile, faces_file: ListFile, kernel):
         except MeshReadError as exc:
             return None, exc
 
-    done = kernels.side_by_side(lambda: outcome(read_points, points_file),
+    done = side_by_side(lambda: outcome(read_points, points_file),
                                 lambda: outcome(read_faces, faces_file))
     for _, error in done:
         if error is not None:
