@@ -265,3 +265,15 @@ def test_damaged_points_are_named_before_damaged_faces(tmp_path, monkeypatch):
     _edit(folder, "faces", "11\n(", "12\n(")
     wrong = [_outcome(folder, mode, monkeypatch)[1] for mode in ("numpy", "numba")]
     assert wrong[1] == wrong[0] and str(folder / "points") in wrong[0]
+
+
+@pytest.mark.parametrize("dtype", [np.int32, np.int64])
+def test_labels_with_signs_and_at_the_ends_of_their_type(dtype):
+    top = np.iinfo(dtype).max
+    text = f"\t1 -1\n-5 0 {min(top, 10 ** 18 - 1)} -{min(top, 10 ** 18 - 1)}\r\n".encode()
+    got = text_lists.labels(text, 0, len(text), 6, np.dtype(dtype))
+    assert got.dtype == dtype and got.tolist() == [1, -1, -5, 0, min(top, 10 ** 18 - 1),
+                                                   -min(top, 10 ** 18 - 1)]
+    for beyond in (f"{top + 1}", "- 1", "1-", "+1", "1.0", "0x1", "1 2 3 4 5 6 7"):
+        text = f"1 -1 -5 0 7 {beyond}".encode()
+        assert text_lists.labels(text, 0, len(text), 6, np.dtype(dtype)) is None, beyond

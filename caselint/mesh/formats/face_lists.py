@@ -254,7 +254,7 @@ def read_labels(lf: ListFile, pos: int, what: str, kernel=None) -> tuple[np.ndar
     if close < 0:
         raise lf.fail(pos, f"the {what} list of {size} items is not closed (truncated)")
     dtype = lf.label.newbyteorder("=")
-    values = kernel and kernel.labels(lf.data, pos, close, size, dtype)
+    values = None if kernel is None else kernel.labels(lf.data, pos, close, size, dtype)
     if values is not None:
         return values, close + 1
     values = _ascii_numbers(lf, lf.data[pos:close], dtype, pos, what)
@@ -281,7 +281,7 @@ def read_points(lf: ListFile, what: str = "points", kernel=None) -> np.ndarray:
         close = lf.data.rfind(b")")
         if close < pos:
             raise lf.fail(pos, f"the {what} list of {size} points is not closed (truncated)")
-        values = kernel and kernel.scalars(lf.data, pos, close, 3 * size)
+        values = None if kernel is None else kernel.scalars(lf.data, pos, close, 3 * size)
         if values is not None:
             return values.reshape(-1, 3)
         values = _ascii_numbers(lf, lf.data[pos:close].translate(_BLANK_PARENS), np.float64,
@@ -312,7 +312,7 @@ def read_faces(lf: ListFile, kernel=None) -> tuple[np.ndarray, np.ndarray]:
     if close < pos:
         raise lf.fail(pos, f"the list of {size} faces is not closed (truncated)")
     dtype = np.dtype(np.int64 if lf.label.itemsize == 8 else np.int32)
-    arrays = kernel and kernel.faces(lf.data, pos, close, size, dtype)
+    arrays = None if kernel is None else kernel.faces(lf.data, pos, close, size, dtype)
     if arrays is not None:
         return arrays
     body = lf.data[pos:close].replace(b")", b" -1 ").translate(_OPEN_TO_BLANK)

@@ -248,7 +248,7 @@ def _unsigned(data, i, stop, limit):
 @jit
 def _labels(data, start, stop, out, limit):
     """The integers of ``data[start:stop]`` into ``out``: their count, or -1 (text outside
-    the grammar, a value outside -``limit``-1 .. ``limit``, more than ``out`` holds)."""
+    the grammar, a value outside -``limit`` .. ``limit``, more than ``out`` holds)."""
     n = 0
     i = start
     while True:
@@ -259,7 +259,8 @@ def _labels(data, start, stop, out, limit):
         if n >= out.size:
             return -1
         sign = 1 if data[i] == 45 else 0
-        value, i = _unsigned(data, i + sign, stop, limit + sign)
+        # (the most negative label, -limit - 1, is left to numpy)
+        value, i = _unsigned(data, i + sign, stop, limit)
         if value < 0 or (i < stop and not _space(data[i])):
             return -1
         out[n] = -value if sign else value
