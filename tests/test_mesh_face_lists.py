@@ -14,8 +14,9 @@ import pytest
 
 from caselint.errors import MeshReadError
 from caselint.mesh import read_mesh
+from caselint.mesh.formats.face_dicts import read_dict_list
 from caselint.mesh.formats.face_lists import (
-    parse_list_file, read_dict_list, read_faces, read_labels, read_points,
+    parse_list_file, read_faces, read_labels, read_points,
 )
 from mesh_writers import write_face_folder
 

@@ -36,9 +36,11 @@ from pathlib import Path
 import numpy as np
 
 from caselint.errors import MeshReadError
+from caselint.mesh.formats.face_dicts import read_dict_list
 from caselint.mesh.formats.face_lists import (
-    ListFile, find_file, open_list_file, read_dict_list, read_faces, read_labels, read_points,
+    ListFile, find_file, list_head, open_list_file, read_faces, read_labels, read_points,
 )
+from caselint.mesh.kernels import compiled, side_by_side
 
 #: The files that make the mesh of one folder, in the order they are read.
 MESH_FILES = ("points", "faces", "owner", "neighbour", "boundary")
@@ -164,13 +166,13 @@ def input_files(path: Path) -> list[Path]:
 def read_folder_mesh(folder: Path) -> FolderMesh:
     """The arrays of one mesh folder, checked for consistency (see the module docstring)."""
     points_file = open_list_file(folder, "points")
-    points = read_points(points_file)
     faces_file = open_list_file(folder, "faces")
-    offsets, face_points = read_faces(faces_file)
+    kernel = _text_kernel(faces_file)
+    points, (offsets, face_points) = _points_and_faces(points_file, faces_file, kernel)
     owner_file = open_list_file(folder, "owner")
-    owner, _ = read_labels(owner_file, owner_file.start, "owner")
+    owner, _ = read_labels(owner_file, owner_file.start, "owner", kernel)
     neighbour_file = open_list_file(folder, "neighbour")
-    inner, _ = read_labels(neighbour_file, neighbour_file.start, "neighbour")
+    inner, _ = read_labels(neighbour_file, neighbour_file.start, "neighbour", kernel)
     boundary_file = open_list_file(folder, "boundary")
     n_faces = len(offsets) - 1
     if len(owner) != n_faces:
@@ -187,6 +189,41 @@ def read_folder_mesh(folder: Path) -> FolderMesh:
     zones = read_zones(zones_file, n_cells) if zones_file is not None else []
     return FolderMesh(str(folder), points, offsets, face_points, owner, neighbour, n_cells,
                       patches, zones)
+
+
+def _text_kernel(faces_file: ListFile):
+    """The compiled parser of ASCII lists for the folder's size, or None (numpy reads).
+
+    Chosen before the lists are read, by the faces the face list declares: about three a
+    cell (hexahedra; fewer cells a face for tetrahedra and polyhedra). A head the reference
+    would refuse leaves the choice to numpy, which names the fault.
+    """
+    try:
+        n_faces = list_head(faces_file, faces_file.start, "faces")[0]
+    except MeshReadError:
+        return None
+    return compiled("text_lists", n_faces // 3)
+
+
+def _points_and_faces(points_file: ListFile, faces_file: ListFile, kernel):
+    """The points and the faces; with the compiled parser on two threads at once (its
+    kernels release the interpreter lock). A fault in the points is named first, as when
+    the two are read one after the other."""
+    if kernel is None:
+        return read_points(points_file), read_faces(faces_file)
+
+    def outcome(read, lf):
+        try:
+            return read(lf, kernel=kernel), None
+        except MeshReadError as exc:
+            return None, exc
+
+    done = side_by_side(lambda: outcome(read_points, points_file),
+                                lambda: outcome(read_faces, faces_file))
+    for _, error in done:
+        if error is not None:
+            raise error
+    return done[0][0], done[1][0]
 
 
 def _full_neighbour(lf: ListFile, inner: np.ndarray, n_faces: int) -> np.ndarray:

@@ -16,7 +16,10 @@ list gets ``-1`` in place of each closing parenthesis, so that face sizes and po
 come out of one parse (a list of faces all of one size is then read by stride, others by
 finding the ``-1``). Every count the file declares is checked against what was read;
 a short or inconsistent list is a :class:`~caselint.errors.MeshReadError` naming the
-file, the line and what is wrong.
+file, the line and what is wrong. On large meshes a compiled parser
+(:mod:`caselint.mesh.kernels.text_lists`, passed in as ``kernel``) reads the same text
+first; it gives the same arrays, or leaves the list to numpy, which reads it or names the
+fault.
 """
 
 from __future__ import annotations
@@ -34,7 +37,6 @@ from caselint.errors import MeshReadError
 
 _BLANK_PARENS = bytes.maketrans(b"()", b"  ")
 _OPEN_TO_BLANK = bytes.maketrans(b"(", b" ")
-_WORD = re.compile(rb'"(?:[^"\\]|\\.)*"|[()\[\]]|[^\s{}()\[\];"]+')
 _SPACE = re.compile(rb"(?:\s+|//[^\n]*|/\*.*?\*/)*", re.S)
 _INT = re.compile(rb"[0-9]+")
 _NON_BLANK = re.compile(rb"\S")
@@ -206,15 +208,26 @@ def _ascii_numbers(lf: ListFile, body: bytes, dtype, offset: int, what: str) -> 
         body = _COMMENT.sub(b" ", body)
     if _NON_BLANK.search(body) is None:          # (a strip() would copy the body)
         return np.zeros(0, dtype=dtype)
+    # numpy wraps 32-bit integers that overflow (4294967297 reads as 1): read 64 bits
+    wide = np.dtype(np.int64) if np.dtype(dtype) == np.int32 else dtype
     with warnings.catch_warnings():
         warnings.simplefilter("error", DeprecationWarning)
         try:
-            return np.fromstring(body, dtype=dtype, sep=" ")
+            values = np.fromstring(body, dtype=wide, sep=" ")
         except (DeprecationWarning, ValueError):
             bad = re.search(rb"[^\s0-9eE+\-.]", body)
             where = offset + (bad.start() if bad else 0)
             raise lf.fail(where, f"the {what} list holds text that is not a number "
                                  f"({lf.data[where:where + 20]!r})") from None
+    if wide is dtype:
+        return values
+    narrow = values.astype(dtype)
+    if not np.array_equal(narrow, values):
+        big = str(values[np.argmax(narrow != values)]).encode()
+        raise lf.fail(offset + max(body.find(big), 0),
+                      f"the {what} list holds {big.decode()}, beyond the 32-bit labels of the "
+                      "header's arch entry")
+    return narrow
 
 
 def _uniform(lf: ListFile, pos: int, size: int, dtype, what: str) -> tuple[np.ndarray, int]:
@@ -229,7 +242,7 @@ def _uniform(lf: ListFile, pos: int, size: int, dtype, what: str) -> tuple[np.nd
     return np.repeat(value.astype(dtype.newbyteorder("=")).reshape(1, -1), size, axis=0), close + 1
 
 
-def read_labels(lf: ListFile, pos: int, what: str) -> tuple[np.ndarray, int]:
+def read_labels(lf: ListFile, pos: int, what: str, kernel=None) -> tuple[np.ndarray, int]:
     """A list of labels at ``pos`` (int32 or int64) and the offset after it."""
     size, opener, pos = list_head(lf, pos, what)
     if opener == b"{":
@@ -240,19 +253,24 @@ def read_labels(lf: ListFile, pos: int, what: str) -> tuple[np.ndarray, int]:
     close = lf.data.find(b")", pos)
     if close < 0:
         raise lf.fail(pos, f"the {what} list of {size} items is not closed (truncated)")
-    values = _ascii_numbers(lf, lf.data[pos:close], lf.label.newbyteorder("="), pos, what)
-    _check_count(lf, pos, what, size, len(values))
+    dtype = lf.label.newbyteorder("=")
+    values = None if kernel is None else kernel.labels(lf.data, pos, close, size, dtype)
+    if values is not None:
+        return values, close + 1
+    values = _ascii_numbers(lf, lf.data[pos:close], dtype, pos, what)
+    check_count(lf, pos, what, size, len(values))
     return values, close + 1
 
 
-def _check_count(lf: ListFile, pos: int, what: str, declared: int, found: int,
-                 unit: str = "items") -> None:
+def check_count(lf: ListFile, pos: int, what: str, declared: int, found: int,
+                unit: str = "items") -> None:
+    """Refuse a list of ``found`` items that declares ``declared``."""
     if declared != found:
         raise lf.fail(pos, f"the {what} list declares {declared} {unit} but holds {found}"
                            + (" (truncated)" if found < declared else ""))
 
 
-def read_points(lf: ListFile, what: str = "points") -> np.ndarray:
+def read_points(lf: ListFile, what: str = "points", kernel=None) -> np.ndarray:
     """The (N, 3) float64 coordinates of a ``points`` file."""
     size, opener, pos = list_head(lf, lf.start, what)
     if opener == b"{":
@@ -263,19 +281,22 @@ def read_points(lf: ListFile, what: str = "points") -> np.ndarray:
         close = lf.data.rfind(b")")
         if close < pos:
             raise lf.fail(pos, f"the {what} list of {size} points is not closed (truncated)")
+        values = None if kernel is None else kernel.scalars(lf.data, pos, close, 3 * size)
+        if values is not None:
+            return values.reshape(-1, 3)
         values = _ascii_numbers(lf, lf.data[pos:close].translate(_BLANK_PARENS), np.float64,
                                 pos, what)
         if len(values) != 3 * size:
-            _check_count(lf, pos, what, size, len(values) // 3, "points")
+            check_count(lf, pos, what, size, len(values) // 3, "points")
             raise lf.fail(pos, f"the {what} list holds {len(values)} numbers, not 3 per point")
     return values.astype(np.float64, copy=False).reshape(-1, 3)
 
 
-def read_faces(lf: ListFile) -> tuple[np.ndarray, np.ndarray]:
+def read_faces(lf: ListFile, kernel=None) -> tuple[np.ndarray, np.ndarray]:
     """CSR offsets (int64) and point ids of a ``faces`` file (faceList or faceCompactList)."""
     if lf.header.get("class") == "faceCompactList":
-        offsets, pos = read_labels(lf, lf.start, "face offsets")
-        ids, _ = read_labels(lf, pos, "face points")
+        offsets, pos = read_labels(lf, lf.start, "face offsets", kernel)
+        ids, _ = read_labels(lf, pos, "face points", kernel)
         offsets = offsets.astype(np.int64)
         if not len(offsets) or offsets[0] != 0 or offsets[-1] != len(ids) \
                 or bool(np.any(np.diff(offsets) < 0)):
@@ -290,9 +311,12 @@ def read_faces(lf: ListFile) -> tuple[np.ndarray, np.ndarray]:
     close = lf.data.rfind(b")")
     if close < pos:
         raise lf.fail(pos, f"the list of {size} faces is not closed (truncated)")
+    dtype = np.dtype(np.int64 if lf.label.itemsize == 8 else np.int32)
+    arrays = None if kernel is None else kernel.faces(lf.data, pos, close, size, dtype)
+    if arrays is not None:
+        return arrays
     body = lf.data[pos:close].replace(b")", b" -1 ").translate(_OPEN_TO_BLANK)
-    values = _ascii_numbers(lf, body, np.int64 if lf.label.itemsize == 8 else np.int32, pos,
-                            "faces")
+    values = _ascii_numbers(lf, body, dtype, pos, "faces")
     # every face of the first one's size (all quadrilaterals, all triangles): rows of
     # (k, k points, -1), read by stride; anything else (another size, a misplaced -1, a
     # negative point id) goes the general way below, which reads it or names the fault
@@ -303,7 +327,7 @@ def read_faces(lf: ListFile) -> tuple[np.ndarray, np.ndarray]:
         if np.all(rows[:, 0] == k) and np.all(rows[:, -1] == -1) and int(ids.min()) >= 0:
             return np.arange(size + 1, dtype=np.int64) * k, ids
     ends = np.flatnonzero(values == -1)
-    _check_count(lf, pos, "faces", size, len(ends), "faces")
+    check_count(lf, pos, "faces", size, len(ends), "faces")
     starts = np.empty_like(ends)
     starts[0:1] = 0
     starts[1:] = ends[:-1] + 1
@@ -319,80 +343,3 @@ def read_faces(lf: ListFile) -> tuple[np.ndarray, np.ndarray]:
     offsets = np.zeros(size + 1, dtype=np.int64)
     np.cumsum(sizes, out=offsets[1:])
     return offsets, values[keep]
-
-
-# -- dictionaries (boundary, cellZones) ---------------------------------------------------
-
-
-@dataclass
-class Entry:
-    """A dictionary entry: its words up to ``;`` or its sub-dictionary, and a label list."""
-
-    words: list[str]
-    sub: "dict[str, Entry] | None" = None
-    labels: np.ndarray | None = None
-
-
-def read_dict_list(lf: ListFile, what: str) -> list[tuple[str, dict[str, Entry], int]]:
-    """The list ``N ( name { key value; ... } ... )`` of a boundary or zone file:
-    (name, entries, offset) of each item; label lists inside are read with numpy."""
-    size, opener, pos = list_head(lf, lf.start, what)
-    if opener != b"(":
-        raise lf.fail(pos, f"expected '(' to open the {what} list")
-    items = []
-    while True:
-        pos = skip_space(lf, pos)
-        if lf.data[pos:pos + 1] == b")":
-            break
-        if pos >= len(lf.data):
-            raise lf.fail(pos, f"the {what} list is not closed (truncated)")
-        name = _WORD.match(lf.data, pos)
-        if name is None:
-            raise lf.fail(pos, f"expected the name of an item of the {what} list")
-        start = pos
-        pos = skip_space(lf, name.end())
-        if lf.data[pos:pos + 1] != b"{":
-            raise lf.fail(pos, f"expected '{{' after {name.group().decode('latin-1')!r}")
-        entries, pos = _read_dict(lf, pos + 1, what)
-        items.append((name.group().decode("latin-1").strip('"'), entries, start))
-    _check_count(lf, pos, what, size, len(items))
-    return items
-
-
-def _read_dict(lf: ListFile, pos: int, what: str) -> tuple[dict[str, Entry], int]:
-    """Entries of a ``{ ... }`` body from ``pos`` (after the brace) to the closing brace."""
-    out: dict[str, Entry] = {}
-    data = lf.data
-    while True:
-        pos = skip_space(lf, pos)
-        if pos >= len(data):
-            raise lf.fail(pos, f"a dictionary of the {what} list is not closed (truncated)")
-        if data[pos:pos + 1] == b"}":
-            return out, pos + 1
-        key = _WORD.match(data, pos)
-        if key is None:
-            raise lf.fail(pos, f"expected a key in a dictionary of the {what} list")
-        name = key.group().decode("latin-1")
-        pos = skip_space(lf, key.end())
-        if data[pos:pos + 1] == b"{":
-            sub, pos = _read_dict(lf, pos + 1, what)
-            out[name] = Entry([], sub=sub)
-            continue
-        words: list[str] = []
-        labels = None
-        while True:
-            pos = skip_space(lf, pos)
-            if pos >= len(data):
-                raise lf.fail(pos, f"entry {name!r} is not closed by ';' (truncated)")
-            if data[pos:pos + 1] == b";":
-                pos += 1
-                break
-            if words and words[-1] == "List<label>" and _INT.match(data, pos):
-                labels, pos = read_labels(lf, pos, f"{name} of the {what}")
-                continue
-            token = _WORD.match(data, pos)
-            if token is None:
-                raise lf.fail(pos, f"unexpected {data[pos:pos + 1]!r} in entry {name!r}")
-            words.append(token.group().decode("latin-1").strip('"'))
-            pos = token.end()
-        out[name] = Entry(words, labels=labels)
