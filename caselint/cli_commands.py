@@ -138,6 +138,9 @@ def _progress_bar(total: int, label: str = "checking"):
 def _stream_progress(note: str, steps: int):
     """A streamed mesh (:mod:`caselint.partition.streaming`): the note once on stderr, and
     a progress bar of its steps when stderr is a terminal."""
+    from caselint.allocator import tune_for_streaming
+
+    tune_for_streaming()            # this process is ours: freed memory back to the kernel
     message(f"note: {note}")
     with _progress_bar(steps, "streaming") as advance:
         yield advance

@@ -218,8 +218,8 @@ STREAM_ADVICE = ("a decomposed case of the face-based mesh folder format (proces
 #: temporaries over whole-mesh arrays, the partition labels), and per cell of the largest
 #: partition analysed in memory. Measured with benchmarks/bench_partitions.py (see
 #: benchmarks/README.md), rounded up.
-STREAM_BYTES_PER_CELL = 250
-STREAM_PIECE_BYTES_PER_CELL = 900
+STREAM_BYTES_PER_CELL = 130
+STREAM_PIECE_BYTES_PER_CELL = 1000
 
 
 @dataclass(frozen=True)

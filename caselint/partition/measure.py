@@ -112,6 +112,7 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
                 out[name] = empty(name, (size[per],) + values.shape[1:], values.dtype)
             out[name][ids[per]] = values
             seen[name] = seen.get(name, 0) + len(ids[per])
+        del result, ids, values     # not held while the next partition is analysed
     for name, count in seen.items():
         expected = size[BY_NAME[name].per]
         if count != expected:

@@ -105,6 +105,7 @@ def counted(run: Callable, advance: Callable[[int], None]) -> Callable:
         for result in run(function, items):
             advance(1)
             yield result
+            del result              # not held while the next item is made
     return counting
 
 
