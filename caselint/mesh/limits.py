@@ -253,13 +253,15 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
     cells = sum(c[0] for c in counts)
     faces = sum(c[1] for c in counts)
     need = estimate_bytes(face_mesh_counts(cells, faces))
+    largest = max(max(c[0], c[1] // 3) for c in counts)
+    streamed = None if cannot_stream is not None else (
+        FIXED_BYTES + STREAM_BYTES_PER_CELL * max(cells, faces // 3)
+        + STREAM_PIECE_BYTES_PER_CELL * largest)
     if need <= bytes_limit:
         return MemoryWay("whole", f"the estimate {format_size(need)} fits the limit "
-                                  f"{format_size(bytes_limit)} ({origin})", need, None, bytes_limit)
-    if cannot_stream is None:
-        largest = max(max(c[0], c[1] // 3) for c in counts)
-        streamed = (FIXED_BYTES + STREAM_BYTES_PER_CELL * max(cells, faces // 3)
-                    + STREAM_PIECE_BYTES_PER_CELL * largest)
+                                  f"{format_size(bytes_limit)} ({origin})", need, streamed,
+                         bytes_limit)
+    if streamed is not None:
         if streamed <= bytes_limit:
             return MemoryWay("stream", f"the whole-mesh estimate {format_size(need)} is over "
                                        f"the limit {format_size(bytes_limit)} ({origin}); "
@@ -268,8 +270,8 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
         cannot_stream = (f"streamed, partition by partition, it would still need about "
                          f"{format_size(streamed)} (its largest processor folder holds "
                          f"{largest:,} cells): decompose it into more processor folders")
-    check_memory(path, face_mesh_counts(cells, faces), "the mesh files' owner lists", limit,
-                 cells=cells, advice=cannot_stream)
+    check_memory(path, face_mesh_counts(cells, faces), "the mesh files",
+                 (bytes_limit, origin), cells=cells, advice=cannot_stream)
     raise AssertionError("check_memory refuses what does not fit")     # pragma: no cover
 
 
