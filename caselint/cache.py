@@ -192,7 +192,7 @@ class MeshStore:
         way = mesh_way(path, self.memory_limit, zone)
         if way.way != "stream":
             return None
-        scratch = Scratch()
+        scratch = Scratch(outside=path if os.path.isdir(path) else os.path.dirname(path))
         self._scratch.append(scratch)
         if self._run is None and self.partitions is not None:
             self._run = self.partitions.runner()

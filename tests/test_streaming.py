@@ -175,3 +175,18 @@ def test_merge_on_disk_equals_the_merge_in_memory(plate, tmp_path):
             assert is_on_disk(getattr(disk, name)), name
         assert disk.n_cells == memory.n_cells == plate["data"].n_cells
         assert disk.patches == memory.patches
+
+
+def test_no_scratch_folder_inside_the_case(plate, tmp_path):
+    case = plate["decomposed"]
+    inside = case.parent / "plate" / "tmp-inside"
+    inside.mkdir()
+    try:
+        before = _listing(case.parent)
+        done, _ = _run(case, tmp_path, "--memory-limit", _between(case),
+                       env={"TMPDIR": str(inside)})
+        assert done.returncode == 2
+        assert "inside the mesh's folder: set TMPDIR to a folder outside it" in done.stderr
+        assert _listing(case.parent) == before
+    finally:
+        inside.rmdir()

@@ -44,10 +44,23 @@ MIN_BYTES = 1 << 20
 
 class Scratch:
     """A folder of memory-mapped arrays (see the module docstring); ``base`` is the
-    folder to make it in (None: the system's temporary folder, ``TMPDIR``)."""
+    folder to make it in (None: the system's temporary folder, ``TMPDIR``), never inside
+    ``outside`` (the mesh's folder).
 
-    def __init__(self, base: str | os.PathLike[str] | None = None) -> None:
-        self.folder = Path(tempfile.mkdtemp(prefix=PREFIX, dir=base))
+    :raises MeshReadError: ``base`` lies inside ``outside``.
+    """
+
+    def __init__(self, base: str | os.PathLike[str] | None = None,
+                 outside: str | os.PathLike[str] | None = None) -> None:
+        where = Path(base if base is not None else tempfile.gettempdir()).resolve()
+        if outside is not None and where.is_relative_to(Path(outside).resolve()):
+            from caselint.errors import MeshReadError
+
+            raise MeshReadError(str(outside), f"the scratch folder would be made in {where}, "
+                                              "inside the mesh's folder: set TMPDIR to a "
+                                              "folder outside it (caselint never writes "
+                                              "beside a mesh)")
+        self.folder = Path(tempfile.mkdtemp(prefix=PREFIX, dir=where))
         self.bytes = 0                    # mapped so far
         self.arrays: dict[str, int] = {}  # name -> bytes, for the memory breakdown
         self._count = 0

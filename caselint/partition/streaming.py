@@ -22,10 +22,11 @@ message saying what would work.
 
 from __future__ import annotations
 
+import contextlib
 from pathlib import Path
 from typing import Callable, ContextManager, Iterable, Iterator
 
-from caselint.mesh.limits import MemoryLimit, MemoryWay, choose_way
+from caselint.mesh.limits import MemoryLimit, MemoryWay, choose_way, memory_limit
 
 #: Called once when a mesh is streamed: ``(note, n_steps)`` -> a context manager yielding
 #: ``advance(n)`` for the steps (folders read twice, then partitions analysed).
@@ -54,6 +55,9 @@ def mesh_way(path: str | Path, limit: MemoryLimit | None, zone: str | None = Non
     from caselint.mesh.formats.face_folder import mesh_folder, processor_folders
 
     path = Path(path)
+    limit = limit if limit is not None else memory_limit()
+    if limit[0] is None:
+        return MemoryWay("whole", "no memory limit")
     reader = "its reader checks the memory"
     if not path.is_dir():
         return MemoryWay("whole", f"a mesh file: {reader}")
@@ -89,7 +93,7 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
             f"({way.reason})")
     steps = 2 * n_folders + (n_folders if request is None or request.count is None
                              else request.count)
-    bar = on_stream(note, steps) if on_stream else _no_progress()
+    bar = on_stream(note, steps) if on_stream else contextlib.nullcontext(lambda n: None)
     with bar as advance:
         scratch.advance = advance        # the reader's steps (face_decomposed_disk)
         mesh = read_mesh(path, scale_to_m=scale_to_m, zone=zone, readers=readers,
@@ -107,14 +111,6 @@ def counted(run: Callable, advance: Callable[[int], None]) -> Callable:
             yield result
             del result              # not held while the next item is made
     return counting
-
-
-class _no_progress:
-    def __enter__(self):
-        return lambda n: None
-
-    def __exit__(self, *exc):
-        return None
 
 
 __all__ = ["NOT_DECOMPOSED", "NO_ADDRESSING", "OnStream", "counted", "mesh_way",

@@ -28,13 +28,12 @@ from caselint.mesh.formats.face_decomposed import (
     _addressing, _check_processor_patches, _patch_names, _ramp, _ranges, _zones,
 )
 from caselint.mesh.formats.face_folder import FolderMesh, read_folder_mesh
-from caselint.mesh.formats.face_lists import open_list_file, read_labels
+from caselint.mesh.formats.face_lists import find_file, open_list_file, read_labels
 
 
 def has_addressing(folders: list[Path]) -> bool:
-    """Whether every processor folder has its three addressing files."""
-    return all(open_list_file(folder, name, required=False) is not None
-               for folder in folders
+    """Whether every processor folder has its three addressing files (plain or gzip)."""
+    return all(find_file(folder, name) is not None for folder in folders
                for name in ("pointProcAddressing", "faceProcAddressing", "cellProcAddressing"))
 
 
