@@ -190,3 +190,15 @@ def test_no_scratch_folder_inside_the_case(plate, tmp_path):
         assert _listing(case.parent) == before
     finally:
         inside.rmdir()
+
+
+def test_the_estimate_says_which_way_and_why(plate):
+    folder = plate["decomposed"].parent / "plate"
+    assert streaming.mesh_way(folder, (None, "off")).reason == "no memory limit"
+    roomy = streaming.mesh_way(folder, (10**12, "test"))
+    assert roomy.way == "whole" and "fits the limit 1 TB (test)" in roomy.reason
+    way = streaming.mesh_way(folder, (int(_between(plate["decomposed"])), "test"))
+    assert way.way == "stream" and way.streamed <= way.limit < way.need
+    assert "is over the limit" in way.reason and "streamed, partition by partition" in way.reason
+    # a mesh file is left to its reader, which checks the memory as before
+    assert streaming.mesh_way(plate["decomposed"], (1, "test")).way == "whole"

@@ -8,6 +8,12 @@ header before meshio reads it (gmsh 2.2 and 4.1, VTU; files above
 :class:`~caselint.mesh.model.Mesh` and its topology are built. Over the limit, it raises
 :class:`~caselint.errors.MeshReadError` with the estimate, the limit and how to raise it.
 
+For the face-based mesh folders, :func:`choose_way` decides *how* a mesh is checked and
+says why: whole, in memory, when the estimate fits; streamed, partition by partition with
+the whole-mesh arrays on disk (:mod:`caselint.partition.streaming`), when it does not but
+the mesh is a decomposed case with addressing files and the streamed estimate fits;
+else refused, the message saying what would work.
+
 The limit is passed in by the caller (:func:`memory_limit` turns a size into one); when
 none is passed it is :data:`DEFAULT_FRACTION` of the memory available now (``MemAvailable``
 of /proc/meminfo, capped by a cgroup limit). The command line takes it from ``check
