@@ -119,7 +119,8 @@ def test_refused_when_even_the_streamed_estimate_is_over_the_limit(plate, tmp_pa
     done, _ = _run(plate["decomposed"], tmp_path, "--memory-limit", str(way.streamed - 1))
     assert done.returncode == 2
     assert "streamed, partition by partition, it would still need about" in done.stderr
-    assert "decompose it into more processor folders" in done.stderr
+    assert f"cells' share, with parts of {way.piece_cells:,} cells" in done.stderr
+    assert "Raise it with --memory-limit" in done.stderr
 
 
 def test_scratch_folder_goes_after_an_error(plate, tmp_path, monkeypatch):
@@ -202,3 +203,51 @@ def test_the_estimate_says_which_way_and_why(plate):
     assert "is over the limit" in way.reason and "streamed, partition by partition" in way.reason
     # a mesh file is left to its reader, which checks the memory as before
     assert streaming.mesh_way(plate["decomposed"], (1, "test")).way == "whole"
+
+
+def _json_report(case: Path, limit, on_stream=None) -> dict:
+    """The JSON report of ``case`` checked in this process (run times removed)."""
+    from caselint.pipeline import CheckOptions, run_check
+
+    run = run_check(CheckOptions(paths=(str(case),), formats=("json",), use_cache=False,
+                                 memory_limit=limit, on_stream=on_stream))
+    assert not run.bad_input, run.messages
+    report = json.loads(run.stdout[0])
+    for case_report in report["cases"]:
+        case_report.pop("duration_s", None)
+    return report
+
+
+def test_processor_folders_too_large_for_the_limit_are_cut_into_parts(plate, monkeypatch):
+    import contextlib
+
+    from caselint.mesh import limits
+
+    case = plate["decomposed"]
+    monkeypatch.setattr(limits, "MIN_PIECE_CELLS", 500)
+    roomy = streaming.mesh_way(case.parent / "plate", (10**15, "test"))
+    largest = roomy.piece_cells
+    # room for a third of the largest folder once the whole mesh's share is counted
+    limit = roomy.streamed - limits.STREAM_PIECE_BYTES_PER_CELL * (largest - largest // 3)
+    way = streaming.mesh_way(case.parent / "plate", (limit, "test"))
+    assert way.way == "stream" and way.piece_cells == largest // 3
+    assert f"in parts of at most {largest // 3:,} cells" in way.reason
+    told = []
+
+    @contextlib.contextmanager
+    def on_stream(note, steps):
+        told.append((note, steps))
+        yield lambda n: told.append(n)
+
+    whole = _json_report(case, (None, "off"))
+    assert _json_report(case, (limit, "test"), on_stream) == whole
+    (note, steps), *advances = told
+    assert "in parts of at most" in note
+    from caselint.partition.plan import by_processors, capped
+
+    sizes = by_processors(case.parent / "plate").sizes()
+    parts = int(np.sum(-(-sizes // (largest // 3))))
+    assert parts >= 9 and capped(by_processors(case.parent / "plate"),
+                                 largest // 3).sizes().max() <= largest // 3
+    assert steps == 2 * 3 + parts                         # 3 folders read twice, the parts
+    assert sum(advances) == steps

@@ -226,19 +226,24 @@ STREAM_ADVICE = ("a decomposed case of the face-based mesh folder format (proces
 #: benchmarks/README.md), rounded up.
 STREAM_BYTES_PER_CELL = 130
 STREAM_PIECE_BYTES_PER_CELL = 1000
+#: A processor folder too large for the memory left is analysed in parts of consecutive
+#: cell ids (its cells in the undecomposed mesh's numbering), no smaller than this.
+MIN_PIECE_CELLS = 10_000
 
 
 @dataclass(frozen=True)
 class MemoryWay:
     """How a mesh is checked under the memory limit, and why: ``way`` is ``whole`` (in
     memory) or ``stream`` (partition by partition, whole-mesh arrays on disk); ``need`` and
-    ``streamed`` the estimates (bytes) of the two ways (None: not estimated)."""
+    ``streamed`` the estimates (bytes) of the two ways (None: not estimated);
+    ``piece_cells`` the most cells a partition may own when streamed."""
 
     way: str
     reason: str
     need: int | None = None
     streamed: int | None = None
     limit: int | None = None
+    piece_cells: int | None = None
 
 
 def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
@@ -260,22 +265,29 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
     faces = sum(c[1] for c in counts)
     need = estimate_bytes(face_mesh_counts(cells, faces))
     largest = max(max(c[0], c[1] // 3) for c in counts)
-    streamed = None if cannot_stream is not None else (
-        FIXED_BYTES + STREAM_BYTES_PER_CELL * max(cells, faces // 3)
-        + STREAM_PIECE_BYTES_PER_CELL * largest)
+    streamed = piece = None
+    if cannot_stream is None:
+        held = FIXED_BYTES + STREAM_BYTES_PER_CELL * max(cells, faces // 3)
+        # the largest processor folder, or parts of it small enough for what is left
+        piece = max(min(largest, (bytes_limit - held) // STREAM_PIECE_BYTES_PER_CELL),
+                    min(largest, MIN_PIECE_CELLS))
+        streamed = held + STREAM_PIECE_BYTES_PER_CELL * piece
     if need <= bytes_limit:
         return MemoryWay("whole", f"the estimate {format_size(need)} fits the limit "
                                   f"{format_size(bytes_limit)} ({origin})", need, streamed,
-                         bytes_limit)
+                         bytes_limit, piece)
     if streamed is not None:
         if streamed <= bytes_limit:
+            split = "" if piece >= largest else f", in parts of at most {piece:,} cells"
             return MemoryWay("stream", f"the whole-mesh estimate {format_size(need)} is over "
                                        f"the limit {format_size(bytes_limit)} ({origin}); "
-                                       f"streamed, partition by partition, about "
-                                       f"{format_size(streamed)}", need, streamed, bytes_limit)
+                                       f"streamed, partition by partition{split}, about "
+                                       f"{format_size(streamed)}", need, streamed, bytes_limit,
+                             piece)
         cannot_stream = (f"streamed, partition by partition, it would still need about "
-                         f"{format_size(streamed)} (its largest processor folder holds "
-                         f"{largest:,} cells): decompose it into more processor folders")
+                         f"{format_size(streamed)} ({format_size(held)} for its "
+                         f"{max(cells, faces // 3):,} cells' share, with parts of "
+                         f"{piece:,} cells)")
     check_memory(path, face_mesh_counts(cells, faces), "the mesh files",
                  (bytes_limit, origin), cells=cells, advice=cannot_stream)
     raise AssertionError("check_memory refuses what does not fit")     # pragma: no cover

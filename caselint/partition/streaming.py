@@ -85,20 +85,26 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     from caselint.mesh import read_mesh
     from caselint.mesh.formats.face_folder import processor_folders
     from caselint.partition.measure import analysed_in_partitions
-    from caselint.partition.runners import PartitionRequest, serial
+    from caselint.partition.plan import by_processors, capped
+    from caselint.partition.runners import serial
 
     path = Path(path)
     n_folders = len(processor_folders(path))
     note = (f"{path}: checked partition by partition with its whole-mesh arrays on disk "
             f"({way.reason})")
-    steps = 2 * n_folders + (n_folders if request is None or request.count is None
-                             else request.count)
+    plan = None                          # the processor folders, capped: known before reading
+    if request is None or request.count is None:
+        plan = by_processors(path)
+        if way.piece_cells:
+            plan = capped(plan, way.piece_cells)     # folders too large for what is left
+    steps = 2 * n_folders + (plan.n_parts if plan is not None else request.count)
     bar = on_stream(note, steps) if on_stream else contextlib.nullcontext(lambda n: None)
     with bar as advance:
         scratch.advance = advance        # the reader's steps (face_decomposed_disk)
         mesh = read_mesh(path, scale_to_m=scale_to_m, zone=zone, readers=readers,
                          memory_limit=(None, "streamed"), scratch=scratch)
-        plan = (request or PartitionRequest()).plan(path, mesh.n_cells)
+        if plan is None:
+            plan = request.plan(path, mesh.n_cells)
         run = counted(serial if run is None else run, advance)
         return analysed_in_partitions(mesh.data, plan, run, scratch)
 
