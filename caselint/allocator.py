@@ -66,7 +66,27 @@ def _numpy_hugepage_off() -> bool:
     return True
 
 
-def _glibc_heap() -> bool:
+#: Under a streamed check (:mod:`caselint.partition.streaming`) the process must stay under
+#: its memory limit: large blocks come from ``mmap`` again and go back to the kernel when
+#: freed, and little freed heap is kept.
+STREAMING = ((_M_MMAP_THRESHOLD, 1 * 2**20), (_M_TRIM_THRESHOLD, 32 * 2**20), (_M_TOP_PAD, 0))
+
+
+def tune_for_streaming() -> bool:
+    """Give freed memory back to the kernel from now on (a streamed check; see
+    :data:`STREAMING`), and what is free now; whether it took effect."""
+    if os.environ.get("CASELINT_ALLOCATOR", "").strip().lower() == "default":
+        return False
+    done = _glibc_heap(STREAMING)
+    if done:
+        libc = ctypes.CDLL(None)
+        libc.malloc_trim.argtypes, libc.malloc_trim.restype = [ctypes.c_size_t], ctypes.c_int
+        libc.malloc_trim(0)
+    return done
+
+
+def _glibc_heap(settings=((_M_MMAP_THRESHOLD, MMAP_THRESHOLD), (_M_TRIM_THRESHOLD, TRIM_THRESHOLD),
+                          (_M_TOP_PAD, TOP_PAD), (_M_ARENA_MAX, ARENA_MAX))) -> bool:
     try:
         if not (os.confstr("CS_GNU_LIBC_VERSION") or "").startswith("glibc"):
             return False
@@ -78,6 +98,4 @@ def _glibc_heap() -> bool:
     except (OSError, AttributeError):
         return False
     mallopt.argtypes, mallopt.restype = [ctypes.c_int, ctypes.c_int], ctypes.c_int
-    return all(mallopt(param, value) == 1 for param, value in (
-        (_M_MMAP_THRESHOLD, MMAP_THRESHOLD), (_M_TRIM_THRESHOLD, TRIM_THRESHOLD),
-        (_M_TOP_PAD, TOP_PAD), (_M_ARENA_MAX, ARENA_MAX)))
+    return all(mallopt(param, value) == 1 for param, value in settings)

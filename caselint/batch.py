@@ -35,6 +35,7 @@ if TYPE_CHECKING:
     from caselint.manifest.case import Case
     from caselint.model import CaseReport
     from caselint.partition.runners import PartitionRequest
+    from caselint.partition.streaming import OnStream
 
 
 #: How long to wait for a Dask scheduler to answer (a Dask time string).
@@ -65,9 +66,10 @@ class _Task:
     partitions: "PartitionRequest | None" = None
 
 
-def _run_task(task: _Task,
-              registry: "Registry | None" = None) -> list[tuple[int, CaseOutcome]]:
-    """Check a task's cases, reading each mesh once (runs in a worker, or in process)."""
+def _run_task(task: _Task, registry: "Registry | None" = None,
+              on_stream: "OnStream | None" = None) -> list[tuple[int, CaseOutcome]]:
+    """Check a task's cases, reading each mesh once (runs in a worker, or in process;
+    ``on_stream``: see :func:`lint_batch`)."""
     from caselint import api
     from caselint.cache import MeshStore
     from caselint.engine.plugins import get_plugin_manager
@@ -75,18 +77,20 @@ def _run_task(task: _Task,
 
     if registry is None:
         registry = Registry(get_plugin_manager(blocked=task.blocked))
-    store = MeshStore(task.cache, task.memory_limit, task.partitions)
+    store = MeshStore(task.cache, task.memory_limit, task.partitions, on_stream)
     extra = {} if task.today is None else {"today": task.today}
     out = []
-    for index, path, case in zip(task.indices, task.paths, task.cases):
-        try:
-            report = api.lint_case(case, rule_sets=task.rule_sets, registry=registry,
-                                   read_mesh=store.read, label=path, **extra)
-            out.append((index, CaseOutcome(path, report=report)))
-        except UsageError as exc:
-            out.append((index, CaseOutcome(path, error=str(exc))))
-    store.save()
-    store.close()
+    try:
+        for index, path, case in zip(task.indices, task.paths, task.cases):
+            try:
+                report = api.lint_case(case, rule_sets=task.rule_sets, registry=registry,
+                                       read_mesh=store.read, label=path, **extra)
+                out.append((index, CaseOutcome(path, report=report)))
+            except UsageError as exc:
+                out.append((index, CaseOutcome(path, error=str(exc))))
+        store.save()
+    finally:
+        store.close()           # also on Ctrl-C: streamed meshes' scratch folders go
     return out
 
 
@@ -127,6 +131,7 @@ def lint_batch(
     today: dt.date | None = None,
     progress: Callable[[int], None] | None = None,
     partitions: "PartitionRequest | None" = None,
+    on_stream: "OnStream | None" = None,
 ) -> list[CaseOutcome]:
     """Check every case file; one outcome per path, in the order given.
 
@@ -134,7 +139,8 @@ def lint_batch(
     worker are raised here; bad input becomes the outcome's ``error``. ``memory_limit`` (a
     :data:`caselint.mesh.limits.MemoryLimit`) holds for every mesh the workers read;
     ``partitions`` has each mesh analysed partition by partition (on its scheduler, if it
-    names one).
+    names one). ``on_stream(note, steps)`` is told when a mesh too large for the limit is
+    streamed (:mod:`caselint.partition.streaming`) in this process (jobs=1, no scheduler).
     :raises UsageError: ``jobs`` below 1, or the Dask scheduler cannot be used.
     """
     from caselint.engine.plugins import get_plugin_manager
@@ -180,7 +186,7 @@ def lint_batch(
                 collect(future.result())
     else:
         for task in tasks:
-            collect(_run_task(task, registry))
+            collect(_run_task(task, registry, on_stream))
     return [results[i] for i in range(len(paths))]
 
 

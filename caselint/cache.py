@@ -36,6 +36,7 @@ from caselint.files import file_sha256
 if TYPE_CHECKING:
     from caselint.mesh.analysis import Mesh
     from caselint.partition.runners import PartitionRequest
+    from caselint.partition.streaming import OnStream
 
 #: Environment variable with the most the folder may hold, in GB.
 ENV_MAX_GB = "CASELINT_CACHE_MAX_GB"
@@ -144,11 +145,14 @@ class MeshStore:
 
     def __init__(self, cache: MeshCache | None = None,
                  memory_limit: tuple[int | None, str] | None = None,
-                 partitions: "PartitionRequest | None" = None) -> None:
+                 partitions: "PartitionRequest | None" = None,
+                 on_stream: "OnStream | None" = None) -> None:
         self.cache = cache
         self.memory_limit = memory_limit
         self.partitions = partitions
+        self.on_stream = on_stream
         self._run = None                       # the partitions' runner, made on first use
+        self._scratch: list = []               # streamed meshes' arrays on disk
         self._meshes: dict[tuple, Mesh] = {}
         self._fresh: dict[tuple, str] = {}      # read from file: settings -> cache key
 
@@ -167,6 +171,8 @@ class MeshStore:
             key = mesh_key(file_sha256(Path(path)), scale_to_m, tag_array, tags, zone)
             mesh = self.cache.load(key, str(path))
         if mesh is None:
+            mesh = self._streamed(path, scale_to_m, zone, readers)
+        if mesh is None:
             mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags,
                              zone=zone, readers=readers, memory_limit=self.memory_limit)
             if self.partitions is not None:
@@ -175,6 +181,24 @@ class MeshStore:
                 self._fresh[settings] = key
         self._meshes[settings] = mesh
         return mesh
+
+    def _streamed(self, path, scale_to_m: float, zone: str | None, readers) -> "Mesh | None":
+        """The mesh read and analysed streamed when it does not fit the memory limit but
+        can be streamed (:mod:`caselint.partition.streaming`), else None; raises
+        MeshReadError when it fits neither way."""
+        from caselint.partition.scratch import Scratch
+        from caselint.partition.streaming import mesh_way, streamed_mesh
+
+        way = mesh_way(path, self.memory_limit, zone)
+        if way.way != "stream":
+            return None
+        scratch = Scratch(outside=path if os.path.isdir(path) else os.path.dirname(path))
+        self._scratch.append(scratch)
+        if self._run is None and self.partitions is not None:
+            self._run = self.partitions.runner()
+        return streamed_mesh(path, way, scratch, scale_to_m=scale_to_m, zone=zone,
+                             readers=readers, request=self.partitions, run=self._run,
+                             on_stream=self.on_stream)
 
     def _in_partitions(self, path, mesh: "Mesh") -> "Mesh":
         """``mesh`` with its geometry and metrics computed partition by partition."""
@@ -186,7 +210,12 @@ class MeshStore:
         return analysed_in_partitions(mesh.data, split, self._run)
 
     def close(self) -> None:
-        """Let go of the partitions' runner (a Dask client)."""
+        """Let go of the partitions' runner (a Dask client) and remove the streamed
+        meshes' scratch folders (their arrays go with the last view of them)."""
+        self._meshes.clear()
+        for scratch in self._scratch:
+            scratch.close()
+        self._scratch.clear()
         if self._run is not None:
             from caselint.partition.runners import close_runner
 

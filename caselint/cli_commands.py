@@ -120,7 +120,7 @@ def _memory_limit(args: argparse.Namespace) -> tuple[int | None, str]:
 
 
 @contextlib.contextmanager
-def _progress_bar(total: int):
+def _progress_bar(total: int, label: str = "checking"):
     """A progress bar on stderr while the case files are checked, when it is a terminal."""
     if not _is_terminal(sys.stderr):
         yield lambda n: None
@@ -128,10 +128,22 @@ def _progress_bar(total: int):
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeElapsedColumn
 
     console = Console(file=sys.stderr, no_color=not use_color(sys.stderr))
-    with Progress("checking", BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+    with Progress(label, BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
                   console=console, transient=True) as bar:
-        task = bar.add_task("cases", total=total)
+        task = bar.add_task(label, total=total)
         yield lambda n: bar.advance(task, n)
+
+
+@contextlib.contextmanager
+def _stream_progress(note: str, steps: int):
+    """A streamed mesh (:mod:`caselint.partition.streaming`): the note once on stderr, and
+    a progress bar of its steps when stderr is a terminal."""
+    from caselint.allocator import tune_for_streaming
+
+    tune_for_streaming()            # this process is ours: freed memory back to the kernel
+    message(f"note: {note}")
+    with _progress_bar(steps, "streaming") as advance:
+        yield advance
 
 
 def run_check(args: argparse.Namespace, paths: list[str]) -> int:
@@ -152,7 +164,7 @@ def run_check(args: argparse.Namespace, paths: list[str]) -> int:
         use_cache=not getattr(args, "no_cache", True), memory_limit=_memory_limit(args),
         blocked=tuple(args.blocked), stdout_color=use_color(sys.stdout),
         stdout_width=output_width(sys.stdout), progress=_progress_bar,
-        cells_out=getattr(args, "cells_out", None))
+        on_stream=_stream_progress, cells_out=getattr(args, "cells_out", None))
     run = check(options)
     for text in run.messages:
         message(text)

@@ -21,6 +21,7 @@ if TYPE_CHECKING:
     import pluggy
 
     from caselint.engine.registry import Registry
+    from caselint.partition.streaming import OnStream
     from caselint.report.base import Reporter
 
 #: Width of text reports written to files.
@@ -57,6 +58,7 @@ class CheckOptions:
     stdout_color: bool = False
     stdout_width: int = FILE_WIDTH
     progress: Progress | None = None
+    on_stream: "OnStream | None" = None
 
 
 @dataclass
@@ -169,7 +171,8 @@ def run_check(options: CheckOptions, pm: "pluggy.PluginManager | None" = None) -
                               scheduler=None if partitions is not None else options.scheduler,
                               partitions=partitions,
                               cache=None if folder is None else MeshCache(folder),
-                              memory_limit=options.memory_limit, progress=advance)
+                              memory_limit=options.memory_limit, progress=advance,
+                              on_stream=options.on_stream)
     checked = []
     for outcome in outcomes:
         if outcome.error is not None:

@@ -30,8 +30,12 @@ class Mesh:
     """A read mesh with lazily derived topology and geometry (see the module docstring)."""
 
     def __init__(self, data: MeshData, *, geometry: Geometry | None = None,
-                 known: dict[str, Any] | None = None) -> None:
+                 known: dict[str, Any] | None = None,
+                 keep: Callable[[str, Any], Any] | None = None) -> None:
         self.data = data
+        # where kept results go: ``keep(key, value)`` returns what to hold (e.g. its arrays
+        # moved to disk by a streamed check, caselint.partition.scratch); None: as they are
+        self._keep = keep
         # results computed elsewhere (e.g. partition by partition, caselint.partition),
         # under the keys the computing functions use
         self._memo: dict[str, Any] = dict(known or {})
@@ -224,7 +228,8 @@ class Mesh:
             lock = self._key_locks.setdefault(key, threading.RLock())
         with lock:
             if key not in memo:
-                memo[key] = compute()
+                value = compute()
+                memo[key] = value if self._keep is None else self._keep(key, value)
         return memo[key]
 
     def provided(self, key: str, compute: Callable[[], T]) -> T:

@@ -8,6 +8,12 @@ header before meshio reads it (gmsh 2.2 and 4.1, VTU; files above
 :class:`~caselint.mesh.model.Mesh` and its topology are built. Over the limit, it raises
 :class:`~caselint.errors.MeshReadError` with the estimate, the limit and how to raise it.
 
+For the face-based mesh folders, :func:`choose_way` decides *how* a mesh is checked and
+says why: whole, in memory, when the estimate fits; streamed, partition by partition with
+the whole-mesh arrays on disk (:mod:`caselint.partition.streaming`), when it does not but
+the mesh is a decomposed case with addressing files and the streamed estimate fits;
+else refused, the message saying what would work.
+
 The limit is passed in by the caller (:func:`memory_limit` turns a size into one); when
 none is passed it is :data:`DEFAULT_FRACTION` of the memory available now (``MemAvailable``
 of /proc/meminfo, capped by a cgroup limit). The command line takes it from ``check
@@ -22,6 +28,7 @@ import contextlib
 import os
 import re
 import struct
+from dataclasses import dataclass
 from pathlib import Path
 
 from caselint.errors import MeshReadError, UsageError
@@ -157,13 +164,14 @@ def estimate_bytes(cell_counts: dict[str, int], volume: bool = True) -> int:
 
 
 def check_memory(path: str, cell_counts: dict[str, int], source: str,
-                 limit: MemoryLimit | None = None, *, cells: int | None = None) -> None:
+                 limit: MemoryLimit | None = None, *, cells: int | None = None,
+                 advice: str | None = None) -> None:
     """Refuse (MeshReadError) when checking these cells would pass the memory ``limit``
     (None: :func:`memory_limit`'s default).
 
     ``source`` says where the counts come from ("the file header", "the cells read");
     ``cells`` the number of cells to name when ``cell_counts`` charge another number
-    (:func:`face_mesh_counts`).
+    (:func:`face_mesh_counts`); ``advice`` what else would work, for the message.
     """
     limit, origin = limit if limit is not None else memory_limit()
     if limit is None:
@@ -180,7 +188,8 @@ def check_memory(path: str, cell_counts: dict[str, int], source: str,
         f"checking this mesh needs about {format_size(need, digits)} of memory ({cells:,} "
         f"cells, counted from {source}); the limit is {format_size(limit)} ({origin}). Raise it "
         f"with --memory-limit {suggestion} or {ENV_LIMIT}={suggestion} ('off' turns the "
-        "check off), or check the case on a machine with more memory")
+        "check off), or check the case on a machine with more memory"
+        + f"; {advice or STREAM_ADVICE}")
 
 
 def face_mesh_counts(n_cells: int, n_faces: int) -> dict[str, int]:
@@ -206,6 +215,84 @@ def check_folder_memory(path: str, folders: list[Path], limit: MemoryLimit | Non
                  cells=cells)
 
 
+#: What a refusal adds when nothing better is known of the mesh.
+STREAM_ADVICE = ("a decomposed case of the face-based mesh folder format (processor<N> "
+                 "folders with their addressing files) is checked partition by partition "
+                 "within the limit")
+#: A streamed check (:mod:`caselint.partition.streaming`): private memory per cell of the
+#: whole mesh that stays in memory while the whole-mesh arrays are on disk (the rules'
+#: temporaries over whole-mesh arrays, the partition labels), and per cell of the largest
+#: partition analysed in memory. Measured with benchmarks/bench_partitions.py (see
+#: benchmarks/README.md), rounded up.
+STREAM_BYTES_PER_CELL = 130
+STREAM_PIECE_BYTES_PER_CELL = 1000
+#: A processor folder too large for the memory left is analysed in parts of consecutive
+#: cell ids (its cells in the undecomposed mesh's numbering), no smaller than this.
+MIN_PIECE_CELLS = 10_000
+
+
+@dataclass(frozen=True)
+class MemoryWay:
+    """How a mesh is checked under the memory limit, and why: ``way`` is ``whole`` (in
+    memory) or ``stream`` (partition by partition, whole-mesh arrays on disk); ``need`` and
+    ``streamed`` the estimates (bytes) of the two ways (None: not estimated);
+    ``piece_cells`` the most cells a partition may own when streamed."""
+
+    way: str
+    reason: str
+    need: int | None = None
+    streamed: int | None = None
+    limit: int | None = None
+    piece_cells: int | None = None
+
+
+def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
+               cannot_stream: str | None = None) -> MemoryWay:
+    """Whole or streamed, for the mesh folder(s) ``folders`` of ``path`` under ``limit``
+    (None: the default): whole when its estimate fits (or there is no limit or no header
+    count), else streamed when it can be (``cannot_stream`` None) and that estimate fits.
+
+    :raises MeshReadError: neither fits; the message gives both estimates and, where the
+        mesh cannot be streamed, ``cannot_stream`` (what would work).
+    """
+    bytes_limit, origin = limit if limit is not None else memory_limit()
+    if bytes_limit is None:
+        return MemoryWay("whole", "no memory limit")
+    counts = [_folder_counts(folder) or _owner_counts(folder) for folder in folders]
+    if not counts or any(c is None for c in counts):
+        return MemoryWay("whole", "counts not readable: the reader checks them", limit=bytes_limit)
+    cells = sum(c[0] for c in counts)
+    faces = sum(c[1] for c in counts)
+    need = estimate_bytes(face_mesh_counts(cells, faces))
+    largest = max(max(c[0], c[1] // 3) for c in counts)
+    streamed = piece = None
+    if cannot_stream is None:
+        held = FIXED_BYTES + STREAM_BYTES_PER_CELL * max(cells, faces // 3)
+        # the largest processor folder, or parts of it small enough for what is left
+        piece = max(min(largest, (bytes_limit - held) // STREAM_PIECE_BYTES_PER_CELL),
+                    min(largest, MIN_PIECE_CELLS))
+        streamed = held + STREAM_PIECE_BYTES_PER_CELL * piece
+    if need <= bytes_limit:
+        return MemoryWay("whole", f"the estimate {format_size(need)} fits the limit "
+                                  f"{format_size(bytes_limit)} ({origin})", need, streamed,
+                         bytes_limit, piece)
+    if streamed is not None:
+        if streamed <= bytes_limit:
+            split = "" if piece >= largest else f", in parts of at most {piece:,} cells"
+            return MemoryWay("stream", f"the whole-mesh estimate {format_size(need)} is over "
+                                       f"the limit {format_size(bytes_limit)} ({origin}); "
+                                       f"streamed, partition by partition{split}, about "
+                                       f"{format_size(streamed)}", need, streamed, bytes_limit,
+                             piece)
+        cannot_stream = (f"streamed, partition by partition, it would still need about "
+                         f"{format_size(streamed)} ({format_size(held)} for its "
+                         f"{max(cells, faces // 3):,} cells' share, with parts of "
+                         f"{piece:,} cells)")
+    check_memory(path, face_mesh_counts(cells, faces), "the mesh files",
+                 (bytes_limit, origin), cells=cells, advice=cannot_stream)
+    raise AssertionError("check_memory refuses what does not fit")     # pragma: no cover
+
+
 def _folder_counts(folder: Path) -> tuple[int, int] | None:
     """(cells, faces) that a mesh folder's owner file declares in its header note."""
     import zlib
@@ -224,6 +311,21 @@ def _folder_counts(folder: Path) -> tuple[int, int] | None:
         note = re.search(rb"nCells\s*:\s*(\d+).*?nFaces\s*:\s*(\d+)", head, re.S)
         return (int(note.group(1)), int(note.group(2))) if note else None
     return None
+
+
+def _owner_counts(folder: Path) -> tuple[int, int] | None:
+    """(cells, faces) of a mesh folder whose owner file has no header note: its owner list
+    read (one number per face; cells: one more than the largest owner)."""
+    from caselint.mesh.formats.face_lists import open_list_file, read_labels
+
+    try:
+        owner_file = open_list_file(folder, "owner", required=False)
+        if owner_file is None:
+            return None
+        owner, _ = read_labels(owner_file, owner_file.start, "owner")
+    except MeshReadError:
+        return None                   # the reader reports the damage
+    return int(owner.max(initial=-1)) + 1, len(owner)
 
 
 def _linear(meshio_type: str) -> str:

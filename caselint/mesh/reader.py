@@ -28,13 +28,15 @@ def read_mesh(
     zone: str | None = None,
     memory_limit: "MemoryLimit | None" = None,
     readers: Iterable[MeshReader] | None = None,
+    scratch=None,
 ) -> Mesh:
     """Read the mesh file or folder ``path`` with the reader that takes it; coordinates
     are multiplied by ``scale_to_m``. ``readers`` defaults to the built-in ones (a run
     passes those its plugins register).
 
     ``memory_limit`` is a :data:`caselint.mesh.limits.MemoryLimit` (None: the default share
-    of the available memory).
+    of the available memory). ``scratch`` (a :class:`caselint.partition.scratch.Scratch`)
+    has a reader that can put the mesh's arrays on disk, unchecked (a streamed check).
 
     :raises MeshReadError: missing, unrecognised, unreadable or unusable mesh, or one whose
         check would pass the memory limit.
@@ -42,7 +44,7 @@ def read_mesh(
     file = Path(path)
     reader = choose_reader(file, BUILTIN_READERS if readers is None else readers)
     options = ReadOptions(scale_to_m=scale_to_m, tag_array=tag_array, tags=dict(tags or {}),
-                          zone=zone, memory_limit=memory_limit)
+                          zone=zone, memory_limit=memory_limit, scratch=scratch)
     return Mesh(reader.read(file, options))
 
 

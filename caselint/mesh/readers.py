@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable, Iterable
+from typing import TYPE_CHECKING, Any, Callable, Iterable
 
 import numpy as np
 
@@ -39,7 +39,9 @@ class ReadOptions:
     groups in formats that only number them (meshio cell data); ``zone`` picks one zone of
     a file that holds several (None: the reader refuses such a file, listing the zones);
     ``memory_limit`` is a :data:`caselint.mesh.limits.MemoryLimit`, the most bytes the check
-    may use and where that limit comes from (None: the default limit).
+    may use and where that limit comes from (None: the default limit); ``scratch`` (a
+    :class:`caselint.partition.scratch.Scratch`, for a streamed check) is where a reader
+    that can puts the whole mesh's arrays, and then no memory check is made (None: memory).
     """
 
     scale_to_m: float = 1.0
@@ -47,6 +49,7 @@ class ReadOptions:
     tags: dict[int, str] = field(default_factory=dict)
     zone: str | None = None
     memory_limit: tuple[int | None, str] | None = None
+    scratch: Any = None
 
 
 @dataclass(frozen=True)

@@ -144,23 +144,69 @@ def cells_of_points(mesh: "MeshData", marked: np.ndarray) -> np.ndarray:
 
 def duplicate_faces(mesh: "MeshData") -> np.ndarray:
     """Sorted ids of faces whose point set another face has too (a face shared by more
-    than two cells, or listed twice); the reader's finding where it made the faces."""
+    than two cells, or listed twice); the reader's finding where it made the faces.
+
+    Two passes keep the memory to a few numbers per face: a 64-bit key of each face's
+    sorted points (made in chunks of :data:`KEY_CHUNK` faces), then the exact comparison
+    of the point sets, only among the faces whose keys are equal (every duplicate is one
+    of them, so the result is exact)."""
     known = mesh.report.nonmanifold
     if known is not None:
         return known
-    sizes = np.diff(mesh.face_offsets)
+    keys = np.empty(mesh.n_faces, dtype=np.uint64)
+    for start in range(0, mesh.n_faces, KEY_CHUNK):
+        faces = np.arange(start, min(start + KEY_CHUNK, mesh.n_faces))
+        keys[start:start + len(faces)] = _point_set_keys(mesh, faces)
+    order = np.argsort(keys, kind="stable")
+    sk = keys[order]
+    tied = sk[1:] == sk[:-1]
+    del keys, sk
+    candidates = np.zeros(mesh.n_faces, dtype=bool)
+    candidates[order[1:][tied]] = True
+    candidates[order[:-1][tied]] = True
+    del order, tied
+    return _same_point_sets(mesh, np.flatnonzero(candidates))
+
+
+#: Faces per chunk of :func:`duplicate_faces`' keys.
+KEY_CHUNK = 1 << 20
+
+
+def _point_set_keys(mesh: "MeshData", faces: np.ndarray) -> np.ndarray:
+    """A 64-bit key of the sorted point ids and the size of each of ``faces``."""
+    sizes = mesh.face_offsets[faces + 1] - mesh.face_offsets[faces]
+    out = np.empty(len(faces), dtype=np.uint64)
+    for size in np.unique(sizes):
+        pick = np.flatnonzero(sizes == size)
+        rows = np.sort(face_point_table(mesh, faces[pick]), axis=1).astype(np.uint64)
+        h = np.full(len(pick), np.uint64(size), dtype=np.uint64)
+        for column in rows.T:
+            h = _mixed(h * np.uint64(0x100000001B3) + column)
+        out[pick] = h
+    return out
+
+
+def _mixed(h: np.ndarray) -> np.ndarray:
+    """A 64-bit finaliser (splitmix64's): every input bit moves every output bit."""
+    h = (h ^ (h >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    h = (h ^ (h >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return h ^ (h >> np.uint64(31))
+
+
+def _same_point_sets(mesh: "MeshData", faces: np.ndarray) -> np.ndarray:
+    """Those of ``faces`` whose point set another of them has (sorted ids)."""
+    sizes = mesh.face_offsets[faces + 1] - mesh.face_offsets[faces]
     out = []
     for size in np.unique(sizes):
-        faces = np.flatnonzero(sizes == size)
-        if len(faces) < 2:
+        group = faces[sizes == size]
+        if len(group) < 2:
             continue
-        rows = face_point_table(mesh, faces)
-        keys = np.sort(rows, axis=1)
+        keys = np.sort(face_point_table(mesh, group), axis=1)
         order = np.lexsort(keys.T[::-1])
         sk = keys[order]
         same = np.all(sk[1:] == sk[:-1], axis=1)
-        flagged = np.zeros(len(faces), dtype=bool)
+        flagged = np.zeros(len(group), dtype=bool)
         flagged[order[1:][same]] = True
         flagged[order[:-1][same]] = True
-        out.append(faces[flagged])
+        out.append(group[flagged])
     return np.sort(np.concatenate(out)) if out else np.zeros(0, dtype=np.int64)

@@ -10,5 +10,8 @@ face metrics need, results put back together equal to the bit to the whole-mesh 
   the cells and faces it owns, and their assembly into whole-mesh arrays;
 - :mod:`caselint.partition.exchange`: walks that go on from partition to partition, handed
   over with their state in exchange rounds; :mod:`caselint.partition.rays` (gap rays) and
-  :mod:`caselint.partition.stacks` (wall-layer stacks) drive them.
+  :mod:`caselint.partition.stacks` (wall-layer stacks) drive them;
+- :mod:`caselint.partition.streaming`: a decomposed mesh over the memory limit checked
+  partition by partition, its whole-mesh arrays memory-mapped in a
+  :mod:`caselint.partition.scratch` folder.
 """

@@ -30,6 +30,7 @@ from caselint.mesh.topology import CellFaces, cell_faces
 from caselint.partition.piece import Piece, cut_piece
 from caselint.partition.plan import Plan
 from caselint.partition.runners import serial
+from caselint.partition.scratch import Scratch
 
 
 @dataclass(frozen=True)
@@ -91,10 +92,16 @@ def measure_piece(piece: Piece, names: Iterable[str] | None = None) -> PieceResu
 
 
 def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_internal: int,
-             out: dict[str, np.ndarray] | None = None) -> dict[str, np.ndarray]:
+             out: dict[str, np.ndarray] | None = None,
+             empty: Callable[[str, tuple, np.dtype], np.ndarray] | None = None
+             ) -> dict[str, np.ndarray]:
     """Whole-mesh arrays from the partitions' results (each entity written once, by the
-    partition owning it); ``out`` may supply the arrays to fill (e.g. memory-mapped)."""
+    partition owning it); ``out`` may supply the arrays to fill, ``empty(name, shape,
+    dtype)`` makes the others (default :func:`numpy.empty`; a
+    :meth:`~caselint.partition.scratch.Scratch.empty` keeps them on disk)."""
     out = {} if out is None else out
+    if empty is None:
+        empty = lambda name, shape, dtype: np.empty(shape, dtype=dtype)  # noqa: E731
     size = {"cell": n_cells, "face": n_faces, "internal": n_internal}
     seen: dict[str, int] = {}
     for result in results:
@@ -102,9 +109,10 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
         for name, values in result.values.items():
             per = BY_NAME[name].per
             if name not in out:
-                out[name] = np.empty((size[per],) + values.shape[1:], dtype=values.dtype)
+                out[name] = empty(name, (size[per],) + values.shape[1:], values.dtype)
             out[name][ids[per]] = values
             seen[name] = seen.get(name, 0) + len(ids[per])
+        del result, ids, values     # not held while the next partition is analysed
     for name, count in seen.items():
         expected = size[BY_NAME[name].per]
         if count != expected:
@@ -115,10 +123,12 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
 
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
                    run: Callable[[Callable, Iterable], Iterable] = serial,
-                   cf: CellFaces | None = None) -> dict[str, np.ndarray]:
+                   cf: CellFaces | None = None, scratch: Scratch | None = None
+                   ) -> dict[str, np.ndarray]:
     """Every quantity ``names`` (default all) of ``data``, computed partition by partition
     as ``plan`` splits the cells; ``run(function, items)`` maps the work over the
-    partitions; ``cf`` the mesh's cell-face lists when already known."""
+    partitions; ``cf`` the mesh's cell-face lists when already known; with ``scratch``
+    the whole-mesh arrays are made there (on disk)."""
     if plan.n_cells != data.n_cells:
         raise ValueError(f"a plan for {plan.n_cells} cells given for a mesh of {data.n_cells}")
     names = None if names is None else tuple(names)
@@ -129,17 +139,22 @@ def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = Non
     # come: one piece and one piece's results at a time in memory when run here
     pieces = (cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts))
     results = run(functools.partial(measure_piece, names=names), pieces)
-    return assemble(results, data.n_cells, data.n_faces, data.n_internal)
+    return assemble(results, data.n_cells, data.n_faces, data.n_internal,
+                    empty=None if scratch is None else scratch.empty)
 
 
 def analysed_in_partitions(data: MeshData, plan: Plan,
-                           run: Callable[[Callable, Iterable], Iterable] = serial) -> Mesh:
+                           run: Callable[[Callable, Iterable], Iterable] = serial,
+                           scratch: Scratch | None = None) -> Mesh:
     """The :class:`~caselint.mesh.analysis.Mesh` of ``data`` with its geometry and quality
     metrics computed partition by partition (equal to the bit to what it would compute
-    itself), given to it under the keys its own functions use."""
+    itself), given to it under the keys its own functions use. With ``scratch`` every
+    whole-mesh array is kept on disk there, also what the mesh computes later."""
     with kernels.decided_for(data.n_cells):
         cf = cell_faces(data)
-    v = measure_pieces(data, plan, run=run, cf=cf)
+    if scratch is not None:
+        cf = scratch.keep_large("cell_faces", cf)
+    v = measure_pieces(data, plan, run=run, cf=cf, scratch=scratch)
     known = {
         "topology.cell_faces": cf,
         "geometry": geometry_of(v),
@@ -151,7 +166,7 @@ def analysed_in_partitions(data: MeshData, plan: Plan,
         "size_ratio.ratios": (v["growth_ratio"], v["mean_sizes"]),
         "size_ratio.volume_ratio": v["volume_ratio"],
     }
-    return Mesh(data, known=known)
+    return Mesh(data, known=known, keep=None if scratch is None else scratch.keep_large)
 
 
 def geometry_of(values: dict[str, np.ndarray]) -> Geometry:

@@ -31,6 +31,7 @@ def serial(function: Callable, items: Iterable) -> Iterator:
         result = function(item)
         del item                    # not held while the next item is made
         yield result
+        del result                  # nor the result, once taken
 
 
 class DaskRunner:

@@ -10,6 +10,7 @@ from pathlib import Path
 from caselint.errors import MeshReadError
 from caselint.mesh.build import mesh_from_faces
 from caselint.mesh.formats.face_decomposed import read_decomposed
+from caselint.mesh.formats.face_decomposed_disk import has_addressing, merged_on_disk
 from caselint.mesh.formats.face_folder import (
     FolderMesh, accepts, input_files, mesh_folder, processor_folders, read_folder_mesh,
     zone_array,
@@ -22,11 +23,14 @@ from caselint.mesh.shapes import with_shapes
 
 def folder_data(raw: FolderMesh, options: ReadOptions, *, path: str,
                 notes: tuple[str, ...] = ()) -> MeshData:
-    """The :class:`MeshData` of folder arrays: groups from patches, zones, shapes, 2-D."""
+    """The :class:`MeshData` of folder arrays: groups from patches, zones, shapes, 2-D
+    (with ``options.scratch``, its large arrays moved there, and no memory check: the
+    caller chose to stream)."""
     from caselint.mesh.limits import check_memory, face_mesh_counts
 
-    check_memory(path, face_mesh_counts(raw.n_cells, len(raw.owner)), "the cells read",
-                 options.memory_limit, cells=raw.n_cells)
+    if options.scratch is None:
+        check_memory(path, face_mesh_counts(raw.n_cells, len(raw.owner)), "the cells read",
+                     options.memory_limit, cells=raw.n_cells)
     points = checked_points(path, raw.points, options.scale_to_m)
     names, types, group = raw.groups()
     cell_zone, zone_names = zone_array(path, raw.zones, raw.n_cells)
@@ -38,8 +42,10 @@ def folder_data(raw: FolderMesh, options: ReadOptions, *, path: str,
         zone_names=zone_names, notes=notes)
     flat = flat_case(data)
     if flat is not None and flat.dim == 2:
-        return flat
-    return with_shapes(flat or data)
+        data = flat
+    else:
+        data = with_shapes(flat or data)
+    return data if options.scratch is None else options.scratch.keep_data(data)
 
 
 def read_face_folder(path: Path, options: ReadOptions) -> MeshData:
@@ -50,6 +56,11 @@ def read_face_folder(path: Path, options: ReadOptions) -> MeshData:
     name = str(path)
     if folder is None:
         folders = [p / "constant" / "polyMesh" for p in processor_folders(path)]
+        if options.scratch is not None and has_addressing(folders):
+            # streamed (caselint.partition.streaming): merged on disk, part by part
+            raw = merged_on_disk(path, folders, options.scratch,
+                                 getattr(options.scratch, "advance", None))
+            return folder_data(raw, options, path=name)
         check_folder_memory(name, folders, options.memory_limit)
         raw, notes = read_decomposed(path, folders)
         return folder_data(raw, options, path=name, notes=notes)

@@ -1,0 +1,123 @@
+"""Checking a mesh larger than the memory limit: streamed, partition by partition, with its
+whole-mesh arrays on disk.
+
+When the estimate of a whole-mesh check (:func:`caselint.mesh.limits.choose_way`) is over
+the memory limit and the mesh is a decomposed case of the face-based mesh folder format
+with its addressing files, the mesh is not refused but *streamed*:
+
+1. the processor folders are merged into whole-mesh arrays on disk, one folder at a time
+   (:mod:`caselint.mesh.formats.face_decomposed_disk`, arrays of a
+   :class:`~caselint.partition.scratch.Scratch`);
+2. every per-cell and per-face quantity is computed partition by partition, one processor
+   folder's piece in memory at a time, and assembled into arrays on disk
+   (:func:`caselint.partition.measure.analysed_in_partitions`);
+3. the rules run on that :class:`~caselint.mesh.analysis.Mesh`, whose later results are
+   kept on disk too.
+
+The report is the one of the whole-mesh check, byte for byte (same arithmetic in the same
+order: only where the arrays live changes). A mesh that cannot be streamed (a single mesh
+folder or file, a decomposed case without addressing files) is refused as before, the
+message saying what would work.
+"""
+
+from __future__ import annotations
+
+import contextlib
+from pathlib import Path
+from typing import Callable, ContextManager, Iterable, Iterator
+
+from caselint.mesh.limits import MemoryLimit, MemoryWay, choose_way, memory_limit
+
+#: Called once when a mesh is streamed: ``(note, n_steps)`` -> a context manager yielding
+#: ``advance(n)`` for the steps (folders read twice, then partitions analysed).
+OnStream = Callable[[str, int], ContextManager[Callable[[int], None]]]
+
+#: Why a mesh that is not a decomposed case cannot be streamed (for the refusal).
+NOT_DECOMPOSED = ("only a decomposed case (processor<N> folders of the face-based mesh "
+                  "folder format, with their addressing files) can be checked partition by "
+                  "partition under the limit; a mesh file is read whole: convert or "
+                  "decompose it, binary files read with the least memory")
+NO_ADDRESSING = ("its processor folders have no addressing files (pointProcAddressing, "
+                 "faceProcAddressing, cellProcAddressing), without which the case cannot be "
+                 "merged one folder at a time: decompose it again keeping them")
+
+
+def mesh_way(path: str | Path, limit: MemoryLimit | None, zone: str | None = None
+             ) -> MemoryWay:
+    """Whole or streamed for the mesh at ``path`` (its region ``zone``) under ``limit``
+    (:func:`caselint.mesh.limits.choose_way`); a mesh that is not a folder is always read
+    whole (its reader checks the memory).
+
+    :raises MeshReadError: the mesh fits neither way.
+    """
+    from caselint.errors import MeshReadError
+    from caselint.mesh.formats.face_decomposed_disk import has_addressing
+    from caselint.mesh.formats.face_folder import mesh_folder, processor_folders
+
+    path = Path(path)
+    limit = limit if limit is not None else memory_limit()
+    if limit[0] is None:
+        return MemoryWay("whole", "no memory limit")
+    reader = "its reader checks the memory"
+    if not path.is_dir():
+        return MemoryWay("whole", f"a mesh file: {reader}")
+    try:
+        folder = mesh_folder(path, zone)
+    except MeshReadError:                # e.g. several regions: the reader says which
+        return MemoryWay("whole", reader)
+    if folder is not None:
+        return choose_way(str(path), [folder], limit, NOT_DECOMPOSED)
+    folders = [p / "constant" / "polyMesh" for p in processor_folders(path)]
+    if not folders:
+        return MemoryWay("whole", f"not a face-based mesh folder: {reader}")
+    return choose_way(str(path), folders, limit,
+                      None if has_addressing(folders) else NO_ADDRESSING)
+
+
+def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: float = 1.0,
+                  zone: str | None = None, readers=None, request=None,
+                  run=None, on_stream: OnStream | None = None):
+    """The mesh of the decomposed case ``path``, read and analysed streamed (module
+    docstring), its arrays in ``scratch``; ``request`` the
+    :class:`~caselint.partition.runners.PartitionRequest` of the run (default: the
+    processor folders), ``run`` the runner (default: one after the other here);
+    ``on_stream`` is told once, with the reason, and of each step."""
+    from caselint.mesh import read_mesh
+    from caselint.mesh.formats.face_folder import processor_folders
+    from caselint.partition.measure import analysed_in_partitions
+    from caselint.partition.plan import by_processors, capped
+    from caselint.partition.runners import serial
+
+    path = Path(path)
+    n_folders = len(processor_folders(path))
+    note = (f"{path}: checked partition by partition with its whole-mesh arrays on disk "
+            f"({way.reason})")
+    plan = None                          # the processor folders, capped: known before reading
+    if request is None or request.count is None:
+        plan = by_processors(path)
+        if way.piece_cells:
+            plan = capped(plan, way.piece_cells)     # folders too large for what is left
+    steps = 2 * n_folders + (plan.n_parts if plan is not None else request.count)
+    bar = on_stream(note, steps) if on_stream else contextlib.nullcontext(lambda n: None)
+    with bar as advance:
+        scratch.advance = advance        # the reader's steps (face_decomposed_disk)
+        mesh = read_mesh(path, scale_to_m=scale_to_m, zone=zone, readers=readers,
+                         memory_limit=(None, "streamed"), scratch=scratch)
+        if plan is None:
+            plan = request.plan(path, mesh.n_cells)
+        run = counted(serial if run is None else run, advance)
+        return analysed_in_partitions(mesh.data, plan, run, scratch)
+
+
+def counted(run: Callable, advance: Callable[[int], None]) -> Callable:
+    """The runner ``run``, calling ``advance(1)`` as each item is done."""
+    def counting(function: Callable, items: Iterable) -> Iterator:
+        for result in run(function, items):
+            advance(1)
+            yield result
+            del result              # not held while the next item is made
+    return counting
+
+
+__all__ = ["NOT_DECOMPOSED", "NO_ADDRESSING", "OnStream", "counted", "mesh_way",
+           "streamed_mesh"]
