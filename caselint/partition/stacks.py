@@ -98,7 +98,8 @@ def wall_layers(data: MeshData, plan: Plan, faces, *, max_aspect: float = 1.0,
     cells0 = data.owner[faces]
     first = by_partition(Walls(np.arange(len(faces)), faces), labels[cells0])
     leg = functools.partial(_leg, settings)
-    ended, rounds = in_rounds(leg, first, leg, team, face_flags(team, walled), labels, run)
+    flags = face_flags(data, labels, plan.n_parts, walled)
+    ended, rounds = in_rounds(leg, first, leg, team, flags, labels, run)
     walks = in_row_order([w for w, _ in ended], len(faces), "stack walks")
     if walks is None:                                  # no faces: the whole-mesh answer
         return _no_stacks(faces, cells0, settings.reach_m), 0
@@ -118,6 +119,7 @@ def _leg(settings: Settings, item: tuple):
     ended with the heights walked here, and the ones handed on."""
     walker, walled, batch = item
     piece, mesh = walker.piece, walker.mesh
+    walled = walker.flagged(walled)
     with walker.same_kernels():
         if isinstance(batch, Walls):
             local = walker.local_faces(batch.face)
