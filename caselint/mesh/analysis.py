@@ -30,8 +30,13 @@ class Mesh:
     """A read mesh with lazily derived topology and geometry (see the module docstring)."""
 
     def __init__(self, data: MeshData, *, geometry: Geometry | None = None,
-                 known: dict[str, Any] | None = None) -> None:
+                 known: dict[str, Any] | None = None, walks: Any = None) -> None:
         self.data = data
+        #: who walks across the mesh (gap rays, wall-layer stacks): None, the functions
+        #: of :mod:`caselint.mesh.rays` and :mod:`caselint.mesh.wall_layers` on the whole
+        #: mesh; else an object with their ``march``, ``cells_within`` and ``wall_layers``
+        #: that they call instead (:class:`caselint.partition.walks.PartitionWalks`)
+        self.walks = walks
         # results computed elsewhere (e.g. partition by partition, caselint.partition),
         # under the keys the computing functions use
         self._memo: dict[str, Any] = dict(known or {})

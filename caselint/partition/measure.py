@@ -27,9 +27,10 @@ from caselint.mesh.analysis import Mesh
 from caselint.mesh.geometry import Geometry
 from caselint.mesh.model import MeshData
 from caselint.mesh.topology import CellFaces, cell_faces
-from caselint.partition.piece import Piece, cut_piece
+from caselint.partition.piece import Piece, Pieces, cut_here
 from caselint.partition.plan import Plan
 from caselint.partition.runners import serial
+from caselint.partition.walks import PartitionWalks
 
 
 @dataclass(frozen=True)
@@ -90,6 +91,12 @@ def measure_piece(piece: Piece, names: Iterable[str] | None = None) -> PieceResu
                        piece.faces[inner], values)
 
 
+def measure_made(make: Callable[[object], Piece], names: tuple[str, ...] | None,
+                 item) -> PieceResult:
+    """:func:`measure_piece` of the piece ``make(item)`` (a partition's task)."""
+    return measure_piece(make(item), names)
+
+
 def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_internal: int,
              out: dict[str, np.ndarray] | None = None) -> dict[str, np.ndarray]:
     """Whole-mesh arrays from the partitions' results (each entity written once, by the
@@ -115,10 +122,12 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
 
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
                    run: Callable[[Callable, Iterable], Iterable] = serial,
-                   cf: CellFaces | None = None) -> dict[str, np.ndarray]:
+                   cf: CellFaces | None = None,
+                   pieces: Pieces | None = None) -> dict[str, np.ndarray]:
     """Every quantity ``names`` (default all) of ``data``, computed partition by partition
     as ``plan`` splits the cells; ``run(function, items)`` maps the work over the
-    partitions; ``cf`` the mesh's cell-face lists when already known."""
+    partitions; ``cf`` the mesh's cell-face lists when already known; ``pieces`` how the
+    tasks get their pieces (default: cut here, :func:`~caselint.partition.piece.cut_here`)."""
     if plan.n_cells != data.n_cells:
         raise ValueError(f"a plan for {plan.n_cells} cells given for a mesh of {data.n_cells}")
     names = None if names is None else tuple(names)
@@ -127,19 +136,26 @@ def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = Non
             cf = cell_faces(data)
     # cut as the runner asks for them, results written into the whole-mesh arrays as they
     # come: one piece and one piece's results at a time in memory when run here
-    pieces = (cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts))
-    results = run(functools.partial(measure_piece, names=names), pieces)
+    pieces = cut_here(data, cf, plan) if pieces is None else pieces
+    results = run(functools.partial(measure_made, pieces.make, names), pieces.items())
     return assemble(results, data.n_cells, data.n_faces, data.n_internal)
 
 
 def analysed_in_partitions(data: MeshData, plan: Plan,
-                           run: Callable[[Callable, Iterable], Iterable] = serial) -> Mesh:
+                           run: Callable[[Callable, Iterable], Iterable] = serial,
+                           pieces: Pieces | None = None,
+                           cf: CellFaces | None = None) -> Mesh:
     """The :class:`~caselint.mesh.analysis.Mesh` of ``data`` with its geometry and quality
     metrics computed partition by partition (equal to the bit to what it would compute
-    itself), given to it under the keys its own functions use."""
-    with kernels.decided_for(data.n_cells):
-        cf = cell_faces(data)
-    v = measure_pieces(data, plan, run=run, cf=cf)
+    itself), given to it under the keys its own functions use, and its walks (gap rays,
+    wall-layer stacks) made partition by partition too
+    (:class:`~caselint.partition.walks.PartitionWalks`); ``pieces`` and ``cf`` as for
+    :func:`measure_pieces`."""
+    if cf is None:
+        with kernels.decided_for(data.n_cells):
+            cf = cell_faces(data)
+    pieces = cut_here(data, cf, plan) if pieces is None else pieces
+    v = measure_pieces(data, plan, run=run, cf=cf, pieces=pieces)
     known = {
         "topology.cell_faces": cf,
         "geometry": geometry_of(v),
@@ -151,7 +167,7 @@ def analysed_in_partitions(data: MeshData, plan: Plan,
         "size_ratio.ratios": (v["growth_ratio"], v["mean_sizes"]),
         "size_ratio.volume_ratio": v["volume_ratio"],
     }
-    return Mesh(data, known=known)
+    return Mesh(data, known=known, walks=PartitionWalks(data, plan, run, pieces))
 
 
 def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
@@ -162,4 +178,4 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
 
 __all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
            "assemble", "geometry_of",
-           "measure_piece", "measure_pieces"]
+           "measure_made", "measure_piece", "measure_pieces"]

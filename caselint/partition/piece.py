@@ -24,6 +24,7 @@ never read. They carry no shape, so no per-shape metric is computed for them.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Callable, Iterator
 
 import numpy as np
 
@@ -53,7 +54,7 @@ def faces_of(cf: CellFaces, cells: np.ndarray) -> np.ndarray:
     return cf.of(cells).astype(np.int64)
 
 
-def _across(data: MeshData, faces: np.ndarray) -> np.ndarray:
+def cells_across(data: MeshData, faces: np.ndarray) -> np.ndarray:
     """The cells on either side of ``faces`` (unique, ascending)."""
     both = np.concatenate([data.owner[faces], data.neighbour[faces]])
     return np.unique(both[both >= 0]).astype(np.int64)
@@ -64,10 +65,10 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     ``cf`` the whole mesh's cell-face lists (:func:`caselint.mesh.topology.cell_faces`)."""
     owned = np.asarray(owned, dtype=np.int64)
     own_faces = faces_of(cf, owned)
-    ring1 = np.setdiff1d(_across(data, own_faces), owned, assume_unique=True)
+    ring1 = np.setdiff1d(cells_across(data, own_faces), owned, assume_unique=True)
     complete = np.union1d(owned, ring1)                     # cells with all their faces
     faces = np.unique(np.concatenate([own_faces, faces_of(cf, ring1)]))
-    cells = _across(data, faces)                            # owned, ring 1 and ring 2
+    cells = cells_across(data, faces)                       # owned, ring 1 and ring 2
     local_owner = np.searchsorted(cells, data.owner[faces])
     nbr = data.neighbour[faces]
     local_nbr = np.where(nbr >= 0, np.searchsorted(cells, np.maximum(nbr, 0)), -1)
@@ -111,4 +112,26 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     return Piece(index, local, cells, faces, points, owned_local, owned_faces, data.n_cells)
 
 
-__all__ = ["Piece", "cut_piece", "faces_of"]
+@dataclass(frozen=True)
+class Pieces:
+    """How the tasks of a plan get their pieces: ``items()`` one item per partition, in
+    order, each sent to a task, and ``make(item)``, run in the task, the piece (a
+    module-level function, so that it travels to a cluster's workers)."""
+
+    items: Callable[[], Iterator]
+    make: Callable[[object], Piece]
+
+
+def as_is(piece: Piece) -> Piece:
+    """The piece sent (cut by the client)."""
+    return piece
+
+
+def cut_here(data: MeshData, cf: CellFaces, plan) -> Pieces:
+    """Pieces cut from ``data`` by the client as the tasks start (one at a time when run
+    here) and sent to them; ``plan`` a :class:`~caselint.partition.plan.Plan`."""
+    return Pieces(lambda: (cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts)),
+                  as_is)
+
+
+__all__ = ["Piece", "Pieces", "as_is", "cells_across", "cut_here", "cut_piece", "faces_of"]
