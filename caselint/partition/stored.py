@@ -112,10 +112,11 @@ def read_stored(item: Stored) -> Piece:
             part = read_folder_mesh(mesh_dir)
             parts.append((number, part, _addressing(mesh_dir, part)))
         except (OSError, MeshReadError) as exc:
+            detail = exc.message if isinstance(exc, MeshReadError) else (exc.strerror or exc)
             raise MeshReadError(str(mesh_dir), (
-                f"partition {item.index}'s task cannot read its processor folder here "
-                f"({exc}): the workers must see the case at the same path as the client, "
-                "on storage they share with it")) from None
+                f"partition {item.index}'s task cannot read this processor folder where it "
+                f"runs ({detail}): the Dask workers must see the case at the same path as "
+                "the client, on storage they share with it")) from None
     with kernels.decided_for(item.whole_cells):
         sub, cells, faces, points = _joined(item, parts)
         if item.owned[0] == "processor":
