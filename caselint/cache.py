@@ -178,8 +178,8 @@ class MeshStore:
 
     def _in_partitions(self, path, mesh: "Mesh", scale_to_m: float, zone: str | None) -> "Mesh":
         """``mesh`` with its geometry, metrics and walks computed partition by partition;
-        the tasks read their pieces from a decomposed case's processor folders themselves
-        where they can (:mod:`caselint.partition.stored`)."""
+        on a cluster the tasks read their pieces from a decomposed case's processor folders
+        themselves where they can (:mod:`caselint.partition.stored`)."""
         from caselint.mesh import kernels
         from caselint.mesh.topology import cell_faces
         from caselint.partition.measure import analysed_in_partitions
@@ -190,8 +190,11 @@ class MeshStore:
         split = self.partitions.plan(path, mesh.n_cells)
         with kernels.decided_for(mesh.n_cells):
             cf = cell_faces(mesh.data)
-        pieces = None if zone is not None else stored_pieces(path, mesh.data, split, cf,
-                                                               scale_to_m)
+        # the workers of a cluster read their pieces themselves where they can; here, the
+        # pieces are cut from the mesh in memory (quicker than reading the folders again)
+        pieces = None
+        if self.partitions.scheduler is not None and zone is None:
+            pieces = stored_pieces(path, mesh.data, split, cf, scale_to_m)
         return analysed_in_partitions(mesh.data, split, self._run, pieces=pieces, cf=cf)
 
     def close(self) -> None:

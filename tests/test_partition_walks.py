@@ -213,6 +213,24 @@ def test_stacks_across_a_channel_are_cut_at_the_middle():
     np.testing.assert_array_equal(ref.n_layers, 5)
 
 
+def test_cells_of_the_stacks_marked_across_partitions(pipes, prism_plate):
+    """The cells of the stacks (what the layer rules leave to themselves): the pipes' 15 and
+    20 layers, walked from cell to cell through partitions, and the plate's prism layers."""
+    from caselint.rulekit.stacks import layer_cells
+
+    for data, wall in ((pipes[0], "wall"), (pipes[1], "wall"), (prism_plate, "floor")):
+        mesh = Mesh(data)
+        ref = wall_layers.wall_layers(mesh, _group(data, wall))
+        marked = layer_cells(mesh, ref.faces, ref.cells, ref.n_layers)
+        assert marked.sum() >= ref.n_layers.sum() // 2 and ref.n_layers.max() >= 5
+        ranges, dealt = _splits(data)
+        for split, least in ((ranges, 2), (dealt, ref.n_layers.max())):
+            got, rounds = part_stacks.layer_cells(data, split, ref.faces, ref.cells,
+                                                  ref.n_layers)
+            # dealt at random, nearly every layer is a round of its own
+            assert np.array_equal(got, marked) and rounds >= least
+
+
 # -- how the rounds run --------------------------------------------------------------------
 
 

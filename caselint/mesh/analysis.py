@@ -35,7 +35,8 @@ class Mesh:
         #: who walks across the mesh (gap rays, wall-layer stacks): None, the functions
         #: of :mod:`caselint.mesh.rays` and :mod:`caselint.mesh.wall_layers` on the whole
         #: mesh; else an object with their ``march``, ``cells_within`` and ``wall_layers``
-        #: that they call instead (:class:`caselint.partition.walks.PartitionWalks`)
+        #: (and ``layer_cells`` of :mod:`caselint.rulekit.stacks`) that they call instead
+        #: (:class:`caselint.partition.walks.PartitionWalks`)
         self.walks = walks
         # results computed elsewhere (e.g. partition by partition, caselint.partition),
         # under the keys the computing functions use

@@ -2,7 +2,8 @@
 :class:`~caselint.mesh.analysis.Mesh` made by
 :func:`caselint.partition.measure.analysed_in_partitions` calls for its gap rays
 (:func:`caselint.mesh.rays.march`, :func:`caselint.mesh.rays.cells_within`) and wall-layer
-stacks (:func:`caselint.mesh.wall_layers.wall_layers`) instead of walking the whole mesh.
+stacks (:func:`caselint.mesh.wall_layers.wall_layers`, and the cells in them,
+:func:`caselint.rulekit.stacks.layer_cells`) instead of walking the whole mesh.
 
 The mesh's functions check their input, keep their results in the mesh's memo and call
 the provider in place of the whole-mesh walk, so every rule and rule kit that casts rays
@@ -85,6 +86,15 @@ class PartitionWalks:
             run=self.run, team=self.team())
         self.rounds += rounds
         return layers
+
+    def layer_cells(self, faces: np.ndarray, cells: np.ndarray,
+                    n_layers: np.ndarray) -> np.ndarray:
+        """:func:`caselint.rulekit.stacks.layer_cells`: the cells of the stacks."""
+        marked, rounds = partition_stacks.layer_cells(self.data, self.plan, faces, cells,
+                                                      n_layers, run=self.run,
+                                                      team=self.team())
+        self.rounds += rounds
+        return marked
 
     def release(self) -> None:
         """Let go of the walkers (on a cluster: of the futures, freeing the workers)."""

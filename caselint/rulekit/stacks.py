@@ -43,7 +43,10 @@ def stack_cells(ctx: "RuleContext") -> np.ndarray:
 def layer_cells(mesh: "Mesh", faces: np.ndarray, cells: np.ndarray,
                 n_layers: np.ndarray) -> np.ndarray:
     """(C,) bool: the first ``n_layers[i]`` cells above each wall face ``faces[i]``, whose
-    cell is ``cells[i]`` (compiled on large meshes, else in lock step with numpy)."""
+    cell is ``cells[i]`` (compiled on large meshes, else in lock step with numpy; partition
+    by partition where the mesh walks so, :attr:`Mesh.walks`)."""
+    if mesh.walks is not None:
+        return mesh.walks.layer_cells(faces, cells, n_layers)
     kernel = compiled("layer_cells", mesh.n_cells)
     if kernel is None:
         return _walk(mesh, faces, cells, n_layers)
@@ -61,20 +64,38 @@ def _walk(mesh: "Mesh", faces: np.ndarray, cells: np.ndarray, n_layers: np.ndarr
     """Mark the first ``n_layers[i]`` cells above each wall face ``faces[i]`` (numpy)."""
     marked = np.zeros(mesh.n_cells, dtype=bool)
     rows = n_layers >= 1
-    cell, entry, left = cells[rows], faces[rows], n_layers[rows].astype(np.int64)
+    mark_on(mesh, cells[rows], faces[rows], n_layers[rows].astype(np.int64), marked)
+    return marked
+
+
+def mark_on(mesh: "Mesh", cell: np.ndarray, entry: np.ndarray, left: np.ndarray,
+            marked: np.ndarray, foreign: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
+    """Walk stacks on from ``cell`` (entered through ``entry``, ``left`` cells still to
+    mark, at least 1), marking their cells in ``marked``; with ``foreign`` (C,) bool, a
+    walk stops where it enters a foreign cell (unmarked). Returns the positions of those
+    walks and, for each, the cell it enters, its entry face and the cells left."""
+    at = np.arange(len(cell))
+    stopped = []
     while cell.size:
         marked[cell] = True
         left = left - 1
         go = left > 0
-        cell, entry, left = cell[go], entry[go], left[go]
+        cell, entry, left, at = cell[go], entry[go], left[go], at[go]
         if not cell.size:
             break
         opposite = _opposite(mesh, cell, entry)
         nxt = np.where(mesh.owner[opposite] == cell, mesh.neighbour[opposite],
                        mesh.owner[opposite])
         keep = (opposite >= 0) & (nxt >= 0)
-        cell, entry, left = nxt[keep], opposite[keep], left[keep]
-    return marked
+        cell, entry, left, at = nxt[keep], opposite[keep], left[keep], at[keep]
+        if foreign is not None:
+            away = foreign[cell]
+            stopped.append((at[away], cell[away], entry[away], left[away]))
+            cell, entry, left, at = cell[~away], entry[~away], left[~away], at[~away]
+    if not stopped:
+        none = np.zeros(0, dtype=np.int64)
+        return none, none, none, none
+    return tuple(np.concatenate(part) for part in zip(*stopped))
 
 
 def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray) -> np.ndarray:
