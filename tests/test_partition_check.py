@@ -14,10 +14,6 @@ kernels; partitions from the processor folders (``auto``) and ranges (``7``).
 
 from __future__ import annotations
 
-import dataclasses
-import json
-import subprocess
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -32,6 +28,7 @@ from caselint.partition.runners import PartitionRequest
 from caselint.partition.walks import PartitionWalks
 from caselint.rulekit.stacks import layer_cells
 from mesh_writers import write_decomposed
+from partition_checks import assert_same_fields, check_report
 
 pytestmark = pytest.mark.usefixtures("kernel_mode")
 
@@ -62,15 +59,6 @@ def cases(tmp_path_factory) -> dict[str, Path]:
             "slot": _decomposed(slot, "slot", dealt, slot_data)}
 
 
-def _assert_same(got, ref) -> None:
-    for f in dataclasses.fields(ref):
-        a, b = getattr(got, f.name), getattr(ref, f.name)
-        if not isinstance(b, np.ndarray):
-            assert a == b, f.name
-            continue
-        assert a.dtype == b.dtype and np.array_equal(a, b, equal_nan=b.dtype.kind == "f"), f.name
-
-
 @pytest.mark.parametrize("name", ["plate", "slot"])
 @pytest.mark.parametrize("count", [None, 7])
 def test_walks_of_a_mesh_in_partitions_are_the_whole_meshs(cases, name, count):
@@ -80,10 +68,10 @@ def test_walks_of_a_mesh_in_partitions_are_the_whole_meshs(cases, name, count):
     mesh = store.read(folder)
     assert isinstance(mesh.walks, PartitionWalks) and whole.walks is None
     faces = mesh.group_faces(WALLS[name])
-    _assert_same(rays.wall_rays(mesh, (WALLS[name],)), rays.wall_rays(whole, (WALLS[name],)))
-    _assert_same(rays.cells_within(mesh, faces, 0.004), rays.cells_within(whole, faces, 0.004))
+    assert_same_fields(rays.wall_rays(mesh, (WALLS[name],)), rays.wall_rays(whole, (WALLS[name],)))
+    assert_same_fields(rays.cells_within(mesh, faces, 0.004), rays.cells_within(whole, faces, 0.004))
     for reach in (0.0, np.inf):
-        _assert_same(wall_layers.wall_layers(mesh, faces, reach_m=reach),
+        assert_same_fields(wall_layers.wall_layers(mesh, faces, reach_m=reach),
                      wall_layers.wall_layers(whole, faces, reach_m=reach))
     layers = wall_layers.wall_layers(whole, faces)
     assert np.array_equal(layer_cells(mesh, layers.faces, layers.cells, layers.n_layers),
@@ -98,14 +86,8 @@ def test_walks_of_a_mesh_in_partitions_are_the_whole_meshs(cases, name, count):
 
 
 def _report(case: Path, *options: str) -> dict:
-    out = case.parent / "report.json"
-    done = subprocess.run([sys.executable, "-m", "caselint", "check", str(case), "--no-cache",
-                           "--format", "json", "--output", str(out), *options],
-                          capture_output=True, text=True, timeout=600)
-    assert done.returncode in (0, 1), done.stderr
-    report = json.loads(out.read_text())
-    for case_report in report["cases"]:
-        case_report.pop("duration_s", None)
+    code, report, err = check_report(case, *options)
+    assert code in (0, 1), err
     return report
 
 

@@ -12,10 +12,7 @@ random (every piece then needs every folder); a 2:1 octree of polyhedra.
 from __future__ import annotations
 
 import dataclasses
-import json
 import pickle
-import subprocess
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -30,6 +27,7 @@ from caselint.mesh.topology import cell_faces
 from caselint.partition import plan, stored
 from caselint.partition.piece import cut_piece
 from mesh_writers import write_decomposed
+from partition_checks import check_report
 
 
 @pytest.fixture(scope="module")
@@ -155,20 +153,6 @@ def _plate_case(plate, folder: Path) -> Path:
     return case
 
 
-def _report(case: Path, *options: str) -> tuple[int, dict | None, str]:
-    out = case.parent / "report.json"
-    out.unlink(missing_ok=True)
-    done = subprocess.run([sys.executable, "-m", "caselint", "check", str(case), "--no-cache",
-                           "--format", "json", "--output", str(out), *options],
-                          capture_output=True, text=True, timeout=600)
-    if not out.is_file():
-        return done.returncode, None, done.stderr
-    report = json.loads(out.read_text())
-    for case_report in report["cases"]:
-        case_report.pop("duration_s", None)
-    return done.returncode, report, done.stderr
-
-
 def _sent(args) -> int:
     """Pickled size of a task's arguments, the futures in them counted as nothing (they
     stay on the workers)."""
@@ -203,11 +187,11 @@ def test_workers_read_their_pieces_from_the_folders(plate, tmp_path, monkeypatch
         sent.append((getattr(function, "func", function).__name__, _sent(args), args))
         return submit(self, function, *args, **kwargs)
 
-    code, reference, _ = _report(case)
+    code, reference, _ = check_report(case)
     assert code == 1 and reference["cases"][0]["findings"]
     with distributed.LocalCluster(processes=True, n_workers=2, threads_per_worker=1,
                                   dashboard_address=None) as cluster:
-        code, got, err = _report(case, "--partitions", "auto", "--scheduler",
+        code, got, err = check_report(case, "--partitions", "auto", "--scheduler",
                                  cluster.scheduler_address)
         assert code == 1, err
         assert got == reference
@@ -216,12 +200,14 @@ def test_workers_read_their_pieces_from_the_folders(plate, tmp_path, monkeypatch
         [outcome] = lint_batch([case], partitions=request)
     assert outcome.error is None
     kinds = {name for name, _, _ in sent}
-    # the pieces measured and the walkers of the walks: read on the workers
-    assert {"measure_made", "walker_of", "_leg"} <= kinds
+    # the walkers, read on the workers, measured and walked there
+    assert {"walker_of", "measure_walker", "_leg", "_mark_leg"} <= kinds
     for name, size, args in sent:
         assert size < smallest / 10, (name, size)
-        if name in ("measure_made", "walker_of"):
+        if name == "walker_of":
             assert isinstance(args[0], stored.Stored) and size < 4_000
+        if name == "measure_walker":
+            assert isinstance(args[0], distributed.Future) and size < 200
 
 
 def test_a_worker_that_cannot_read_the_folders(plate, tmp_path):
@@ -232,7 +218,7 @@ def test_a_worker_that_cannot_read_the_folders(plate, tmp_path):
                                   dashboard_address=None) as cluster:
         with distributed.Client(cluster.scheduler_address) as client:
             client.run(_storage_unseen)
-        code, _, err = _report(case, "--partitions", "auto", "--scheduler",
+        code, _, err = check_report(case, "--partitions", "auto", "--scheduler",
                                cluster.scheduler_address)
     assert code == 2
     assert "Traceback" not in err

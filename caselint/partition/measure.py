@@ -27,6 +27,7 @@ from caselint.mesh.analysis import Mesh
 from caselint.mesh.geometry import Geometry
 from caselint.mesh.model import MeshData
 from caselint.mesh.topology import CellFaces, cell_faces
+from caselint.partition.exchange import Walker
 from caselint.partition.piece import Piece, Pieces, cut_here
 from caselint.partition.plan import Plan
 from caselint.partition.runners import serial
@@ -76,12 +77,15 @@ class PieceResult:
     values: dict[str, np.ndarray]
 
 
-def measure_piece(piece: Piece, names: Iterable[str] | None = None) -> PieceResult:
+def measure_piece(piece: Piece, names: Iterable[str] | None = None,
+                  mesh: Mesh | None = None) -> PieceResult:
     """The quantities ``names`` (default: all of :data:`QUANTITIES`) of the cells and faces
-    ``piece`` owns."""
+    ``piece`` owns; ``mesh`` the piece's mesh when its geometry is known (its memo is left
+    as it was: the metrics are computed in a mesh of their own)."""
     chosen = [BY_NAME[n] for n in names] if names is not None else list(QUANTITIES)
     with kernels.decided_for(piece.whole_cells):
-        mesh = Mesh(piece.data)
+        mesh = Mesh(piece.data) if mesh is None else Mesh(
+            piece.data, geometry=mesh.geometry, known={"topology.cell_faces": mesh.cell_faces})
         inner = piece.owned_faces[piece.owned_faces < piece.data.n_internal]
         values = {}
         for q in chosen:
@@ -89,6 +93,12 @@ def measure_piece(piece: Piece, names: Iterable[str] | None = None) -> PieceResu
             values[q.name] = np.ascontiguousarray(q.compute(mesh)[local])
     return PieceResult(piece.index, piece.cells[piece.owned_cells], piece.faces[piece.owned_faces],
                        piece.faces[inner], values)
+
+
+def measure_walker(names: tuple[str, ...] | None, walker: Walker) -> PieceResult:
+    """:func:`measure_piece` of a walker's piece, with the geometry the walker keeps for
+    its walks (a partition's task)."""
+    return measure_piece(walker.piece, names, walker.mesh)
 
 
 def measure_made(make: Callable[[object], Piece], names: tuple[str, ...] | None,
@@ -155,7 +165,11 @@ def analysed_in_partitions(data: MeshData, plan: Plan,
         with kernels.decided_for(data.n_cells):
             cf = cell_faces(data)
     pieces = cut_here(data, cf, plan) if pieces is None else pieces
-    v = measure_pieces(data, plan, run=run, cf=cf, pieces=pieces)
+    walks = PartitionWalks(data, plan, run, pieces)
+    # a check walks (gap rays at least): each piece is made once, its geometry computed
+    # once, and kept where the tasks run for the walks that follow
+    results = run(functools.partial(measure_walker, None), walks.team())
+    v = assemble(results, data.n_cells, data.n_faces, data.n_internal)
     known = {
         "topology.cell_faces": cf,
         "geometry": geometry_of(v),
@@ -167,7 +181,7 @@ def analysed_in_partitions(data: MeshData, plan: Plan,
         "size_ratio.ratios": (v["growth_ratio"], v["mean_sizes"]),
         "size_ratio.volume_ratio": v["volume_ratio"],
     }
-    return Mesh(data, known=known, walks=PartitionWalks(data, plan, run, pieces))
+    return Mesh(data, known=known, walks=walks)
 
 
 def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
@@ -178,4 +192,4 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
 
 __all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
            "assemble", "geometry_of",
-           "measure_made", "measure_piece", "measure_pieces"]
+           "measure_made", "measure_piece", "measure_pieces", "measure_walker"]

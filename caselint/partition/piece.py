@@ -56,8 +56,17 @@ def faces_of(cf: CellFaces, cells: np.ndarray) -> np.ndarray:
 
 def cells_across(data: MeshData, faces: np.ndarray) -> np.ndarray:
     """The cells on either side of ``faces`` (unique, ascending)."""
-    both = np.concatenate([data.owner[faces], data.neighbour[faces]])
-    return np.unique(both[both >= 0]).astype(np.int64)
+    nbr = data.neighbour[faces]
+    return ascending([data.owner[faces], nbr[nbr >= 0]], data.n_cells)
+
+
+def ascending(ids: list[np.ndarray], n: int) -> np.ndarray:
+    """The distinct ids (each in 0 .. n-1) of ``ids``, ascending (int64): a mark per id and
+    one pass over the marks, several times quicker than sorting the ids."""
+    seen = np.zeros(n, dtype=bool)
+    for part in ids:
+        seen[part] = True
+    return np.flatnonzero(seen)
 
 
 def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) -> Piece:
@@ -65,9 +74,13 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     ``cf`` the whole mesh's cell-face lists (:func:`caselint.mesh.topology.cell_faces`)."""
     owned = np.asarray(owned, dtype=np.int64)
     own_faces = faces_of(cf, owned)
-    ring1 = np.setdiff1d(cells_across(data, own_faces), owned, assume_unique=True)
-    complete = np.union1d(owned, ring1)                     # cells with all their faces
-    faces = np.unique(np.concatenate([own_faces, faces_of(cf, ring1)]))
+    complete = np.zeros(data.n_cells, dtype=bool)           # cells with all their faces
+    complete[owned] = True
+    is_owned = complete.copy()
+    ring1 = cells_across(data, own_faces)
+    ring1 = ring1[~is_owned[ring1]]
+    complete[ring1] = True
+    faces = ascending([own_faces, faces_of(cf, ring1)], data.n_faces)
     cells = cells_across(data, faces)                       # owned, ring 1 and ring 2
     local_owner = np.searchsorted(cells, data.owner[faces])
     nbr = data.neighbour[faces]
@@ -79,12 +92,12 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     np.cumsum(size, out=offsets[1:])
     base = np.repeat(start - offsets[:-1], size)
     global_fp = data.face_points[base + np.arange(int(offsets[-1]))]
-    points = np.unique(global_fp)
+    points = ascending([global_fp], data.n_points)
     face_points = np.searchsorted(points, global_fp).astype(data.face_points.dtype)
 
     shapes = []
     for block in data.shapes:
-        keep = np.isin(block.cells, complete)
+        keep = complete[block.cells]
         if not keep.any():
             continue
         conn = block.connectivity[keep]
@@ -108,7 +121,7 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
         report=ReadReport(clashing=np.searchsorted(faces, clash).astype(np.int64)),
     )
     owned_local = np.searchsorted(cells, owned)
-    owned_faces = np.flatnonzero(np.isin(local_owner, owned_local))
+    owned_faces = np.flatnonzero(is_owned[data.owner[faces]])
     return Piece(index, local, cells, faces, points, owned_local, owned_faces, data.n_cells)
 
 
@@ -134,4 +147,4 @@ def cut_here(data: MeshData, cf: CellFaces, plan) -> Pieces:
                   as_is)
 
 
-__all__ = ["Piece", "Pieces", "as_is", "cells_across", "cut_here", "cut_piece", "faces_of"]
+__all__ = ["Piece", "Pieces", "as_is", "ascending", "cells_across", "cut_here", "cut_piece", "faces_of"]

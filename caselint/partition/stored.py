@@ -95,8 +95,11 @@ def _processors_needed(data: MeshData, cf: CellFaces, labels: np.ndarray,
                        owned: np.ndarray) -> np.ndarray:
     """The processors holding a cell of the piece of ``owned``: the cells across the faces
     of the owned cells and of ring 1 (:func:`caselint.partition.piece.cut_piece`)."""
-    ring1 = np.setdiff1d(cells_across(data, faces_of(cf, owned)), owned, assume_unique=True)
-    cells = cells_across(data, faces_of(cf, np.union1d(owned, ring1)))
+    is_owned = np.zeros(data.n_cells, dtype=bool)
+    is_owned[owned] = True
+    ring1 = cells_across(data, faces_of(cf, owned))
+    ring1 = ring1[~is_owned[ring1]]
+    cells = cells_across(data, faces_of(cf, np.concatenate([owned, ring1])))
     return np.unique(labels[cells])
 
 
