@@ -11,11 +11,12 @@ or walks stacks gets the partitioned walks without knowing of them; the results 
 whole-mesh walks' to the bit (:mod:`caselint.partition.rays`,
 :mod:`caselint.partition.stacks`).
 
-The partitions' walkers (a piece each, with its geometry once computed) are made on the
-first walk and kept for the others where the runner runs its tasks
-(:func:`caselint.partition.runners.hold`: in this process, or on the cluster's workers,
-the client holding futures); each round of a walk sends a task the walks it takes on,
-the ids of the walls its walks can meet and that future.
+The partitions' walkers (a piece each, with its geometry once computed) are made once,
+when :func:`~caselint.partition.measure.analysed_in_partitions` measures them, and kept
+for every walk where the runner runs its tasks (:func:`caselint.partition.runners.hold`:
+in this process, or on the cluster's workers, the client holding futures); each round of
+a walk sends a task the walks it takes on, the ids of the walls its walks can meet and
+that future.
 """
 
 from __future__ import annotations
