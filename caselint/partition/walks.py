@@ -97,9 +97,5 @@ class PartitionWalks:
         self.rounds += rounds
         return marked
 
-    def release(self) -> None:
-        """Let go of the walkers (on a cluster: of the futures, freeing the workers)."""
-        self._team = None
-
 
 __all__ = ["PartitionWalks", "walker_of"]
