@@ -8,10 +8,12 @@ duct, binary files, addressing files), with its case file. It is checked as
 
 - ``whole``: the whole-mesh analysis;
 - ``partitions``: ``--partitions auto`` (the processor folders), analysed one after the
-  other in the process;
+  other in the process, the rays and wall walks too (exchange rounds between the pieces);
 - ``cluster``: ``--partitions auto --scheduler ADDRESS`` on a Dask ``LocalCluster`` of
-  ``--workers`` worker processes started by this script (the workers' own memory is not in
-  the peak, which is the client process's).
+  ``--workers`` worker processes started by this script; the workers read their pieces
+  from the processor folders (the client sends where they are), and the rays and wall
+  walks run there too, the walkers kept on the workers between rounds. The client's peak
+  and the largest worker's are recorded apart.
 
 Recorded: median wall time of ``--runs`` runs, time per million cells, the process's peak
 resident set (``VmHWM``), and whether the JSON report (run time removed) equals the whole
@@ -95,6 +97,20 @@ def run_once(case: Path, out: Path, extra: list[str]) -> dict:
     return result
 
 
+def workers_peak(address: str) -> float:
+    """The largest peak resident set of the cluster's workers so far (MB)."""
+    import distributed
+
+    def peak() -> float:                  # sent by value: the workers cannot import this file
+        for line in open("/proc/self/status").read().splitlines():
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1]) / 1024
+        return float("nan")
+
+    with distributed.Client(address) as client:
+        return max(client.run(peak).values())
+
+
 def report_text(path: Path) -> str | None:
     """The JSON report without its run time, for comparison (None when not written)."""
     if not path.is_file():
@@ -123,6 +139,8 @@ def measure(case: Path, runs: int, workers: int, limit: str | None) -> dict:
                 "hwm_mb": max(r["hwm_mb"] for r in results),
                 "code": results[-1]["code"], "stderr": results[-1]["stderr"],
                 "report": report_text(out),
+                "workers_mb": workers_peak(cluster.scheduler_address) if name == "cluster"
+                else None,
             }
     whole = rows["whole"]["report"]
     for row in rows.values():
@@ -139,13 +157,15 @@ def table(rows: dict, counts: dict, args) -> str:
         f"fresh process; LocalCluster of {args.workers} worker processes"
         + (f"; --memory-limit {args.memory_limit}" if args.memory_limit else "") + ".",
         "",
-        "| way | exit | wall s | s per M cells | peak RSS MB (client) | report equal to whole |",
-        "|---|---:|---:|---:|---:|---|",
+        "| way | exit | wall s | s per M cells | peak RSS MB (client) | peak RSS MB (each "
+        "worker) | report equal to whole |",
+        "|---|---:|---:|---:|---:|---:|---|",
     ]
     for name, row in rows.items():
         per = row["wall_s"] / (counts["cells"] / 1e6)
+        workers = "-" if row["workers_mb"] is None else f"{row['workers_mb']:.0f}"
         lines.append(f"| {name} | {row['code']} | {row['wall_s']:.1f} | {per:.2f} | "
-                     f"{row['hwm_mb']:.0f} | {'yes' if row['same'] else 'no'} |")
+                     f"{row['hwm_mb']:.0f} | {workers} | {'yes' if row['same'] else 'no'} |")
     for name, row in rows.items():
         if row["code"] not in (0, 1) and row["stderr"]:
             lines.append(f"\n{name}: {row['stderr'][0]}")

@@ -176,7 +176,7 @@ class MeshStore:
             mesh = read_mesh(path, scale_to_m=scale_to_m, tag_array=tag_array, tags=tags,
                              zone=zone, readers=readers, memory_limit=self.memory_limit)
             if self.partitions is not None:
-                mesh = self._in_partitions(path, mesh)
+                mesh = self._in_partitions(path, mesh, scale_to_m, zone)
             if key is not None:
                 self._fresh[settings] = key
         self._meshes[settings] = mesh
@@ -200,14 +200,26 @@ class MeshStore:
                              readers=readers, request=self.partitions, run=self._run,
                              on_stream=self.on_stream)
 
-    def _in_partitions(self, path, mesh: "Mesh") -> "Mesh":
-        """``mesh`` with its geometry and metrics computed partition by partition."""
+    def _in_partitions(self, path, mesh: "Mesh", scale_to_m: float, zone: str | None) -> "Mesh":
+        """``mesh`` with its geometry, metrics and walks computed partition by partition;
+        on a cluster the tasks read their pieces from a decomposed case's processor folders
+        themselves where they can (:mod:`caselint.partition.stored`)."""
+        from caselint.mesh import kernels
+        from caselint.mesh.topology import cell_faces
         from caselint.partition.measure import analysed_in_partitions
+        from caselint.partition.stored import stored_pieces
 
         if self._run is None:
             self._run = self.partitions.runner()
         split = self.partitions.plan(path, mesh.n_cells)
-        return analysed_in_partitions(mesh.data, split, self._run)
+        with kernels.decided_for(mesh.n_cells):
+            cf = cell_faces(mesh.data)
+        # the workers of a cluster read their pieces themselves where they can; here, the
+        # pieces are cut from the mesh in memory (quicker than reading the folders again)
+        pieces = None
+        if self.partitions.scheduler is not None and zone is None:
+            pieces = stored_pieces(path, mesh.data, split, cf, scale_to_m)
+        return analysed_in_partitions(mesh.data, split, self._run, pieces=pieces, cf=cf)
 
     def close(self) -> None:
         """Let go of the partitions' runner (a Dask client) and remove the streamed

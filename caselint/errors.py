@@ -123,6 +123,10 @@ class MeshReadError(UsageError):
         self.message = message
         super().__init__(f"{file}: {message}")
 
+    def __reduce__(self):
+        # rebuilt from both parts when it crosses to another process (a Dask task's error)
+        return type(self), (self.file, self.message)
+
 
 class PluginLoadError(UsageError):
     """A plugin distribution failed to load, or two plugins register the same id."""

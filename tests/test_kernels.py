@@ -41,7 +41,7 @@ from caselint.mesh.quality import (
 from caselint.mesh.refined import refined_block
 from caselint.mesh.stack_walk import StackState
 from caselint.mesh.size_ratio import mean_sizes, volume_ratio
-from caselint.rulekit.stacks import layer_cells
+from caselint.rulekit.stacks import layer_cells, mark_on
 from caselint.rules.mesh_integrity import (
     cell_closure,
     cell_pieces,
@@ -190,6 +190,12 @@ def _stopped_at_foreign_cells(mesh: Mesh, boundary: np.ndarray, wall: np.ndarray
         # where a walk is is kept for the walks handed over only
         rows = moved if f.name in _WHERE else slice(None)
         out[f"handed.stacks.{f.name}"] = getattr(stacks, f.name)[rows]
+    marked = np.zeros(mesh.n_cells, dtype=bool)
+    stopped = mark_on(mesh, mesh.owner[boundary], boundary, np.arange(boundary.size) % 8 + 1,
+                      marked, foreign)
+    order = np.argsort(stopped[0])                     # the stopped stacks in one order
+    out["handed.marks"] = marked
+    out.update({f"handed.marks.{k}": v[order] for k, v in enumerate(stopped)})
     assert out["handed.within.2"].any()               # some rays were stopped
     return out
 
@@ -238,6 +244,8 @@ def test_the_meshes_exercise_what_the_kernels_handle(monkeypatch):
     moved = block["handed.stacks.moved"]
     assert moved.any() and (block["handed.stacks.n_walked"][moved] > 1).any()
     assert (block["handed.stacks.jump_cell"] >= 1000).any()
+    # stack cells marked up to a foreign cell, and handed on with cells left to mark
+    assert block["handed.marks.0"].size and (block["handed.marks.3"] >= 1).all()
     for name in ("hex", "tet", "polyhedra"):
         within = _analyse(name, "numpy", monkeypatch)
         short, cells = within["within.short"], within["within.cells"]

@@ -17,6 +17,7 @@ import pytest
 
 import calibration
 from mesh_writers import write_decomposed
+from partition_checks import check_report
 from caselint.mesh import kernels
 from caselint.mesh.analysis import Mesh
 from caselint.mesh.reader import read_mesh
@@ -145,18 +146,8 @@ def test_assembly_refuses_a_plan_that_misses_cells(octree):
 
 
 def _report(case, *options) -> dict:
-    import json
-    import subprocess
-    import sys
-
-    out = case.parent / f"report{len(options)}.json"
-    done = subprocess.run([sys.executable, "-m", "caselint", "check", str(case), "--no-cache",
-                           "--format", "json", "--output", str(out), *options],
-                          capture_output=True, text=True, timeout=600)
-    assert done.returncode in (0, 1), done.stderr
-    report = json.loads(out.read_text())
-    for case_report in report["cases"]:
-        case_report.pop("duration_s", None)
+    code, report, err = check_report(case, *options)
+    assert code in (0, 1), err
     return report
 
 

@@ -33,6 +33,7 @@ from caselint.partition import exchange, plan
 from caselint.partition import rays as part_rays
 from caselint.partition import stacks as part_stacks
 from near_wall_meshes import geometric, stack
+from partition_checks import assert_same_fields
 from wall_meshes import pipe_o_grid
 
 # every test here runs with the numpy kernels and with the compiled ones
@@ -79,16 +80,6 @@ def _splits(data) -> list[plan.Plan]:
     return [plan.by_ranges(data.n_cells, 5), _dealt(data.n_cells, 4)]
 
 
-def _assert_same(got, ref) -> None:
-    for f in dataclasses.fields(ref):
-        a, b = getattr(got, f.name), getattr(ref, f.name)
-        if not isinstance(b, np.ndarray):
-            assert a == b, f.name
-            continue
-        assert a.dtype == b.dtype and a.shape == b.shape, f.name
-        assert np.array_equal(a, b, equal_nan=b.dtype.kind == "f"), f.name
-
-
 def _group(data, name: str) -> np.ndarray:
     faces = np.flatnonzero(data.face_group == data.group_names.index(name))
     return faces[data.neighbour[faces] < 0]
@@ -109,10 +100,10 @@ def test_gap_rays_across_partitions(slot):
     within = rays.cells_within(mesh, start, limits)
     for split in _splits(slot):
         got, rounds = part_rays.march(slot, split, start, wall)
-        _assert_same(got, ref)
+        assert_same_fields(got, ref)
         assert rounds > 2                            # rays handed over again and again
         counted, rounds = part_rays.cells_within(slot, split, start, limits)
-        _assert_same(counted, within)
+        assert_same_fields(counted, within)
         assert rounds > 2
 
 
@@ -126,8 +117,8 @@ def test_lost_rays_and_rays_at_the_step_limit(jittered_octree, slot):
     assert lost.any() and np.all(ref.cells[lost] > 1)   # lost on the way, not at the start
     within = rays.cells_within(octree, start, 0.3)
     for split in _splits(jittered_octree):
-        _assert_same(part_rays.march(jittered_octree, split, start, wall)[0], ref)
-        _assert_same(part_rays.cells_within(jittered_octree, split, start, 0.3)[0], within)
+        assert_same_fields(part_rays.march(jittered_octree, split, start, wall)[0], ref)
+        assert_same_fields(part_rays.cells_within(jittered_octree, split, start, 0.3)[0], within)
 
     mesh = Mesh(slot)
     start = mesh.boundary_faces
@@ -138,9 +129,9 @@ def test_lost_rays_and_rays_at_the_step_limit(jittered_octree, slot):
     within = rays.cells_within(mesh, start, 0.5, max_steps=3)
     split = _dealt(slot.n_cells, 3)
     got, rounds = part_rays.march(slot, split, start, wall, max_steps=3)
-    _assert_same(got, limited)
+    assert_same_fields(got, limited)
     assert rounds == 4                               # at random, nearly every step moves
-    _assert_same(part_rays.cells_within(slot, split, start, 0.5, max_steps=3)[0], within)
+    assert_same_fields(part_rays.cells_within(slot, split, start, 0.5, max_steps=3)[0], within)
 
 
 # -- wall-layer stacks ---------------------------------------------------------------------
@@ -149,7 +140,7 @@ def test_lost_rays_and_rays_at_the_step_limit(jittered_octree, slot):
 def _check_stacks(data, faces, split, **settings):
     ref = wall_layers.wall_layers(Mesh(data), faces, **settings)
     got, rounds = part_stacks.wall_layers(data, split, faces, **settings)
-    _assert_same(got, ref)
+    assert_same_fields(got, ref)
     return ref, rounds
 
 
@@ -172,7 +163,7 @@ def test_pipe_stacks_across_partitions(pipes):
             assert elsewhere.mean() > 0.5
             # the core cells' heights asked of their partitions, answered in any order
             got, _ = part_stacks.wall_layers(data, split, faces, run=_through_pickles)
-            _assert_same(got, ref)
+            assert_same_fields(got, ref)
         # a walk limit inside the stack
         ref, _ = _check_stacks(data, faces, _dealt(data.n_cells, 3), max_cells=6)
         assert set(ref.end.tolist()) == {wall_layers.END_LIMIT}
@@ -213,6 +204,24 @@ def test_stacks_across_a_channel_are_cut_at_the_middle():
     np.testing.assert_array_equal(ref.n_layers, 5)
 
 
+def test_cells_of_the_stacks_marked_across_partitions(pipes, prism_plate):
+    """The cells of the stacks (what the layer rules leave to themselves): the pipes' 15 and
+    20 layers, walked from cell to cell through partitions, and the plate's prism layers."""
+    from caselint.rulekit.stacks import layer_cells
+
+    for data, wall in ((pipes[0], "wall"), (pipes[1], "wall"), (prism_plate, "floor")):
+        mesh = Mesh(data)
+        ref = wall_layers.wall_layers(mesh, _group(data, wall))
+        marked = layer_cells(mesh, ref.faces, ref.cells, ref.n_layers)
+        assert marked.sum() >= ref.n_layers.sum() // 2 and ref.n_layers.max() >= 5
+        ranges, dealt = _splits(data)
+        for split, least in ((ranges, 2), (dealt, ref.n_layers.max())):
+            got, rounds = part_stacks.layer_cells(data, split, ref.faces, ref.cells,
+                                                  ref.n_layers)
+            # dealt at random, nearly every layer is a round of its own
+            assert np.array_equal(got, marked) and rounds >= least
+
+
 # -- how the rounds run --------------------------------------------------------------------
 
 
@@ -232,13 +241,13 @@ def test_tasks_travel_through_pickles_and_walkers_serve_several_walks(slot):
     wall[_group(slot, "walls")] = True
     split = plan.by_ranges(slot.n_cells, 3)
     got, _ = part_rays.march(slot, split, start, wall, run=_through_pickles)
-    _assert_same(got, rays.march(mesh, start, wall))
+    assert_same_fields(got, rays.march(mesh, start, wall))
     team = exchange.walkers(slot, split)
     faces = _group(slot, "walls")
     layers, _ = part_stacks.wall_layers(slot, split, faces, run=_through_pickles, team=team)
-    _assert_same(layers, wall_layers.wall_layers(mesh, faces))
+    assert_same_fields(layers, wall_layers.wall_layers(mesh, faces))
     again, _ = part_rays.march(slot, split, start, wall, team=team)
-    _assert_same(again, got)
+    assert_same_fields(again, got)
 
 
 def test_one_partition_walks_in_one_round_and_no_walks_in_none(slot):
@@ -247,16 +256,16 @@ def test_one_partition_walks_in_one_round_and_no_walks_in_none(slot):
     wall = np.ones(slot.n_faces, dtype=bool)
     whole = plan.by_ranges(slot.n_cells, 1)
     got, rounds = part_rays.march(slot, whole, start, wall)
-    _assert_same(got, rays.march(mesh, start, wall))
+    assert_same_fields(got, rays.march(mesh, start, wall))
     assert rounds == 1
     none = np.zeros(0, dtype=np.int64)
     got, rounds = part_rays.march(slot, whole, none, wall)
-    _assert_same(got, rays.march(mesh, none, wall))
+    assert_same_fields(got, rays.march(mesh, none, wall))
     assert rounds == 0
     counted, rounds = part_rays.cells_within(slot, whole, none, 0.1)
-    _assert_same(counted, rays.cells_within(mesh, none, 0.1))
+    assert_same_fields(counted, rays.cells_within(mesh, none, 0.1))
     layers, rounds = part_stacks.wall_layers(slot, whole, none)
-    _assert_same(layers, wall_layers.wall_layers(mesh, none))
+    assert_same_fields(layers, wall_layers.wall_layers(mesh, none))
     assert rounds == 0
 
 

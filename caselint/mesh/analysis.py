@@ -31,11 +31,17 @@ class Mesh:
 
     def __init__(self, data: MeshData, *, geometry: Geometry | None = None,
                  known: dict[str, Any] | None = None,
-                 keep: Callable[[str, Any], Any] | None = None) -> None:
+                 keep: Callable[[str, Any], Any] | None = None, walks: Any = None) -> None:
         self.data = data
         # where kept results go: ``keep(key, value)`` returns what to hold (e.g. its arrays
         # moved to disk by a streamed check, caselint.partition.scratch); None: as they are
         self._keep = keep
+        #: who walks across the mesh (gap rays, wall-layer stacks): None, the functions
+        #: of :mod:`caselint.mesh.rays` and :mod:`caselint.mesh.wall_layers` on the whole
+        #: mesh; else an object with their ``march``, ``cells_within`` and ``wall_layers``
+        #: (and ``layer_cells`` of :mod:`caselint.rulekit.stacks`) that they call instead
+        #: (:class:`caselint.partition.walks.PartitionWalks`)
+        self.walks = walks
         # results computed elsewhere (e.g. partition by partition, caselint.partition),
         # under the keys the computing functions use
         self._memo: dict[str, Any] = dict(known or {})

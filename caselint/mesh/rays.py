@@ -105,10 +105,13 @@ def march(mesh: "Mesh", start_faces: np.ndarray, wall_face: np.ndarray,
     if max_steps < 1:
         raise ValueError(f"max_steps must be at least 1, got {max_steps}")
     start_faces = np.asarray(start_faces, dtype=np.int64)
+    wall = _wall_mask(mesh, wall_face)
+    if mesh.walks is not None:              # partition by partition (Mesh.walks)
+        return mesh.walks.march(start_faces, wall, max_steps)
     origin, direction, ok = inward(mesh, start_faces)
     state = RayState.at_start(mesh.owner, start_faces, 1)
-    hit, status, width, cells, _ = march_on(mesh, origin, direction, ok, state,
-                                            _wall_mask(mesh, wall_face), max_steps)
+    hit, status, width, cells, _ = march_on(mesh, origin, direction, ok, state, wall,
+                                            max_steps)
     return RayHits(start_faces, hit, status, width, cells, origin, direction)
 
 
@@ -344,6 +347,8 @@ def cells_within(mesh: "Mesh", start_faces: np.ndarray, limit_m,
     limit = np.array(np.broadcast_to(np.asarray(limit_m, dtype=np.float64), (n,)))
     if not np.all(limit >= 0):
         raise ValueError("limit_m must be at least 0 (and not NaN)")
+    if mesh.walks is not None:              # partition by partition (Mesh.walks)
+        return mesh.walks.cells_within(start_faces, limit, max_steps)
     origin, direction, ok = inward(mesh, start_faces)
     state = RayState.at_start(mesh.owner, start_faces, 0.0)
     reached, short, _ = within_on(mesh, origin, direction, ok, limit, state, max_steps)

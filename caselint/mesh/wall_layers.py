@@ -186,6 +186,8 @@ def _walk(mesh: "Mesh", faces: np.ndarray, shape: tuple[float, float, float],
           turn_deg: float, max_cells: int, reach_m: float = math.inf) -> WallLayers:
     """Walk every stack (compiled, or in lock step with numpy) and sum up its layers;
     ``shape`` is (max_aspect, min_ratio, jump_ratio)."""
+    if mesh.walks is not None:              # partition by partition (Mesh.walks)
+        return mesh.walks.wall_layers(faces, shape, turn_deg, max_cells, reach_m)
     walled = np.zeros(mesh.n_faces, dtype=bool)
     walled[faces] = True
     extent = functools.partial(extents, mesh)

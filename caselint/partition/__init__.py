@@ -10,8 +10,12 @@ face metrics need, results put back together equal to the bit to the whole-mesh 
   the cells and faces it owns, and their assembly into whole-mesh arrays;
 - :mod:`caselint.partition.exchange`: walks that go on from partition to partition, handed
   over with their state in exchange rounds; :mod:`caselint.partition.rays` (gap rays) and
-  :mod:`caselint.partition.stacks` (wall-layer stacks) drive them;
+  :mod:`caselint.partition.stacks` (wall-layer stacks and their cells) drive them, and
+  :mod:`caselint.partition.walks` gives them to a mesh analysed in partitions;
+- :mod:`caselint.partition.stored`: pieces the tasks read themselves from the processor
+  folders of a decomposed case (on a cluster: the client sends where they are);
 - :mod:`caselint.partition.streaming`: a decomposed mesh over the memory limit checked
   partition by partition, its whole-mesh arrays memory-mapped in a
-  :mod:`caselint.partition.scratch` folder.
+  :mod:`caselint.partition.scratch` folder;
+- :mod:`caselint.partition.runners`: where the tasks run (here, or on Dask).
 """

@@ -66,6 +66,15 @@ class Walker:
         """Piece ids of faces of the piece given by their whole-mesh ids."""
         return np.searchsorted(self.piece.faces, faces)
 
+    def flagged(self, faces: np.ndarray | None) -> np.ndarray | None:
+        """(f,) bool over the piece's faces, True on ``faces`` (whole-mesh ids, from
+        :func:`face_flags`); None for None."""
+        if faces is None:
+            return None
+        out = np.zeros(self.piece.data.n_faces, dtype=bool)
+        out[self.local_faces(faces)] = True
+        return out
+
 
 def walkers(data: MeshData, plan: Plan) -> list[Walker]:
     """One :class:`Walker` per partition of ``plan`` (pieces cut from ``data``)."""
@@ -76,12 +85,19 @@ def walkers(data: MeshData, plan: Plan) -> list[Walker]:
     return [Walker(cut_piece(data, cf, plan.cells(k), k)) for k in range(plan.n_parts)]
 
 
-def face_flags(team: list[Walker], flags: np.ndarray | None) -> list:
-    """Each piece's part of the whole mesh's per-face ``flags`` (the walls a walk ends on
-    or stops at), or None for each."""
+def face_flags(data: MeshData, labels: np.ndarray, n_parts: int,
+               flags: np.ndarray | None) -> list:
+    """Per partition, the whole-mesh ids (ascending) of the faces flagged in ``flags``
+    (F,) bool (the walls a walk ends on or stops at) whose owner cell it owns, or None
+    each: the only flags its walks meet, as they step through owned cells only; small
+    enough to travel with every task (a partition's share of the walls)."""
     if flags is None:
-        return [None] * len(team)
-    return [np.ascontiguousarray(flags[w.piece.faces]) for w in team]
+        return [None] * n_parts
+    ids = np.flatnonzero(flags)
+    part = labels[data.owner[ids]]
+    order = np.argsort(part, kind="stable")
+    bounds = np.searchsorted(part[order], np.arange(n_parts + 1))
+    return [ids[order[a:b]] for a, b in zip(bounds, bounds[1:])]
 
 
 def take(batch, rows):
@@ -116,7 +132,8 @@ def in_rounds(start: Callable, first: list, resume: Callable, team: list[Walker]
     """Walk until every walk has ended: ``run(start, ...)`` on the ``first`` (partition,
     batch) pairs, then ``run(resume, ...)`` on the walks handed over, each to the partition
     owning the cell it enters (``labels``, :meth:`Plan.labels`), round after round. A task
-    gets ``(walker, flags, batch)`` (``flags`` the piece's :func:`face_flags`).
+    gets ``(walker, flags, batch)`` (``flags`` the partition's :func:`face_flags`; a
+    walker, or what :func:`caselint.partition.runners.hold` returned for it).
 
     Each task returns ``(ended, onward)``: what ended in it, and the batch of walks it
     hands over. Returns the ``ended`` of every task and the number of rounds.

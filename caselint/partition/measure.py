@@ -27,10 +27,12 @@ from caselint.mesh.analysis import Mesh
 from caselint.mesh.geometry import Geometry
 from caselint.mesh.model import MeshData
 from caselint.mesh.topology import CellFaces, cell_faces
-from caselint.partition.piece import Piece, cut_piece
+from caselint.partition.exchange import Walker
+from caselint.partition.piece import Piece, Pieces, cut_here
 from caselint.partition.plan import Plan
 from caselint.partition.runners import serial
 from caselint.partition.scratch import Scratch
+from caselint.partition.walks import PartitionWalks
 
 
 @dataclass(frozen=True)
@@ -76,12 +78,15 @@ class PieceResult:
     values: dict[str, np.ndarray]
 
 
-def measure_piece(piece: Piece, names: Iterable[str] | None = None) -> PieceResult:
+def measure_piece(piece: Piece, names: Iterable[str] | None = None,
+                  mesh: Mesh | None = None) -> PieceResult:
     """The quantities ``names`` (default: all of :data:`QUANTITIES`) of the cells and faces
-    ``piece`` owns."""
+    ``piece`` owns; ``mesh`` the piece's mesh when its geometry is known (its memo is left
+    as it was: the metrics are computed in a mesh of their own)."""
     chosen = [BY_NAME[n] for n in names] if names is not None else list(QUANTITIES)
     with kernels.decided_for(piece.whole_cells):
-        mesh = Mesh(piece.data)
+        mesh = Mesh(piece.data) if mesh is None else Mesh(
+            piece.data, geometry=mesh.geometry, known={"topology.cell_faces": mesh.cell_faces})
         inner = piece.owned_faces[piece.owned_faces < piece.data.n_internal]
         values = {}
         for q in chosen:
@@ -89,6 +94,18 @@ def measure_piece(piece: Piece, names: Iterable[str] | None = None) -> PieceResu
             values[q.name] = np.ascontiguousarray(q.compute(mesh)[local])
     return PieceResult(piece.index, piece.cells[piece.owned_cells], piece.faces[piece.owned_faces],
                        piece.faces[inner], values)
+
+
+def measure_walker(names: tuple[str, ...] | None, walker: Walker) -> PieceResult:
+    """:func:`measure_piece` of a walker's piece, with the geometry the walker keeps for
+    its walks (a partition's task)."""
+    return measure_piece(walker.piece, names, walker.mesh)
+
+
+def measure_made(make: Callable[[object], Piece], names: tuple[str, ...] | None,
+                 item) -> PieceResult:
+    """:func:`measure_piece` of the piece ``make(item)`` (a partition's task)."""
+    return measure_piece(make(item), names)
 
 
 def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_internal: int,
@@ -123,12 +140,13 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
 
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
                    run: Callable[[Callable, Iterable], Iterable] = serial,
-                   cf: CellFaces | None = None, scratch: Scratch | None = None
-                   ) -> dict[str, np.ndarray]:
+                   cf: CellFaces | None = None, pieces: Pieces | None = None,
+                   scratch: Scratch | None = None) -> dict[str, np.ndarray]:
     """Every quantity ``names`` (default all) of ``data``, computed partition by partition
     as ``plan`` splits the cells; ``run(function, items)`` maps the work over the
-    partitions; ``cf`` the mesh's cell-face lists when already known; with ``scratch``
-    the whole-mesh arrays are made there (on disk)."""
+    partitions; ``cf`` the mesh's cell-face lists when already known; ``pieces`` how the
+    tasks get their pieces (default: cut here, :func:`~caselint.partition.piece.cut_here`);
+    with ``scratch`` the whole-mesh arrays are made there (on disk)."""
     if plan.n_cells != data.n_cells:
         raise ValueError(f"a plan for {plan.n_cells} cells given for a mesh of {data.n_cells}")
     names = None if names is None else tuple(names)
@@ -137,24 +155,40 @@ def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = Non
             cf = cell_faces(data)
     # cut as the runner asks for them, results written into the whole-mesh arrays as they
     # come: one piece and one piece's results at a time in memory when run here
-    pieces = (cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts))
-    results = run(functools.partial(measure_piece, names=names), pieces)
+    pieces = cut_here(data, cf, plan) if pieces is None else pieces
+    results = run(functools.partial(measure_made, pieces.make, names), pieces.items())
     return assemble(results, data.n_cells, data.n_faces, data.n_internal,
                     empty=None if scratch is None else scratch.empty)
 
 
 def analysed_in_partitions(data: MeshData, plan: Plan,
                            run: Callable[[Callable, Iterable], Iterable] = serial,
+                           pieces: Pieces | None = None,
+                           cf: CellFaces | None = None,
                            scratch: Scratch | None = None) -> Mesh:
     """The :class:`~caselint.mesh.analysis.Mesh` of ``data`` with its geometry and quality
     metrics computed partition by partition (equal to the bit to what it would compute
-    itself), given to it under the keys its own functions use. With ``scratch`` every
-    whole-mesh array is kept on disk there, also what the mesh computes later."""
-    with kernels.decided_for(data.n_cells):
-        cf = cell_faces(data)
+    itself), given to it under the keys its own functions use, and its walks (gap rays,
+    wall-layer stacks) made partition by partition too
+    (:class:`~caselint.partition.walks.PartitionWalks`); ``pieces`` and ``cf`` as for
+    :func:`measure_pieces`. With ``scratch`` (a streamed check) every whole-mesh array is
+    kept on disk there, also what the mesh computes later, one piece at a time is in
+    memory, and the walks run over the whole mesh's arrays on disk (keeping every piece for
+    walks across partitions would not fit)."""
+    if cf is None:
+        with kernels.decided_for(data.n_cells):
+            cf = cell_faces(data)
+    walks = None
     if scratch is not None:
         cf = scratch.keep_large("cell_faces", cf)
-    v = measure_pieces(data, plan, run=run, cf=cf, scratch=scratch)
+        v = measure_pieces(data, plan, run=run, cf=cf, pieces=pieces, scratch=scratch)
+    else:
+        pieces = cut_here(data, cf, plan) if pieces is None else pieces
+        walks = PartitionWalks(data, plan, run, pieces)
+        # a check walks (gap rays at least): each piece is made once, its geometry computed
+        # once, and kept where the tasks run for the walks that follow
+        results = run(functools.partial(measure_walker, None), walks.team())
+        v = assemble(results, data.n_cells, data.n_faces, data.n_internal)
     known = {
         "topology.cell_faces": cf,
         "geometry": geometry_of(v),
@@ -166,7 +200,8 @@ def analysed_in_partitions(data: MeshData, plan: Plan,
         "size_ratio.ratios": (v["growth_ratio"], v["mean_sizes"]),
         "size_ratio.volume_ratio": v["volume_ratio"],
     }
-    return Mesh(data, known=known, keep=None if scratch is None else scratch.keep_large)
+    return Mesh(data, known=known, walks=walks,
+                keep=None if scratch is None else scratch.keep_large)
 
 
 def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
@@ -177,4 +212,4 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
 
 __all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
            "assemble", "geometry_of",
-           "measure_piece", "measure_pieces"]
+           "measure_made", "measure_piece", "measure_pieces", "measure_walker"]

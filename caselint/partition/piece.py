@@ -24,6 +24,7 @@ never read. They carry no shape, so no per-shape metric is computed for them.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Callable, Iterator
 
 import numpy as np
 
@@ -53,10 +54,19 @@ def faces_of(cf: CellFaces, cells: np.ndarray) -> np.ndarray:
     return cf.of(cells).astype(np.int64)
 
 
-def _across(data: MeshData, faces: np.ndarray) -> np.ndarray:
+def cells_across(data: MeshData, faces: np.ndarray) -> np.ndarray:
     """The cells on either side of ``faces`` (unique, ascending)."""
-    both = np.concatenate([data.owner[faces], data.neighbour[faces]])
-    return np.unique(both[both >= 0]).astype(np.int64)
+    nbr = data.neighbour[faces]
+    return ascending([data.owner[faces], nbr[nbr >= 0]], data.n_cells)
+
+
+def ascending(ids: list[np.ndarray], n: int) -> np.ndarray:
+    """The distinct ids (each in 0 .. n-1) of ``ids``, ascending (int64): a mark per id and
+    one pass over the marks, several times quicker than sorting the ids."""
+    seen = np.zeros(n, dtype=bool)
+    for part in ids:
+        seen[part] = True
+    return np.flatnonzero(seen)
 
 
 def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) -> Piece:
@@ -64,10 +74,14 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     ``cf`` the whole mesh's cell-face lists (:func:`caselint.mesh.topology.cell_faces`)."""
     owned = np.asarray(owned, dtype=np.int64)
     own_faces = faces_of(cf, owned)
-    ring1 = np.setdiff1d(_across(data, own_faces), owned, assume_unique=True)
-    complete = np.union1d(owned, ring1)                     # cells with all their faces
-    faces = np.unique(np.concatenate([own_faces, faces_of(cf, ring1)]))
-    cells = _across(data, faces)                            # owned, ring 1 and ring 2
+    complete = np.zeros(data.n_cells, dtype=bool)           # cells with all their faces
+    complete[owned] = True
+    is_owned = complete.copy()
+    ring1 = cells_across(data, own_faces)
+    ring1 = ring1[~is_owned[ring1]]
+    complete[ring1] = True
+    faces = ascending([own_faces, faces_of(cf, ring1)], data.n_faces)
+    cells = cells_across(data, faces)                       # owned, ring 1 and ring 2
     local_owner = np.searchsorted(cells, data.owner[faces])
     nbr = data.neighbour[faces]
     local_nbr = np.where(nbr >= 0, np.searchsorted(cells, np.maximum(nbr, 0)), -1)
@@ -78,12 +92,12 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     np.cumsum(size, out=offsets[1:])
     base = np.repeat(start - offsets[:-1], size)
     global_fp = data.face_points[base + np.arange(int(offsets[-1]))]
-    points = np.unique(global_fp)
+    points = ascending([global_fp], data.n_points)
     face_points = np.searchsorted(points, global_fp).astype(data.face_points.dtype)
 
     shapes = []
     for block in data.shapes:
-        keep = np.isin(block.cells, complete)
+        keep = complete[block.cells]
         if not keep.any():
             continue
         conn = block.connectivity[keep]
@@ -107,8 +121,30 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
         report=ReadReport(clashing=np.searchsorted(faces, clash).astype(np.int64)),
     )
     owned_local = np.searchsorted(cells, owned)
-    owned_faces = np.flatnonzero(np.isin(local_owner, owned_local))
+    owned_faces = np.flatnonzero(is_owned[data.owner[faces]])
     return Piece(index, local, cells, faces, points, owned_local, owned_faces, data.n_cells)
 
 
-__all__ = ["Piece", "cut_piece", "faces_of"]
+@dataclass(frozen=True)
+class Pieces:
+    """How the tasks of a plan get their pieces: ``items()`` one item per partition, in
+    order, each sent to a task, and ``make(item)``, run in the task, the piece (a
+    module-level function, so that it travels to a cluster's workers)."""
+
+    items: Callable[[], Iterator]
+    make: Callable[[object], Piece]
+
+
+def as_is(piece: Piece) -> Piece:
+    """The piece sent (cut by the client)."""
+    return piece
+
+
+def cut_here(data: MeshData, cf: CellFaces, plan) -> Pieces:
+    """Pieces cut from ``data`` by the client as the tasks start (one at a time when run
+    here) and sent to them; ``plan`` a :class:`~caselint.partition.plan.Plan`."""
+    return Pieces(lambda: (cut_piece(data, cf, plan.cells(k), k) for k in range(plan.n_parts)),
+                  as_is)
+
+
+__all__ = ["Piece", "Pieces", "as_is", "ascending", "cells_across", "cut_here", "cut_piece", "faces_of"]

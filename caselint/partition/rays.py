@@ -135,7 +135,8 @@ def _cast(data, plan, start_faces, limit, wall, leg, run, team):
     labels = plan.labels()
     starts = Starts(np.arange(len(start_faces)), start_faces, limit)
     first = by_partition(starts, labels[data.owner[start_faces]])
-    ended, rounds = in_rounds(leg, first, leg, team, face_flags(team, wall), labels, run)
+    flags = face_flags(data, labels, plan.n_parts, wall)
+    ended, rounds = in_rounds(leg, first, leg, team, flags, labels, run)
     return in_row_order(ended, len(start_faces), "rays"), rounds
 
 
@@ -145,6 +146,7 @@ def _leg(max_steps: int, gaps: bool, item: tuple):
     on."""
     walker, wall, batch = item
     piece, mesh = walker.piece, walker.mesh
+    wall = walker.flagged(wall)
     with walker.same_kernels():
         if isinstance(batch, Starts):
             local = walker.local_faces(batch.face)

@@ -72,6 +72,12 @@ class DaskRunner:
             for item in itertools.islice(items, 1):
                 running.add(client.submit(function, item, pure=False))
 
+    def hold(self, function: Callable, items: Iterable) -> list:
+        """``function(item)`` for every item, computed and kept on the workers: one future
+        each, which tasks take in place of the value (Dask hands it to them there)."""
+        client = self._connect()
+        return [client.submit(function, item, pure=False) for item in items]
+
     def close(self) -> None:
         """Disconnect from the scheduler (the cluster keeps running)."""
         if self._client is not None:
@@ -118,10 +124,19 @@ class PartitionRequest:
         return serial if self.scheduler is None else DaskRunner(self.scheduler)
 
 
+def hold(run: Callable, function: Callable, items: Iterable) -> list:
+    """``function(item)`` for every item, kept where ``run`` runs its tasks: the values
+    themselves here, futures on a Dask cluster (:meth:`DaskRunner.hold`). Tasks of ``run``
+    take what this returns as they would take the values."""
+    if isinstance(run, DaskRunner):
+        return run.hold(function, items)
+    return [function(item) for item in items]
+
+
 def close_runner(run: Callable) -> None:
     """Close a runner that holds a connection."""
     if isinstance(run, DaskRunner):
         run.close()
 
 
-__all__ = ["AUTO_CELLS", "DaskRunner", "PartitionRequest", "close_runner", "serial"]
+__all__ = ["AUTO_CELLS", "DaskRunner", "PartitionRequest", "close_runner", "hold", "serial"]

@@ -36,6 +36,7 @@ from caselint.partition.exchange import (
 )
 from caselint.partition.plan import Plan
 from caselint.partition.runners import serial
+from caselint.rulekit.stacks import mark_on
 
 
 @dataclass(frozen=True, eq=False)
@@ -98,7 +99,8 @@ def wall_layers(data: MeshData, plan: Plan, faces, *, max_aspect: float = 1.0,
     cells0 = data.owner[faces]
     first = by_partition(Walls(np.arange(len(faces)), faces), labels[cells0])
     leg = functools.partial(_leg, settings)
-    ended, rounds = in_rounds(leg, first, leg, team, face_flags(team, walled), labels, run)
+    flags = face_flags(data, labels, plan.n_parts, walled)
+    ended, rounds = in_rounds(leg, first, leg, team, flags, labels, run)
     walks = in_row_order([w for w, _ in ended], len(faces), "stack walks")
     if walks is None:                                  # no faces: the whole-mesh answer
         return _no_stacks(faces, cells0, settings.reach_m), 0
@@ -118,6 +120,7 @@ def _leg(settings: Settings, item: tuple):
     ended with the heights walked here, and the ones handed on."""
     walker, walled, batch = item
     piece, mesh = walker.piece, walker.mesh
+    walled = walker.flagged(walled)
     with walker.same_kernels():
         if isinstance(batch, Walls):
             local = walker.local_faces(batch.face)
@@ -172,6 +175,51 @@ def _extent_task(item: tuple[Walker, _Asked]) -> tuple[np.ndarray, np.ndarray]:
                                          asked.origin, asked.normal)
 
 
+@dataclass(frozen=True, eq=False)
+class Marking:
+    """Stacks whose cells are being marked: the cell each enters next and its entry face
+    (whole-mesh ids), and the cells still to mark."""
+
+    cell: np.ndarray
+    entry: np.ndarray
+    left: np.ndarray
+
+
+def layer_cells(data: MeshData, plan: Plan, faces: np.ndarray, cells: np.ndarray,
+                n_layers: np.ndarray, run: Callable[[Callable, Iterable], Iterable] = serial,
+                team: list[Walker] | None = None) -> tuple[np.ndarray, int]:
+    """:func:`caselint.rulekit.stacks.layer_cells` of ``data``, partition by partition as
+    ``plan`` splits the cells (``run`` and ``team`` as for :func:`wall_layers`). Returns
+    the marked cells and the number of exchange rounds."""
+    team = walkers(data, plan) if team is None else team
+    labels = plan.labels()
+    rows = np.flatnonzero(np.asarray(n_layers) >= 1)
+    start = Marking(np.asarray(cells, dtype=np.int64)[rows],
+                    np.asarray(faces, dtype=np.int64)[rows],
+                    np.asarray(n_layers, dtype=np.int64)[rows])
+    first = by_partition(start, labels[start.cell])
+    ended, rounds = in_rounds(_mark_leg, first, _mark_leg, team, [None] * plan.n_parts,
+                              labels, run)
+    marked = np.zeros(data.n_cells, dtype=bool)
+    for done in ended:
+        marked[done] = True
+    return marked, rounds
+
+
+def _mark_leg(item: tuple) -> tuple[np.ndarray, Marking]:
+    """One partition's task: mark the cells of its stacks it owns; the cells marked (whole
+    ids) and the walks handed on."""
+    walker, _, batch = item
+    piece = walker.piece
+    marked = np.zeros(piece.data.n_cells, dtype=bool)
+    with walker.same_kernels():
+        at, cell, entry, left = mark_on(walker.mesh, walker.local_cells(batch.cell),
+                                        walker.local_faces(batch.entry), batch.left, marked,
+                                        walker.foreign)
+    return (piece.cells[np.flatnonzero(marked)],
+            Marking(piece.cells[cell], piece.faces[entry], left))
+
+
 def _no_stacks(faces: np.ndarray, cells0: np.ndarray, reach_m: float) -> layers.WallLayers:
     empty = np.zeros(0)
     none = np.zeros(0, dtype=np.int64)
@@ -180,4 +228,4 @@ def _no_stacks(faces: np.ndarray, cells0: np.ndarray, reach_m: float) -> layers.
                              np.zeros(0, np.int8), none, empty, empty, reach=reach_m)
 
 
-__all__ = ["Heights", "Settings", "Walks", "Walls", "wall_layers"]
+__all__ = ["Heights", "Marking", "Settings", "Walks", "Walls", "layer_cells", "wall_layers"]

@@ -106,7 +106,7 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
         if plan is None:
             plan = request.plan(path, mesh.n_cells)
         run = counted(serial if run is None else run, advance)
-        return analysed_in_partitions(mesh.data, plan, run, scratch)
+        return analysed_in_partitions(mesh.data, plan, run, scratch=scratch)
 
 
 def counted(run: Callable, advance: Callable[[int], None]) -> Callable:

@@ -10,7 +10,8 @@ defines it; where several qualify, as on a polyhedron whose far side is split by
 refinement, the one whose centroid lies farthest along the entry face's normal). In the
 numpy reference all stacks step together, one vectorised step per layer (no loop over faces
 or cells); on large meshes the compiled kernel :mod:`caselint.mesh.kernels.layer_cells`
-walks each stack on its own and marks the same cells.
+walks each stack on its own and marks the same cells. Both stop, where asked, at the cells
+of other partitions, their state handed on (:mod:`caselint.partition.stacks`).
 """
 
 from __future__ import annotations
@@ -43,38 +44,70 @@ def stack_cells(ctx: "RuleContext") -> np.ndarray:
 def layer_cells(mesh: "Mesh", faces: np.ndarray, cells: np.ndarray,
                 n_layers: np.ndarray) -> np.ndarray:
     """(C,) bool: the first ``n_layers[i]`` cells above each wall face ``faces[i]``, whose
-    cell is ``cells[i]`` (compiled on large meshes, else in lock step with numpy)."""
-    kernel = compiled("layer_cells", mesh.n_cells)
-    if kernel is None:
-        return _walk(mesh, faces, cells, n_layers)
+    cell is ``cells[i]`` (partition by partition where the mesh walks so,
+    :attr:`Mesh.walks`)."""
+    if mesh.walks is not None:
+        return mesh.walks.layer_cells(faces, cells, n_layers)
     marked = np.zeros(mesh.n_cells, dtype=bool)
-    cf, data = mesh.cell_faces, mesh.data
-    # the parts write True into one array: a cell in two stacks is marked either way
-    in_threads(lambda p: kernel.mark(
-        cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.owner,
-        mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids, cells[p], faces[p],
-        n_layers[p], marked), len(faces))
+    rows = np.asarray(n_layers) >= 1
+    mark_on(mesh, np.asarray(cells)[rows], np.asarray(faces)[rows],
+            np.asarray(n_layers)[rows], marked)
     return marked
 
 
-def _walk(mesh: "Mesh", faces: np.ndarray, cells: np.ndarray, n_layers: np.ndarray) -> np.ndarray:
-    """Mark the first ``n_layers[i]`` cells above each wall face ``faces[i]`` (numpy)."""
-    marked = np.zeros(mesh.n_cells, dtype=bool)
-    rows = n_layers >= 1
-    cell, entry, left = cells[rows], faces[rows], n_layers[rows].astype(np.int64)
+def mark_on(mesh: "Mesh", cell: np.ndarray, entry: np.ndarray, left: np.ndarray,
+            marked: np.ndarray, foreign: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
+    """Walk stacks on from ``cell`` (entered through ``entry``, ``left`` cells still to
+    mark, at least 1), marking their cells in ``marked`` (compiled on large meshes, else in
+    lock step with numpy); with ``foreign`` (C,) bool, a walk stops where it enters a
+    foreign cell (unmarked). Returns the positions of those walks and, for each, the cell
+    it enters, its entry face and the cells it has left to mark."""
+    cell, entry = np.array(cell, dtype=np.int64), np.array(entry, dtype=np.int64)
+    left = np.array(left, dtype=np.int64)
+    kernel = compiled("layer_cells", mesh.n_cells)
+    if kernel is None:
+        return _mark_lockstep(mesh, cell, entry, left, marked, foreign)
+    moved = np.zeros(len(cell), dtype=bool)
+    cf, data = mesh.cell_faces, mesh.data
+    stop = _NONE if foreign is None else foreign
+    # the parts write True into one array: a cell in two stacks is marked either way
+    in_threads(lambda p: kernel.mark(
+        cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.owner,
+        mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids, cell[p], entry[p],
+        left[p], marked, stop, moved[p]), len(cell))
+    at = np.flatnonzero(moved)
+    return at, cell[at], entry[at], left[at]
+
+
+#: ``foreign`` for the compiled kernel when no cell is foreign (a whole mesh).
+_NONE = np.zeros(0, dtype=bool)
+
+
+def _mark_lockstep(mesh: "Mesh", cell: np.ndarray, entry: np.ndarray, left: np.ndarray,
+                   marked: np.ndarray, foreign: np.ndarray | None) -> tuple[np.ndarray, ...]:
+    """:func:`mark_on` with numpy, all stacks a step at a time (the reference)."""
+    at = np.arange(len(cell))
+    stopped = []
     while cell.size:
         marked[cell] = True
         left = left - 1
         go = left > 0
-        cell, entry, left = cell[go], entry[go], left[go]
+        cell, entry, left, at = cell[go], entry[go], left[go], at[go]
         if not cell.size:
             break
         opposite = _opposite(mesh, cell, entry)
         nxt = np.where(mesh.owner[opposite] == cell, mesh.neighbour[opposite],
                        mesh.owner[opposite])
         keep = (opposite >= 0) & (nxt >= 0)
-        cell, entry, left = nxt[keep], opposite[keep], left[keep]
-    return marked
+        cell, entry, left, at = nxt[keep], opposite[keep], left[keep], at[keep]
+        if foreign is not None:
+            away = foreign[cell]
+            stopped.append((at[away], cell[away], entry[away], left[away]))
+            cell, entry, left, at = cell[~away], entry[~away], left[~away], at[~away]
+    if not stopped:
+        none = np.zeros(0, dtype=np.int64)
+        return none, none, none, none
+    return tuple(np.concatenate(part).astype(np.int64) for part in zip(*stopped))
 
 
 def _opposite(mesh: "Mesh", cells: np.ndarray, entry: np.ndarray) -> np.ndarray:

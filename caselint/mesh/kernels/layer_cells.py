@@ -46,9 +46,13 @@ def opposite(cf_offsets, cf_faces, face_offsets, face_points, owner, area, centr
 
 @jit
 def mark(cf_offsets, cf_faces, face_offsets, face_points, owner, neighbour, area, centroid,
-         cells, entries, n_layers, marked):
+         cells, entries, n_layers, marked, foreign, moved):
     """Set ``marked`` (C,) for the first ``n_layers[i]`` cells of the stack entered at
-    cell ``cells[i]`` through face ``entries[i]``."""
+    cell ``cells[i]`` through face ``entries[i]``. With ``foreign`` (C,) bool (empty:
+    none), a stack that steps into a foreign cell stops there unmarked: its cell, entry face
+    and cells still to mark are written back into ``cells``, ``entries`` and ``n_layers``
+    and ``moved[i]`` is set (a partition hands it on)."""
+    stops = foreign.shape[0] > 0
     for i in range(cells.shape[0]):
         cell, entry, left = cells[i], entries[i], n_layers[i]
         while left >= 1:
@@ -64,3 +68,7 @@ def mark(cf_offsets, cf_faces, face_offsets, face_points, owner, neighbour, area
             if nxt < 0:
                 break
             cell, entry = nxt, opp
+            if stops and foreign[cell]:
+                cells[i], entries[i], n_layers[i] = cell, entry, left
+                moved[i] = True
+                break
