@@ -41,7 +41,8 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 sys.path.insert(0, str(HERE.parent / "tests"))
 
-from bench_workers import hwm_mb  # noqa: E402  (benchmarks/ is not a package)
+from bench_table import publish  # noqa: E402  (benchmarks/ is not a package)
+from bench_workers import hwm_mb  # noqa: E402
 
 START, END = "<!-- partition-results:start -->", "<!-- partition-results:end -->"
 
@@ -191,14 +192,7 @@ def main() -> None:
         case, counts = make_case(parse_size(args.cells), args.procs, folder)
         rows = measure(case, args.runs, args.workers, args.memory_limit)
     text = table(rows, counts, args)
-    print(text)
-    if not args.no_readme:
-        readme = HERE / "README.md"
-        body = readme.read_text()
-        if START in body:
-            head, rest = body.split(START, 1)
-            body = head + START + "\n" + text + "\n" + END + rest.split(END, 1)[1]
-            readme.write_text(body)
+    publish(text + "\n", START, END, readme=not args.no_readme)
 
 
 if __name__ == "__main__":

@@ -48,6 +48,7 @@ sys.path.insert(0, str(HERE))
 sys.path.insert(0, str(HERE.parent / "tests"))
 
 from bench_partitions import make_case, parse_size, report_text, worker  # noqa: E402
+from bench_table import publish  # noqa: E402
 
 START, END = "<!-- stream-results:start -->", "<!-- stream-results:end -->"
 CGROUP_ROOT = Path("/sys/fs/cgroup/memory")
@@ -210,13 +211,7 @@ def main() -> None:
         case, counts = found
         rows, note = measure(case, args.limit, args.cgroup)
     text = table(rows, counts, args, note)
-    print(text)
-    if not args.no_readme:
-        readme = HERE / "README.md"
-        body = readme.read_text()
-        if START in body:
-            head, rest = body.split(START, 1)
-            readme.write_text(head + START + "\n" + text + "\n" + END + rest.split(END, 1)[1])
+    publish(text + "\n", START, END, readme=not args.no_readme)
 
 
 def existing_case(folder: Path) -> tuple[Path, dict] | None:
