@@ -24,8 +24,20 @@ most the limit), ``memory.failcnt`` (times the limit was hit and pages reclaimed
 whether the out-of-memory killer ran. Results go into ``benchmarks/README.md`` between
 the stream-results markers.
 
+Recorded too: the wall time per cell and the largest growth of the used space of the
+temporary folder's disk during the run (the scratch arrays, which are unlinked as they
+are mapped and so only seen there).
+
+A mesh too large for memory (``--cells 100M``): ``--no-whole`` skips the whole-mesh run
+(nothing to compare the report with), ``--limit default`` gives no ``--memory-limit``
+(the default share of the memory available), the case is written slab by slab
+(``duct_slabs.py``, implied from 20M cells; ``--gz`` compresses its files, a third of the
+disk space) and ``--results stream-100m-results`` writes a README block of its own.
+
 Run:  python benchmarks/bench_streaming.py [--cells 4M] [--procs 8] [--limit 1.2GB]
-      [--cgroup] [--work DIR] [--no-readme]
+      [--cgroup] [--work DIR] [--no-whole] [--slabs] [--gz] [--results NAME] [--no-readme]
+      python benchmarks/bench_streaming.py --cells 100M --procs 64 --gz --no-whole \
+      --limit default --work DIR --results stream-100m-results
 Not collected by pytest. (A script of its own rather than a way of ``bench_partitions.py``:
 that one measures the in-memory partitions and the Dask cluster.)
 """
@@ -36,6 +48,7 @@ import argparse
 import json
 import os
 import platform
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -50,7 +63,6 @@ sys.path.insert(0, str(HERE.parent / "tests"))
 from bench_partitions import make_case, parse_size, report_text, worker  # noqa: E402
 from bench_table import publish  # noqa: E402
 
-START, END = "<!-- stream-results:start -->", "<!-- stream-results:end -->"
 CGROUP_ROOT = Path("/sys/fs/cgroup/memory")
 
 
@@ -110,12 +122,15 @@ def run_once(case: Path, out: Path, extra: list[str], group: Cgroup | None = Non
     child = subprocess.Popen([sys.executable, str(HERE / "bench_partitions.py"), "--worker",
                               *argv], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                              text=True, preexec_fn=group.enter if group else None)
-    peak = {"RssAnon": 0.0, "RssFile": 0.0}
+    load = os.getloadavg()[0]
+    peak = {"RssAnon": 0.0, "RssFile": 0.0, "disk": 0.0}
     done = threading.Event()
+    disk_before = shutil.disk_usage(tempfile.gettempdir()).used
 
     def sample() -> None:
         while not done.is_set():
             now = status_mb(child.pid)
+            now["disk"] = (shutil.disk_usage(tempfile.gettempdir()).used - disk_before) / 1e6
             for key in peak:
                 peak[key] = max(peak[key], now.get(key, 0.0))
             time.sleep(0.02)
@@ -130,24 +145,28 @@ def run_once(case: Path, out: Path, extra: list[str], group: Cgroup | None = Non
                                                   "hwm_mb": float("nan")}
     result["hwm_mb"] *= 2**20 / 1e6             # bench_workers gives MiB
     result.update(anon_peak_mb=peak["RssAnon"], file_peak_mb=peak["RssFile"],
+                  scratch_peak_gb=peak["disk"] / 1e3, load=load,
                   stderr=[line for line in stderr.splitlines() if line.strip()][-2:])
     if group is not None:
         result.update(group.readings())
     return result
 
 
-def measure(case: Path, limit: str, cgroup: bool) -> tuple[dict, str]:
-    """The whole run, the streamed run and (optionally) the streamed run in a cgroup."""
+def measure(case: Path, limit: str, cgroup: bool, whole: bool = True) -> tuple[dict, str]:
+    """The whole run (unless not ``whole``), the streamed run and (optionally) the streamed
+    run in a cgroup; ``limit`` "default": no ``--memory-limit`` (the default share of the
+    memory available)."""
     rows, note = {}, ""
-    ways = [("whole", ["--memory-limit", "off"], None),
-            ("streamed", ["--memory-limit", limit], None)]
+    limited = [] if limit == "default" else ["--memory-limit", limit]
+    ways = [("whole", ["--memory-limit", "off"], None)] if whole else []
+    ways.append(("streamed", limited, None))
     group = None
     if cgroup:
         from caselint.mesh.limits import parse_size as size_of
 
         group, note = make_cgroup(size_of(limit))
         if group is not None:
-            ways.append(("streamed in cgroup", ["--memory-limit", limit], group))
+            ways.append(("streamed in cgroup", limited, group))
     try:
         for name, options, in_group in ways:
             out = case.parent / f"report-{name.replace(' ', '-')}.json"
@@ -157,9 +176,10 @@ def measure(case: Path, limit: str, cgroup: bool) -> tuple[dict, str]:
     finally:
         if group is not None:
             group.remove()
-    whole = rows["whole"]["report"]
+    whole = rows["whole"]["report"] if "whole" in rows else None
     for row in rows.values():
-        row["same"] = whole is not None and row.pop("report") == whole
+        report = row.pop("report")
+        row["same"] = None if "whole" not in rows else (whole is not None and report == whole)
     return rows, note
 
 
@@ -169,19 +189,25 @@ def table(rows: dict, counts: dict, args, note: str) -> str:
         f"Measured {time.strftime('%Y-%m-%d')} on {os.cpu_count()} cores, Python "
         f"{platform.python_version()}, {platform.machine()}; {counts['cells']:,} hexahedra "
         f"({counts['faces']:,} faces, {counts['points']:,} points) in {args.procs} processor "
-        f"folders (binary, addressing files); one run per way, each in a fresh process; "
-        f"limit {args.limit}. MB = 10^6 bytes.",
+        f"folders (binary{', gzip' if args.gz else ''}, addressing files"
+        f"{', written slab by slab by duct_slabs.py' if args.slabs else ''}); one run per way, "
+        f"each in a fresh process; limit {args.limit}. MB = 10^6 bytes; scratch GB: the "
+        f"largest growth of the used space of the temporary folder's disk during the run.",
         "",
-        "| way | exit | wall s | VmHWM MB | RssAnon peak MB | RssFile peak MB | cgroup max usage MB "
-        "| cgroup failcnt | report equal to whole |",
-        "|---|---:|---:|---:|---:|---:|---:|---:|---|",
+        "| way | exit | wall s | us per cell | VmHWM MB | RssAnon peak MB | RssFile peak MB "
+        "| scratch GB | cgroup max usage MB | cgroup failcnt | report equal to whole "
+        "| load average before |",
+        "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|---:|",
     ]
     for name, row in rows.items():
         usage = f"{row['max_usage_mb']:.0f} of {row['limit_mb']:.0f}" if "max_usage_mb" in row else "-"
         fails = str(row.get("failcnt", "-")) + (" (OOM kill)" if row.get("oom_killed") else "")
-        lines.append(f"| {name} | {row['code']} | {row['wall_s']:.1f} | {row['hwm_mb']:.0f} | "
-                     f"{row['anon_peak_mb']:.0f} | {row['file_peak_mb']:.0f} | {usage} | {fails} | "
-                     f"{'yes' if row['same'] else 'no'} |")
+        same = "-" if row["same"] is None else "yes" if row["same"] else "no"
+        lines.append(f"| {name} | {row['code']} | {row['wall_s']:.1f} | "
+                     f"{row['wall_s'] / counts['cells'] * 1e6:.2f} | {row['hwm_mb']:.0f} | "
+                     f"{row['anon_peak_mb']:.0f} | {row['file_peak_mb']:.0f} | "
+                     f"{row['scratch_peak_gb']:.1f} | {usage} | {fails} | {same} | "
+                     f"{row['load']:.1f} |")
     if note:
         lines.append(f"\ncgroup run skipped: {note}")
     for name, row in rows.items():
@@ -199,19 +225,34 @@ def main() -> None:
                         help="also run the streamed check inside a memory cgroup of the limit")
     parser.add_argument("--work", help="folder for the case (default: a temporary one; an "
                                        "existing case there is reused)")
+    parser.add_argument("--no-whole", action="store_true",
+                        help="skip the whole-mesh run (a mesh too large for memory)")
+    parser.add_argument("--slabs", action="store_true",
+                        help="write the case slab by slab (duct_slabs.py; implied from 20M)")
+    parser.add_argument("--gz", action="store_true", help="gzip the case's files")
+    parser.add_argument("--results", default="stream-results",
+                        help="name of the README block to write (default stream-results)")
     parser.add_argument("--no-readme", action="store_true", help="print the table only")
     args = parser.parse_args()
+    args.slabs = args.slabs or parse_size(args.cells) >= 20_000_000
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(args.work or tmp)
         folder.mkdir(parents=True, exist_ok=True)
         found = existing_case(folder)
         if found is None:
-            found = make_case(parse_size(args.cells), args.procs, folder)
+            if args.slabs:
+                from duct_slabs import make_slab_case
+
+                found = make_slab_case(parse_size(args.cells), args.procs, folder, gz=args.gz,
+                                       progress=True)
+            else:
+                found = make_case(parse_size(args.cells), args.procs, folder)
             (folder / "counts.json").write_text(json.dumps(found[1]))
         case, counts = found
-        rows, note = measure(case, args.limit, args.cgroup)
+        rows, note = measure(case, args.limit, args.cgroup, whole=not args.no_whole)
     text = table(rows, counts, args, note)
-    publish(text + "\n", START, END, readme=not args.no_readme)
+    publish(text + "\n", f"<!-- {args.results}:start -->", f"<!-- {args.results}:end -->",
+            readme=not args.no_readme)
 
 
 def existing_case(folder: Path) -> tuple[Path, dict] | None:

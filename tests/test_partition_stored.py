@@ -210,6 +210,48 @@ def test_workers_read_their_pieces_from_the_folders(plate, tmp_path, monkeypatch
             assert isinstance(args[0], distributed.Future) and size < 200
 
 
+def test_a_streamed_check_on_a_cluster_sends_paths_not_pieces(plate, tmp_path, monkeypatch):
+    """A case over the memory limit, streamed (arrays on disk here) with its partitions on
+    a cluster: the workers read their pieces from the processor folders, the client sends
+    paths; the report equals the whole-mesh check's."""
+    import distributed
+
+    from caselint.batch import lint_batch
+    from caselint.partition import streaming
+    from caselint.partition.runners import PartitionRequest
+
+    case = _plate_case(plate, tmp_path)
+    way = streaming.mesh_way(case.parent / "plate", (10**15, "test"))
+    between = (way.need + way.streamed) // 2          # streamed, each folder whole
+    sent = []
+    submit = distributed.Client.submit
+
+    def recording(self, function, *args, **kwargs):
+        sent.append((getattr(function, "func", function).__name__, _sent(args), args))
+        return submit(self, function, *args, **kwargs)
+
+    code, reference, _ = check_report(case, "--memory-limit", "off")
+    assert code == 1 and reference["cases"][0]["findings"]
+    with distributed.LocalCluster(processes=True, n_workers=2, threads_per_worker=1,
+                                  dashboard_address=None) as cluster:
+        code, got, err = check_report(case, "--memory-limit", str(between), "--partitions",
+                                      "auto", "--scheduler", cluster.scheduler_address)
+        assert code == 1, err
+        assert "checked partition by partition with its whole-mesh arrays on disk" in err
+        assert "large graph" not in err
+        assert got == reference
+        monkeypatch.setattr(distributed.Client, "submit", recording)
+        request = PartitionRequest.parse("auto", cluster.scheduler_address)
+        [outcome] = lint_batch([case], partitions=request,
+                               memory_limit=(between, "test"))
+    assert outcome.error is None
+    measured = [args for name, _, args in sent if name == "measure_made"]
+    assert len(measured) == 3                             # one task per processor folder
+    for name, size, args in sent:
+        assert size < 4_000, (name, size)
+    assert all(isinstance(args[0], stored.Stored) for args in measured)
+
+
 def test_a_worker_that_cannot_read_the_folders(plate, tmp_path):
     import distributed
 

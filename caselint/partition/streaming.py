@@ -82,11 +82,13 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     :class:`~caselint.partition.runners.PartitionRequest` of the run (default: the
     processor folders), ``run`` the runner (default: one after the other here);
     ``on_stream`` is told once, with the reason, and of each step."""
-    from caselint.mesh import read_mesh
+    from caselint.mesh import kernels, read_mesh
     from caselint.mesh.formats.face_folder import processor_folders
+    from caselint.mesh.topology import cell_faces
     from caselint.partition.measure import analysed_in_partitions
     from caselint.partition.plan import by_processors, capped
     from caselint.partition.runners import serial
+    from caselint.partition.stored import stored_pieces
 
     path = Path(path)
     n_folders = len(processor_folders(path))
@@ -106,7 +108,15 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
         if plan is None:
             plan = request.plan(path, mesh.n_cells)
         run = counted(serial if run is None else run, advance)
-        return analysed_in_partitions(mesh.data, plan, run, scratch=scratch)
+        cf = pieces = None
+        if request is not None and request.scheduler is not None and zone is None:
+            # on a cluster the tasks read their pieces from the processor folders (a path
+            # each) rather than be sent them from the arrays on disk here
+            with kernels.decided_for(mesh.n_cells):
+                cf = scratch.keep_large("cell_faces", cell_faces(mesh.data))
+            pieces = stored_pieces(path, mesh.data, plan, cf, scale_to_m)
+        return analysed_in_partitions(mesh.data, plan, run, pieces=pieces, cf=cf,
+                                      scratch=scratch)
 
 
 def counted(run: Callable, advance: Callable[[int], None]) -> Callable:
