@@ -246,7 +246,8 @@ def test_a_streamed_check_on_a_cluster_sends_paths_not_pieces(plate, tmp_path, m
                                memory_limit=(between, "test"))
     assert outcome.error is None
     measured = [args for name, _, args in sent if name == "measure_made"]
-    assert len(measured) == 3                             # one task per processor folder
+    folders = sorted((case.parent / "plate").glob("processor*"))
+    assert len(measured) == len(folders) > 1               # one task per processor folder
     for name, size, args in sent:
         assert size < 4_000, (name, size)
     assert all(isinstance(args[0], stored.Stored) for args in measured)
