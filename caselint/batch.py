@@ -19,6 +19,7 @@ parent's date.
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import os
 from dataclasses import dataclass
@@ -49,6 +50,9 @@ class CaseOutcome:
     path: str
     report: "CaseReport | None" = None
     error: str | None = None
+    #: what the user should know of how the case was checked, not yet told (a worker's
+    #: note that it streamed the mesh)
+    notes: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -77,7 +81,9 @@ def _run_task(task: _Task, registry: "Registry | None" = None,
 
     if registry is None:
         registry = Registry(get_plugin_manager(blocked=task.blocked))
-    store = MeshStore(task.cache, task.memory_limit, task.partitions, on_stream)
+    notes: list[str] = []
+    store = MeshStore(task.cache, task.memory_limit, task.partitions,
+                      on_stream if on_stream is not None else _noted(notes))
     extra = {} if task.today is None else {"today": task.today}
     out = []
     try:
@@ -85,13 +91,24 @@ def _run_task(task: _Task, registry: "Registry | None" = None,
             try:
                 report = api.lint_case(case, rule_sets=task.rule_sets, registry=registry,
                                        read_mesh=store.read, label=path, **extra)
-                out.append((index, CaseOutcome(path, report=report)))
+                out.append((index, CaseOutcome(path, report=report, notes=tuple(notes))))
             except UsageError as exc:
-                out.append((index, CaseOutcome(path, error=str(exc))))
+                out.append((index, CaseOutcome(path, error=str(exc), notes=tuple(notes))))
+            notes.clear()
         store.save()
     finally:
         store.close()           # also on Ctrl-C: streamed meshes' scratch folders go
     return out
+
+
+def _noted(notes: list[str]) -> "OnStream":
+    """An ``on_stream`` for a worker, which cannot tell the user: the note is kept in
+    ``notes`` for the case's outcome, the steps are not shown."""
+    @contextlib.contextmanager
+    def noted(note: str, steps: int):
+        notes.append(note)
+        yield lambda n: None
+    return noted
 
 
 def _load_and_group(paths: list[str], registry: "Registry"
@@ -140,7 +157,8 @@ def lint_batch(
     :data:`caselint.mesh.limits.MemoryLimit`) holds for every mesh the workers read;
     ``partitions`` has each mesh analysed partition by partition (on its scheduler, if it
     names one). ``on_stream(note, steps)`` is told when a mesh too large for the limit is
-    streamed (:mod:`caselint.partition.streaming`) in this process (jobs=1, no scheduler).
+    streamed (:mod:`caselint.partition.streaming`) in this process (jobs=1, no scheduler);
+    a worker that streams one puts the note in the case's outcome (``notes``) instead.
     :raises UsageError: ``jobs`` below 1, or the Dask scheduler cannot be used.
     """
     from caselint.engine.plugins import get_plugin_manager

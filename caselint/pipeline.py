@@ -175,6 +175,7 @@ def run_check(options: CheckOptions, pm: "pluggy.PluginManager | None" = None) -
                               on_stream=options.on_stream)
     checked = []
     for outcome in outcomes:
+        run.messages.extend(f"note: {note}" for note in outcome.notes)
         if outcome.error is not None:
             run.messages.append(f"error: {outcome.error}")
             run.bad_input = True

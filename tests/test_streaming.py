@@ -103,6 +103,33 @@ def test_streamed_check_gives_the_whole_mesh_report(plate, tmp_path, kind):
     assert _listing(case.parent) == before                # nothing written beside the case
 
 
+def test_workers_that_stream_have_their_note_told(plate, tmp_path):
+    """With --jobs the cases are checked in worker processes, which cannot write to the
+    terminal: each streamed case's note is told by the parent, once."""
+    import shutil
+
+    case = plate["decomposed"]
+    copy = tmp_path / "twin"
+    shutil.copytree(case.parent / "plate", copy / "plate2")
+    twin = copy / "twin.caselint.yaml"
+    twin.write_text(case.read_text().replace("file: plate", "file: plate2"))
+    outputs = tmp_path / "out"
+    outputs.mkdir()
+    done = subprocess.run([sys.executable, "-m", "caselint", "check", str(case), str(twin),
+                           "--no-cache", "--jobs", "2", "--memory-limit", _between(case),
+                           "--format", "json", "--output", str(outputs / "r.json")],
+                          capture_output=True, text=True, timeout=600,
+                          env={**os.environ, "TMPDIR": str(tmp_path)})
+    assert done.returncode in (0, 1), done.stderr
+    notes = [line for line in done.stderr.splitlines() if line.startswith("caselint: note:")]
+    assert len(notes) == 2, done.stderr
+    assert {str(case.parent / "plate"), str(copy / "plate2")} == {
+        line.split()[2].rstrip(":") for line in notes}
+    assert all("checked partition by partition with its whole-mesh arrays on disk" in line
+               for line in notes)
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(PREFIX)]
+
+
 def test_a_mesh_that_cannot_be_streamed_is_refused_with_what_would_work(plate, tmp_path):
     limit = _between(plate["decomposed"])
     for name, reason in (("single", streaming.NOT_DECOMPOSED),
