@@ -40,7 +40,8 @@ def _case(folder: Path, mesh_name: str, sample_case: Path) -> Path:
 
 @pytest.fixture(scope="module")
 def plate(tmp_path_factory):
-    """(decomposed case file, plain mesh-folder case file, plate mesh data)."""
+    """(decomposed case file, plain mesh-folder case file, plate mesh data, the processor
+    of each cell)."""
     folder = tmp_path_factory.mktemp("stream")
     sample = calibration.layer_growth(folder)
     data = read_mesh(sample.case.with_suffix(".msh")).data
@@ -51,7 +52,7 @@ def plate(tmp_path_factory):
     write_face_folder(folder / "single" / "constant" / "polyMesh", data, binary=True)
     return {"decomposed": _case(folder, "plate", sample.case),
             "loose": _case(folder, "loose", sample.case),
-            "single": _case(folder, "single", sample.case), "data": data}
+            "single": _case(folder, "single", sample.case), "data": data, "part": part}
 
 
 def _between(case: Path) -> str:
@@ -169,6 +170,82 @@ def test_scratch_folder_goes_after_an_error(plate, tmp_path, monkeypatch):
         lint_batch([str(plate["decomposed"])], memory_limit=(limit, "test"))
     assert len(seen) == 1 and seen[0].name.startswith(PREFIX)   # it was there, in TMPDIR
     assert list(tmp_path.glob(f"{PREFIX}*")) == []
+
+
+def _scratch_in(tmp_path: Path, monkeypatch) -> None:
+    """TMPDIR set to ``tmp_path`` for the checks run in this process."""
+    import tempfile
+
+    monkeypatch.setenv("TMPDIR", str(tmp_path))
+    monkeypatch.setattr(tempfile, "tempdir", None)        # TMPDIR read again
+
+
+def test_refused_up_front_when_the_scratch_disk_is_too_small(plate, tmp_path, monkeypatch):
+    import shutil
+
+    from caselint.mesh.limits import SCRATCH_BYTES_PER_CELL, format_size
+    from test_cli import run_cli
+
+    case = plate["decomposed"]
+    limit = _between(case)
+    data, part = plate["data"], plate["part"]
+    # the processor folders' faces: each face once, those between two folders twice
+    inner = data.neighbour >= 0
+    faces = data.n_faces + int(np.count_nonzero(part[data.owner[inner]] !=
+                                                 part[data.neighbour[inner]]))
+    assert faces // 3 < data.n_cells                      # charged by its cells
+    need = SCRATCH_BYTES_PER_CELL * data.n_cells
+    _scratch_in(tmp_path, monkeypatch)
+    usage = shutil.disk_usage(tmp_path)
+    monkeypatch.setattr(shutil, "disk_usage", lambda path: usage._replace(free=need // 2))
+    code, out, err = run_cli("check", str(case), "--no-cache", "--memory-limit", limit)
+    assert code == 2 and out == ""
+    assert f"cannot read the mesh: {case.parent / 'plate'}: no room in the scratch folder " \
+           f"{tmp_path / PREFIX}" in err
+    assert f"this check needs about {format_size(need)} there (about 700 bytes per cell, " \
+           f"estimated from the mesh files), and {format_size(need // 2)} is free on its " \
+           "disk; set TMPDIR to a folder on a disk with more room, or raise --memory-limit" in err
+    whole = streaming.mesh_way(case.parent / "plate", (10**15, "test")).need
+    assert f"to the whole-mesh estimate (about {format_size(whole)}) so that" in err
+    assert "partition by partition" not in err            # refused before it began
+    assert "Traceback" not in err
+    assert list(tmp_path.iterdir()) == []                 # the scratch folder went
+    # with room enough (the same estimate, one byte more free) it streams
+    monkeypatch.setattr(shutil, "disk_usage", lambda path: usage._replace(free=need + 1))
+    code, _, err = run_cli("check", str(case), "--no-cache", "--memory-limit", limit)
+    assert code in (0, 1) and "checked partition by partition" in err, err
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_disk_that_fills_during_the_check_stops_it_with_exit_2(plate, tmp_path, monkeypatch):
+    import errno
+
+    from test_cli import run_cli
+
+    _scratch_in(tmp_path, monkeypatch)
+    real = getattr(os, "posix_fallocate", lambda fd, offset, size: None)
+    seen = []
+
+    def filling(fd, offset, size):           # room for five arrays, then the disk is full
+        seen.append((size, list(tmp_path.glob(f"{PREFIX}*"))))
+        if len(seen) > 5:
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+        real(fd, offset, size)
+
+    monkeypatch.setattr(os, "posix_fallocate", filling, raising=False)
+    case = plate["decomposed"]
+    code, out, err = run_cli("check", str(case), "--no-cache", "--memory-limit", _between(case))
+    assert code == 2 and out == ""
+    put = sum(size for size, _ in seen[:5])
+    from caselint.mesh.limits import format_size
+
+    assert f"no room in the scratch folder {seen[-1][1][0]}: an array of " \
+           f"{format_size(seen[-1][0])} (" in err
+    assert f") did not fit, after the {format_size(put)} this check had already put there, " \
+           "and " in err and "set TMPDIR to a folder on a disk with more room" in err
+    assert "Traceback" not in err
+    assert len(seen) == 6 and len(seen[-1][1]) == 1       # it was there, in TMPDIR ...
+    assert list(tmp_path.iterdir()) == []                 # ... and went with the error
 
 
 def test_scratch_arrays_are_on_disk_and_the_folder_goes(tmp_path):

@@ -226,6 +226,18 @@ STREAM_ADVICE = ("a decomposed case of the face-based mesh folder format (proces
 #: benchmarks/README.md), rounded up.
 STREAM_BYTES_PER_CELL = 130
 STREAM_PIECE_BYTES_PER_CELL = 1000
+#: A streamed check: disk space of its scratch folder (:mod:`caselint.partition.scratch`)
+#: per cell as :func:`face_mesh_counts` charges them (at least one per three faces).
+#: Measured as ``Scratch.bytes`` at the end of streamed checks (the benchmark duct's case
+#: file, decomposed in 4 slabs): hexahedra 627 (405,224 cells, 635 per cell; 2.6 GB for
+#: the 4,096,000 of benchmarks/README.md, 630), a hexahedral block refined 2:1 (hanging
+#: nodes, polyhedra) 623, tetrahedra 426. Most of it is per face, so meshes whose faces
+#: have many points (polyhedral duals) or other rule packs keeping large results may need
+#: more: rounded up by about 10 %, and :meth:`Scratch.empty
+#: <caselint.partition.scratch.Scratch.empty>` reserves each file's blocks anyway. The
+#: faces are the processor folders' sum (those between two folders count twice): a little
+#: more, on the safe side.
+SCRATCH_BYTES_PER_CELL = 700
 #: A processor folder too large for the memory left is analysed in parts of consecutive
 #: cell ids (its cells in the undecomposed mesh's numbering), no smaller than this.
 MIN_PIECE_CELLS = 10_000
@@ -236,7 +248,8 @@ class MemoryWay:
     """How a mesh is checked under the memory limit, and why: ``way`` is ``whole`` (in
     memory) or ``stream`` (partition by partition, whole-mesh arrays on disk); ``need`` and
     ``streamed`` the estimates (bytes) of the two ways (None: not estimated);
-    ``piece_cells`` the most cells a partition may own when streamed."""
+    ``piece_cells`` the most cells a partition may own when streamed; ``scratch`` the
+    estimated disk space (bytes) of its scratch folder then."""
 
     way: str
     reason: str
@@ -244,6 +257,7 @@ class MemoryWay:
     streamed: int | None = None
     limit: int | None = None
     piece_cells: int | None = None
+    scratch: int | None = None
 
 
 def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
@@ -265,9 +279,10 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
     faces = sum(c[1] for c in counts)
     need = estimate_bytes(face_mesh_counts(cells, faces))
     largest = max(max(c[0], c[1] // 3) for c in counts)
-    streamed = piece = None
+    streamed = piece = scratch = None
     if cannot_stream is None:
         held = FIXED_BYTES + STREAM_BYTES_PER_CELL * max(cells, faces // 3)
+        scratch = SCRATCH_BYTES_PER_CELL * max(cells, faces // 3)
         # the largest processor folder, or parts of it small enough for what is left
         piece = max(min(largest, (bytes_limit - held) // STREAM_PIECE_BYTES_PER_CELL),
                     min(largest, MIN_PIECE_CELLS))
@@ -275,7 +290,7 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
     if need <= bytes_limit:
         return MemoryWay("whole", f"the estimate {format_size(need)} fits the limit "
                                   f"{format_size(bytes_limit)} ({origin})", need, streamed,
-                         bytes_limit, piece)
+                         bytes_limit, piece, scratch)
     if streamed is not None:
         if streamed <= bytes_limit:
             split = "" if piece >= largest else f", in parts of at most {piece:,} cells"
@@ -283,7 +298,7 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
                                        f"the limit {format_size(bytes_limit)} ({origin}); "
                                        f"streamed, partition by partition{split}, about "
                                        f"{format_size(streamed)}", need, streamed, bytes_limit,
-                             piece)
+                             piece, scratch)
         cannot_stream = (f"streamed, partition by partition, it would still need about "
                          f"{format_size(streamed)} ({format_size(held)} for its "
                          f"{max(cells, faces // 3):,} cells' share, with parts of "

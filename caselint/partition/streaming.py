@@ -26,7 +26,8 @@ import contextlib
 from pathlib import Path
 from typing import Callable, ContextManager, Iterable, Iterator
 
-from caselint.mesh.limits import MemoryLimit, MemoryWay, choose_way, memory_limit
+from caselint.mesh.limits import (SCRATCH_BYTES_PER_CELL, MemoryLimit, MemoryWay, choose_way,
+                                  memory_limit)
 
 #: Called once when a mesh is streamed: ``(note, n_steps)`` -> a context manager yielding
 #: ``advance(n)`` for the steps (folders read twice, then partitions analysed).
@@ -78,8 +79,9 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
                   zone: str | None = None, readers=None, request=None,
                   run=None, on_stream: OnStream | None = None):
     """The mesh of the decomposed case ``path``, read and analysed streamed (module
-    docstring), its arrays in ``scratch``; ``request`` the
-    :class:`~caselint.partition.runners.PartitionRequest` of the run (default: the
+    docstring), its arrays in ``scratch`` (refused first when ``way.scratch`` is more than
+    its disk has free: :meth:`~caselint.partition.scratch.Scratch.check_room`); ``request``
+    the :class:`~caselint.partition.runners.PartitionRequest` of the run (default: the
     processor folders), ``run`` the runner (default: one after the other here);
     ``on_stream`` is told once, with the reason, and of each step."""
     from caselint.mesh import kernels, read_mesh
@@ -90,6 +92,9 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     from caselint.partition.runners import serial
     from caselint.partition.stored import stored_pieces
 
+    if way.scratch is not None:          # refused before reading rather than part-way
+        scratch.check_room(way.scratch, f"about {SCRATCH_BYTES_PER_CELL} bytes per cell, "
+                                        "estimated from the mesh files", way.need)
     path = Path(path)
     n_folders = len(processor_folders(path))
     note = (f"{path}: checked partition by partition with its whole-mesh arrays on disk "
