@@ -238,8 +238,9 @@ STREAM_PIECE_BYTES_PER_CELL = 1000
 #: faces are the processor folders' sum (those between two folders count twice): a little
 #: more, on the safe side.
 SCRATCH_BYTES_PER_CELL = 700
-#: A processor folder too large for the memory left is analysed in parts of consecutive
-#: cell ids (its cells in the undecomposed mesh's numbering), no smaller than this.
+#: A streamed mesh is analysed in parts of consecutive cell ids (of the undecomposed mesh)
+#: no larger than its largest processor folder and the memory left allow, and no smaller
+#: than this.
 MIN_PIECE_CELLS = 10_000
 
 
@@ -249,7 +250,8 @@ class MemoryWay:
     memory) or ``stream`` (partition by partition, whole-mesh arrays on disk); ``need`` and
     ``streamed`` the estimates (bytes) of the two ways (None: not estimated);
     ``piece_cells`` the most cells a partition may own when streamed; ``scratch`` the
-    estimated disk space (bytes) of its scratch folder then."""
+    estimated disk space (bytes) of its scratch folder then; ``cells`` the mesh's cells as
+    its files declare them."""
 
     way: str
     reason: str
@@ -258,6 +260,7 @@ class MemoryWay:
     limit: int | None = None
     piece_cells: int | None = None
     scratch: int | None = None
+    cells: int | None = None
 
 
 def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
@@ -290,15 +293,14 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
     if need <= bytes_limit:
         return MemoryWay("whole", f"the estimate {format_size(need)} fits the limit "
                                   f"{format_size(bytes_limit)} ({origin})", need, streamed,
-                         bytes_limit, piece, scratch)
+                         bytes_limit, piece, scratch, cells)
     if streamed is not None:
         if streamed <= bytes_limit:
-            split = "" if piece >= largest else f", in parts of at most {piece:,} cells"
             return MemoryWay("stream", f"the whole-mesh estimate {format_size(need)} is over "
                                        f"the limit {format_size(bytes_limit)} ({origin}); "
-                                       f"streamed, partition by partition{split}, about "
-                                       f"{format_size(streamed)}", need, streamed, bytes_limit,
-                             piece, scratch)
+                                       f"streamed, partition by partition, in parts of at "
+                                       f"most {piece:,} cells, about {format_size(streamed)}",
+                             need, streamed, bytes_limit, piece, scratch, cells)
         cannot_stream = (f"streamed, partition by partition, it would still need about "
                          f"{format_size(streamed)} ({format_size(held)} for its "
                          f"{max(cells, faces // 3):,} cells' share, with parts of "
