@@ -25,7 +25,7 @@ from mesh_writers import write_decomposed, write_face_folder
 from caselint.mesh.analysis import Mesh
 from caselint.mesh.reader import read_mesh
 from caselint.partition import streaming
-from caselint.partition.scratch import PREFIX, Scratch, is_on_disk
+from caselint.partition.scratch import MIN_BYTES, PREFIX, Scratch, is_on_disk
 
 
 def _case(folder: Path, mesh_name: str, sample_case: Path) -> Path:
@@ -49,10 +49,19 @@ def plate(tmp_path_factory):
     part = np.searchsorted(np.quantile(x, [1 / 3, 2 / 3]), x)       # three slabs
     write_decomposed(folder / "plate", data, part, binary=True)
     write_decomposed(folder / "loose", data, part, binary=True, addressing=False)
+    # single folders: binary (offsets + points), ASCII (a list of faces) with two cell
+    # zones, gzip (ASCII offsets + points, 64-bit labels)
+    halves = {"front": np.flatnonzero(x < np.median(x)), "back": np.flatnonzero(x >= np.median(x))}
     write_face_folder(folder / "single" / "constant" / "polyMesh", data, binary=True)
+    write_face_folder(folder / "single-ascii" / "constant" / "polyMesh", data, zones=halves)
+    write_face_folder(folder / "single-gz" / "constant" / "polyMesh", data, compact=True,
+                      gz=True, labels=64)
     return {"decomposed": _case(folder, "plate", sample.case),
             "loose": _case(folder, "loose", sample.case),
-            "single": _case(folder, "single", sample.case), "data": data, "part": part}
+            "single": _case(folder, "single", sample.case),
+            "single-ascii": _case(folder, "single-ascii", sample.case),
+            "single-gz": _case(folder, "single-gz", sample.case),
+            "file": sample.case, "data": data, "part": part}
 
 
 def _between(case: Path) -> str:
@@ -62,9 +71,14 @@ def _between(case: Path) -> str:
     return str((way.need + way.streamed) // 2)
 
 
-def _run(case: Path, tmp: Path, *options, env=None):
+#: ``python -m caselint`` with the smallest part lowered to fit the plate (19k cells).
+SMALL_PARTS = ("-c", "import caselint.mesh.limits as limits; limits.MIN_PIECE_CELLS = 2000; "
+                     "from caselint.cli import main; raise SystemExit(main())")
+
+
+def _run(case: Path, tmp: Path, *options, env=None, python=("-m", "caselint")):
     out = tmp / f"report-{len(list(tmp.iterdir()))}.json"
-    done = subprocess.run([sys.executable, "-m", "caselint", "check", str(case), "--no-cache",
+    done = subprocess.run([sys.executable, *python, "check", str(case), "--no-cache",
                            "--format", "json", "--output", str(out), *options],
                           capture_output=True, text=True, timeout=600,
                           env={**os.environ, **(env or {})})
@@ -133,13 +147,18 @@ def test_workers_that_stream_have_their_note_told(plate, tmp_path):
 
 def test_a_mesh_that_cannot_be_streamed_is_refused_with_what_would_work(plate, tmp_path):
     limit = _between(plate["decomposed"])
-    for name, reason in (("single", streaming.NOT_DECOMPOSED),
-                         ("loose", streaming.NO_ADDRESSING)):
-        done, report = _run(plate[name], tmp_path, "--memory-limit", limit)
-        assert done.returncode == 2, done.stderr
-        assert report is None
-        assert "cannot read the mesh" in done.stderr and reason in done.stderr
-        assert "Traceback" not in done.stderr
+    done, report = _run(plate["loose"], tmp_path, "--memory-limit", limit)
+    assert done.returncode == 2, done.stderr
+    assert report is None
+    assert "cannot read the mesh" in done.stderr and streaming.NO_ADDRESSING in done.stderr
+    assert "Traceback" not in done.stderr
+    # a mesh file of another format is read whole: refused, saying what would work
+    done, report = _run(plate["file"], tmp_path, "--memory-limit", "50MB")
+    assert done.returncode == 2, done.stderr
+    assert report is None and "Traceback" not in done.stderr
+    message = " ".join(done.stderr.split())
+    assert "cannot read the mesh" in message and streaming.NOT_DECOMPOSED in message
+    assert "a mesh file (gmsh, VTU, CGNS, SU2, ...) is read whole" in message
 
 
 def test_refused_when_even_the_streamed_estimate_is_over_the_limit(plate, tmp_path):
@@ -352,3 +371,141 @@ def test_processor_folders_too_large_for_the_limit_are_cut_into_parts(plate, mon
     assert parts >= 9
     assert steps == 2 * 3 + parts                         # 3 folders read twice, the parts
     assert sum(advances) == steps
+
+
+# -- a single mesh folder, streamed ---------------------------------------------------------
+
+SINGLES = ("single", "single-ascii", "single-gz")
+
+
+def _single_between(case: Path, min_piece: int = 2000) -> int:
+    """A limit between the streamed and the whole-mesh estimate of a single folder, with
+    parts of at least ``min_piece`` cells (the plate is small for the default)."""
+    from caselint.mesh import limits
+
+    saved, limits.MIN_PIECE_CELLS = limits.MIN_PIECE_CELLS, min_piece
+    try:
+        folder = case.parent / case.name.removesuffix(".caselint.yaml")
+        roomy = streaming.mesh_way(folder, (10**15, "test"))
+        small = (roomy.streamed - limits.STREAM_PIECE_BYTES_PER_CELL * roomy.piece_cells
+                 + limits.STREAM_PIECE_BYTES_PER_CELL * min_piece)     # the smallest parts
+    finally:
+        limits.MIN_PIECE_CELLS = saved
+    assert roomy.way == "whole" and small < roomy.need
+    return (roomy.need + small) // 2
+
+
+def test_a_single_folder_streams_with_its_read_charged(plate, monkeypatch):
+    from caselint.mesh import limits
+    from caselint.mesh.formats.face_folder_disk import READ_BYTES_PER_CELL
+
+    data = plate["data"]
+    share = max(data.n_cells, data.n_faces // 3)        # the cells the estimate charges
+    ways = {name: streaming.mesh_way(plate[name].parent / name, (10**15, "test"))
+            for name in SINGLES}
+    for name, way in ways.items():
+        assert way.cells == data.n_cells and way.piece_cells == share, name
+        read = READ_BYTES_PER_CELL["binary" if name == "single" else "ascii"]
+        assert way.streamed == (limits.FIXED_BYTES
+                                + (limits.STREAM_BYTES_PER_CELL + read) * share
+                                + limits.STREAM_PIECE_BYTES_PER_CELL * share), name
+    limit = _single_between(plate["single"])
+    monkeypatch.setattr(limits, "MIN_PIECE_CELLS", 2000)
+    way = streaming.mesh_way(plate["single"].parent / "single", (limit, "test"))
+    assert way.way == "stream" and way.streamed <= limit < way.need
+    assert 2000 <= way.piece_cells < data.n_cells and "in parts of at most" in way.reason
+
+
+@pytest.mark.parametrize("kind", ["numpy", "numba"])
+def test_a_single_folder_streamed_gives_the_whole_mesh_report(plate, tmp_path, kind):
+    scratch_base = tmp_path / "tmp"
+    scratch_base.mkdir()
+    outputs = tmp_path / "out"
+    outputs.mkdir()
+    env = {"CASELINT_KERNELS": kind, "TMPDIR": str(scratch_base)}
+    for name in SINGLES:
+        case = plate[name]
+        before = _listing(case.parent / name)
+        done, whole = _run(case, outputs, "--memory-limit", "off", env=env)
+        assert done.returncode in (0, 1), done.stderr
+        assert whole["cases"][0]["findings"]                  # findings to compare
+        assert "partition by partition" not in done.stderr
+        done, streamed = _run(case, outputs, "--memory-limit", str(_single_between(case)),
+                              env=env, python=SMALL_PARTS)
+        assert done.returncode in (0, 1), (name, done.stderr)
+        assert streamed == whole, name
+        assert done.stderr.count("caselint: note:") == 1, name
+        assert "checked partition by partition with its whole-mesh arrays on disk" in done.stderr
+        assert "in parts of at most" in done.stderr
+        assert list(scratch_base.iterdir()) == [], name        # scratch folder removed
+        assert _listing(case.parent / name) == before, name    # nothing beside the mesh
+
+
+def test_a_single_folder_read_on_disk_equals_the_read_in_memory(plate, tmp_path):
+    from caselint.mesh.formats.face_folder import read_folder_mesh
+    from caselint.mesh.formats.face_folder_disk import READ_STEPS, read_on_disk
+
+    for name in SINGLES:
+        folder = plate[name].parent / name
+        polymesh = folder / "constant" / "polyMesh"
+        steps = []
+        with Scratch(tmp_path) as scratch:
+            disk = read_on_disk(polymesh, scratch, steps.append)
+            memory = read_folder_mesh(polymesh)
+            assert steps == [1] * READ_STEPS
+            for field in ("points", "face_offsets", "face_points", "owner", "neighbour"):
+                a, b = getattr(disk, field), getattr(memory, field)
+                assert np.array_equal(a, b), (name, field)
+                assert is_on_disk(a) or a.nbytes < MIN_BYTES, (name, field)
+            assert disk.face_points.dtype == disk.owner.dtype == np.int32
+            assert disk.n_cells == memory.n_cells and disk.patches == memory.patches
+            assert [z for z, _ in disk.zones] == [z for z, _ in memory.zones]
+            assert all(np.array_equal(a, b) for (_, a), (_, b) in zip(disk.zones, memory.zones))
+            # the mesh data the streamed check gets: the same, array for array and type
+            streamed = read_mesh(folder, memory_limit=(None, "streamed"), scratch=scratch).data
+            whole = read_mesh(folder).data
+            for field in ("points", "face_offsets", "face_points", "owner", "neighbour",
+                          "face_group", "cell_zone"):
+                a, b = getattr(streamed, field), getattr(whole, field)
+                assert (a is None and b is None) or (
+                    a.dtype == b.dtype and np.array_equal(a, b)), (name, field)
+            assert streamed.group_names == whole.group_names
+            assert streamed.group_types == whole.group_types
+            assert streamed.zone_names == whole.zone_names
+            assert len(streamed.shapes) == len(whole.shapes) > 0
+            for s, w in zip(streamed.shapes, whole.shapes):
+                assert s.type == w.type and np.array_equal(s.cells, w.cells)
+                assert np.array_equal(s.connectivity, w.connectivity)
+    assert "front" in whole.zone_names or name != "single-ascii"
+
+
+def test_a_single_folder_read_on_disk_holds_one_file_at_a_time(tmp_path, monkeypatch):
+    """Allocations traced while reading a 97k-hexahedron binary folder: on disk, at most the
+    faces file with its offsets (the largest list); in memory, points and faces at once."""
+    import tracemalloc
+
+    from caselint.mesh.blocks import structured_hex
+    from caselint.mesh.formats.face_folder import read_folder_mesh
+    from caselint.mesh.formats.face_folder_disk import read_on_disk
+    from caselint.mesh.formats.meshio_files import mesh_from_meshio
+
+    monkeypatch.setenv("CASELINT_KERNELS", "numpy")      # allocations tracemalloc sees
+    axis = np.linspace(0.0, 1.0, 47)
+    data = mesh_from_meshio(structured_hex(axis, axis, axis)).data
+    folder = write_face_folder(tmp_path / "polyMesh", data, binary=True)
+    size = {p.name: p.stat().st_size for p in folder.iterdir()}
+    peaks = {}
+    with Scratch(tmp_path) as scratch:
+        for how, read in (("memory", read_folder_mesh),
+                          ("disk", lambda f: read_on_disk(f, scratch))):
+            tracemalloc.start()
+            raw = read(folder)
+            peaks[how] = tracemalloc.get_traced_memory()[1]
+            tracemalloc.stop()
+            del raw
+    # the faces file, its offsets as int64 and the check that they rise (their int64
+    # differences, a bool each)
+    largest = size["faces"] + (8 + 8 + 1) * data.n_faces
+    assert size["faces"] < peaks["disk"] < 1.05 * largest
+    # in memory the points are read beside the faces (their arrays views of the files)
+    assert peaks["memory"] - peaks["disk"] > 0.9 * size["points"]

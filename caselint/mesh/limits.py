@@ -11,8 +11,8 @@ header before meshio reads it (gmsh 2.2 and 4.1, VTU; files above
 For the face-based mesh folders, :func:`choose_way` decides *how* a mesh is checked and
 says why: whole, in memory, when the estimate fits; streamed, partition by partition with
 the whole-mesh arrays on disk (:mod:`caselint.partition.streaming`), when it does not but
-the mesh is a decomposed case with addressing files and the streamed estimate fits;
-else refused, the message saying what would work.
+the mesh can be streamed (a single mesh folder, or a decomposed case with addressing
+files) and the streamed estimate fits; else refused, the message saying what would work.
 
 The limit is passed in by the caller (:func:`memory_limit` turns a size into one); when
 none is passed it is :data:`DEFAULT_FRACTION` of the memory available now (``MemAvailable``
@@ -216,9 +216,11 @@ def check_folder_memory(path: str, folders: list[Path], limit: MemoryLimit | Non
 
 
 #: What a refusal adds when nothing better is known of the mesh.
-STREAM_ADVICE = ("a decomposed case of the face-based mesh folder format (processor<N> "
-                 "folders with their addressing files) is checked partition by partition "
-                 "within the limit")
+STREAM_ADVICE = ("a face-based mesh folder (constant/polyMesh, or a decomposed case's "
+                 "processor<N> folders with their addressing files) is checked partition by "
+                 "partition within the limit; a mesh file (gmsh, VTU, CGNS, SU2, ...) is "
+                 "read whole: convert it to a mesh folder, binary files read with the "
+                 "least memory")
 #: A streamed check (:mod:`caselint.partition.streaming`): private memory per cell of the
 #: whole mesh that stays in memory while the whole-mesh arrays are on disk (the rules'
 #: temporaries over whole-mesh arrays, the partition labels), and per cell of the largest
@@ -260,14 +262,17 @@ class MemoryWay:
     limit: int | None = None
     piece_cells: int | None = None
     scratch: int | None = None
+    #: The cells the mesh files declare (None: not estimated).
     cells: int | None = None
 
 
 def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
-               cannot_stream: str | None = None) -> MemoryWay:
+               cannot_stream: str | None = None, reading_per_cell: int = 0) -> MemoryWay:
     """Whole or streamed, for the mesh folder(s) ``folders`` of ``path`` under ``limit``
     (None: the default): whole when its estimate fits (or there is no limit or no header
-    count), else streamed when it can be (``cannot_stream`` None) and that estimate fits.
+    count), else streamed when it can be (``cannot_stream`` None) and that estimate fits;
+    ``reading_per_cell`` the bytes a streamed read holds per cell besides the share kept
+    (a single folder: its largest list, :mod:`caselint.mesh.formats.face_folder_disk`).
 
     :raises MeshReadError: neither fits; the message gives both estimates and, where the
         mesh cannot be streamed, ``cannot_stream`` (what would work).
@@ -284,8 +289,9 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
     largest = max(max(c[0], c[1] // 3) for c in counts)
     streamed = piece = scratch = None
     if cannot_stream is None:
-        held = FIXED_BYTES + STREAM_BYTES_PER_CELL * max(cells, faces // 3)
-        scratch = SCRATCH_BYTES_PER_CELL * max(cells, faces // 3)
+        share = max(cells, faces // 3)
+        held = FIXED_BYTES + (STREAM_BYTES_PER_CELL + reading_per_cell) * share
+        scratch = SCRATCH_BYTES_PER_CELL * share
         # the largest processor folder, or parts of it small enough for what is left
         piece = max(min(largest, (bytes_limit - held) // STREAM_PIECE_BYTES_PER_CELL),
                     min(largest, MIN_PIECE_CELLS))

@@ -2,21 +2,24 @@
 whole-mesh arrays on disk.
 
 When the estimate of a whole-mesh check (:func:`caselint.mesh.limits.choose_way`) is over
-the memory limit and the mesh is a decomposed case of the face-based mesh folder format
-with its addressing files, the mesh is not refused but *streamed*:
+the memory limit and the mesh is of the face-based mesh folder format, a single folder or
+a decomposed case with its addressing files, the mesh is not refused but *streamed*:
 
-1. the processor folders are merged into whole-mesh arrays on disk, one folder at a time
-   (:mod:`caselint.mesh.formats.face_decomposed_disk`, arrays of a
-   :class:`~caselint.partition.scratch.Scratch`);
-2. every per-cell and per-face quantity is computed partition by partition, one processor
-   folder's piece in memory at a time, and assembled into arrays on disk
-   (:func:`caselint.partition.measure.analysed_in_partitions`);
+1. the mesh is read into whole-mesh arrays on disk (arrays of a
+   :class:`~caselint.partition.scratch.Scratch`): a single folder one list file at a time
+   (:mod:`caselint.mesh.formats.face_folder_disk`), a decomposed case one processor folder
+   at a time (:mod:`caselint.mesh.formats.face_decomposed_disk`);
+2. every per-cell and per-face quantity is computed partition by partition, one piece in
+   memory at a time, and assembled into arrays on disk
+   (:func:`caselint.partition.measure.analysed_in_partitions`); the partitions are the
+   processor folders of a decomposed case, ranges of consecutive cell ids of a single
+   folder, either cut to the piece size the estimate leaves room for;
 3. the rules run on that :class:`~caselint.mesh.analysis.Mesh`, whose later results are
    kept on disk too.
 
 The report is the one of the whole-mesh check, byte for byte (same arithmetic in the same
-order: only where the arrays live changes). A mesh that cannot be streamed (a single mesh
-folder or file, a decomposed case without addressing files) is refused as before, the
+order: only where the arrays live changes). A mesh that cannot be streamed (a mesh file of
+another format, a decomposed case without addressing files) is refused as before, the
 message saying what would work.
 """
 
@@ -26,18 +29,17 @@ import contextlib
 from pathlib import Path
 from typing import Callable, ContextManager, Iterable, Iterator
 
-from caselint.mesh.limits import (SCRATCH_BYTES_PER_CELL, MemoryLimit, MemoryWay, choose_way,
-                                  memory_limit)
+from caselint.mesh.limits import (
+    SCRATCH_BYTES_PER_CELL, STREAM_ADVICE, MemoryLimit, MemoryWay, choose_way, memory_limit,
+)
 
 #: Called once when a mesh is streamed: ``(note, n_steps)`` -> a context manager yielding
 #: ``advance(n)`` for the steps (folders read twice, then partitions analysed).
 OnStream = Callable[[str, int], ContextManager[Callable[[int], None]]]
 
-#: Why a mesh that is not a decomposed case cannot be streamed (for the refusal).
-NOT_DECOMPOSED = ("only a decomposed case (processor<N> folders of the face-based mesh "
-                  "folder format, with their addressing files) can be checked partition by "
-                  "partition under the limit; a mesh file is read whole: convert or "
-                  "decompose it, binary files read with the least memory")
+#: Why a mesh file cannot be streamed, and what would work (what its reader's refusal
+#: says, :data:`caselint.mesh.limits.STREAM_ADVICE`).
+NOT_DECOMPOSED = STREAM_ADVICE
 NO_ADDRESSING = ("its processor folders have no addressing files (pointProcAddressing, "
                  "faceProcAddressing, cellProcAddressing), without which the case cannot be "
                  "merged one folder at a time: decompose it again keeping them")
@@ -54,6 +56,7 @@ def mesh_way(path: str | Path, limit: MemoryLimit | None, zone: str | None = Non
     from caselint.errors import MeshReadError
     from caselint.mesh.formats.face_decomposed_disk import has_addressing
     from caselint.mesh.formats.face_folder import mesh_folder, processor_folders
+    from caselint.mesh.formats.face_folder_disk import read_bytes_per_cell
 
     path = Path(path)
     limit = limit if limit is not None else memory_limit()
@@ -67,7 +70,8 @@ def mesh_way(path: str | Path, limit: MemoryLimit | None, zone: str | None = Non
     except MeshReadError:                # e.g. several regions: the reader says which
         return MemoryWay("whole", reader)
     if folder is not None:
-        return choose_way(str(path), [folder], limit, NOT_DECOMPOSED)
+        return choose_way(str(path), [folder], limit,
+                          reading_per_cell=read_bytes_per_cell(folder))
     folders = [p / "constant" / "polyMesh" for p in processor_folders(path)]
     if not folders:
         return MemoryWay("whole", f"not a face-based mesh folder: {reader}")
@@ -78,14 +82,16 @@ def mesh_way(path: str | Path, limit: MemoryLimit | None, zone: str | None = Non
 def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: float = 1.0,
                   zone: str | None = None, readers=None, request=None,
                   run=None, on_stream: OnStream | None = None):
-    """The mesh of the decomposed case ``path``, read and analysed streamed (module
-    docstring), its arrays in ``scratch`` (refused first when ``way.scratch`` is more than
-    its disk has free: :meth:`~caselint.partition.scratch.Scratch.check_room`); ``request``
-    the :class:`~caselint.partition.runners.PartitionRequest` of the run (default: the
-    processor folders), ``run`` the runner (default: one after the other here);
-    ``on_stream`` is told once, with the reason, and of each step."""
+    """The mesh of the mesh folder or decomposed case ``path``, read and analysed streamed
+    (module docstring), its arrays in ``scratch`` (refused first when ``way.scratch`` is
+    more than its disk has free: :meth:`~caselint.partition.scratch.Scratch.check_room`);
+    ``request`` the :class:`~caselint.partition.runners.PartitionRequest` of the run
+    (default: runs of consecutive cell ids here, the processor folders on a cluster),
+    ``run`` the runner (default: one after the other here); ``on_stream`` is told once,
+    with the reason, and of each step."""
     from caselint.mesh import kernels, read_mesh
-    from caselint.mesh.formats.face_folder import processor_folders
+    from caselint.mesh.formats.face_folder import mesh_folder, processor_folders
+    from caselint.mesh.formats.face_folder_disk import READ_STEPS
     from caselint.mesh.topology import cell_faces
     from caselint.partition.measure import analysed_in_partitions
     from caselint.partition.plan import by_cell_budget, by_processors, capped
@@ -96,24 +102,28 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
         scratch.check_room(way.scratch, f"about {SCRATCH_BYTES_PER_CELL} bytes per cell, "
                                         "estimated from the mesh files", way.need)
     path = Path(path)
-    n_folders = len(processor_folders(path))
+    single = mesh_folder(path, zone) is not None
     note = (f"{path}: checked partition by partition with its whole-mesh arrays on disk "
             f"({way.reason})")
     cluster = request is not None and request.scheduler is not None
-    plan = None
-    if cluster and request.count is None:
-        # the processor folders, which the workers read themselves; capped where a folder
-        # is too large for what the limit leaves
-        plan = by_processors(path)
-        if way.piece_cells:
-            plan = capped(plan, way.piece_cells)
-    parts = (plan.n_parts if plan is not None else request.count
-             if request is not None and request.count is not None
-             else _range_count(way.cells, way.piece_cells))
-    steps = 2 * n_folders + parts
-    bar = on_stream(note, steps) if on_stream else contextlib.nullcontext(lambda n: None)
+    plan = None                          # known before reading, for the steps
+    parts = request.count if request is not None else None
+    if single:
+        reads = READ_STEPS
+    else:
+        reads = 2 * len(processor_folders(path))         # each folder read twice
+        if parts is None and cluster:
+            # the processor folders, which the workers read themselves; capped where a
+            # folder is too large for what the limit leaves
+            plan = by_processors(path)
+            if way.piece_cells:
+                plan = capped(plan, way.piece_cells)
+            parts = plan.n_parts
+    if parts is None:                    # runs of cells as large as the estimate allows
+        parts = _range_count(way.cells, way.piece_cells)
+    bar = on_stream(note, reads + parts) if on_stream else contextlib.nullcontext(lambda n: None)
     with bar as advance:
-        scratch.advance = advance        # the reader's steps (face_decomposed_disk)
+        scratch.advance = advance        # the reader's steps
         mesh = read_mesh(path, scale_to_m=scale_to_m, zone=zone, readers=readers,
                          memory_limit=(None, "streamed"), scratch=scratch)
         if plan is None and request is not None and request.count is not None:

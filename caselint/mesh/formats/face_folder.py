@@ -29,16 +29,19 @@ Every count the files declare is checked: list sizes, the ``note`` of the owner 
 
 from __future__ import annotations
 
+import dataclasses
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Callable
 
 import numpy as np
 
 from caselint.errors import MeshReadError
 from caselint.mesh.formats.face_dicts import read_dict_list
 from caselint.mesh.formats.face_lists import (
-    ListFile, find_file, list_head, open_list_file, read_faces, read_labels, read_points,
+    ListFile, find_file, list_head, open_list_file, open_list_head, read_faces, read_labels,
+    read_points,
 )
 from caselint.mesh.kernels import compiled, side_by_side
 
@@ -163,22 +166,47 @@ def input_files(path: Path) -> list[Path]:
 # -- reading one folder -------------------------------------------------------------------
 
 
-def read_folder_mesh(folder: Path) -> FolderMesh:
-    """The arrays of one mesh folder, checked for consistency (see the module docstring)."""
-    points_file = open_list_file(folder, "points")
-    faces_file = open_list_file(folder, "faces")
-    kernel = _text_kernel(faces_file)
-    points, (offsets, face_points) = _points_and_faces(points_file, faces_file, kernel)
+#: Takes each large array of a folder as soon as its list is read: ``keep(name, array)``
+#: returns the array to hold in its place (a streamed read puts it on disk,
+#: :mod:`caselint.mesh.formats.face_folder_disk`).
+Keep = Callable[[str, np.ndarray], np.ndarray]
+
+
+def read_folder_mesh(folder: Path, keep: Keep | None = None) -> FolderMesh:
+    """The arrays of one mesh folder, checked for consistency (see the module docstring).
+
+    With ``keep`` the files are read one after the other, each let go (and its arrays
+    handed to ``keep``) before the next is read, so that one list and its file are in
+    memory at a time; without, points and faces are read side by side.
+    """
+    if keep is None:
+        points_file, faces_file = open_list_file(folder, "points"), open_list_file(folder, "faces")
+        kernel = _text_kernel(faces_file)
+        points, (offsets, face_points) = _points_and_faces(points_file, faces_file, kernel)
+        points_file, faces_file = _let_go(points_file), _let_go(faces_file)
+    else:
+        kernel = _text_kernel(open_list_head(folder, "faces"))
+        points_file = open_list_file(folder, "points")
+        points = keep("points", read_points(points_file, kernel=kernel))
+        points_file = _let_go(points_file)
+        faces_file = open_list_file(folder, "faces")
+        offsets, face_points = read_faces(faces_file, kernel)
+        faces_file = _let_go(faces_file)
+        offsets, face_points = keep("face_offsets", offsets), keep("face_points", face_points)
+    keep = keep or _as_read
     owner_file = open_list_file(folder, "owner")
-    owner, _ = read_labels(owner_file, owner_file.start, "owner", kernel)
+    owner = keep("owner", read_labels(owner_file, owner_file.start, "owner", kernel)[0])
+    owner_file = _let_go(owner_file)
     neighbour_file = open_list_file(folder, "neighbour")
     inner, _ = read_labels(neighbour_file, neighbour_file.start, "neighbour", kernel)
+    neighbour_file = _let_go(neighbour_file)
     boundary_file = open_list_file(folder, "boundary")
     n_faces = len(offsets) - 1
     if len(owner) != n_faces:
         raise MeshReadError(owner_file.name, f"{len(owner)} owner entries for the "
                                              f"{n_faces} faces of {faces_file.path.name}")
-    neighbour = _full_neighbour(neighbour_file, inner, n_faces)
+    neighbour = keep("neighbour", _full_neighbour(neighbour_file, inner, n_faces))
+    del inner
     n_internal = int(np.count_nonzero(neighbour >= 0))
     _check_ranges(points_file, faces_file, owner_file, neighbour_file, len(points),
                   face_points, owner, neighbour)
@@ -187,8 +215,20 @@ def read_folder_mesh(folder: Path) -> FolderMesh:
     patches = read_patches(boundary_file, n_internal, n_faces)
     zones_file = open_list_file(folder, "cellZones", required=False)
     zones = read_zones(zones_file, n_cells) if zones_file is not None else []
+    zones = [(name, keep(f"zone.{name}", cells)) for name, cells in zones]
     return FolderMesh(str(folder), points, offsets, face_points, owner, neighbour, n_cells,
                       patches, zones)
+
+
+def _as_read(name: str, array: np.ndarray) -> np.ndarray:
+    """The array itself (a read in memory keeps what it reads)."""
+    return array
+
+
+def _let_go(lf: ListFile) -> ListFile:
+    """``lf`` without its bytes, once its lists are read (its name and header stay, for
+    the checks across files)."""
+    return dataclasses.replace(lf, data=b"")
 
 
 def _text_kernel(faces_file: ListFile):

@@ -15,6 +15,7 @@ from caselint.mesh.formats.face_folder import (
     FolderMesh, accepts, input_files, mesh_folder, processor_folders, read_folder_mesh,
     zone_array,
 )
+from caselint.mesh.formats.face_folder_disk import read_on_disk
 from caselint.mesh.formats.one_cell_thick import flat_case
 from caselint.mesh.model import MeshData
 from caselint.mesh.readers import MeshReader, ReadOptions, checked_points
@@ -64,8 +65,12 @@ def read_face_folder(path: Path, options: ReadOptions) -> MeshData:
         check_folder_memory(name, folders, options.memory_limit)
         raw, notes = read_decomposed(path, folders)
         return folder_data(raw, options, path=name, notes=notes)
-    check_folder_memory(name, [folder], options.memory_limit)
-    raw = read_folder_mesh(folder)
+    if options.scratch is not None:
+        # streamed (caselint.partition.streaming): read on disk, one list file at a time
+        raw = read_on_disk(folder, options.scratch, getattr(options.scratch, "advance", None))
+    else:
+        check_folder_memory(name, [folder], options.memory_limit)
+        raw = read_folder_mesh(folder)
     try:
         return folder_data(raw, options, path=name)
     except ValueError as exc:               # MeshData's own consistency checks

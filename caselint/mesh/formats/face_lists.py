@@ -110,6 +110,28 @@ def open_list_file(folder: Path, name: str, *, required: bool = True) -> ListFil
     return parse_list_file(path, read_bytes(path))
 
 
+def open_list_head(folder: Path, name: str, size: int = 65536) -> ListFile:
+    """The first ``size`` bytes of ``folder/name`` (or ``name.gz``, decompressed) as a
+    :class:`ListFile`: its header and the head of its first list, without reading the
+    rest of the file.
+
+    :raises MeshReadError: as :func:`open_list_file`.
+    """
+    path = find_file(folder, name)
+    if path is None:
+        return open_list_file(folder, name)                 # names what is missing
+    try:
+        with path.open("rb") as handle:
+            data = handle.read(size)
+        if path.name.endswith(".gz"):
+            data = zlib.decompressobj(wbits=31).decompress(data, size)
+    except OSError as exc:
+        raise MeshReadError(str(path), f"cannot read the file: {exc.strerror or exc}") from None
+    except zlib.error as exc:
+        raise MeshReadError(str(path), f"damaged or truncated gzip data ({exc})") from None
+    return parse_list_file(path, data)
+
+
 def parse_list_file(path: Path, data: bytes) -> ListFile:
     """The header of a file already read (see :func:`open_list_file`)."""
     found = re.search(rb"\bFoamFile\s*\{", data[:65536])
