@@ -210,25 +210,30 @@ def test_workers_read_their_pieces_from_the_folders(plate, tmp_path, monkeypatch
             assert isinstance(args[0], distributed.Future) and size < 200
 
 
-def test_a_streamed_check_on_a_cluster_sends_paths_not_pieces(plate, tmp_path, monkeypatch):
+def test_a_streamed_check_on_a_cluster_scatters_its_pieces(plate, tmp_path, monkeypatch):
     """A case over the memory limit, streamed (arrays on disk here) with its partitions on
-    a cluster: the workers read their pieces from the processor folders, the client sends
-    paths; the report equals the whole-mesh check's."""
+    a cluster: runs of consecutive cell ids cut here, each scattered to the workers on its
+    own (not put into the task graph); the report equals the whole-mesh check's."""
     import distributed
 
     from caselint.batch import lint_batch
     from caselint.partition import streaming
+    from caselint.partition import runners
     from caselint.partition.runners import PartitionRequest
 
     case = _plate_case(plate, tmp_path)
     way = streaming.mesh_way(case.parent / "plate", (10**15, "test"))
     between = (way.need + way.streamed) // 2          # streamed, each folder whole
-    sent = []
-    submit = distributed.Client.submit
+    sent, scattered = [], []
+    submit, scatter = distributed.Client.submit, distributed.Client.scatter
 
     def recording(self, function, *args, **kwargs):
         sent.append((getattr(function, "func", function).__name__, _sent(args), args))
         return submit(self, function, *args, **kwargs)
+
+    def scattering(self, data, *args, **kwargs):
+        scattered.append(data)
+        return scatter(self, data, *args, **kwargs)
 
     code, reference, _ = check_report(case, "--memory-limit", "off")
     assert code == 1 and reference["cases"][0]["findings"]
@@ -241,16 +246,18 @@ def test_a_streamed_check_on_a_cluster_sends_paths_not_pieces(plate, tmp_path, m
         assert "large graph" not in err
         assert got == reference
         monkeypatch.setattr(distributed.Client, "submit", recording)
+        monkeypatch.setattr(distributed.Client, "scatter", scattering)
+        monkeypatch.setattr(runners, "SCATTER_BYTES", 10_000)     # the plate's are small
         request = PartitionRequest.parse("auto", cluster.scheduler_address)
-        [outcome] = lint_batch([case], partitions=request,
-                               memory_limit=(between, "test"))
+        [outcome] = lint_batch([case], partitions=request, memory_limit=(between, "test"))
     assert outcome.error is None
     measured = [args for name, _, args in sent if name == "measure_made"]
-    folders = sorted((case.parent / "plate").glob("processor*"))
-    assert len(measured) == len(folders) > 1               # one task per processor folder
-    for name, size, args in sent:
-        assert size < 4_000, (name, size)
-    assert all(isinstance(args[0], stored.Stored) for args in measured)
+    n_cells = read_mesh(case.parent / "plate").n_cells
+    assert len(measured) == -(-n_cells // way.piece_cells) == len(scattered)
+    assert all(size < 4_000 for _, size, _ in sent)   # the pieces went by scatter
+    cells = np.concatenate([piece.cells[piece.owned_cells] for piece in scattered])
+    assert np.array_equal(cells, np.arange(n_cells))  # consecutive runs, each cell once
+    assert all(piece.nbytes > 10_000 for piece in scattered)
 
 
 def test_a_worker_that_cannot_read_the_folders(plate, tmp_path):

@@ -48,6 +48,13 @@ class Piece:
     owned_faces: np.ndarray
     whole_cells: int               # cells of the whole mesh (for the choice of kernels)
 
+    @property
+    def nbytes(self) -> int:
+        """Bytes of its arrays (about what it weighs when sent to a worker)."""
+        arrays = [self.cells, self.faces, self.points, self.owned_cells, self.owned_faces]
+        arrays += [v for v in vars(self.data).values() if isinstance(v, np.ndarray)]
+        return int(sum(a.nbytes for a in arrays))
+
 
 def faces_of(cf: CellFaces, cells: np.ndarray) -> np.ndarray:
     """All faces of ``cells`` (with repeats), from the whole mesh's cell-face lists."""

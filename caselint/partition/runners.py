@@ -24,6 +24,10 @@ AUTO_CELLS = 1_000_000
 #: How long to wait for a Dask scheduler to answer (a Dask time string).
 CONNECT_TIMEOUT = "10s"
 
+#: An item heavier than this (its ``nbytes``: a piece cut by the client) is scattered to
+#: the workers on its own rather than put into the task graph, which the scheduler copies.
+SCATTER_BYTES = 1 << 20
+
 
 def serial(function: Callable, items: Iterable) -> Iterator:
     """Each item in turn, in this process (the next item is made after the last is done)."""
@@ -64,25 +68,33 @@ class DaskRunner:
         # pieces, not all of them, and the workers never wait for the next one
         window = max(2, 2 * sum(client.nthreads().values()))
         items = iter(items)
-        running = as_completed([client.submit(function, item, pure=False)
+        running = as_completed([_submit(client, function, item)
                                 for item in itertools.islice(items, window)])
         for future in running:
             yield future.result()
             future.release()
             for item in itertools.islice(items, 1):
-                running.add(client.submit(function, item, pure=False))
+                running.add(_submit(client, function, item))
 
     def hold(self, function: Callable, items: Iterable) -> list:
         """``function(item)`` for every item, computed and kept on the workers: one future
         each, which tasks take in place of the value (Dask hands it to them there)."""
         client = self._connect()
-        return [client.submit(function, item, pure=False) for item in items]
+        return [_submit(client, function, item) for item in items]
 
     def close(self) -> None:
         """Disconnect from the scheduler (the cluster keeps running)."""
         if self._client is not None:
             self._client.close()
             self._client = None
+
+
+def _submit(client, function: Callable, item):
+    """``function(item)`` as a task; a heavy item (:data:`SCATTER_BYTES`) scattered first,
+    the task given its future."""
+    if getattr(item, "nbytes", 0) > SCATTER_BYTES:
+        item = client.scatter(item, hash=False)
+    return client.submit(function, item, pure=False)
 
 
 @dataclass(frozen=True)

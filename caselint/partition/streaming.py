@@ -11,9 +11,9 @@ a decomposed case with its addressing files, the mesh is not refused but *stream
    at a time (:mod:`caselint.mesh.formats.face_decomposed_disk`);
 2. every per-cell and per-face quantity is computed partition by partition, one piece in
    memory at a time, and assembled into arrays on disk
-   (:func:`caselint.partition.measure.analysed_in_partitions`); the partitions are the
-   processor folders of a decomposed case, ranges of consecutive cell ids of a single
-   folder, either cut to the piece size the estimate leaves room for;
+   (:func:`caselint.partition.measure.analysed_in_partitions`); the partitions are runs
+   of consecutive cell ids as large as the estimate leaves room for (whose faces lie
+   together in the arrays on disk), on a cluster too (each piece sent to a worker);
 3. the rules run on that :class:`~caselint.mesh.analysis.Mesh`, whose later results are
    kept on disk too.
 
@@ -86,17 +86,15 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     (module docstring), its arrays in ``scratch`` (refused first when ``way.scratch`` is
     more than its disk has free: :meth:`~caselint.partition.scratch.Scratch.check_room`);
     ``request`` the :class:`~caselint.partition.runners.PartitionRequest` of the run
-    (default: runs of consecutive cell ids here, the processor folders on a cluster),
+    (default: runs of consecutive cell ids, as large as ``way`` allows),
     ``run`` the runner (default: one after the other here); ``on_stream`` is told once,
     with the reason, and of each step."""
-    from caselint.mesh import kernels, read_mesh
+    from caselint.mesh import read_mesh
     from caselint.mesh.formats.face_folder import mesh_folder, processor_folders
     from caselint.mesh.formats.face_folder_disk import READ_STEPS
-    from caselint.mesh.topology import cell_faces
     from caselint.partition.measure import analysed_in_partitions
-    from caselint.partition.plan import by_cell_budget, by_processors, capped
+    from caselint.partition.plan import by_cell_budget
     from caselint.partition.runners import serial
-    from caselint.partition.stored import stored_pieces
 
     if way.scratch is not None:          # refused before reading rather than part-way
         scratch.check_room(way.scratch, f"about {SCRATCH_BYTES_PER_CELL} bytes per cell, "
@@ -105,20 +103,8 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     single = mesh_folder(path, zone) is not None
     note = (f"{path}: checked partition by partition with its whole-mesh arrays on disk "
             f"({way.reason})")
-    cluster = request is not None and request.scheduler is not None
-    plan = None                          # known before reading, for the steps
+    reads = READ_STEPS if single else 2 * len(processor_folders(path))   # folders: twice
     parts = request.count if request is not None else None
-    if single:
-        reads = READ_STEPS
-    else:
-        reads = 2 * len(processor_folders(path))         # each folder read twice
-        if parts is None and cluster:
-            # the processor folders, which the workers read themselves; capped where a
-            # folder is too large for what the limit leaves
-            plan = by_processors(path)
-            if way.piece_cells:
-                plan = capped(plan, way.piece_cells)
-            parts = plan.n_parts
     if parts is None:                    # runs of cells as large as the estimate allows
         parts = _range_count(way.cells, way.piece_cells)
     bar = on_stream(note, reads + parts) if on_stream else contextlib.nullcontext(lambda n: None)
@@ -126,26 +112,19 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
         scratch.advance = advance        # the reader's steps
         mesh = read_mesh(path, scale_to_m=scale_to_m, zone=zone, readers=readers,
                          memory_limit=(None, "streamed"), scratch=scratch)
-        if plan is None and request is not None and request.count is not None:
+        if request is not None and request.count is not None:
             plan = request.plan(path, mesh.n_cells)
-        elif plan is None:
-            # here: runs of consecutive cell ids. A mesh folder numbers its faces after
-            # their owner cells, so a run's faces lie together in the arrays on disk and a
-            # piece reads and writes few of their pages; a processor folder's cells are
-            # spread over the whole numbering, and each piece would read back and rewrite
-            # every page (a 100M-cell case in 64 slabs: 0.3 TB read, 1 TB written in the
-            # first 20 minutes of its analysis)
+        else:
+            # runs of consecutive cell ids, also on a cluster (cut here from the arrays on
+            # disk, each sent to a worker). A mesh folder numbers its faces after their
+            # owner cells, so a run's faces lie together in the arrays on disk and a piece
+            # reads and writes few of their pages; a processor folder's cells are spread
+            # over the whole numbering, and each piece would read back and rewrite every
+            # page (a 100M-cell case in 64 slabs: 0.3 TB read, 1 TB written in the first
+            # 20 minutes of its analysis by processor folders)
             plan = by_cell_budget(mesh.n_cells, way.piece_cells or max(mesh.n_cells, 1))
         run = counted(serial if run is None else run, advance)
-        cf = pieces = None
-        if cluster and zone is None:
-            # on a cluster the tasks read their pieces from the processor folders (a path
-            # each) rather than be sent them from the arrays on disk here
-            with kernels.decided_for(mesh.n_cells):
-                cf = scratch.keep_large("cell_faces", cell_faces(mesh.data))
-            pieces = stored_pieces(path, mesh.data, plan, cf, scale_to_m)
-        return analysed_in_partitions(mesh.data, plan, run, pieces=pieces, cf=cf,
-                                      scratch=scratch)
+        return analysed_in_partitions(mesh.data, plan, run, scratch=scratch)
 
 
 def _range_count(cells: int | None, piece_cells: int | None) -> int:
