@@ -24,6 +24,10 @@ most the limit), ``memory.failcnt`` (times the limit was hit and pages reclaimed
 whether the out-of-memory killer ran. Results go into ``benchmarks/README.md`` between
 the stream-results markers.
 
+With ``--cluster N`` the streamed check also runs with ``--partitions auto --scheduler``
+on a Dask ``LocalCluster`` of N worker processes started by this script (its workers'
+largest peak resident set recorded). Every report is compared with the first way's.
+
 Recorded too: the wall time per cell and the largest growth of the used space of the
 temporary folder's disk during the run (the scratch arrays, which are unlinked as they
 are mapped and so only seen there).
@@ -35,7 +39,8 @@ A mesh too large for memory (``--cells 100M``): ``--no-whole`` skips the whole-m
 disk space) and ``--results stream-100m-results`` writes a README block of its own.
 
 Run:  python benchmarks/bench_streaming.py [--cells 4M] [--procs 8] [--limit 1.2GB]
-      [--cgroup] [--work DIR] [--no-whole] [--slabs] [--gz] [--results NAME] [--no-readme]
+      [--cgroup] [--cluster N] [--work DIR] [--no-whole] [--slabs] [--gz] [--results NAME]
+      [--no-readme]
       python benchmarks/bench_streaming.py --cells 100M --procs 64 --gz --no-whole \
       --limit default --work DIR --results stream-100m-results
 Not collected by pytest. (A script of its own rather than a way of ``bench_partitions.py``:
@@ -45,6 +50,7 @@ that one measures the in-memory partitions and the Dask cluster.)
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import os
 import platform
@@ -60,7 +66,9 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 sys.path.insert(0, str(HERE.parent / "tests"))
 
-from bench_partitions import make_case, parse_size, report_text, worker  # noqa: E402
+from bench_partitions import (  # noqa: E402
+    make_case, parse_size, report_text, worker, workers_peak,
+)
 from bench_table import publish  # noqa: E402
 
 CGROUP_ROOT = Path("/sys/fs/cgroup/memory")
@@ -152,10 +160,12 @@ def run_once(case: Path, out: Path, extra: list[str], group: Cgroup | None = Non
     return result
 
 
-def measure(case: Path, limit: str, cgroup: bool, whole: bool = True) -> tuple[dict, str]:
-    """The whole run (unless not ``whole``), the streamed run and (optionally) the streamed
-    run in a cgroup; ``limit`` "default": no ``--memory-limit`` (the default share of the
-    memory available)."""
+def measure(case: Path, limit: str, cgroup: bool, whole: bool = True,
+            workers: int = 0) -> tuple[dict, str]:
+    """The whole run (unless not ``whole``), the streamed run, (optionally) the streamed
+    run in a cgroup and on a ``LocalCluster`` of ``workers`` processes (``--partitions
+    auto --scheduler``); ``limit`` "default": no ``--memory-limit`` (the default share of
+    the memory available). Each report is compared with the first run's."""
     rows, note = {}, ""
     limited = [] if limit == "default" else ["--memory-limit", limit]
     ways = [("whole", ["--memory-limit", "off"], None)] if whole else []
@@ -167,19 +177,31 @@ def measure(case: Path, limit: str, cgroup: bool, whole: bool = True) -> tuple[d
         group, note = make_cgroup(size_of(limit))
         if group is not None:
             ways.append(("streamed in cgroup", limited, group))
-    try:
-        for name, options, in_group in ways:
-            out = case.parent / f"report-{name.replace(' ', '-')}.json"
-            out.unlink(missing_ok=True)
-            rows[name] = run_once(case, out, options, in_group)
-            rows[name]["report"] = report_text(out)
-    finally:
-        if group is not None:
-            group.remove()
-    whole = rows["whole"]["report"] if "whole" in rows else None
-    for row in rows.values():
+    with contextlib.ExitStack() as stack:
+        if workers:
+            import distributed
+
+            cluster = stack.enter_context(distributed.LocalCluster(
+                n_workers=workers, threads_per_worker=1, processes=True,
+                dashboard_address=None))
+            ways.append((f"streamed on a {workers}-worker cluster",
+                         [*limited, "--partitions", "auto", "--scheduler",
+                          cluster.scheduler_address], None))
+        try:
+            for name, options, in_group in ways:
+                out = case.parent / f"report-{name.replace(' ', '-')}.json"
+                out.unlink(missing_ok=True)
+                rows[name] = run_once(case, out, options, in_group)
+                rows[name]["report"] = report_text(out)
+                if "cluster" in name:
+                    rows[name]["workers_mb"] = workers_peak(cluster.scheduler_address)
+        finally:
+            if group is not None:
+                group.remove()
+    first = next(iter(rows.values()))["report"]
+    for index, row in enumerate(rows.values()):
         report = row.pop("report")
-        row["same"] = None if "whole" not in rows else (whole is not None and report == whole)
+        row["same"] = None if index == 0 else (first is not None and report == first)
     return rows, note
 
 
@@ -195,18 +217,19 @@ def table(rows: dict, counts: dict, args, note: str) -> str:
         f"largest growth of the used space of the temporary folder's disk during the run.",
         "",
         "| way | exit | wall s | us per cell | VmHWM MB | RssAnon peak MB | RssFile peak MB "
-        "| scratch GB | cgroup max usage MB | cgroup failcnt | report equal to whole "
-        "| load average before |",
-        "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|---:|",
+        "| scratch GB | cgroup max usage MB | cgroup failcnt | workers' peak RSS MB (each) "
+        f"| report equal to {next(iter(rows))}'s | load average before |",
+        "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|---:|",
     ]
     for name, row in rows.items():
         usage = f"{row['max_usage_mb']:.0f} of {row['limit_mb']:.0f}" if "max_usage_mb" in row else "-"
         fails = str(row.get("failcnt", "-")) + (" (OOM kill)" if row.get("oom_killed") else "")
         same = "-" if row["same"] is None else "yes" if row["same"] else "no"
+        workers = f"{row['workers_mb']:.0f}" if "workers_mb" in row else "-"
         lines.append(f"| {name} | {row['code']} | {row['wall_s']:.1f} | "
                      f"{row['wall_s'] / counts['cells'] * 1e6:.2f} | {row['hwm_mb']:.0f} | "
                      f"{row['anon_peak_mb']:.0f} | {row['file_peak_mb']:.0f} | "
-                     f"{row['scratch_peak_gb']:.1f} | {usage} | {fails} | {same} | "
+                     f"{row['scratch_peak_gb']:.1f} | {usage} | {fails} | {workers} | {same} | "
                      f"{row['load']:.1f} |")
     if note:
         lines.append(f"\ncgroup run skipped: {note}")
@@ -225,6 +248,8 @@ def main() -> None:
                         help="also run the streamed check inside a memory cgroup of the limit")
     parser.add_argument("--work", help="folder for the case (default: a temporary one; an "
                                        "existing case there is reused)")
+    parser.add_argument("--cluster", type=int, default=0, metavar="N",
+                        help="also stream on a LocalCluster of N worker processes")
     parser.add_argument("--no-whole", action="store_true",
                         help="skip the whole-mesh run (a mesh too large for memory)")
     parser.add_argument("--slabs", action="store_true",
@@ -249,7 +274,8 @@ def main() -> None:
                 found = make_case(parse_size(args.cells), args.procs, folder)
             (folder / "counts.json").write_text(json.dumps(found[1]))
         case, counts = found
-        rows, note = measure(case, args.limit, args.cgroup, whole=not args.no_whole)
+        rows, note = measure(case, args.limit, args.cgroup, whole=not args.no_whole,
+                             workers=args.cluster)
     text = table(rows, counts, args, note)
     publish(text + "\n", f"<!-- {args.results}:start -->", f"<!-- {args.results}:end -->",
             readme=not args.no_readme)
