@@ -161,15 +161,17 @@ def run_once(case: Path, out: Path, extra: list[str], group: Cgroup | None = Non
 
 
 def measure(case: Path, limit: str, cgroup: bool, whole: bool = True,
-            workers: int = 0) -> tuple[dict, str]:
+            workers: int = 0, local: bool = True) -> tuple[dict, str]:
     """The whole run (unless not ``whole``), the streamed run, (optionally) the streamed
     run in a cgroup and on a ``LocalCluster`` of ``workers`` processes (``--partitions
     auto --scheduler``); ``limit`` "default": no ``--memory-limit`` (the default share of
-    the memory available). Each report is compared with the first run's."""
+    the memory available); not ``local``: no streamed run here (with ``workers``, the
+    cluster's alone). Each report is compared with the first run's."""
     rows, note = {}, ""
     limited = [] if limit == "default" else ["--memory-limit", limit]
     ways = [("whole", ["--memory-limit", "off"], None)] if whole else []
-    ways.append(("streamed", limited, None))
+    if local:
+        ways.append(("streamed", limited, None))
     group = None
     if cgroup:
         from caselint.mesh.limits import parse_size as size_of
@@ -250,6 +252,9 @@ def main() -> None:
                                        "existing case there is reused)")
     parser.add_argument("--cluster", type=int, default=0, metavar="N",
                         help="also stream on a LocalCluster of N worker processes")
+    parser.add_argument("--cluster-only", action="store_true",
+                        help="with --cluster: only the cluster's run (compare its report "
+                             "with an earlier run's yourself)")
     parser.add_argument("--no-whole", action="store_true",
                         help="skip the whole-mesh run (a mesh too large for memory)")
     parser.add_argument("--slabs", action="store_true",
@@ -275,7 +280,7 @@ def main() -> None:
             (folder / "counts.json").write_text(json.dumps(found[1]))
         case, counts = found
         rows, note = measure(case, args.limit, args.cgroup, whole=not args.no_whole,
-                             workers=args.cluster)
+                             workers=args.cluster, local=not args.cluster_only)
     text = table(rows, counts, args, note)
     publish(text + "\n", f"<!-- {args.results}:start -->", f"<!-- {args.results}:end -->",
             readme=not args.no_readme)
