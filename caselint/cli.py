@@ -193,6 +193,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         return _exit_status(exc.code)
     args.blocked = list(args.blocked_global) + list(getattr(args, "blocked_local", []))
     tune_allocator()      # this process is ours: allocator settings for big meshes
+    previous = _on_sigterm(_terminate)
     try:
         return int(args.func(args))
     except UsageError as exc:
@@ -201,6 +202,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         commands.message("interrupted")
         return 130  # the shell's convention for SIGINT
+    except _Terminated:
+        commands.message("terminated")
+        return 143  # 128 + SIGTERM, as the shell reports it
     except BrokenPipeError:
         # The reader (head, less) went away. Point stdout at devnull so the interpreter's
         # final flush stays quiet; the report was not delivered, so do not claim success.
@@ -211,6 +215,30 @@ def main(argv: Sequence[str] | None = None) -> int:
         return ExitCode.FINDINGS
     except Exception as exc:  # the boundary: anything unexpected becomes exit 3
         return _internal_error(exc)
+    finally:
+        _on_sigterm(previous)
+
+
+class _Terminated(BaseException):
+    """SIGTERM arrived (a CI job's time-out, a kill): raised in the main thread so that the
+    ``finally`` blocks run, a streamed check's scratch folder among them."""
+
+
+def _terminate(signum, frame) -> None:
+    raise _Terminated()
+
+
+def _on_sigterm(handler):
+    """Install ``handler`` for SIGTERM and return the one it replaces (None where signals
+    cannot be set: not the main thread, no SIGTERM on the platform)."""
+    import signal
+
+    if handler is None or not hasattr(signal, "SIGTERM"):
+        return None
+    try:
+        return signal.signal(signal.SIGTERM, handler)
+    except ValueError:            # not the main thread of the main interpreter
+        return None
 
 
 if __name__ == "__main__":

@@ -191,6 +191,40 @@ def test_scratch_folder_goes_after_an_error(plate, tmp_path, monkeypatch):
     assert list(tmp_path.glob(f"{PREFIX}*")) == []
 
 
+#: ``caselint`` whose partitions each take a while (to be stopped in the middle of one).
+SLOW_PARTS = ("-c", "import time; import caselint.partition.measure as m; "
+                    "slow = m.measure_piece; "
+                    "m.measure_piece = lambda *a, **k: (time.sleep(0.5), slow(*a, **k))[1]; "
+                    "from caselint.cli import main; raise SystemExit(main())")
+
+
+def test_a_terminated_check_removes_its_scratch_folder(plate, tmp_path):
+    """SIGTERM (a CI job's time-out) in the middle of a streamed check: exit 143, said on
+    stderr without a traceback, and the scratch folder gone."""
+    import signal
+    import time
+
+    scratch_base = tmp_path / "tmp"
+    scratch_base.mkdir()
+    case = plate["decomposed"]
+    child = subprocess.Popen([sys.executable, *SLOW_PARTS, "check", str(case), "--no-cache",
+                              "--format", "json", "--output", str(tmp_path / "r.json"),
+                              "--memory-limit", _between(case)],
+                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                             env={**os.environ, "TMPDIR": str(scratch_base)})
+    deadline = time.monotonic() + 120
+    while not list(scratch_base.glob(f"{PREFIX}*")) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert list(scratch_base.glob(f"{PREFIX}*")), "the check never made its scratch folder"
+    time.sleep(1.0)                                       # into the partitions
+    child.send_signal(signal.SIGTERM)
+    _, err = child.communicate(timeout=120)
+    assert child.returncode == 143, err
+    assert "caselint: terminated" in err and "Traceback" not in err
+    assert list(scratch_base.iterdir()) == []
+    assert not (tmp_path / "r.json").exists()
+
+
 def _scratch_in(tmp_path: Path, monkeypatch) -> None:
     """TMPDIR set to ``tmp_path`` for the checks run in this process."""
     import tempfile
