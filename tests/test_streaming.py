@@ -375,7 +375,7 @@ def _json_report(case: Path, limit, on_stream=None) -> dict:
     return report
 
 
-def test_processor_folders_too_large_for_the_limit_are_cut_into_parts(plate, monkeypatch):
+def test_streamed_parts_are_runs_as_large_as_the_limit_leaves(plate, monkeypatch):
     import contextlib
 
     from caselint.mesh import limits
