@@ -182,15 +182,3 @@ def test_partitions_option_is_checked(plate_case):
     assert done.returncode == 2
     assert "--partitions takes a whole number of at least 1 or 'auto', got 'none'" in done.stderr
     assert "Traceback" not in done.stderr
-
-
-def test_capped_plan_cuts_large_partitions_into_runs_of_their_cells():
-    labels = np.array([2, 0, 0, 1, 0, 2, 0, 0, 2, 0])       # sizes 6, 1, 3
-    split = plan.capped(plan.by_labels(labels), 4)
-    assert split.sizes().tolist() == [3, 3, 1, 3]
-    assert [split.cells(k).tolist() for k in range(split.n_parts)] == [
-        [1, 2, 4], [6, 7, 9], [3], [0, 5, 8]]
-    assert split.labels().tolist() == [3, 0, 0, 2, 0, 3, 1, 1, 3, 1]
-    assert plan.capped(plan.by_ranges(10, 2), 10).sizes().tolist() == [5, 5]
-    with pytest.raises(ValueError, match="at least 1"):
-        plan.capped(plan.by_ranges(10, 2), 0)

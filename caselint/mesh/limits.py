@@ -262,7 +262,6 @@ class MemoryWay:
     limit: int | None = None
     piece_cells: int | None = None
     scratch: int | None = None
-    #: The cells the mesh files declare (None: not estimated).
     cells: int | None = None
 
 

@@ -89,20 +89,6 @@ def by_cell_budget(n_cells: int, max_cells: int) -> Plan:
     return by_ranges(n_cells, -(-n_cells // max_cells) if n_cells else 1)
 
 
-def capped(plan: Plan, max_cells: int) -> Plan:
-    """``plan`` with each partition of more than ``max_cells`` cells cut into the fewest
-    runs of its ascending cell ids of (nearly) equal size that hold at most that many."""
-    if max_cells < 1:
-        raise ValueError(f"cells per partition must be at least 1, got {max_cells}")
-    sizes = plan.sizes()
-    parts = -(-sizes // max_cells)
-    cuts = [np.linspace(lo, hi, n + 1).round().astype(np.int64)[1:]
-            for lo, hi, n in zip(plan.offsets[:-1], plan.offsets[1:], np.maximum(parts, 1))]
-    offsets = np.concatenate([[0], *cuts]) if cuts else plan.offsets
-    order = plan.order if plan.order is not None else None
-    return Plan(plan.n_cells, offsets.astype(np.int64), order)
-
-
 def by_processors(case) -> Plan:
     """One partition per ``processor<N>`` folder of a decomposed mesh-folder case, its
     cells numbered as the reader numbers the whole mesh."""
@@ -113,4 +99,4 @@ def by_processors(case) -> Plan:
     return by_labels(cell_processors(Path(case)))
 
 
-__all__ = ["Plan", "by_cell_budget", "by_labels", "by_processors", "by_ranges", "capped"]
+__all__ = ["Plan", "by_cell_budget", "by_labels", "by_processors", "by_ranges"]

@@ -106,7 +106,8 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     reads = READ_STEPS if single else 2 * len(processor_folders(path))   # folders: twice
     parts = request.count if request is not None else None
     if parts is None:                    # runs of cells as large as the estimate allows
-        parts = _range_count(way.cells, way.piece_cells)
+        parts = (by_cell_budget(way.cells, way.piece_cells).n_parts
+                 if way.cells and way.piece_cells else 1)
     bar = on_stream(note, reads + parts) if on_stream else contextlib.nullcontext(lambda n: None)
     with bar as advance:
         scratch.advance = advance        # the reader's steps
@@ -125,14 +126,6 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
             plan = by_cell_budget(mesh.n_cells, way.piece_cells or max(mesh.n_cells, 1))
         run = counted(serial if run is None else run, advance)
         return analysed_in_partitions(mesh.data, plan, run, scratch=scratch)
-
-
-def _range_count(cells: int | None, piece_cells: int | None) -> int:
-    """How many runs of at most ``piece_cells`` cells a mesh of ``cells`` is analysed in
-    (1 when either is unknown)."""
-    if not cells or not piece_cells:
-        return 1
-    return -(-cells // piece_cells)
 
 
 def counted(run: Callable, advance: Callable[[int], None]) -> Callable:
