@@ -12,6 +12,8 @@ crosses a partition boundary.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 
@@ -20,11 +22,12 @@ from mesh_writers import write_decomposed
 from partition_checks import check_report
 from caselint.mesh import kernels
 from caselint.mesh.analysis import Mesh
+from caselint.mesh.model import ShapeBlock
 from caselint.mesh.reader import read_mesh
 from caselint.mesh.refined import refined_block
 from caselint.mesh.topology import cell_faces
 from caselint.partition import measure, plan
-from caselint.partition.piece import cut_piece
+from caselint.partition.piece import block_rows, cut_piece, positions
 
 
 @pytest.fixture(scope="module")
@@ -123,6 +126,39 @@ def test_piece_holds_two_rings_and_owns_each_face_once(prism_plate):
         assert np.array_equal(piece.cells[piece.data.owner], prism_plate.owner[g])
     every = np.sort(np.concatenate(owned_faces))
     assert np.array_equal(every, np.arange(prism_plate.n_faces))
+
+
+def test_positions_equal_a_binary_search():
+    rng = np.random.default_rng(5)
+    ids = np.unique(rng.integers(1000, 90_000, 5000))
+    values = rng.choice(ids, 20_000)
+    assert np.array_equal(positions(ids, values), np.searchsorted(ids, values))
+    # values not among the ids get a position in range, which a check of ids rejects
+    stray = np.array([0, 999, 1001, 10**6])
+    got = positions(ids, stray)
+    assert got.min() >= 0 and got.max() < len(ids) and not np.any(ids[got] == stray)
+    assert positions(np.zeros(0, np.int64), stray).tolist() == [0, 0, 0, 0]
+
+
+def test_block_rows_found_by_search_or_by_mark(prism_plate):
+    kept = np.zeros(prism_plate.n_cells, dtype=bool)
+    kept[np.random.default_rng(2).integers(0, prism_plate.n_cells, 300)] = True
+    cells = np.flatnonzero(kept)
+    for block in prism_plate.shapes:                   # two blocks: neither holds every cell
+        assert block.cells_ascend and len(block.cells) < prism_plate.n_cells
+        expected = np.flatnonzero(kept[block.cells])
+        assert len(expected) and np.array_equal(block_rows(block, cells, kept), expected)
+        turned = ShapeBlock(block.type, block.cells[::-1].copy(), block.connectivity[::-1])
+        assert not turned.cells_ascend
+        assert np.array_equal(block_rows(turned, cells, kept), np.flatnonzero(kept[turned.cells]))
+
+
+def test_blocks_whose_cells_do_not_ascend(prism_plate):
+    shuffled = [ShapeBlock(b.type, b.cells[order], b.connectivity[order])
+                for b in prism_plate.shapes
+                for order in [np.random.default_rng(4).permutation(len(b.cells))]]
+    data = dataclasses.replace(prism_plate, shapes=tuple(shuffled))
+    _assert_same(data, plan.by_ranges(data.n_cells, 3))
 
 
 def test_plans_are_checked():

@@ -52,6 +52,11 @@ class ShapeBlock:
             raise ValueError(f"{self.type}: {len(self.cells)} cell ids for "
                              f"{len(self.connectivity)} cells")
 
+    @cached_property
+    def cells_ascend(self) -> bool:
+        """Whether the cell ids ascend (one pass over them, the first time asked)."""
+        return bool(np.all(self.cells[1:] > self.cells[:-1]))
+
 
 @dataclass(frozen=True, eq=False)
 class ReadReport:
