@@ -96,6 +96,31 @@ def test_face_point_mean_and_duplicate_faces():
     assert duplicate_faces(doubled).tolist() == [0, 11]
 
 
+def test_duplicate_faces_equal_a_search_by_point_sets():
+    """Faces of a structured block listed again, turned and as boundary faces, among faces
+    that share points but not all of them; the reference: point sets as Python sets."""
+    data = mesh_from_meshio(structured_hex(*(np.linspace(0, 1, 6),) * 3)).data
+    rng = np.random.default_rng(6)
+    again = rng.choice(data.n_faces, 25, replace=False)
+    starts, stops = data.face_offsets[again], data.face_offsets[again + 1]
+    extra = [data.face_points[a:b][::-1] for a, b in zip(starts, stops)]
+    sizes = np.r_[np.diff(data.face_offsets), [len(e) for e in extra]]
+    doubled = mesh_from_faces(
+        path="doubled", points=data.points, dim=3,
+        face_offsets=np.r_[0, np.cumsum(sizes)],
+        face_points=np.r_[data.face_points, np.concatenate(extra)],
+        owner=np.r_[data.owner, data.owner[again]], neighbour=np.r_[data.neighbour, [-1] * 25],
+        n_cells=data.n_cells, face_group=np.r_[data.face_group, [-1] * 25],
+        group_names=data.group_names, group_types=data.group_types)
+    by_set: dict[frozenset, list[int]] = {}
+    fo, fp = doubled.face_offsets, doubled.face_points
+    for f in range(doubled.n_faces):
+        by_set.setdefault(frozenset(fp[fo[f]:fo[f + 1]].tolist()), []).append(f)
+    expected = sorted(f for faces in by_set.values() if len(faces) > 1 for f in faces)
+    assert len(expected) == 50
+    assert duplicate_faces(doubled).tolist() == expected
+
+
 def test_element_meshes_know_their_non_manifold_faces():
     mesh = mesh_from_meshio(structured_hex(*(np.linspace(0, 1, 3),) * 3))
     assert mesh.data.report.nonmanifold is not None and mesh.nonmanifold_faces.size == 0

@@ -157,15 +157,15 @@ def duplicate_faces(mesh: "MeshData") -> np.ndarray:
     for start in range(0, mesh.n_faces, KEY_CHUNK):
         faces = np.arange(start, min(start + KEY_CHUNK, mesh.n_faces))
         keys[start:start + len(faces)] = _point_set_keys(mesh, faces)
-    order = np.argsort(keys, kind="stable")
-    sk = keys[order]
-    tied = sk[1:] == sk[:-1]
-    del keys, sk
-    candidates = np.zeros(mesh.n_faces, dtype=bool)
-    candidates[order[1:][tied]] = True
-    candidates[order[:-1][tied]] = True
-    del order, tied
-    return _same_point_sets(mesh, np.flatnonzero(candidates))
+    # the keys that occur more than once, from a sorted copy (numpy sorts 64-bit keys
+    # with SIMD: a tenth of the time of an argsort, and no array of face ids)
+    sk = np.sort(keys)
+    repeated = np.unique(sk[1:][sk[1:] == sk[:-1]])
+    del sk
+    candidates = np.flatnonzero(np.isin(keys, repeated)) if len(repeated) else \
+        np.zeros(0, dtype=np.int64)
+    del keys
+    return _same_point_sets(mesh, candidates)
 
 
 #: Faces per chunk of :func:`duplicate_faces`' keys.
