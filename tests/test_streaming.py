@@ -316,7 +316,10 @@ def test_scratch_arrays_are_on_disk_and_the_folder_goes(tmp_path):
     assert float(a.sum()) == -4500.0                      # views stay readable
 
 
-def test_merge_on_disk_equals_the_merge_in_memory(plate, tmp_path):
+# writes made as read (None), held and flushed after every write (1), every folder or so,
+# or once per pass
+@pytest.mark.parametrize("spare", [None, 1, 3_000_000, 10**10])
+def test_merge_on_disk_equals_the_merge_in_memory(plate, tmp_path, spare):
     from caselint.mesh.formats.face_decomposed import read_decomposed
     from caselint.mesh.formats.face_decomposed_disk import merged_on_disk
     from caselint.mesh.formats.face_folder import processor_folders
@@ -325,6 +328,7 @@ def test_merge_on_disk_equals_the_merge_in_memory(plate, tmp_path):
     folders = [p / "constant" / "polyMesh" for p in processor_folders(case)]
     steps = []
     with Scratch(tmp_path) as scratch:
+        scratch.spare = spare
         disk = merged_on_disk(case, folders, scratch, steps.append)
         memory, notes = read_decomposed(case, folders)
         assert notes == () and len(steps) == 2 * len(folders)
@@ -333,6 +337,31 @@ def test_merge_on_disk_equals_the_merge_in_memory(plate, tmp_path):
             assert is_on_disk(getattr(disk, name)), name
         assert disk.n_cells == memory.n_cells == plate["data"].n_cells
         assert disk.patches == memory.patches
+
+
+def test_held_writes_end_as_writes_one_after_the_other():
+    from caselint.mesh.formats.face_decomposed_disk import Pending
+
+    rng = np.random.default_rng(8)
+    n = 200_000
+    writes = [(rng.choice(n, 30_000, replace=False), rng.random((30_000, 3)))
+              for _ in range(5)]                      # ids repeat between writes
+    counted = [rng.integers(0, n, 40_000) for _ in range(3)]
+    expected, expected_count = np.zeros((n, 3)), np.zeros(n, np.uint8)
+    for index, values in writes:
+        expected[index] = values
+    for index in counted:
+        np.add.at(expected_count, index, 1)
+    for spare in (None, 1, 2_000_000, 10**10):
+        got, count = np.zeros((n, 3)), np.zeros(n, np.uint8)
+        pending = Pending(spare)
+        for (index, values), more in zip(writes, counted + [None, None]):
+            pending.put(got, index, values, repeats=True)
+            if more is not None:
+                pending.put(count, more, None)
+        pending.flush()
+        assert np.array_equal(got, expected) and np.array_equal(count, expected_count), spare
+        assert pending.writes == [] and pending.bytes == 0
 
 
 def test_no_scratch_folder_inside_the_case(plate, tmp_path):

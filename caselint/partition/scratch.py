@@ -79,6 +79,10 @@ class Scratch:
         self._count = 0
         #: told of each step of work done into this scratch (a progress bar), if set
         self.advance: Callable[[int], None] | None = None
+        #: private memory (bytes) a reader filling arrays of this scratch may hold in
+        #: writes it makes together (:class:`caselint.mesh.formats.face_decomposed_disk.
+        #: Pending`); None: it writes as it reads
+        self.spare: int | None = None
         self._cleanup = weakref.finalize(self, shutil.rmtree, str(self.folder), True)
 
     def __enter__(self) -> "Scratch":
