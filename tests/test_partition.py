@@ -161,6 +161,18 @@ def test_blocks_whose_cells_do_not_ascend(prism_plate):
     _assert_same(data, plan.by_ranges(data.n_cells, 3))
 
 
+def test_put_writes_runs_as_slices_and_the_rest_by_index():
+    rng = np.random.default_rng(9)
+    runs = np.r_[np.arange(10, 500), np.arange(700, 900), [950, 3], np.arange(4, 9)]
+    scattered = rng.permutation(1000)[:600]
+    for ids in (runs, scattered, np.arange(0), np.arange(1000)):
+        values = rng.random((len(ids), 3))
+        got, expected = np.zeros((1000, 3)), np.zeros((1000, 3))
+        measure.put(got, ids, values)
+        expected[ids] = values
+        assert np.array_equal(got, expected)
+
+
 def test_plans_are_checked():
     with pytest.raises(ValueError, match="at least 1"):
         plan.by_ranges(10, 0)

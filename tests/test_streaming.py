@@ -344,8 +344,13 @@ def test_held_writes_end_as_writes_one_after_the_other():
 
     rng = np.random.default_rng(8)
     n = 200_000
-    writes = [(rng.choice(n, 30_000, replace=False), rng.random((30_000, 3)))
-              for _ in range(5)]                      # ids repeat between writes
+    # ids repeat between writes; ascending runs (as a processor folder's), and ids in no
+    # order (sorted by part first)
+    writes = [(np.sort(rng.choice(n, 30_000, replace=False)), rng.random((30_000, 3)))
+              for _ in range(3)]
+    writes[1] = (np.r_[writes[1][0][15_000:], writes[1][0][:15_000]], writes[1][1])
+    writes += [(rng.choice(n, 30_000, replace=False), rng.random((30_000, 3)))
+               for _ in range(2)]
     counted = [rng.integers(0, n, 40_000) for _ in range(3)]
     expected, expected_count = np.zeros((n, 3)), np.zeros(n, np.uint8)
     for index, values in writes:
@@ -356,12 +361,12 @@ def test_held_writes_end_as_writes_one_after_the_other():
         got, count = np.zeros((n, 3)), np.zeros(n, np.uint8)
         pending = Pending(spare)
         for (index, values), more in zip(writes, counted + [None, None]):
-            pending.put(got, index, values, repeats=True)
+            pending.put(got, index, values)
             if more is not None:
                 pending.put(count, more, None)
         pending.flush()
         assert np.array_equal(got, expected) and np.array_equal(count, expected_count), spare
-        assert pending.writes == [] and pending.bytes == 0
+        assert pending.runs == {} and pending.bytes == 0
 
 
 def test_no_scratch_folder_inside_the_case(plate, tmp_path):

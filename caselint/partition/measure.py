@@ -127,7 +127,7 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
             per = BY_NAME[name].per
             if name not in out:
                 out[name] = empty(name, (size[per],) + values.shape[1:], values.dtype)
-            out[name][ids[per]] = values
+            put(out[name], ids[per], values)
             seen[name] = seen.get(name, 0) + len(ids[per])
         del result, ids, values     # not held while the next partition is analysed
     for name, count in seen.items():
@@ -136,6 +136,27 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
             raise ValueError(f"partitions wrote {count} of {expected} rows of {name}: the plan "
                              "does not cover every cell exactly once")
     return out
+
+
+#: :func:`put` writes runs of consecutive ids as slices when there are fewer than this.
+MAX_RUNS = 256
+
+
+def put(array: np.ndarray, ids: np.ndarray, values: np.ndarray) -> None:
+    """``array[ids] = values``, as slices where ``ids`` are a few runs of consecutive
+    ids: a partition of consecutive cells owns consecutive cells and, in a
+    mesh folder's numbering, its internal faces and its faces in each boundary group are
+    runs too. A slice is copied in one go into an array on disk, where an index array
+    goes element by element (a third of the time of assembling a streamed 4M-cell
+    mesh)."""
+    if not len(ids):
+        return
+    breaks = np.flatnonzero(np.diff(ids) != 1) + 1
+    if len(breaks) >= MAX_RUNS:
+        array[ids] = values
+        return
+    for start, stop in zip(np.r_[0, breaks], np.r_[breaks, len(ids)]):
+        array[ids[start]:ids[start] + (stop - start)] = values[start:stop]
 
 
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
@@ -212,4 +233,4 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
 
 __all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
            "assemble", "geometry_of",
-           "measure_made", "measure_piece", "measure_pieces", "measure_walker"]
+           "measure_made", "measure_piece", "measure_pieces", "measure_walker", "put"]

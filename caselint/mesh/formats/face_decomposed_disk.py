@@ -17,9 +17,9 @@ dirtied, written back to disk and dirtied again by the next folder (a 100M-cell 
 therefore held in memory (:class:`Pending`) up to the scratch's :attr:`spare
 <caselint.partition.scratch.Scratch.spare>` bytes, the private memory the check holds
 later but not while it reads, and then made together, in the order of the pages they
-fall on: each page is dirtied once per batch of folders. Where several folders write the
-same entry (points on the boundary between processors) the last folder's value is kept,
-as when they were written one after the other.
+fall on: each page is dirtied about once per batch of folders. Where several folders
+write the same entry (points on the boundary between processors) the last folder's value
+is kept, as when they were written one after the other.
 
 A case without addressing files is not merged this way (its parts are joined by matching
 points across processor faces, which needs every part at once); it is read in memory or
@@ -71,7 +71,7 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
         face, kept = np.abs(face_ids) - 1, face_ids > 0
         placed = face[kept]
         inside = kept & (part.neighbour >= 0)
-        pending.put(points, point_ids, part.points, repeats=True)
+        pending.put(points, point_ids, part.points)
         pending.put(owner, placed, cell_ids[part.owner[kept]])
         pending.put(neighbour, face[inside], cell_ids[part.neighbour[inside]])
         pending.put(neighbour, face[~kept], cell_ids[part.owner[~kept]])
@@ -116,49 +116,65 @@ class Pending:
     """Writes into arrays on disk held until they weigh ``spare`` bytes, then made together
     in page order (module docstring); ``spare`` None: each write made at once.
 
-    A flush needs about three times what it holds (the writes joined into one array per
-    target, and their order), so it holds up to a third of ``spare``."""
+    Each write is kept as runs whose ids go through a target's 256ths (:data:`SLICES`) in
+    order, with where each 256th starts in the run: a processor folder's ids are a few
+    ascending runs (its internal faces, each boundary group, its points), found in one
+    pass; ids in no useful order are sorted by 256th first (a stable radix sort). A flush
+    then writes, for each 256th of a target, its share of every run in the order they
+    came: page after page, and an entry that two writes set ends with the later value, as
+    when written one after the other. A flush holds nothing more than the writes, so they
+    may weigh all of ``spare``."""
 
     def __init__(self, spare: int | None) -> None:
-        self.hold = None if spare is None else spare // 3
-        self.writes: list[tuple[np.ndarray, np.ndarray, np.ndarray | None, bool]] = []
+        self.spare = spare
+        self.runs: dict[int, tuple[np.ndarray, list]] = {}
         self.bytes = 0
-        self._counted: set[int] = set()
 
-    def put(self, target: np.ndarray, index: np.ndarray, values: np.ndarray | None,
-            repeats: bool = False) -> None:
+    def put(self, target: np.ndarray, index: np.ndarray, values: np.ndarray | None) -> None:
         """``target[index] = values``; ``values`` None: ``target[index] += 1`` (each
-        repeat counted); ``repeats``: ``index`` may repeat an index of an earlier write,
-        whose value the later one replaces."""
-        if self.hold is None:
+        repeat counted)."""
+        if self.spare is None:
             _write(target, index, values)
             return
-        self.writes.append((target, index, values, repeats))
-        for array in (index, values):       # an index array given twice is held once
-            if array is not None and id(array) not in self._counted:
-                self._counted.add(id(array))
-                self.bytes += array.nbytes
-        if self.bytes > self.hold:
+        key = _slice_of(index, len(target))
+        breaks = np.flatnonzero(np.diff(key) < 0) + 1
+        if len(breaks) >= SLICES:
+            order = np.argsort(key, kind="stable")
+            index, key = index[order], key[order]
+            values = None if values is None else values[order]
+            breaks = breaks[:0]
+        runs = self.runs.setdefault(id(target), (target, []))[1]
+        for lo, hi in zip(np.r_[0, breaks], np.r_[breaks, len(index)]):
+            starts = np.searchsorted(key[lo:hi], np.arange(SLICES + 1))
+            runs.append((index[lo:hi], None if values is None else values[lo:hi], starts))
+        self.bytes += index.nbytes + (0 if values is None else values.nbytes)
+        if self.bytes > self.spare:
             self.flush()
 
     def flush(self) -> None:
-        """Make the writes held, target by target, each in page order."""
-        targets: dict[int, list] = {}
-        for write in self.writes:
-            targets.setdefault(id(write[0]), []).append(write)
-        self.writes, self.bytes, self._counted = [], 0, set()
-        while targets:                  # each target's writes let go once joined
-            writes = targets.pop(next(iter(targets)))
-            target = writes[0][0]
-            if any(w[3] for w in writes):
-                writes = _last_of_each(writes, len(target))
-            index = np.concatenate([w[1] for w in writes])
-            counted = writes[0][2] is None
-            values = None if counted else np.concatenate([w[2] for w in writes])
-            del writes
-            order = _page_order(index, len(target))
-            _write(target, index[order], None if counted else values[order])
-            del index, values, order
+        """Make the writes held, target by target, 256th by 256th."""
+        held, self.runs, self.bytes = self.runs, {}, 0
+        while held:
+            target, runs = held.pop(next(iter(held)))
+            for k in range(SLICES):
+                for index, values, starts in runs:
+                    lo, hi = starts[k], starts[k + 1]
+                    if hi > lo:
+                        _write(target, index[lo:hi], None if values is None else values[lo:hi])
+            del runs
+
+
+#: The parts of a target a flush writes one after the other (:class:`Pending`). Each is
+#: far smaller than the dirty pages the kernel lets a process hold before it makes it wait
+#: for their writing back (by default a fifth of the memory), so each page of the target
+#: is written back about once per flush.
+SLICES = 256
+
+
+def _slice_of(index: np.ndarray, n: int) -> np.ndarray:
+    """Which of the :data:`SLICES` parts of ``0 .. n`` each of ``index`` falls in."""
+    shift = max(0, (max(n, 1) - 1).bit_length() - 8)
+    return (index >> shift).astype(np.int16)
 
 
 def _write(target: np.ndarray, index: np.ndarray, values: np.ndarray | None) -> None:
@@ -166,28 +182,6 @@ def _write(target: np.ndarray, index: np.ndarray, values: np.ndarray | None) -> 
         np.add.at(target, index, 1)
     else:
         target[index] = values
-
-
-def _last_of_each(writes: list, n: int) -> list:
-    """The writes with each index kept in its last write only (so that one assignment,
-    whatever its order, gives what writing them one after the other gives)."""
-    taken = np.zeros(n, dtype=bool)
-    out = []
-    for target, index, values, _ in reversed(writes):
-        fresh = ~taken[index]
-        taken[index] = True
-        if not fresh.all():
-            index, values = index[fresh], values[fresh]
-        out.append((target, index, values, False))
-    return out[::-1]
-
-
-def _page_order(index: np.ndarray, n: int) -> np.ndarray:
-    """An order of ``index`` (ids below ``n``) by the 65,536th of ``0 .. n`` each falls
-    in: a stable sort on 16-bit keys, which numpy makes by radix in linear time, enough
-    to write a target's pages one after the other."""
-    shift = max(0, (max(n, 1) - 1).bit_length() - 16)
-    return np.argsort((index >> shift).astype(np.uint16), kind="stable")
 
 
 def _sizes(folders: list[Path]) -> tuple[int, int, int]:
