@@ -40,6 +40,7 @@ from caselint.mesh.quality import (
 )
 from caselint.mesh.refined import refined_block
 from caselint.mesh.stack_walk import StackState
+from caselint.mesh.topology import point_set_keys
 from caselint.mesh.size_ratio import mean_sizes, volume_ratio
 from caselint.rulekit.stacks import layer_cells, mark_on
 from caselint.rules.mesh_integrity import (
@@ -139,6 +140,7 @@ def _analyse(name: str, mode: str, monkeypatch: pytest.MonkeyPatch) -> dict:
     points, copies = coincident_points(mesh)
     out["coincident"], out["copies"] = points, copies
     out["short_faces"] = short_faces(mesh)
+    out["point_set_keys"] = point_set_keys(data)
     if mesh.dim == 3:
         boundary = mesh.boundary_faces
         wall = np.zeros(mesh.n_faces, dtype=bool)
@@ -447,3 +449,22 @@ def test_shape_recognition_keeps_the_shapes_given_and_skips_damaged_cells(monkey
     clean = np.setdiff1d(np.arange(given.n_cells), np.append(near, collapsed))
     assert hexes.type == "hexahedron" and len(clean) > 60
     assert np.isin(clean, hexes.cells).all() and collapsed not in hexes.cells
+
+
+def test_point_set_keys_of_long_and_empty_faces():
+    """Faces longer than the kernel's first buffer (100 points), a face of no points and a
+    face with a repeated point, against the numpy reference."""
+    from types import SimpleNamespace
+
+    from caselint.mesh.kernels import face_checks
+    from caselint.mesh.topology import _point_set_keys
+
+    rng = np.random.default_rng(4)
+    sizes = np.array([100, 4, 0, 3, 130, 4])
+    points = rng.integers(0, 10_000, sizes.sum())
+    points[104:106] = points[103]                 # the triangle repeats a point
+    mesh = SimpleNamespace(face_offsets=np.r_[0, np.cumsum(sizes)], face_points=points)
+    got = np.zeros(len(sizes), dtype=np.uint64)
+    face_checks.point_set_keys(mesh.face_offsets, mesh.face_points, 0, len(sizes), got)
+    np.testing.assert_array_equal(got, _point_set_keys(mesh, np.arange(len(sizes))))
+    assert len(set(got.tolist())) == len(sizes)

@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from caselint.mesh.kernels import compiled
+from caselint.mesh.kernels import compiled, in_threads
 
 if TYPE_CHECKING:
     from caselint.mesh.model import MeshData
@@ -153,10 +153,7 @@ def duplicate_faces(mesh: "MeshData") -> np.ndarray:
     known = mesh.report.nonmanifold
     if known is not None:
         return known
-    keys = np.empty(mesh.n_faces, dtype=np.uint64)
-    for start in range(0, mesh.n_faces, KEY_CHUNK):
-        faces = np.arange(start, min(start + KEY_CHUNK, mesh.n_faces))
-        keys[start:start + len(faces)] = _point_set_keys(mesh, faces)
+    keys = point_set_keys(mesh)
     # the keys that occur more than once, from a sorted copy (numpy sorts 64-bit keys
     # with SIMD: a tenth of the time of an argsort, and no array of face ids)
     sk = np.sort(keys)
@@ -168,8 +165,24 @@ def duplicate_faces(mesh: "MeshData") -> np.ndarray:
     return _same_point_sets(mesh, candidates)
 
 
-#: Faces per chunk of :func:`duplicate_faces`' keys.
+#: Faces per chunk of :func:`point_set_keys`.
 KEY_CHUNK = 1 << 20
+
+
+def point_set_keys(mesh: "MeshData") -> np.ndarray:
+    """(F,) uint64: a key of each face's sorted point ids and size (equal point sets, equal
+    keys), made in chunks of :data:`KEY_CHUNK` faces, or by the compiled kernel
+    (:func:`caselint.mesh.kernels.face_checks.point_set_keys`) on threads."""
+    keys = np.empty(mesh.n_faces, dtype=np.uint64)
+    kernel = compiled("face_checks", mesh.n_cells)
+    if kernel is not None:
+        in_threads(lambda p: kernel.point_set_keys(mesh.face_offsets, mesh.face_points,
+                                                   p.start, p.stop, keys), mesh.n_faces)
+        return keys
+    for start in range(0, mesh.n_faces, KEY_CHUNK):
+        faces = np.arange(start, min(start + KEY_CHUNK, mesh.n_faces))
+        keys[start:start + len(faces)] = _point_set_keys(mesh, faces)
+    return keys
 
 
 def _point_set_keys(mesh: "MeshData", faces: np.ndarray) -> np.ndarray:

@@ -48,6 +48,46 @@ def cell_faces(owner, neighbour, n_internal, n_cells, like):
     return offsets, faces, owned
 
 
+_KEY_PRIME = np.uint64(0x100000001B3)
+_MIX_1 = np.uint64(0xBF58476D1CE4E5B9)
+_MIX_2 = np.uint64(0x94D049BB133111EB)
+
+
+@jit
+def point_set_keys(face_offsets, face_points, lo_face, hi_face, out):
+    """The key of the sorted point ids and the size of faces ``lo_face`` .. ``hi_face - 1``
+    into ``out`` (uint64), as :func:`caselint.mesh.topology._point_set_keys`: the size,
+    then each id in ascending order, mixed in by a multiply-add and splitmix64's
+    finaliser, all modulo 2**64. A face of no points mixes in the id its row would hold
+    there (the reference's padded table)."""
+    n_fp = face_points.shape[0]
+    buffer = np.empty(64, dtype=np.int64)
+    for f in range(lo_face, hi_face):
+        lo, hi = face_offsets[f], face_offsets[f + 1]
+        k = hi - lo
+        if k == 0:
+            k_row = 1
+            buffer[0] = face_points[min(lo, n_fp - 1)] if n_fp > 0 else 0
+        else:
+            k_row = k
+            if k > buffer.shape[0]:
+                buffer = np.empty(2 * k, dtype=np.int64)
+            for i in range(k):                       # insertion sort: faces are short
+                v = face_points[lo + i]
+                j = i
+                while j > 0 and buffer[j - 1] > v:
+                    buffer[j] = buffer[j - 1]
+                    j -= 1
+                buffer[j] = v
+        h = np.uint64(k)
+        for i in range(k_row):
+            h = h * _KEY_PRIME + np.uint64(buffer[i])
+            h = (h ^ (h >> np.uint64(30))) * _MIX_1
+            h = (h ^ (h >> np.uint64(27))) * _MIX_2
+            h = h ^ (h >> np.uint64(31))
+        out[f] = h
+
+
 @jit
 def distinct_points(face_offsets, face_points):
     """(F,) number of distinct point ids of each face."""
