@@ -67,25 +67,35 @@ def cells_across(data: MeshData, faces: np.ndarray) -> np.ndarray:
     return ascending([data.owner[faces], nbr[nbr >= 0]], data.n_cells)
 
 
+class Positions:
+    """Where values are in ``ids`` (distinct, ascending): what ``np.searchsorted(ids,
+    values)`` gives for the values that are in ``ids``, read from a table over the span of
+    ``ids`` instead of a binary search per value (on a piece's millions of face points the
+    searches were half of cutting it). A value not in ``ids`` gets some position in
+    0 .. len(ids) - 1: callers that may meet one check ``ids[result] == values``. The
+    table is as long as the span of ``ids`` (at most the whole mesh's count, 4 bytes
+    each; only its pages that ``ids`` touch are ever written), so it is made once for all
+    the lookups in the same ids."""
+
+    def __init__(self, ids: np.ndarray) -> None:
+        self.low = int(ids[0]) if len(ids) else 0
+        self.span = int(ids[-1]) - self.low + 1 if len(ids) else 0
+        self.table = np.zeros(self.span, dtype=np.int32 if len(ids) < 2**31 else np.int64)
+        self.table[np.asarray(ids, dtype=np.int64) - self.low] = np.arange(
+            len(ids), dtype=self.table.dtype)
+
+    def __call__(self, values: np.ndarray) -> np.ndarray:
+        values = np.asarray(values)
+        if not self.span:
+            return np.zeros(values.shape, dtype=np.int64)
+        at = values.astype(np.int64) - self.low
+        np.clip(at, 0, self.span - 1, out=at)
+        return self.table[at].astype(np.int64)
+
+
 def positions(ids: np.ndarray, values: np.ndarray) -> np.ndarray:
-    """Where each of ``values`` is in ``ids`` (distinct, ascending): what
-    ``np.searchsorted(ids, values)`` gives for the values that are in ``ids``, read from a
-    table over the span of ``ids`` instead of a binary search per value (on a piece's
-    millions of face points the searches were half of cutting it). A value not in ``ids``
-    gets some position in 0 .. len(ids) - 1: callers that may meet one check
-    ``ids[result] == values``. The table is as long as the span of ``ids`` (at most the
-    whole mesh's count, 4 bytes each), but only its pages that ``ids`` touch are ever
-    written."""
-    values = np.asarray(values)
-    if len(ids) == 0:
-        return np.zeros(values.shape, dtype=np.int64)
-    low = int(ids[0])
-    span = int(ids[-1]) - low + 1
-    table = np.zeros(span, dtype=np.int32 if len(ids) < 2**31 else np.int64)
-    table[np.asarray(ids, dtype=np.int64) - low] = np.arange(len(ids), dtype=table.dtype)
-    at = values.astype(np.int64) - low
-    np.clip(at, 0, span - 1, out=at)
-    return table[at].astype(np.int64)
+    """:class:`Positions` of ``values`` in ``ids``, for a single lookup."""
+    return Positions(ids)(values)
 
 
 def block_rows(block: ShapeBlock, cells: np.ndarray, is_kept: np.ndarray) -> np.ndarray:
@@ -124,9 +134,10 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     complete[ring1] = True
     faces = ascending([own_faces, faces_of(cf, ring1)], data.n_faces)
     cells = cells_across(data, faces)                       # owned, ring 1 and ring 2
-    local_owner = positions(cells, data.owner[faces])
+    in_cells = Positions(cells)
+    local_owner = in_cells(data.owner[faces])
     nbr = data.neighbour[faces]
-    local_nbr = np.where(nbr >= 0, positions(cells, nbr), -1)
+    local_nbr = np.where(nbr >= 0, in_cells(nbr), -1)
 
     start, stop = data.face_offsets[faces], data.face_offsets[faces + 1]
     size = stop - start
@@ -135,7 +146,8 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     base = np.repeat(start - offsets[:-1], size)
     global_fp = data.face_points[base + np.arange(int(offsets[-1]))]
     points = ascending([global_fp], data.n_points)
-    face_points = positions(points, global_fp).astype(data.face_points.dtype)
+    in_points = Positions(points)
+    face_points = in_points(global_fp).astype(data.face_points.dtype)
 
     shapes = []
     complete_cells = np.flatnonzero(complete)
@@ -144,11 +156,11 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
         if not len(rows):
             continue
         conn = block.connectivity[rows]
-        local_conn = positions(points, conn)
+        local_conn = in_points(conn)
         if np.any(points[local_conn] != conn):
             raise ValueError(f"partition {index}: a {block.type} corner lies on none of the "
                              "cell's faces")
-        shapes.append(ShapeBlock(block.type, positions(cells, block.cells[rows]),
+        shapes.append(ShapeBlock(block.type, in_cells(block.cells[rows]),
                                  local_conn.astype(conn.dtype)))
 
     clash = data.report.clashing
@@ -163,7 +175,7 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
         zone_names=data.zone_names,
         report=ReadReport(clashing=positions(faces, clash)),
     )
-    owned_local = positions(cells, owned)
+    owned_local = in_cells(owned)
     owned_faces = np.flatnonzero(is_owned[data.owner[faces]])
     return Piece(index, local, cells, faces, points, owned_local, owned_faces, data.n_cells)
 
@@ -191,4 +203,4 @@ def cut_here(data: MeshData, cf: CellFaces, plan) -> Pieces:
 
 
 __all__ = ["Piece", "Pieces", "as_is", "ascending", "block_rows", "cells_across", "cut_here",
-           "cut_piece", "faces_of", "positions"]
+           "cut_piece", "faces_of", "positions", "Positions"]
