@@ -30,7 +30,7 @@ from pathlib import Path
 from typing import Callable, ContextManager, Iterable, Iterator
 
 from caselint.mesh.limits import (
-    SCRATCH_BYTES_PER_CELL, STREAM_ADVICE, STREAM_BYTES_PER_CELL, MemoryLimit, MemoryWay,
+    SCRATCH_BYTES_PER_CELL, STREAM_ADVICE, STREAM_PIECE_BYTES_PER_CELL, MemoryLimit, MemoryWay,
     choose_way, memory_limit,
 )
 
@@ -112,8 +112,11 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     bar = on_stream(note, reads + parts) if on_stream else contextlib.nullcontext(lambda n: None)
     with bar as advance:
         scratch.advance = advance        # the reader's steps
-        # the whole-mesh share held by the rules later is free while the mesh is read
-        scratch.spare = STREAM_BYTES_PER_CELL * way.cells if way.cells else None
+        # the memory of one part is free while the mesh is read (not the share the rules
+        # hold later: that much held besides the merged arrays' pages squeezed them out
+        # of memory at 100M cells)
+        scratch.spare = STREAM_PIECE_BYTES_PER_CELL * way.piece_cells if way.piece_cells \
+            else None
         mesh = read_mesh(path, scale_to_m=scale_to_m, zone=zone, readers=readers,
                          memory_limit=(None, "streamed"), scratch=scratch)
         if request is not None and request.count is not None:

@@ -15,8 +15,8 @@ into nearly every page of the merged arrays; written folder by folder, every pag
 dirtied, written back to disk and dirtied again by the next folder (a 100M-cell case in
 64 folders wrote 0.5 TB in the first six minutes, for 14 GB of arrays). The writes are
 therefore held in memory (:class:`Pending`) up to the scratch's :attr:`spare
-<caselint.partition.scratch.Scratch.spare>` bytes, the private memory the check holds
-later but not while it reads, and then made together, in the order of the pages they
+<caselint.partition.scratch.Scratch.spare>` bytes (the memory of one part, which the
+check holds later but not while it reads), and then made together, in the order of the pages they
 fall on: each page is dirtied about once per batch of folders. Where several folders
 write the same entry (points on the boundary between processors) the last folder's value
 is kept, as when they were written one after the other.
