@@ -168,7 +168,8 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     local = MeshData(
         path=f"{data.path} [partition {index}]", dim=data.dim, points=data.points[points],
         face_offsets=offsets, face_points=face_points,
-        owner=local_owner.astype(data.owner.dtype), neighbour=local_nbr.astype(data.neighbour.dtype),
+        owner=local_owner.astype(data.owner.dtype),
+        neighbour=local_nbr.astype(data.neighbour.dtype),
         n_cells=len(cells), face_group=data.face_group[faces], group_names=data.group_names,
         group_types=data.group_types, shapes=tuple(shapes),
         cell_zone=None if data.cell_zone is None else data.cell_zone[cells],

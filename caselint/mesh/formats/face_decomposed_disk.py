@@ -16,10 +16,11 @@ dirtied, written back to disk and dirtied again by the next folder (a 100M-cell 
 64 folders wrote 0.5 TB in the first six minutes, for 14 GB of arrays). The writes are
 therefore held in memory (:class:`Pending`) up to the scratch's :attr:`spare
 <caselint.partition.scratch.Scratch.spare>` bytes (the memory of one part, which the
-check holds later but not while it reads), and then made together, in the order of the pages they
-fall on: each page is dirtied about once per batch of folders. Where several folders
-write the same entry (points on the boundary between processors) the last folder's value
-is kept, as when they were written one after the other.
+check holds later but not while it reads), and then made together, in the order of the
+pages they fall on: each page is dirtied about once per batch of folders (that case: 0.13
+TB written back by the merge instead of about 0.8 TB, 6.3 min instead of about 8.5).
+Where several folders write the same entry (points on the boundary between processors)
+the last folder's value is kept, as when they were written one after the other.
 
 A case without addressing files is not merged this way (its parts are joined by matching
 points across processor faces, which needs every part at once); it is read in memory or
