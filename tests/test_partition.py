@@ -27,7 +27,7 @@ from caselint.mesh.reader import read_mesh
 from caselint.mesh.refined import refined_block
 from caselint.mesh.topology import cell_faces
 from caselint.partition import measure, plan
-from caselint.partition.piece import block_rows, cut_piece, positions
+from caselint.partition.piece import Positions, block_rows, cut_piece
 
 
 @pytest.fixture(scope="module")
@@ -132,12 +132,12 @@ def test_positions_equal_a_binary_search():
     rng = np.random.default_rng(5)
     ids = np.unique(rng.integers(1000, 90_000, 5000))
     values = rng.choice(ids, 20_000)
-    assert np.array_equal(positions(ids, values), np.searchsorted(ids, values))
+    assert np.array_equal(Positions(ids)(values), np.searchsorted(ids, values))
     # values not among the ids get a position in range, which a check of ids rejects
     stray = np.array([0, 999, 1001, 10**6])
-    got = positions(ids, stray)
+    got = Positions(ids)(stray)
     assert got.min() >= 0 and got.max() < len(ids) and not np.any(ids[got] == stray)
-    assert positions(np.zeros(0, np.int64), stray).tolist() == [0, 0, 0, 0]
+    assert Positions(np.zeros(0, np.int64))(stray).tolist() == [0, 0, 0, 0]
 
 
 def test_block_rows_found_by_search_or_by_mark(prism_plate):

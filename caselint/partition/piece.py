@@ -93,11 +93,6 @@ class Positions:
         return self.table[at].astype(np.int64)
 
 
-def positions(ids: np.ndarray, values: np.ndarray) -> np.ndarray:
-    """:class:`Positions` of ``values`` in ``ids``, for a single lookup."""
-    return Positions(ids)(values)
-
-
 def block_rows(block: ShapeBlock, cells: np.ndarray, is_kept: np.ndarray) -> np.ndarray:
     """The rows of ``block`` whose cell is one of ``cells`` (ascending; ``is_kept`` the
     same as a mark per cell of the mesh), in row order. Where the block's cells ascend
@@ -174,7 +169,7 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
         group_types=data.group_types, shapes=tuple(shapes),
         cell_zone=None if data.cell_zone is None else data.cell_zone[cells],
         zone_names=data.zone_names,
-        report=ReadReport(clashing=positions(faces, clash)),
+        report=ReadReport(clashing=np.searchsorted(faces, clash).astype(np.int64)),
     )
     owned_local = in_cells(owned)
     owned_faces = np.flatnonzero(is_owned[data.owner[faces]])
@@ -204,4 +199,4 @@ def cut_here(data: MeshData, cf: CellFaces, plan) -> Pieces:
 
 
 __all__ = ["Piece", "Pieces", "as_is", "ascending", "block_rows", "cells_across", "cut_here",
-           "cut_piece", "faces_of", "positions", "Positions"]
+           "cut_piece", "faces_of", "Positions"]
