@@ -23,6 +23,7 @@ import pytest
 import calibration
 from mesh_writers import write_decomposed, write_face_folder
 from caselint.mesh.analysis import Mesh
+from caselint.mesh.limits import STREAM_ADVICE
 from caselint.mesh.reader import read_mesh
 from caselint.partition import streaming
 from caselint.partition.scratch import MIN_BYTES, PREFIX, Scratch, is_on_disk
@@ -157,7 +158,7 @@ def test_a_mesh_that_cannot_be_streamed_is_refused_with_what_would_work(plate, t
     assert done.returncode == 2, done.stderr
     assert report is None and "Traceback" not in done.stderr
     message = " ".join(done.stderr.split())
-    assert "cannot read the mesh" in message and streaming.NOT_DECOMPOSED in message
+    assert "cannot read the mesh" in message and STREAM_ADVICE in message
     assert "a mesh file (gmsh, VTU, CGNS, SU2, ...) is read whole" in message
 
 

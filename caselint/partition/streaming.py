@@ -30,17 +30,14 @@ from pathlib import Path
 from typing import Callable, ContextManager, Iterable, Iterator
 
 from caselint.mesh.limits import (
-    SCRATCH_BYTES_PER_CELL, STREAM_ADVICE, STREAM_PIECE_BYTES_PER_CELL, MemoryLimit, MemoryWay,
-    choose_way, memory_limit,
+    SCRATCH_BYTES_PER_CELL, STREAM_PIECE_BYTES_PER_CELL, MemoryLimit, MemoryWay, choose_way,
+    memory_limit,
 )
 
 #: Called once when a mesh is streamed: ``(note, n_steps)`` -> a context manager yielding
 #: ``advance(n)`` for the steps (folders read twice, then partitions analysed).
 OnStream = Callable[[str, int], ContextManager[Callable[[int], None]]]
 
-#: Why a mesh file cannot be streamed, and what would work (what its reader's refusal
-#: says, :data:`caselint.mesh.limits.STREAM_ADVICE`).
-NOT_DECOMPOSED = STREAM_ADVICE
 NO_ADDRESSING = ("its processor folders have no addressing files (pointProcAddressing, "
                  "faceProcAddressing, cellProcAddressing), without which the case cannot be "
                  "merged one folder at a time: decompose it again keeping them")
@@ -144,5 +141,5 @@ def counted(run: Callable, advance: Callable[[int], None]) -> Callable:
     return counting
 
 
-__all__ = ["NOT_DECOMPOSED", "NO_ADDRESSING", "OnStream", "counted", "mesh_way",
+__all__ = ["NO_ADDRESSING", "OnStream", "counted", "mesh_way",
            "streamed_mesh"]
