@@ -27,7 +27,7 @@ from caselint.mesh.reader import read_mesh
 from caselint.mesh.refined import refined_block
 from caselint.mesh.topology import cell_faces
 from caselint.partition import measure, plan
-from caselint.partition.piece import Positions, block_rows, cut_piece
+from caselint.partition.piece import Positions, block_rows, cut_piece, piece_ids
 
 
 @pytest.fixture(scope="module")
@@ -126,6 +126,30 @@ def test_piece_holds_two_rings_and_owns_each_face_once(prism_plate):
         assert np.array_equal(piece.cells[piece.data.owner], prism_plate.owner[g])
     every = np.sort(np.concatenate(owned_faces))
     assert np.array_equal(every, np.arange(prism_plate.n_faces))
+
+
+@pytest.mark.parametrize("mesh", ["prism_plate", "octree", "strut"])
+def test_compiled_piece_ids_equal_the_numpy_reference(mesh, request, monkeypatch):
+    # the compiled cut (caselint.mesh.kernels.piece_cut) against piece_ids' numpy path,
+    # field for field and dtype for dtype: runs of cells, cells dealt at random (nearly
+    # every face on a partition boundary), one cell, and every cell
+    data = request.getfixturevalue(mesh)
+    cf = cell_faces(data)
+    rng = np.random.default_rng(11)
+    owned_sets = [plan.by_ranges(data.n_cells, 3).cells(1), _dealt(data.n_cells, 4).cells(2),
+                  np.array([data.n_cells // 2]), np.arange(data.n_cells),
+                  np.sort(rng.choice(data.n_cells, 7, replace=False))]
+    for owned in owned_sets:
+        got = {}
+        for kind in ("numpy", "numba"):
+            monkeypatch.setenv(kernels.ENV_KERNELS, kind)
+            got[kind] = piece_ids(data, cf, owned)
+        for name, ref in got["numpy"]._asdict().items():
+            value = getattr(got["numba"], name)
+            if isinstance(ref, Positions):
+                ref, value = ref(ref_ids := getattr(got["numpy"], name[3:])), value(ref_ids)
+            assert value.dtype == ref.dtype and np.array_equal(value, ref), (mesh, name)
+        assert len(got["numba"].cells) > len(owned) or len(owned) == data.n_cells
 
 
 def test_positions_equal_a_binary_search():

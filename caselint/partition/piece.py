@@ -24,10 +24,11 @@ never read. They carry no shape, so no per-shape metric is computed for them.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Callable, Iterator
+from typing import Callable, Iterator, NamedTuple
 
 import numpy as np
 
+from caselint.mesh.kernels import compiled
 from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
 from caselint.mesh.topology import CellFaces
 
@@ -75,14 +76,17 @@ class Positions:
     0 .. len(ids) - 1: callers that may meet one check ``ids[result] == values``. The
     table is as long as the span of ``ids`` (at most the whole mesh's count, 4 bytes
     each; only its pages that ``ids`` touch are ever written), so it is made once for all
-    the lookups in the same ids."""
+    the lookups in the same ids; ``table`` the table when already made (by
+    :func:`caselint.mesh.kernels.piece_cut.piece_ids`)."""
 
-    def __init__(self, ids: np.ndarray) -> None:
+    def __init__(self, ids: np.ndarray, table: np.ndarray | None = None) -> None:
         self.low = int(ids[0]) if len(ids) else 0
         self.span = int(ids[-1]) - self.low + 1 if len(ids) else 0
-        self.table = np.zeros(self.span, dtype=np.int32 if len(ids) < 2**31 else np.int64)
-        self.table[np.asarray(ids, dtype=np.int64) - self.low] = np.arange(
-            len(ids), dtype=self.table.dtype)
+        if table is None:
+            table = np.zeros(self.span, dtype=np.int32 if len(ids) < 2**31 else np.int64)
+            table[np.asarray(ids, dtype=np.int64) - self.low] = np.arange(len(ids),
+                                                                          dtype=table.dtype)
+        self.table = table
 
     def __call__(self, values: np.ndarray) -> np.ndarray:
         values = np.asarray(values)
@@ -93,9 +97,11 @@ class Positions:
         return self.table[at].astype(np.int64)
 
 
-def block_rows(block: ShapeBlock, cells: np.ndarray, is_kept: np.ndarray) -> np.ndarray:
+def block_rows(block: ShapeBlock, cells: np.ndarray, is_kept: np.ndarray | None
+               ) -> np.ndarray:
     """The rows of ``block`` whose cell is one of ``cells`` (ascending; ``is_kept`` the
-    same as a mark per cell of the mesh), in row order. Where the block's cells ascend
+    same as a mark per cell of the mesh, needed only where the block's cells do not
+    ascend), in row order. Where the block's cells ascend
     they are found by a search of ``cells`` in them, which reads a piece's share of a
     block kept on disk rather than all of it."""
     if block.cells_ascend:
@@ -116,10 +122,32 @@ def ascending(ids: list[np.ndarray], n: int) -> np.ndarray:
     return np.flatnonzero(seen)
 
 
-def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) -> Piece:
-    """The piece of ``data`` for the partition owning the cells ``owned`` (ascending ids);
-    ``cf`` the whole mesh's cell-face lists (:func:`caselint.mesh.topology.cell_faces`)."""
+class PieceIds(NamedTuple):
+    """Which cells, faces and points of the whole mesh a piece holds and its local ids
+    (:func:`piece_ids`); global ids ascend, a local id is the rank of its global one."""
+
+    faces: np.ndarray          # the piece's faces (global ids)
+    cells: np.ndarray          # its cells: owned, ring 1, ring 2
+    complete: np.ndarray       # the cells with all their faces: owned and ring 1
+    owned_cells: np.ndarray    # local ids of the owned cells
+    owned_faces: np.ndarray    # local ids of the faces whose owner is owned
+    owner: np.ndarray          # local owner of each face (the whole mesh's dtype)
+    neighbour: np.ndarray      # local neighbour, -1 on boundary faces
+    face_offsets: np.ndarray   # the faces' point lists (the whole mesh's dtypes)
+    face_points: np.ndarray    # local point ids
+    points: np.ndarray         # the points of the faces (global ids)
+    in_cells: Positions        # local ids of global cell ids
+    in_points: Positions       # local ids of global point ids
+
+
+def piece_ids(data: MeshData, cf: CellFaces, owned: np.ndarray) -> PieceIds:
+    """The ids of the piece of ``data`` for the partition owning the cells ``owned``
+    (ascending), by the compiled kernel
+    (:func:`caselint.mesh.kernels.piece_cut.piece_ids`) or by this numpy reference."""
     owned = np.asarray(owned, dtype=np.int64)
+    kernel = compiled("piece_cut", data.n_cells)
+    if kernel is not None:
+        return _compiled_ids(kernel, data, cf, owned)
     own_faces = faces_of(cf, owned)
     complete = np.zeros(data.n_cells, dtype=bool)           # cells with all their faces
     complete[owned] = True
@@ -143,37 +171,60 @@ def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) 
     points = ascending([global_fp], data.n_points)
     in_points = Positions(points)
     face_points = in_points(global_fp).astype(data.face_points.dtype)
+    return PieceIds(faces, cells, np.flatnonzero(complete), in_cells(owned),
+                    np.flatnonzero(is_owned[data.owner[faces]]),
+                    local_owner.astype(data.owner.dtype), local_nbr.astype(data.neighbour.dtype),
+                    offsets, face_points, points, in_cells, in_points)
 
+
+def _compiled_ids(kernel, data: MeshData, cf: CellFaces, owned: np.ndarray) -> PieceIds:
+    table = np.zeros(0, dtype=np.int32 if max(data.n_cells, data.n_points) < 2**31
+                     else np.int64)
+    marks = [np.zeros(n, dtype=np.uint8) for n in (data.n_cells, data.n_faces, data.n_points)]
+    (faces, cells, complete, owned_cells, owned_faces, owner, neighbour, offsets, face_points,
+     points, cell_table, point_table) = kernel.piece_ids(
+        cf.offsets, cf.faces, data.owner, data.neighbour, data.face_offsets, data.face_points,
+        owned, *marks, table)
+    return PieceIds(faces, cells, complete, owned_cells, owned_faces, owner, neighbour,
+                    offsets, face_points, points, Positions(cells, cell_table),
+                    Positions(points, point_table))
+
+
+def cut_piece(data: MeshData, cf: CellFaces, owned: np.ndarray, index: int = 0) -> Piece:
+    """The piece of ``data`` for the partition owning the cells ``owned`` (ascending ids);
+    ``cf`` the whole mesh's cell-face lists (:func:`caselint.mesh.topology.cell_faces`)."""
+    ids = piece_ids(data, cf, owned)
+    faces, cells, points = ids.faces, ids.cells, ids.points
     shapes = []
-    complete_cells = np.flatnonzero(complete)
+    kept = None                          # a mark per cell, made if a block needs it
     for block in data.shapes:
-        rows = block_rows(block, complete_cells, complete)
+        if not block.cells_ascend and kept is None:
+            kept = np.zeros(data.n_cells, dtype=bool)
+            kept[ids.complete] = True
+        rows = block_rows(block, ids.complete, kept)
         if not len(rows):
             continue
         conn = block.connectivity[rows]
-        local_conn = in_points(conn)
+        local_conn = ids.in_points(conn)
         if np.any(points[local_conn] != conn):
             raise ValueError(f"partition {index}: a {block.type} corner lies on none of the "
                              "cell's faces")
-        shapes.append(ShapeBlock(block.type, in_cells(block.cells[rows]),
+        shapes.append(ShapeBlock(block.type, ids.in_cells(block.cells[rows]),
                                  local_conn.astype(conn.dtype)))
 
     clash = data.report.clashing
     clash = clash[np.isin(clash, faces)] if len(clash) else clash
     local = MeshData(
         path=f"{data.path} [partition {index}]", dim=data.dim, points=data.points[points],
-        face_offsets=offsets, face_points=face_points,
-        owner=local_owner.astype(data.owner.dtype),
-        neighbour=local_nbr.astype(data.neighbour.dtype),
-        n_cells=len(cells), face_group=data.face_group[faces], group_names=data.group_names,
-        group_types=data.group_types, shapes=tuple(shapes),
+        face_offsets=ids.face_offsets, face_points=ids.face_points, owner=ids.owner,
+        neighbour=ids.neighbour, n_cells=len(cells), face_group=data.face_group[faces],
+        group_names=data.group_names, group_types=data.group_types, shapes=tuple(shapes),
         cell_zone=None if data.cell_zone is None else data.cell_zone[cells],
         zone_names=data.zone_names,
         report=ReadReport(clashing=np.searchsorted(faces, clash).astype(np.int64)),
     )
-    owned_local = in_cells(owned)
-    owned_faces = np.flatnonzero(is_owned[data.owner[faces]])
-    return Piece(index, local, cells, faces, points, owned_local, owned_faces, data.n_cells)
+    return Piece(index, local, cells, faces, points, ids.owned_cells, ids.owned_faces,
+                 data.n_cells)
 
 
 @dataclass(frozen=True)
@@ -198,5 +249,5 @@ def cut_here(data: MeshData, cf: CellFaces, plan) -> Pieces:
                   as_is)
 
 
-__all__ = ["Piece", "Pieces", "as_is", "ascending", "block_rows", "cells_across", "cut_here",
-           "cut_piece", "faces_of", "Positions"]
+__all__ = ["Piece", "PieceIds", "Pieces", "as_is", "ascending", "block_rows", "cells_across",
+           "cut_here", "cut_piece", "faces_of", "piece_ids", "Positions"]
