@@ -454,18 +454,20 @@ def _swap_first_two(folder: Path, file: str) -> None:
 
 
 #: Changes made to processor1 between the passes, each well formed on its own: the file
-#: named in the error.
+#: the error names, and the change.
 CHANGES = {
     # two faces placed the other way round (same ids, same count)
-    "faceProcAddressing": lambda f: _swap_first_two(f, "faceProcAddressing"),
-    # two cells of a zone the other way round (read again for the zones only)
-    "cellProcAddressing": lambda f: _swap_first_two(f, "cellProcAddressing"),
-    # the first face one point shorter, the second one longer: same face points
-    "faces": lambda f: _set_label(f, "faces", 0, 1, int(_labels_of(f, "faces")[1]) - 1),
+    "faces placed": ("faceProcAddressing", lambda f: _swap_first_two(f, "faceProcAddressing")),
+    # two cells of the zones the other way round (read again for the zones only)
+    "cells placed": ("cellProcAddressing", lambda f: _swap_first_two(f, "cellProcAddressing")),
+    # the first face one point shorter, the second one longer: the same face points
+    "face sizes": ("faces", lambda f: _set_label(f, "faces", 0, 1,
+                                                 int(_labels_of(f, "faces")[1]) - 1)),
     # a face point beyond the folder's points (face sizes unchanged)
-    "faces ": lambda f: _set_label(f, "faces", 1, 0, len(_labels_of(f, "pointProcAddressing"))),
-    # a cell moved from one zone to the other (same zone names)
-    "cellZones": _move_a_zone_cell,
+    "face point": ("faces", lambda f: _set_label(f, "faces", 1, 0,
+                                                 len(_labels_of(f, "pointProcAddressing")))),
+    # a cell moved from one zone to the other (the same zone names)
+    "zone cells": ("cellZones", _move_a_zone_cell),
 }
 
 
@@ -480,9 +482,11 @@ def test_a_folder_changed_between_the_passes_is_refused(zoned, tmp_path, monkeyp
     (tmp_path / "scratch").mkdir()
     with pytest.raises(MeshReadError) as error:
         _merge_reading(case, folders, tmp_path, monkeypatch,
-                       lambda: CHANGES[change](folders[1]))
+                       lambda: CHANGES[change][1](folders[1]))
     assert error.value.file == str(folders[1])
-    assert error.value.message.startswith(f"{change.strip()} changed while the case was read")
+    assert error.value.message.startswith(f"{CHANGES[change][0]} changed while the case was "
+                                          "read (the merge on disk reads each processor folder "
+                                          "twice): check the case again")
 
 
 def test_held_writes_end_as_writes_one_after_the_other():

@@ -119,12 +119,13 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
         first.check_points(folder, local_points)
         point_ids = first.again(folder, "pointProcAddressing")
         face_ids = first.again(folder, "faceProcAddressing")
-        kept = np.flatnonzero(face_ids > 0)
-        local_sizes = np.diff(local_offsets)[kept]
+        local_sizes = np.diff(local_offsets)
+        kept = face_ids > 0
+        src = np.repeat(kept, local_sizes)       # the kept faces' points, in order
+        local_sizes = local_sizes[kept]
         ramp = _ramp(local_sizes)
-        src = np.repeat(local_offsets[kept], local_sizes) + ramp
         dst = np.repeat(offsets[face_ids[kept] - 1], local_sizes) + ramp
-        pending.put(face_points, dst, point_ids[local_points[src]].astype(point_dtype))
+        pending.put(face_points, dst, point_ids.astype(point_dtype)[local_points[src]])
         for patch in part.patches:
             if patch.type != "processor":
                 ids = face_ids[patch.start:patch.start + patch.size] - 1
