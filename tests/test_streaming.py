@@ -11,8 +11,10 @@ test), decomposed by the test writer into three slabs with addressing files.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import os
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -21,7 +23,7 @@ import numpy as np
 import pytest
 
 import calibration
-from mesh_writers import write_decomposed, write_face_folder
+from mesh_writers import write_decomposed, write_face_folder, zone_file
 from caselint.mesh.analysis import Mesh
 from caselint.mesh.limits import STREAM_ADVICE
 from caselint.mesh.reader import read_mesh
@@ -338,6 +340,153 @@ def test_merge_on_disk_equals_the_merge_in_memory(plate, tmp_path, spare):
             assert is_on_disk(getattr(disk, name)), name
         assert disk.n_cells == memory.n_cells == plate["data"].n_cells
         assert disk.patches == memory.patches
+
+
+@pytest.fixture(scope="module")
+def zoned(plate, tmp_path_factory):
+    """The plate decomposed with two cell zones (front and back halves, spread over the
+    slabs), binary with addressing files."""
+    data, part = plate["data"], plate["part"]
+    x = Mesh(data).cell_centroids[:, 0]
+    zone = (x >= np.median(x)).astype(np.int32)
+    data = dataclasses.replace(data, cell_zone=zone, zone_names=("front", "back"))
+    return write_decomposed(tmp_path_factory.mktemp("zoned") / "plate", data, part,
+                            binary=True)
+
+
+def _merge_reading(case: Path, folders: list[Path], tmp_path: Path, monkeypatch, between):
+    """The merge on disk of ``case``, ``between()`` called once the first pass is done;
+    and the files each pass read (folder name, file name)."""
+    from caselint.mesh.formats import face_lists
+    from caselint.mesh.formats.face_decomposed_disk import merged_on_disk
+
+    reads: list[set] = [set(), set()]
+    steps = []
+    real = face_lists.read_bytes
+
+    def read_bytes(path):
+        reads[len(steps) >= len(folders)].add((path.parents[2].name, path.name))
+        return real(path)
+
+    def done(n):
+        steps.append(n)
+        if len(steps) == len(folders):
+            between()
+
+    monkeypatch.setattr(face_lists, "read_bytes", read_bytes)
+    with Scratch(tmp_path / "scratch") as scratch:
+        scratch.spare = 3_000_000
+        mesh = merged_on_disk(case, folders, scratch, done)
+        return mesh, reads
+
+
+@pytest.mark.parametrize("zones", [False, True])
+def test_the_second_pass_reads_only_the_faces_addressing_and_zones(plate, zoned, tmp_path,
+                                                                   monkeypatch, zones):
+    from caselint.mesh.formats.face_decomposed import read_decomposed
+    from caselint.mesh.formats.face_folder import processor_folders
+
+    case = tmp_path / "plate"
+    shutil.copytree(zoned if zones else plate["decomposed"].parent / "plate", case)
+    folders = [p / "constant" / "polyMesh" for p in processor_folders(case)]
+    memory, _ = read_decomposed(case, folders)
+    (tmp_path / "scratch").mkdir()
+
+    def remove():                    # what the second pass must not read
+        for folder in folders:
+            for file in ("points", "owner", "neighbour", "boundary"):
+                (folder / file).unlink()
+
+    disk, reads = _merge_reading(case, folders, tmp_path, monkeypatch, remove)
+    for name in ("points", "face_offsets", "face_points", "owner", "neighbour"):
+        assert np.array_equal(getattr(disk, name), getattr(memory, name)), name
+    assert disk.patches == memory.patches and disk.n_cells == memory.n_cells
+    assert [z for z, _ in disk.zones] == [z for z, _ in memory.zones] == (
+        ["front", "back"] if zones else [])
+    assert all(np.array_equal(a, b) for (_, a), (_, b) in zip(disk.zones, memory.zones))
+    again = {"faces", "pointProcAddressing", "faceProcAddressing"} | (
+        {"cellZones", "cellProcAddressing"} if zones else set())
+    assert reads[1] == {(f"processor{i}", file) for i in range(3) for file in again}
+    assert ("processor2", "points") in reads[0]
+    assert (("processor2", "cellZones") in reads[0]) == zones
+
+
+def _set_label(folder: Path, file: str, list_index: int, item: int, value: int) -> None:
+    """Item ``item`` of list ``list_index`` of a binary labels file set to ``value``."""
+    from caselint.mesh.formats.face_lists import list_head, open_list_file, read_labels
+
+    lf = open_list_file(folder, file)
+    pos = lf.start
+    for _ in range(list_index):
+        pos = read_labels(lf, pos, file)[1]
+    data = bytearray(lf.data)
+    at = list_head(lf, pos, file)[2] + item * lf.label.itemsize
+    data[at:at + lf.label.itemsize] = np.array([value], lf.label).tobytes()
+    lf.path.write_bytes(bytes(data))
+
+
+def _labels_of(folder: Path, file: str, list_index: int = 0) -> np.ndarray:
+    from caselint.mesh.formats.face_lists import open_list_file, read_labels
+
+    lf = open_list_file(folder, file)
+    pos = lf.start
+    for _ in range(list_index):
+        pos = read_labels(lf, pos, file)[1]
+    return read_labels(lf, pos, file)[0]
+
+
+def _move_a_zone_cell(folder: Path) -> None:
+    """The first cell of the first zone moved to the last zone, as a rewrite would."""
+    from caselint.mesh.formats.face_folder import read_zones
+    from caselint.mesh.formats.face_lists import open_list_file
+
+    zones = dict(read_zones(open_list_file(folder, "cellZones"), 10**9))
+    first, last = list(zones)[0], list(zones)[-1]
+    zones[last] = np.r_[zones[first][:1], zones[last]]
+    zones[first] = zones[first][1:]
+    (folder / "cellZones").write_bytes(zone_file(zones, binary=True, labels=32, scalars=64))
+
+
+def _swap_first_two(folder: Path, file: str) -> None:
+    a, b = (int(v) for v in _labels_of(folder, file)[:2])
+    _set_label(folder, file, 0, 0, b)
+    _set_label(folder, file, 0, 1, a)
+
+
+#: Changes made to processor1 between the passes, each well formed on its own: the file
+#: the error names, and the change.
+CHANGES = {
+    # two faces placed the other way round (same ids, same count)
+    "faces placed": ("faceProcAddressing", lambda f: _swap_first_two(f, "faceProcAddressing")),
+    # two cells of the zones the other way round (read again for the zones only)
+    "cells placed": ("cellProcAddressing", lambda f: _swap_first_two(f, "cellProcAddressing")),
+    # the first face one point shorter, the second one longer: the same face points
+    "face sizes": ("faces", lambda f: _set_label(f, "faces", 0, 1,
+                                                 int(_labels_of(f, "faces")[1]) - 1)),
+    # a face point beyond the folder's points (face sizes unchanged)
+    "face point": ("faces", lambda f: _set_label(f, "faces", 1, 0,
+                                                 len(_labels_of(f, "pointProcAddressing")))),
+    # a cell moved from one zone to the other (the same zone names)
+    "zone cells": ("cellZones", _move_a_zone_cell),
+}
+
+
+@pytest.mark.parametrize("change", sorted(CHANGES))
+def test_a_folder_changed_between_the_passes_is_refused(zoned, tmp_path, monkeypatch, change):
+    from caselint.errors import MeshReadError
+    from caselint.mesh.formats.face_folder import processor_folders
+
+    case = tmp_path / "plate"
+    shutil.copytree(zoned, case)
+    folders = [p / "constant" / "polyMesh" for p in processor_folders(case)]
+    (tmp_path / "scratch").mkdir()
+    with pytest.raises(MeshReadError) as error:
+        _merge_reading(case, folders, tmp_path, monkeypatch,
+                       lambda: CHANGES[change][1](folders[1]))
+    assert error.value.file == str(folders[1])
+    assert error.value.message.startswith(f"{CHANGES[change][0]} changed while the case was "
+                                          "read (the merge on disk reads each processor folder "
+                                          "twice): check the case again")
 
 
 def test_held_writes_end_as_writes_one_after_the_other():

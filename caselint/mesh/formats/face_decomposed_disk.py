@@ -4,11 +4,29 @@ The same mesh as :func:`caselint.mesh.formats.face_decomposed.read_decomposed` w
 addressing files (the undecomposed mesh, array for array), for a case too large to hold
 in memory: the merged arrays are made by ``scratch`` (a
 :class:`caselint.partition.scratch.Scratch`: memory-mapped files) and filled part by part,
-so that only one processor folder's arrays are in memory at a time. Two passes over the
-folders: the first places points, owner, neighbour and face sizes (whose running sum
-gives the face offsets), the second the face points and patches. Ids are stored in the
-narrowest type that holds them (as :func:`caselint.mesh.build.mesh_from_faces` would make
-them), so that nothing is converted afterwards.
+so that only one processor folder's arrays are in memory at a time. The whole mesh's
+counts come first, from the addressing files alone. Then two passes over the folders:
+
+- the first reads each folder whole (:func:`caselint.mesh.formats.face_folder.read_folder_mesh`:
+  every file, checked as a mesh folder) and its three addressing files, and places points,
+  owner, neighbour and face sizes (whose running sum gives the face offsets); it keeps
+  each folder's patches, and what the second pass checks its reads against
+  (:class:`_FirstRead`);
+- the second reads of each folder only its ``faces`` file, its point and face addressing,
+  and, when the first read found cell zones, its ``cellZones`` and cell addressing (not
+  its points, owner, neighbour or boundary), and places the face points, the patches (from
+  the first pass) and the zones. What it reads again must be as first read (the length
+  and CRC-32 of each array; face points within the folder's points): a folder changed in
+  between is a :class:`~caselint.errors.MeshReadError`, not a mesh made of two.
+
+The point and face addressing are thus read three times (counts, first and second
+pass), the cell addressing twice (three times for a folder with zones): each read is of
+one folder's files, so memory stays at one folder's worth (keeping them between reads
+would hold the whole mesh's, about 2 GB at 100M cells).
+
+Ids are stored in the narrowest type that holds them (as
+:func:`caselint.mesh.build.mesh_from_faces` would make them), so that nothing is
+converted afterwards.
 
 Each processor folder's ids are spread over the whole numbering, so each folder writes
 into nearly every page of the merged arrays; written folder by folder, every page was
@@ -29,6 +47,8 @@ refused (:func:`caselint.mesh.limits.check_folder_memory`).
 
 from __future__ import annotations
 
+import zlib
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
@@ -39,7 +59,9 @@ from caselint.mesh.build import index_dtype
 from caselint.mesh.formats.face_decomposed import (
     _addressing, _check_processor_patches, _patch_names, _ramp, _ranges, _zones,
 )
-from caselint.mesh.formats.face_folder import FolderMesh, read_folder_mesh
+from caselint.mesh.formats.face_folder import (
+    FolderMesh, read_folder_faces, read_folder_mesh, read_zones,
+)
 from caselint.mesh.formats.face_lists import find_file, open_list_file, read_labels
 
 
@@ -64,11 +86,12 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
     seen = scratch.empty("seen", n_faces, np.uint8)
     sizes = offsets[1:]                         # sizes first, summed in place below
     pending = Pending(getattr(scratch, "spare", None))
-    parts = []
+    parts, firsts = [], []
     for folder in folders:
         part = read_folder_mesh(folder)
         parts.append(_shell(part))
         point_ids, face_ids, cell_ids = _checked_addressing(folder, part)
+        firsts.append(_FirstRead.of(part, point_ids, face_ids, cell_ids))
         face, kept = np.abs(face_ids) - 1, face_ids > 0
         placed = face[kept]
         inside = kept & (part.neighbour >= 0)
@@ -90,27 +113,105 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
     face_points = scratch.empty("face_points", int(offsets[-1]), point_dtype)
     group = scratch.full("face_group", n_faces, -1, np.int32)
     zone_cells: dict[str, list[np.ndarray]] = {}
-    for folder in folders:
-        part = read_folder_mesh(folder)
-        point_ids, face_ids, cell_ids = _checked_addressing(folder, part)
-        kept = np.flatnonzero(face_ids > 0)
-        local_sizes = np.diff(part.face_offsets)[kept]
+    for folder, part, first in zip(folders, parts, firsts):
+        local_offsets, local_points = read_folder_faces(folder)
+        first.check(folder, "faces", local_offsets)
+        first.check_points(folder, local_points)
+        point_ids = first.again(folder, "pointProcAddressing")
+        face_ids = first.again(folder, "faceProcAddressing")
+        local_sizes = np.diff(local_offsets)
+        kept = face_ids > 0
+        src = np.repeat(kept, local_sizes)       # the kept faces' points, in order
+        local_sizes = local_sizes[kept]
         ramp = _ramp(local_sizes)
-        src = np.repeat(part.face_offsets[kept], local_sizes) + ramp
         dst = np.repeat(offsets[face_ids[kept] - 1], local_sizes) + ramp
-        pending.put(face_points, dst, point_ids[part.face_points[src]].astype(point_dtype))
+        pending.put(face_points, dst, point_ids.astype(point_dtype)[local_points[src]])
         for patch in part.patches:
             if patch.type != "processor":
                 ids = face_ids[patch.start:patch.start + patch.size] - 1
                 pending.put(group, ids, np.full(len(ids), names.index(patch.name), np.int32))
-        for zone, cells in part.zones:
-            zone_cells.setdefault(zone, []).append(cell_ids[cells])
-        del part, point_ids, face_ids, cell_ids, kept, src, dst, ramp
+        for zone, cells in first.zones_again(folder, part.n_cells):
+            zone_cells.setdefault(zone, []).append(cells)
+        del local_offsets, local_points, point_ids, face_ids, kept, src, dst, ramp
         if done is not None:
             done(1)
     pending.flush()
     return FolderMesh(name, points, offsets, face_points, owner, neighbour, n_cells,
                       _ranges(name, parts, names, group, neighbour), _zones(zone_cells))
+
+
+@dataclass(frozen=True)
+class _FirstRead:
+    """What the second pass checks its reads of a folder against, from the first: the
+    folder's point count, its zone names, and the length and CRC-32 of each array it reads
+    again but its face points (face offsets, addressing, zone cells), so that a folder
+    changed between the passes is refused rather than merged from two different meshes;
+    its face points are only checked to lie within its points."""
+
+    n_points: int
+    zones: tuple[str, ...]
+    sums: dict[str, tuple[int, int]]
+
+    @classmethod
+    def of(cls, part: FolderMesh, point_ids: np.ndarray, face_ids: np.ndarray,
+           cell_ids: np.ndarray) -> _FirstRead:
+        arrays = {"faces": part.face_offsets, "pointProcAddressing": point_ids,
+                  "faceProcAddressing": face_ids}
+        if part.zones:                           # cell ids: needed again for zones only
+            arrays["cellProcAddressing"] = cell_ids
+            arrays["cellZones"] = _joined_cells(part.zones)
+        return cls(len(part.points), tuple(zone for zone, _ in part.zones),
+                   {file: _sum(array) for file, array in arrays.items()})
+
+    def check(self, folder: Path, file: str, array: np.ndarray) -> None:
+        """Refuse ``array`` (read again from ``file``) unless it is as first read."""
+        if _sum(array) != self.sums[file]:
+            raise _changed(folder, file)
+
+    def check_points(self, folder: Path, face_points: np.ndarray) -> None:
+        """Refuse face points beyond the points of the folder as first read."""
+        if len(face_points) and (int(face_points.min()) < 0
+                                 or int(face_points.max()) >= self.n_points):
+            raise _changed(folder, "faces")
+
+    def again(self, folder: Path, file: str) -> np.ndarray:
+        """The addressing ``file`` read again (0-based; faces signed, 1-based), checked to
+        be as first read."""
+        lf = open_list_file(folder, file, required=False)
+        if lf is None:
+            raise MeshReadError(str(folder), "an addressing file went missing while the case "
+                                             "was read")
+        values = read_labels(lf, lf.start, lf.path.name)[0].astype(np.int64)
+        self.check(folder, file, values)
+        return values
+
+    def zones_again(self, folder: Path, n_cells: int) -> list[tuple[str, np.ndarray]]:
+        """The folder's cell zones read again, their cells in the undecomposed numbering
+        (none read when the first read found none)."""
+        if not self.zones:
+            return []
+        lf = open_list_file(folder, "cellZones", required=False)
+        zones = read_zones(lf, n_cells) if lf is not None else []
+        if tuple(zone for zone, _ in zones) != self.zones:
+            raise _changed(folder, "cellZones")
+        self.check(folder, "cellZones", _joined_cells(zones))
+        cell_ids = self.again(folder, "cellProcAddressing")
+        return [(zone, cell_ids[cells]) for zone, cells in zones]
+
+
+def _sum(array: np.ndarray) -> tuple[int, int]:
+    """Length and CRC-32 of ``array``'s values as int64."""
+    return len(array), zlib.crc32(np.ascontiguousarray(array, dtype=np.int64))
+
+
+def _joined_cells(zones: list[tuple[str, np.ndarray]]) -> np.ndarray:
+    return np.concatenate([cells for _, cells in zones])
+
+
+def _changed(folder: Path, file: str) -> MeshReadError:
+    return MeshReadError(str(folder), f"{file} changed while the case was read (the merge on "
+                                      "disk reads each processor folder twice): check the "
+                                      "case again once nothing writes to it")
 
 
 class Pending:

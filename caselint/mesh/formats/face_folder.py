@@ -220,6 +220,15 @@ def read_folder_mesh(folder: Path, keep: Keep | None = None) -> FolderMesh:
                       patches, zones)
 
 
+def read_folder_faces(folder: Path) -> tuple[np.ndarray, np.ndarray]:
+    """The face offsets and face points of one mesh folder, read as
+    :func:`read_folder_mesh` reads them (the same arrays), without opening its other files;
+    checked only as a list (the counts and ids that hold across files are the caller's to
+    check)."""
+    faces_file = open_list_file(folder, "faces")
+    return read_faces(faces_file, _text_kernel(faces_file))
+
+
 def _as_read(name: str, array: np.ndarray) -> np.ndarray:
     """The array itself (a read in memory keeps what it reads)."""
     return array
