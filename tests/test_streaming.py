@@ -501,22 +501,66 @@ def test_held_writes_end_as_writes_one_after_the_other():
     writes[1] = (np.r_[writes[1][0][15_000:], writes[1][0][:15_000]], writes[1][1])
     writes += [(rng.choice(n, 30_000, replace=False), rng.random((30_000, 3)))
                for _ in range(2)]
-    counted = [rng.integers(0, n, 40_000) for _ in range(3)]
-    expected, expected_count = np.zeros((n, 3)), np.zeros(n, np.uint8)
+    expected = np.zeros((n, 3))
     for index, values in writes:
         expected[index] = values
-    for index in counted:
-        np.add.at(expected_count, index, 1)
     for spare in (None, 1, 2_000_000, 10**10):
-        got, count = np.zeros((n, 3)), np.zeros(n, np.uint8)
+        got = np.zeros((n, 3))
         pending = Pending(spare)
-        for (index, values), more in zip(writes, counted + [None, None]):
+        for index, values in writes:
             pending.put(got, index, values)
-            if more is not None:
-                pending.put(count, more, None)
         pending.flush()
-        assert np.array_equal(got, expected) and np.array_equal(count, expected_count), spare
+        assert np.array_equal(got, expected), spare
         assert pending.runs == {} and pending.bytes == 0
+
+
+@pytest.mark.parametrize("kind", ["numpy", "numba"])
+def test_runs_of_held_writes(kind, monkeypatch):
+    # slice_runs (the numpy reference and the compiled kernel held_writes.slice_runs)
+    # against runs cut by hand: where the 256th of the ids goes down, and where each 256th
+    # starts in each run (a binary search of the run's 256ths)
+    from caselint.mesh import kernels
+    from caselint.mesh.formats.face_decomposed_disk import SLICES, slice_runs
+
+    monkeypatch.setenv(kernels.ENV_KERNELS, kind)
+    rng = np.random.default_rng(21)
+    n = 100_000
+    shift = (n - 1).bit_length() - 8
+    ascending = np.sort(rng.choice(n, 5000, replace=False))
+    cases = [ascending, np.r_[ascending[2500:], ascending[:2500], ascending[100:200]],
+             np.zeros(0, np.int64), np.array([n - 1, 0]), np.arange(n)[::-1][:SLICES + 1],
+             rng.integers(0, n, 3000).astype(np.int32)]
+    for index in cases:
+        got = slice_runs(index, n)
+        part = index >> shift
+        down = [0] + [i for i in range(1, len(index)) if part[i] < part[i - 1]] + [len(index)]
+        if len(down) - 1 > SLICES:
+            assert got is None
+            continue
+        bounds, starts = got
+        assert list(bounds) == down
+        for lo, hi, at in zip(down[:-1], down[1:], starts):
+            run = part[lo:hi]
+            assert [int(a) for a in at] == [int(np.sum(run < k)) for k in range(SLICES + 1)]
+
+
+def test_addressing_that_misplaces_faces_or_points_is_refused():
+    from caselint.errors import MeshReadError
+    from caselint.mesh.formats.face_decomposed_disk import Placed
+
+    def placed(faces, points, n_faces=6, n_points=4):
+        marks = Placed(n_faces, n_points)
+        for f, p in zip(faces, points):
+            marks.add(np.array(f, dtype=np.int64), np.array(p, dtype=np.int64))
+        marks.check("case")
+
+    placed([[0, 1, 2], [3, 4, 5]], [[0, 1], [1, 2, 3]])            # each face once: fine
+    with pytest.raises(MeshReadError, match="do not place face 4 "):
+        placed([[0, 1, 2], [3, 5]], [[0, 1], [2, 3]])
+    with pytest.raises(MeshReadError, match="place 7 faces for the 6 .* more than once"):
+        placed([[0, 1, 2], [2, 3, 4, 5]], [[0, 1], [2, 3]])
+    with pytest.raises(MeshReadError, match="do not place point 2 "):
+        placed([[0, 1, 2], [3, 4, 5]], [[0, 1], [1, 3]])
 
 
 def test_no_scratch_folder_inside_the_case(plate, tmp_path):

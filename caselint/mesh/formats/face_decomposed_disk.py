@@ -56,6 +56,7 @@ import numpy as np
 
 from caselint.errors import MeshReadError
 from caselint.mesh.build import index_dtype
+from caselint.mesh.kernels import compiled
 from caselint.mesh.formats.face_decomposed import (
     _addressing, _check_processor_patches, _patch_names, _ramp, _ranges, _zones,
 )
@@ -79,13 +80,16 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
     name = str(case)
     n_points, n_faces, n_cells = _sizes(folders)
     cell_dtype, point_dtype = index_dtype(max(n_cells, 1)), index_dtype(max(n_points, 1))
-    points = scratch.full("points", (n_points, 3), np.nan, np.float64)
-    owner = scratch.full("owner", n_faces, -1, cell_dtype)
+    # every face placed once and every point at least once (checked after the first
+    # pass), so points and owner are written whole and need no filling
+    points = scratch.empty("points", (n_points, 3), np.float64)
+    owner = scratch.empty("owner", n_faces, cell_dtype)
     neighbour = scratch.full("neighbour", n_faces, -1, cell_dtype)
     offsets = scratch.empty("face_offsets", n_faces + 1, np.int64)
-    seen = scratch.empty("seen", n_faces, np.uint8)
     sizes = offsets[1:]                         # sizes first, summed in place below
-    pending = Pending(getattr(scratch, "spare", None))
+    placed_marks = Placed(n_faces, n_points)
+    spare = getattr(scratch, "spare", None)
+    pending = Pending(None if spare is None else max(spare - placed_marks.nbytes, 0))
     parts, firsts = [], []
     for folder in folders:
         part = read_folder_mesh(folder)
@@ -100,13 +104,14 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
         pending.put(neighbour, face[inside], cell_ids[part.neighbour[inside]])
         pending.put(neighbour, face[~kept], cell_ids[part.owner[~kept]])
         pending.put(sizes, placed, np.diff(part.face_offsets)[kept])
-        pending.put(seen, placed, None)          # counted: uint8, 256 times shows as 0
+        placed_marks.add(placed, point_ids)
         del part, point_ids, face_ids, cell_ids, face, kept, inside, placed
         if done is not None:
             done(1)
     pending.flush()
     _check_processor_patches(case, parts)
-    _check_placed(name, seen, points)
+    placed_marks.check(name)
+    del placed_marks
     names = _patch_names(parts)
     offsets[0] = 0
     np.cumsum(sizes, out=sizes)
@@ -214,6 +219,43 @@ def _changed(folder: Path, file: str) -> MeshReadError:
                                       "case again once nothing writes to it")
 
 
+class Placed:
+    """Marks of the faces and points of the undecomposed mesh the addressing files place,
+    in memory (a byte per face and per point): every face must be placed exactly once and
+    every point at least once. Placements are counted, not marks: each face marked and as
+    many placements as faces means none placed twice."""
+
+    def __init__(self, n_faces: int, n_points: int) -> None:
+        self.faces = np.zeros(n_faces, dtype=bool)
+        self.points = np.zeros(n_points, dtype=bool)
+        self.placements = 0
+
+    @property
+    def nbytes(self) -> int:
+        return self.faces.nbytes + self.points.nbytes
+
+    def add(self, faces: np.ndarray, points: np.ndarray) -> None:
+        """One folder's placed faces and points."""
+        self.faces[faces] = True
+        self.points[points] = True
+        self.placements += len(faces)
+
+    def check(self, name: str) -> None:
+        """:raises MeshReadError: a face not placed, or placed twice, or a point not placed."""
+        if not self.faces.all():
+            missing = np.flatnonzero(~self.faces)[0]
+            raise MeshReadError(name, f"the addressing files do not place face {missing} "
+                                      "of the undecomposed mesh")
+        if self.placements != len(self.faces):
+            raise MeshReadError(name, f"the addressing files place {self.placements} faces for "
+                                      f"the {len(self.faces)} of the undecomposed mesh: some "
+                                      "face is placed more than once")
+        if not self.points.all():
+            missing = np.flatnonzero(~self.points)[0]
+            raise MeshReadError(name, f"the addressing files do not place point {missing} "
+                                      "of the undecomposed mesh")
+
+
 class Pending:
     """Writes into arrays on disk held until they weigh ``spare`` bytes, then made together
     in page order (module docstring); ``spare`` None: each write made at once.
@@ -232,24 +274,22 @@ class Pending:
         self.runs: dict[int, tuple[np.ndarray, list]] = {}
         self.bytes = 0
 
-    def put(self, target: np.ndarray, index: np.ndarray, values: np.ndarray | None) -> None:
-        """``target[index] = values``; ``values`` None: ``target[index] += 1`` (each
-        repeat counted)."""
+    def put(self, target: np.ndarray, index: np.ndarray, values: np.ndarray) -> None:
+        """``target[index] = values``, now or at a later :meth:`flush`."""
         if self.spare is None:
-            _write(target, index, values)
+            target[index] = values
             return
-        key = _slice_of(index, len(target))
-        breaks = np.flatnonzero(np.diff(key) < 0) + 1
-        if len(breaks) >= SLICES:
-            order = np.argsort(key, kind="stable")
-            index, key = index[order], key[order]
-            values = None if values is None else values[order]
-            breaks = breaks[:0]
         runs = self.runs.setdefault(id(target), (target, []))[1]
-        for lo, hi in zip(np.r_[0, breaks], np.r_[breaks, len(index)]):
-            starts = np.searchsorted(key[lo:hi], np.arange(SLICES + 1))
-            runs.append((index[lo:hi], None if values is None else values[lo:hi], starts))
-        self.bytes += index.nbytes + (0 if values is None else values.nbytes)
+        sliced = slice_runs(index, len(target))
+        if sliced is None:                   # no useful order: sorted by 256th first
+            key = _slice_of(index, len(target))
+            order = np.argsort(key, kind="stable")
+            index, values = index[order], values[order]
+            sliced = [0, len(index)], [np.searchsorted(key[order], np.arange(SLICES + 1))]
+        bounds, starts = sliced
+        for lo, hi, at in zip(bounds[:-1], bounds[1:], starts):
+            runs.append((index[lo:hi], values[lo:hi], at))
+        self.bytes += index.nbytes + values.nbytes
         if self.bytes > self.spare:
             self.flush()
 
@@ -262,7 +302,7 @@ class Pending:
                 for index, values, starts in runs:
                     lo, hi = starts[k], starts[k + 1]
                     if hi > lo:
-                        _write(target, index[lo:hi], None if values is None else values[lo:hi])
+                        target[index[lo:hi]] = values[lo:hi]
             del runs
 
 
@@ -273,17 +313,33 @@ class Pending:
 SLICES = 256
 
 
+def _shift(n: int) -> int:
+    """The shift of an id in ``0 .. n`` that gives its 256th (:data:`SLICES`)."""
+    return max(0, (max(n, 1) - 1).bit_length() - 8)
+
+
 def _slice_of(index: np.ndarray, n: int) -> np.ndarray:
     """Which of the :data:`SLICES` parts of ``0 .. n`` each of ``index`` falls in."""
-    shift = max(0, (max(n, 1) - 1).bit_length() - 8)
-    return (index >> shift).astype(np.int16)
+    return (index >> _shift(n)).astype(np.int16)
 
 
-def _write(target: np.ndarray, index: np.ndarray, values: np.ndarray | None) -> None:
-    if values is None:
-        np.add.at(target, index, 1)
-    else:
-        target[index] = values
+def slice_runs(index: np.ndarray, n: int) -> tuple[list, list] | None:
+    """``index`` (ids in ``0 .. n``) cut where the 256th (:data:`SLICES`) they fall in goes
+    down: the bounds of the runs, and for each run where each 256th starts in it (positions
+    from the run's start, :data:`SLICES` + 1 of them); None when there are more than
+    :data:`SLICES` runs. By the compiled kernel
+    (:func:`caselint.mesh.kernels.held_writes.slice_runs`) or this numpy reference."""
+    kernel = compiled("held_writes", n)
+    if kernel is not None:
+        bounds, starts = kernel.slice_runs(index, _shift(n), SLICES)
+        return None if len(bounds) == 0 else (list(bounds), list(starts))
+    key = _slice_of(index, n)
+    breaks = np.flatnonzero(np.diff(key) < 0) + 1
+    if len(breaks) >= SLICES:
+        return None
+    bounds = [0, *breaks.tolist(), len(index)]
+    return bounds, [np.searchsorted(key[lo:hi], np.arange(SLICES + 1))
+                    for lo, hi in zip(bounds[:-1], bounds[1:])]
 
 
 def _sizes(folders: list[Path]) -> tuple[int, int, int]:
@@ -317,20 +373,4 @@ def _checked_addressing(folder: Path, part: FolderMesh) -> tuple[np.ndarray, ...
     return found
 
 
-def _check_placed(name: str, seen: np.ndarray, points: np.ndarray) -> None:
-    """Every face placed once and every point at least once (in chunks: no full-length
-    temporaries)."""
-    step = 1 << 22
-    for start in range(0, len(seen), step):
-        bad = np.flatnonzero(seen[start:start + step] != 1)
-        if len(bad):
-            raise MeshReadError(name, f"the addressing files do not place face {start + bad[0]} "
-                                      "of the undecomposed mesh exactly once")
-    for start in range(0, len(points), step):
-        bad = np.flatnonzero(np.isnan(points[start:start + step]).any(axis=1))
-        if len(bad):
-            raise MeshReadError(name, f"the addressing files do not place point "
-                                      f"{start + bad[0]} of the undecomposed mesh exactly once")
-
-
-__all__ = ["Pending", "has_addressing", "merged_on_disk"]
+__all__ = ["Pending", "Placed", "has_addressing", "merged_on_disk", "slice_runs"]
