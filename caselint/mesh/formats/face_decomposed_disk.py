@@ -222,8 +222,8 @@ def _changed(folder: Path, file: str) -> MeshReadError:
 class Placed:
     """Marks of the faces and points of the undecomposed mesh the addressing files place,
     in memory (a byte per face and per point): every face must be placed exactly once and
-    every point at least once. Placements are counted, not marks: each face marked and as
-    many placements as faces means none placed twice."""
+    every point at least once. Faces are marked and their placements counted: every face
+    marked, with as many placements as faces, means none was placed twice."""
 
     def __init__(self, n_faces: int, n_points: int) -> None:
         self.faces = np.zeros(n_faces, dtype=bool)
