@@ -501,16 +501,24 @@ def test_held_writes_end_as_writes_one_after_the_other():
     writes[1] = (np.r_[writes[1][0][15_000:], writes[1][0][:15_000]], writes[1][1])
     writes += [(rng.choice(n, 30_000, replace=False), rng.random((30_000, 3)))
                for _ in range(2)]
-    expected = np.zeros((n, 3))
-    for index, values in writes:
+    # and 64-bit values (-1 among them) into a 32-bit target: held in its type
+    labels = [(index, rng.integers(-1, 2**31 - 1, len(index))) for index, _ in writes]
+    expected, expected_labels = np.zeros((n, 3)), np.zeros(n, np.int32)
+    for (index, values), (_, ids) in zip(writes, labels):
         expected[index] = values
+        expected_labels[index] = ids
     for spare in (None, 1, 2_000_000, 10**10):
-        got = np.zeros((n, 3))
+        got, got_labels = np.zeros((n, 3)), np.zeros(n, np.int32)
         pending = Pending(spare)
-        for index, values in writes:
+        for (index, values), (_, ids) in zip(writes, labels):
             pending.put(got, index, values)
+            pending.put(got_labels, index, ids)
+        if spare == 10**10:              # all held: ids as 32 bits, labels in the target's
+            held = [run for _, runs in pending.runs.values() for run in runs]
+            assert {r[0].dtype for r in held} == {np.dtype(np.int32)}
+            assert {r[1].dtype for r in held} == {np.dtype(np.float64), np.dtype(np.int32)}
         pending.flush()
-        assert np.array_equal(got, expected), spare
+        assert np.array_equal(got, expected) and np.array_equal(got_labels, expected_labels)
         assert pending.runs == {} and pending.bytes == 0
 
 
