@@ -178,6 +178,8 @@ def piece_ids(data: MeshData, cf: CellFaces, owned: np.ndarray) -> PieceIds:
 
 
 def _compiled_ids(kernel, data: MeshData, cf: CellFaces, owned: np.ndarray) -> PieceIds:
+    """:func:`piece_ids` by the kernel, its marks zeroed arrays of the whole mesh's lengths
+    (pages handed out as first touched) and its position tables as narrow as Positions'."""
     table = np.zeros(0, dtype=np.int32 if max(data.n_cells, data.n_points) < 2**31
                      else np.int64)
     marks = [np.zeros(n, dtype=np.uint8) for n in (data.n_cells, data.n_faces, data.n_points)]
