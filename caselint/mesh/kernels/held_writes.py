@@ -20,7 +20,7 @@ def slice_runs(index, shift, slices):
     """Bounds of the runs of ``index`` in which ``index >> shift`` never goes down, and
     for each run the position (from its start) of the first id of each part ``0 ..
     slices`` at or past it (``slices + 1`` of them), as the reference gives them; empty
-    arrays when there are ``slices`` runs or more."""
+    arrays when there are more than ``slices`` runs."""
     n = index.shape[0]
     runs = 1
     for i in range(1, n):

@@ -4,10 +4,11 @@ whole mesh a piece holds, and its local ids.
 The numpy reference is :func:`caselint.partition.piece.piece_ids` (the rules of a piece are
 in :mod:`caselint.partition.piece`); this kernel finds the same sets by marking the whole
 mesh's cells, faces and points in one walk over the owned cells' faces, instead of the
-reference's repeats, gathers and position tables of numpy temporaries (a third of a
-streamed check's own work at 100M cells). Every result is an integer array, equal to the
-reference's entry for entry: the sets are listed ascending and a local id is the rank of
-the global one in its set.
+reference's repeats, gathers and position tables of numpy temporaries (the reference: 181 s
+of CPU sampled in the parts of a streamed 100M-cell check; in a streamed 4M-cell check
+cutting took 3.79 s with it, 1.92 s with this kernel). Every result is an integer array,
+equal to the reference's entry for entry: the sets are listed ascending and a local id is
+the rank of the global one in its set.
 
 The marks are arrays of the whole mesh's length made by the caller with
 :func:`numpy.zeros` (pages the operating system hands out zeroed as they are first touched:
