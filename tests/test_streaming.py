@@ -643,6 +643,24 @@ def test_streamed_parts_are_runs_as_large_as_the_limit_leaves(plate, monkeypatch
     assert sum(advances) == steps
 
 
+def test_streamed_parts_grow_to_the_room_the_limit_leaves(plate):
+    """Parts larger than a folder where the limit leaves room for them (fewer parts, so
+    less of the mesh analysed twice in their rings); the estimate of the streamed way stays
+    that of parts of a folder's size, the least it needs."""
+    from caselint.mesh import limits
+
+    case = plate["decomposed"]
+    roomy = streaming.mesh_way(case.parent / "plate", (10**15, "test"))
+    largest = roomy.piece_cells
+    assert roomy.part_cells == roomy.cells > 2 * largest         # the whole mesh at most
+    limit = roomy.streamed + limits.STREAM_PIECE_BYTES_PER_CELL * largest
+    way = streaming.mesh_way(case.parent / "plate", (limit, "test"))
+    assert way.way == "stream" and way.piece_cells == largest
+    assert way.part_cells == 2 * largest and way.streamed == roomy.streamed
+    assert f"in parts of at most {2 * largest:,} cells, about {limits.format_size(limit)}" \
+        in way.reason
+
+
 # -- a single mesh folder, streamed ---------------------------------------------------------
 
 SINGLES = ("single", "single-ascii", "single-gz")

@@ -241,8 +241,7 @@ STREAM_PIECE_BYTES_PER_CELL = 1000
 #: more, on the safe side.
 SCRATCH_BYTES_PER_CELL = 700
 #: A streamed mesh is analysed in parts of consecutive cell ids (of the undecomposed mesh)
-#: no larger than its largest processor folder and the memory left allow, and no smaller
-#: than this.
+#: as large as the memory left allows, and no smaller than this.
 MIN_PIECE_CELLS = 10_000
 
 
@@ -251,9 +250,11 @@ class MemoryWay:
     """How a mesh is checked under the memory limit, and why: ``way`` is ``whole`` (in
     memory) or ``stream`` (partition by partition, whole-mesh arrays on disk); ``need`` and
     ``streamed`` the estimates (bytes) of the two ways (None: not estimated);
-    ``piece_cells`` the most cells a partition may own when streamed; ``scratch`` the
-    estimated disk space (bytes) of its scratch folder then; ``cells`` the mesh's cells as
-    its files declare them."""
+    ``piece_cells`` the most cells a partition may own for ``streamed`` to hold (its
+    largest folder, or less when the limit leaves less); ``part_cells`` the cells of the
+    parts a streamed check analyses (as many as the limit leaves room for, at least
+    ``piece_cells``); ``scratch`` the estimated disk space (bytes) of its scratch folder
+    then; ``cells`` the mesh's cells as its files declare them."""
 
     way: str
     reason: str
@@ -263,6 +264,7 @@ class MemoryWay:
     piece_cells: int | None = None
     scratch: int | None = None
     cells: int | None = None
+    part_cells: int | None = None
 
 
 def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
@@ -286,26 +288,35 @@ def choose_way(path: str, folders: list[Path], limit: MemoryLimit | None = None,
     faces = sum(c[1] for c in counts)
     need = estimate_bytes(face_mesh_counts(cells, faces))
     largest = max(max(c[0], c[1] // 3) for c in counts)
-    streamed = piece = scratch = None
+    streamed = piece = parts = scratch = None
     if cannot_stream is None:
         share = max(cells, faces // 3)
         held = FIXED_BYTES + (STREAM_BYTES_PER_CELL + reading_per_cell) * share
         scratch = SCRATCH_BYTES_PER_CELL * share
-        # the largest processor folder, or parts of it small enough for what is left
-        piece = max(min(largest, (bytes_limit - held) // STREAM_PIECE_BYTES_PER_CELL),
-                    min(largest, MIN_PIECE_CELLS))
+        # the estimate: parts of the largest folder's size, or smaller ones if the limit
+        # leaves less (the least the streamed way needs)
+        room = (bytes_limit - held) // STREAM_PIECE_BYTES_PER_CELL
+        piece = max(min(largest, room), min(largest, MIN_PIECE_CELLS))
         streamed = held + STREAM_PIECE_BYTES_PER_CELL * piece
+        # the parts analysed: as large as what is left allows, up to the whole mesh. A
+        # part is analysed with two rings of neighbours; a run of consecutive cells of a
+        # block of hexahedra is whole planes of cells, with a plane of each ring on each
+        # side: the pieces of parts of 8 planes (the 100M benchmark's parts of a folder's
+        # size) hold 1.22x the cells and 1.13x the faces of the mesh, of 33 planes (its
+        # parts of 7M cells) 1.09x and 1.05x
+        parts = max(piece, min(share, room))
     if need <= bytes_limit:
         return MemoryWay("whole", f"the estimate {format_size(need)} fits the limit "
                                   f"{format_size(bytes_limit)} ({origin})", need, streamed,
-                         bytes_limit, piece, scratch, cells)
+                         bytes_limit, piece, scratch, cells, parts)
     if streamed is not None:
         if streamed <= bytes_limit:
+            peak = held + STREAM_PIECE_BYTES_PER_CELL * parts
             return MemoryWay("stream", f"the whole-mesh estimate {format_size(need)} is over "
                                        f"the limit {format_size(bytes_limit)} ({origin}); "
                                        f"streamed, partition by partition, in parts of at "
-                                       f"most {piece:,} cells, about {format_size(streamed)}",
-                             need, streamed, bytes_limit, piece, scratch, cells)
+                                       f"most {parts:,} cells, about {format_size(peak)}",
+                             need, streamed, bytes_limit, piece, scratch, cells, parts)
         cannot_stream = (f"streamed, partition by partition, it would still need about "
                          f"{format_size(streamed)} ({format_size(held)} for its "
                          f"{max(cells, faces // 3):,} cells' share, with parts of "

@@ -104,14 +104,15 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
     reads = READ_STEPS if single else 2 * len(processor_folders(path))   # folders: twice
     parts = request.count if request is not None else None
     if parts is None:                    # runs of cells as large as the estimate allows
-        parts = (by_cell_budget(way.cells, way.piece_cells).n_parts
-                 if way.cells and way.piece_cells else 1)
+        parts = (by_cell_budget(way.cells, way.part_cells).n_parts
+                 if way.cells and way.part_cells else 1)
     bar = on_stream(note, reads + parts) if on_stream else contextlib.nullcontext(lambda n: None)
     with bar as advance:
         scratch.advance = advance        # the reader's steps
-        # the memory of one part is free while the mesh is read (not the share the rules
-        # hold later: that much held besides the merged arrays' pages squeezed them out
-        # of memory at 100M cells)
+        # the memory of a part of the estimate's size (the largest folder's, or less) is
+        # free while the mesh is read; not more (not the share the rules hold later: 13 GB
+        # held besides the merged arrays' pages squeezed them out of memory at 100M cells;
+        # 4 GB merged in the same time as 1.6 GB there)
         scratch.spare = STREAM_PIECE_BYTES_PER_CELL * way.piece_cells if way.piece_cells \
             else None
         mesh = read_mesh(path, scale_to_m=scale_to_m, zone=zone, readers=readers,
@@ -126,7 +127,7 @@ def streamed_mesh(path: str | Path, way: MemoryWay, scratch, *, scale_to_m: floa
             # over the whole numbering, and each piece would read back and rewrite every
             # page (a 100M-cell case in 64 slabs: 0.3 TB read, 1 TB written in the first
             # 20 minutes of its analysis by processor folders)
-            plan = by_cell_budget(mesh.n_cells, way.piece_cells or max(mesh.n_cells, 1))
+            plan = by_cell_budget(mesh.n_cells, way.part_cells or max(mesh.n_cells, 1))
         run = counted(serial if run is None else run, advance)
         return analysed_in_partitions(mesh.data, plan, run, scratch=scratch)
 
