@@ -552,6 +552,40 @@ def test_runs_of_held_writes(kind, monkeypatch):
             assert [int(a) for a in at] == [int(np.sum(run < k)) for k in range(SLICES + 1)]
 
 
+def test_compiled_face_point_writes_equal_the_numpy_reference(monkeypatch):
+    # face_point_writes: the numpy reference (ramp, repeats, gather) and the compiled
+    # kernel held_writes.face_point_writes, against writes made face by face by hand
+    from caselint.mesh import kernels
+    from caselint.mesh.formats.face_decomposed_disk import face_point_writes
+
+    rng = np.random.default_rng(5)
+    n_local, n_points, n_merged = 400, 300, 1000
+    sizes = rng.integers(3, 9, n_local)                    # triangles to octagons
+    local_offsets = np.r_[0, np.cumsum(sizes)]
+    local_points = rng.integers(0, n_points, int(local_offsets[-1])).astype(np.int32)
+    faces = rng.choice(n_merged, n_local, replace=False)
+    face_ids = np.where(rng.random(n_local) < 0.8, faces + 1, -(faces + 1))  # some turned
+    merged_sizes = rng.integers(3, 9, n_merged)
+    merged_sizes[faces] = sizes
+    offsets = np.r_[0, np.cumsum(merged_sizes)]
+    point_ids = rng.permutation(5 * n_points)[:n_points].astype(np.int64)
+    dst, values = [], []
+    for f in np.flatnonzero(face_ids > 0):
+        start = offsets[face_ids[f] - 1]
+        dst += range(start, start + sizes[f])
+        values += point_ids[local_points[local_offsets[f]:local_offsets[f + 1]]].tolist()
+    for kind in ("numpy", "numba"):
+        monkeypatch.setenv(kernels.ENV_KERNELS, kind)
+        for point_dtype in (np.int32, np.int64):
+            got_dst, got_values = face_point_writes(local_offsets, local_points, face_ids,
+                                                    offsets, point_ids, point_dtype)
+            assert got_dst.dtype == np.int32 and got_values.dtype == point_dtype, kind
+            assert got_dst.tolist() == dst and got_values.tolist() == values, kind
+        none = face_point_writes(local_offsets, local_points, -np.abs(face_ids), offsets,
+                                 point_ids, np.int32)
+        assert [len(a) for a in none] == [0, 0], kind       # no face kept
+
+
 def test_addressing_that_misplaces_faces_or_points_is_refused():
     from caselint.errors import MeshReadError
     from caselint.mesh.formats.face_decomposed_disk import Placed

@@ -124,20 +124,15 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
         first.check_points(folder, local_points)
         point_ids = first.again(folder, "pointProcAddressing")
         face_ids = first.again(folder, "faceProcAddressing")
-        local_sizes = np.diff(local_offsets)
-        kept = face_ids > 0
-        src = np.repeat(kept, local_sizes)       # the kept faces' points, in order
-        local_sizes = local_sizes[kept]
-        ramp = _ramp(local_sizes)
-        dst = np.repeat(offsets[face_ids[kept] - 1], local_sizes) + ramp
-        pending.put(face_points, dst, point_ids.astype(point_dtype)[local_points[src]])
+        pending.put(face_points, *face_point_writes(local_offsets, local_points, face_ids,
+                                                    offsets, point_ids, point_dtype))
         for patch in part.patches:
             if patch.type != "processor":
                 ids = face_ids[patch.start:patch.start + patch.size] - 1
                 pending.put(group, ids, np.full(len(ids), names.index(patch.name), np.int32))
         for zone, cells in first.zones_again(folder, part.n_cells):
             zone_cells.setdefault(zone, []).append(cells)
-        del local_offsets, local_points, point_ids, face_ids, kept, src, dst, ramp
+        del local_offsets, local_points, point_ids, face_ids
         if done is not None:
             done(1)
     pending.flush()
@@ -348,6 +343,34 @@ def slice_runs(index: np.ndarray, n: int) -> tuple[list, list] | None:
     bounds = [0, *breaks.tolist(), len(index)]
     return bounds, [np.searchsorted(key[lo:hi], np.arange(SLICES + 1))
                     for lo, hi in zip(bounds[:-1], bounds[1:])]
+
+
+def face_point_writes(local_offsets: np.ndarray, local_points: np.ndarray,
+                      face_ids: np.ndarray, offsets: np.ndarray, point_ids: np.ndarray,
+                      point_dtype) -> tuple[np.ndarray, np.ndarray]:
+    """A folder's writes of face points into the merged ``face_points``: ``(dst, values)``,
+    the points of each kept face (``face_ids`` > 0, 1-based) in order, placed from the
+    face's merged offset (``offsets``), in the undecomposed numbering (``point_ids`` of
+    ``local_points``, as ``point_dtype``); ``dst`` 32-bit where the merged face points are
+    short enough, as :class:`Pending` holds it. By the compiled kernel
+    (:func:`caselint.mesh.kernels.held_writes.face_point_writes`) or this numpy
+    reference. The folder's arrays are checked first: face points within its points, face
+    ids within the merged faces."""
+    sizes = np.diff(local_offsets)
+    kept = face_ids > 0
+    short = int(offsets[-1]) <= np.iinfo(np.int32).max
+    dst_dtype = np.int32 if short else np.int64
+    kernel = compiled("held_writes", len(offsets) - 1)
+    if kernel is not None:
+        n = int(sizes[kept].sum())
+        dst, values = np.empty(n, dtype=dst_dtype), np.empty(n, dtype=point_dtype)
+        kernel.face_point_writes(local_offsets, local_points, face_ids, offsets, point_ids,
+                                 dst, values)
+        return dst, values
+    src = np.repeat(kept, sizes)                # the kept faces' points, in order
+    sizes = sizes[kept]
+    dst = np.repeat(offsets[face_ids[kept] - 1], sizes) + _ramp(sizes)
+    return dst.astype(dst_dtype), point_ids.astype(point_dtype)[local_points[src]]
 
 
 def _sizes(folders: list[Path]) -> tuple[int, int, int]:
