@@ -297,6 +297,13 @@ def _damaged(folder_mesh, tmp_path, name, change, **options) -> str:
     ("faces", lambda b: b.replace(b'arch        "LSB;label=32;scalar=64";\n', b""),
      {"binary": True}, "without an 'arch' entry"),
     ("points.gz", lambda b: b[:len(b) // 2], {"gz": True}, "damaged or truncated gzip data"),
+    # a deflate block garbled, a checksum that does not match the data, not gzip at all
+    ("points.gz", lambda b: b[:40] + bytes(x ^ 0x5A for x in b[40:200]) + b[200:],
+     {"gz": True}, "damaged or truncated gzip data"),
+    ("points.gz", lambda b: b[:-8] + bytes(x ^ 1 for x in b[-8:-4]) + b[-4:], {"gz": True},
+     "damaged or truncated gzip data (CRC check failed"),
+    ("points.gz", lambda b: b"plain text, not gzip" + b, {"gz": True},
+     "damaged or truncated gzip data (Not a gzipped file"),
 ])
 def test_damaged_files_name_the_problem(folder_mesh, tmp_path, name, change, options, expected):
     assert expected in _damaged(folder_mesh, tmp_path, name, change, **options)
