@@ -195,6 +195,17 @@ def test_put_writes_runs_as_slices_and_the_rest_by_index():
         measure.put(got, ids, values)
         expected[ids] = values
         assert np.array_equal(got, expected)
+        # the runs given, as assembly gives them, and the gather back the other way
+        got[:] = 0
+        measure.put(got, ids, values, measure.runs_of(ids))
+        assert np.array_equal(got, expected)
+        whole = rng.random((1000, 3))
+        taken = measure.gather(whole, ids, measure.runs_of(ids))
+        assert taken.flags.c_contiguous and np.array_equal(taken, whole[ids])
+    # runs as (start in ids, first id, length); none past MAX_RUNS
+    assert measure.runs_of(runs).tolist() == [[0, 10, 490], [490, 700, 200], [690, 950, 1],
+                                              [691, 3, 6]]
+    assert measure.runs_of(scattered) is None and measure.runs_of(np.arange(0)) is None
 
 
 def test_plans_are_checked():

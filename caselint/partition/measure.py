@@ -88,10 +88,12 @@ def measure_piece(piece: Piece, names: Iterable[str] | None = None,
         mesh = Mesh(piece.data) if mesh is None else Mesh(
             piece.data, geometry=mesh.geometry, known={"topology.cell_faces": mesh.cell_faces})
         inner = piece.owned_faces[piece.owned_faces < piece.data.n_internal]
-        values = {}
-        for q in chosen:
-            local = {"cell": piece.owned_cells, "face": piece.owned_faces, "internal": inner}[q.per]
-            values[q.name] = np.ascontiguousarray(q.compute(mesh)[local])
+        local = {"cell": piece.owned_cells, "face": piece.owned_faces, "internal": inner}
+        # a partition of consecutive cells owns a run of its piece's cells and a few runs
+        # of its faces: copied as slices, where an index array gathers element by element
+        runs = {per: runs_of(ids) for per, ids in local.items()}
+        values = {q.name: gather(q.compute(mesh), local[q.per], runs[q.per])
+                  for q in chosen}
     return PieceResult(piece.index, piece.cells[piece.owned_cells], piece.faces[piece.owned_faces],
                        piece.faces[inner], values)
 
@@ -123,11 +125,12 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
     seen: dict[str, int] = {}
     for result in results:
         ids = {"cell": result.cells, "face": result.faces, "internal": result.internal}
+        runs = {per: runs_of(i) for per, i in ids.items()}     # once for all quantities
         for name, values in result.values.items():
             per = BY_NAME[name].per
             if name not in out:
                 out[name] = empty(name, (size[per],) + values.shape[1:], values.dtype)
-            put(out[name], ids[per], values)
+            put(out[name], ids[per], values, runs[per])
             seen[name] = seen.get(name, 0) + len(ids[per])
         del result, ids, values     # not held while the next partition is analysed
     for name, count in seen.items():
@@ -138,25 +141,50 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
     return out
 
 
-#: :func:`put` writes runs of consecutive ids as slices when there are fewer than this.
+#: :func:`put` and :func:`gather` copy runs of consecutive ids as slices when there are
+#: fewer than this.
 MAX_RUNS = 256
 
 
-def put(array: np.ndarray, ids: np.ndarray, values: np.ndarray) -> None:
-    """``array[ids] = values``, as slices where ``ids`` are a few runs of consecutive
-    ids: a partition of consecutive cells owns consecutive cells and, in a
-    mesh folder's numbering, its internal faces and its faces in each boundary group are
-    runs too. A slice is copied in one go into an array on disk, where an index array
-    goes element by element (a third of the time of assembling a streamed 4M-cell
-    mesh)."""
+def runs_of(ids: np.ndarray) -> np.ndarray | None:
+    """(r, 3) runs of consecutive ids in ``ids``: where each starts in ``ids``, its first
+    id and its length; None when there are :data:`MAX_RUNS` or more (or no ids)."""
     if not len(ids):
-        return
+        return None
     breaks = np.flatnonzero(np.diff(ids) != 1) + 1
     if len(breaks) >= MAX_RUNS:
+        return None
+    starts = np.r_[0, breaks]
+    return np.column_stack([starts, np.asarray(ids)[starts], np.diff(np.r_[starts, len(ids)])])
+
+
+def gather(array: np.ndarray, ids: np.ndarray, runs: np.ndarray | None) -> np.ndarray:
+    """``array[ids]`` (a new array), copied run by run when ``runs`` (:func:`runs_of` of
+    ``ids``) are given."""
+    if runs is None:
+        return np.ascontiguousarray(array[ids])
+    out = np.empty((len(ids),) + array.shape[1:], dtype=array.dtype)
+    for start, first, n in runs:
+        out[start:start + n] = array[first:first + n]
+    return out
+
+
+def put(array: np.ndarray, ids: np.ndarray, values: np.ndarray,
+        runs: np.ndarray | None = None) -> None:
+    """``array[ids] = values``, as slices where ``ids`` are a few runs of consecutive
+    ids (``runs``, :func:`runs_of` of ``ids`` when already known): a partition of
+    consecutive cells owns consecutive cells and, in a mesh folder's numbering, its
+    internal faces and its faces in each boundary group are runs too. A slice is copied in
+    one go into an array on disk, where an index array goes element by element (a third
+    of the time of assembling a streamed 4M-cell mesh)."""
+    if not len(ids):
+        return
+    runs = runs_of(ids) if runs is None else runs
+    if runs is None:
         array[ids] = values
         return
-    for start, stop in zip(np.r_[0, breaks], np.r_[breaks, len(ids)]):
-        array[ids[start]:ids[start] + (stop - start)] = values[start:stop]
+    for start, first, n in runs:
+        array[first:first + n] = values[start:start + n]
 
 
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
@@ -232,5 +260,5 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
 
 
 __all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
-           "assemble", "geometry_of",
-           "measure_made", "measure_piece", "measure_pieces", "measure_walker", "put"]
+           "assemble", "gather", "geometry_of", "measure_made", "measure_piece",
+           "measure_pieces", "measure_walker", "put", "runs_of"]
