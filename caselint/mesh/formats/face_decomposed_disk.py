@@ -4,8 +4,10 @@ The same mesh as :func:`caselint.mesh.formats.face_decomposed.read_decomposed` w
 addressing files (the undecomposed mesh, array for array), for a case too large to hold
 in memory: the merged arrays are made by ``scratch`` (a
 :class:`caselint.partition.scratch.Scratch`: memory-mapped files) and filled part by part,
-so that only one processor folder's arrays are in memory at a time. The whole mesh's
-counts come first, from the addressing files alone. Then two passes over the folders:
+so that only two processor folders' arrays are in memory at a time: the one being placed
+and the next, read meanwhile on a thread (:mod:`caselint.mesh.formats.read_ahead`; the
+writes held, below, give up as much). The whole mesh's counts come first, from the
+addressing files alone. Then two passes over the folders:
 
 - the first reads each folder whole (:func:`caselint.mesh.formats.face_folder.read_folder_mesh`:
   every file, checked as a mesh folder) and its three addressing files, and places points,
@@ -64,6 +66,7 @@ from caselint.mesh.formats.face_folder import (
     FolderMesh, read_folder_faces, read_folder_mesh, read_zones,
 )
 from caselint.mesh.formats.face_lists import find_file, open_list_file, read_labels
+from caselint.mesh.formats.read_ahead import read_ahead
 
 
 def has_addressing(folders: list[Path]) -> bool:
@@ -89,12 +92,15 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
     sizes = offsets[1:]                         # sizes first, summed in place below
     placed_marks = Placed(n_faces, n_points)
     spare = getattr(scratch, "spare", None)
-    pending = Pending(None if spare is None else max(spare - placed_marks.nbytes, 0))
+    budget = None if spare is None else max(spare - placed_marks.nbytes, 0)
+    pending = Pending(budget)
     parts, firsts = [], []
-    for folder in folders:
-        part = read_folder_mesh(folder)
+    for folder, (part, (point_ids, face_ids, cell_ids)) in zip(
+            folders, read_ahead(_first_read, folders)):
+        # the next folder, read meanwhile, weighs about as much as this one
+        pending.spare = _less(budget, part.points, part.face_offsets, part.face_points,
+                              part.owner, part.neighbour, point_ids, face_ids, cell_ids)
         parts.append(_shell(part))
-        point_ids, face_ids, cell_ids = _checked_addressing(folder, part)
         firsts.append(_FirstRead.of(part, point_ids, face_ids, cell_ids))
         face, kept = np.abs(face_ids) - 1, face_ids > 0
         placed = face[kept]
@@ -118,21 +124,18 @@ def merged_on_disk(case: Path, folders: list[Path], scratch,
     face_points = scratch.empty("face_points", int(offsets[-1]), point_dtype)
     group = scratch.full("face_group", n_faces, -1, np.int32)
     zone_cells: dict[str, list[np.ndarray]] = {}
-    for folder, part, first in zip(folders, parts, firsts):
-        local_offsets, local_points = read_folder_faces(folder)
-        first.check(folder, "faces", local_offsets)
-        first.check_points(folder, local_points)
-        point_ids = first.again(folder, "pointProcAddressing")
-        face_ids = first.again(folder, "faceProcAddressing")
+    again = read_ahead(_second_read, zip(folders, parts, firsts))
+    for part, (local_offsets, local_points, point_ids, face_ids, zones) in zip(parts, again):
+        pending.spare = _less(budget, local_offsets, local_points, point_ids, face_ids)
         pending.put(face_points, *face_point_writes(local_offsets, local_points, face_ids,
                                                     offsets, point_ids, point_dtype))
         for patch in part.patches:
             if patch.type != "processor":
                 ids = face_ids[patch.start:patch.start + patch.size] - 1
                 pending.put(group, ids, np.full(len(ids), names.index(patch.name), np.int32))
-        for zone, cells in first.zones_again(folder, part.n_cells):
+        for zone, cells in zones:
             zone_cells.setdefault(zone, []).append(cells)
-        del local_offsets, local_points, point_ids, face_ids
+        del local_offsets, local_points, point_ids, face_ids, zones
         if done is not None:
             done(1)
     pending.flush()
@@ -371,6 +374,35 @@ def face_point_writes(local_offsets: np.ndarray, local_points: np.ndarray,
     sizes = sizes[kept]
     dst = np.repeat(offsets[face_ids[kept] - 1], sizes) + _ramp(sizes)
     return dst.astype(dst_dtype), point_ids.astype(point_dtype)[local_points[src]]
+
+
+def _first_read(folder: Path) -> tuple[FolderMesh, tuple[np.ndarray, ...]]:
+    """What the first pass reads of a folder: its mesh and its addressing."""
+    part = read_folder_mesh(folder)
+    return part, _checked_addressing(folder, part)
+
+
+def _second_read(item: tuple[Path, FolderMesh, _FirstRead]) -> tuple:
+    """What the second pass reads of a folder (``item``: the folder, its shell and first
+    read), checked against the first read: its face offsets and points, point and face
+    addressing, and its zones' cells in the undecomposed numbering."""
+    folder, part, first = item
+    local_offsets, local_points = read_folder_faces(folder)
+    first.check(folder, "faces", local_offsets)
+    first.check_points(folder, local_points)
+    point_ids = first.again(folder, "pointProcAddressing")
+    face_ids = first.again(folder, "faceProcAddressing")
+    return (local_offsets, local_points, point_ids, face_ids,
+            first.zones_again(folder, part.n_cells))
+
+
+def _less(budget: int | None, *arrays: np.ndarray) -> int | None:
+    """The held writes' budget less the bytes of a folder's ``arrays`` as read:
+    :func:`~caselint.mesh.formats.read_ahead.read_ahead` holds the next folder's, about
+    as many, while this one is placed."""
+    if budget is None:
+        return None
+    return max(budget - sum(a.nbytes for a in arrays), 0)
 
 
 def _sizes(folders: list[Path]) -> tuple[int, int, int]:
