@@ -3,10 +3,12 @@ connectivity derived from it (caselint.mesh.topology)."""
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 
-from caselint.mesh import Mesh, mesh_from_meshio
+from caselint.mesh import Mesh, mesh_from_meshio, model
 from caselint.mesh.blocks import structured_hex
 from caselint.mesh.build import mesh_from_faces, padded_to_csr, sorted_groups
 from caselint.mesh.topology import duplicate_faces, face_point_mean
@@ -124,3 +126,25 @@ def test_duplicate_faces_equal_a_search_by_point_sets():
 def test_element_meshes_know_their_non_manifold_faces():
     mesh = mesh_from_meshio(structured_hex(*(np.linspace(0, 1, 3),) * 3))
     assert mesh.data.report.nonmanifold is not None and mesh.nonmanifold_faces.size == 0
+
+
+def test_range_checks_part_by_part_equal_whole_array_ones(monkeypatch):
+    # the checks read large arrays a part at a time (model.CHECK_PART): with parts of 7
+    # entries they must find what numpy finds over the whole array, wherever the extreme
+    # or the first empty face falls (at a part's start, end or inside)
+    monkeypatch.setattr(model, "CHECK_PART", 7)
+    rng = np.random.default_rng(4)
+    for n in (1, 6, 7, 8, 50):
+        values = rng.integers(-1000, 1000, n)
+        assert model.value_span(values) == (values.min(), values.max())
+        sizes = rng.integers(0, 4, n)
+        offsets = np.r_[0, np.cumsum(sizes)]
+        assert model.fewest_points(offsets) == (sizes.min(), int(np.argmin(sizes)))
+    # an empty face in a later part is named, as the message says
+    data = two_cubes()
+    start, stop = data.face_offsets[9], data.face_offsets[10]
+    offsets = data.face_offsets.copy()
+    offsets[10:] -= stop - start
+    with pytest.raises(ValueError, match="face 9 has no points"):
+        dataclasses.replace(data, face_offsets=offsets,
+                            face_points=np.delete(data.face_points, np.arange(start, stop)))

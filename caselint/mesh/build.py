@@ -23,7 +23,7 @@ import numpy as np
 
 from caselint.mesh.kernels import compiled
 from caselint.mesh.groups import BoundaryElements, match_groups
-from caselint.mesh.model import MeshData, ReadReport, ShapeBlock
+from caselint.mesh.model import MeshData, ReadReport, ShapeBlock, fewest_points
 from caselint.mesh.ordering import spatial_order
 from caselint.mesh.orientation import oriented_blocks
 from caselint.mesh.pairing import ElementBlock, pair_faces
@@ -195,7 +195,7 @@ def mesh_from_faces(
     if face_offsets.shape != (n_faces + 1,):
         raise ValueError(f"{len(face_offsets) - 1} faces listed for {n_faces} owner entries")
     if n_faces and (int(face_offsets[-1]) != len(face_points)
-                    or bool(np.any(np.diff(face_offsets) < 1))):
+                    or fewest_points(face_offsets)[0] < 1):
         raise ValueError(f"face offsets must rise from 0 to the {len(face_points)} face "
                          f"points, got {int(face_offsets[0])} .. {int(face_offsets[-1])}")
     if n_cells is None:

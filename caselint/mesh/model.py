@@ -79,6 +79,34 @@ class ReadReport:
     multi_group: int = 0
 
 
+#: Entries a range check takes at a time: its temporaries stay small, and the passes it
+#: makes (least and greatest) read a part of a large array, perhaps on disk
+#: (:mod:`caselint.partition.scratch`), once from memory rather than the whole twice.
+CHECK_PART = 1 << 22
+
+
+def _parts(n: int):
+    return (slice(a, min(a + CHECK_PART, n)) for a in range(0, n, CHECK_PART))
+
+
+def value_span(values: np.ndarray) -> tuple[int, int]:
+    """The least and the greatest of ``values`` (integers, at least one)."""
+    spans = [(int(values[sl].min()), int(values[sl].max())) for sl in _parts(len(values))]
+    return min(s[0] for s in spans), max(s[1] for s in spans)
+
+
+def fewest_points(face_offsets: np.ndarray) -> tuple[int, int]:
+    """The fewest points of any face and the first face with that few, from the face
+    offsets (at least one face)."""
+    fewest, face = None, -1
+    for sl in _parts(len(face_offsets) - 1):
+        sizes = np.diff(face_offsets[sl.start:sl.stop + 1])
+        k = int(np.argmin(sizes))
+        if fewest is None or int(sizes[k]) < fewest:
+            fewest, face = int(sizes[k]), sl.start + k
+    return fewest, face
+
+
 @dataclass(frozen=True, eq=False)
 class MeshData:
     """A face-based volume mesh (or planar 2-D mesh) in metres; see the module docstring."""
@@ -147,18 +175,21 @@ class MeshData:
         faces come first."""
         if not n_faces:
             return
-        sizes = np.diff(self.face_offsets)
-        if int(sizes.min()) < 1:
-            raise ValueError(f"face {int(np.argmin(sizes))} has no points")
-        n_int = int(np.count_nonzero(self.neighbour >= 0))
-        if n_int and int(self.neighbour[:n_int].min()) < 0:
+        fewest, face = fewest_points(self.face_offsets)
+        if fewest < 1:
+            raise ValueError(f"face {face} has no points")
+        n_int = sum(int(np.count_nonzero(self.neighbour[sl] >= 0)) for sl in _parts(n_faces))
+        if n_int and value_span(self.neighbour[:n_int])[0] < 0:
             raise ValueError("internal faces (with a neighbour) must come before boundary faces")
         for name, values, lo, hi in (("owner", self.owner, 0, self.n_cells),
                                      ("neighbour", self.neighbour, -1, self.n_cells),
                                      ("face points", self.face_points, 0, self.n_points)):
-            if len(values) and (int(values.min()) < lo or int(values.max()) >= hi):
-                bad = int(values.min()) if int(values.min()) < lo else int(values.max())
-                raise ValueError(f"{name} refer to {bad}; expected {lo} .. {hi - 1}")
+            if not len(values):
+                continue
+            low, high = value_span(values)
+            if low < lo or high >= hi:
+                raise ValueError(f"{name} refer to {low if low < lo else high}; expected "
+                                 f"{lo} .. {hi - 1}")
 
     @property
     def n_points(self) -> int:
