@@ -267,6 +267,26 @@ def test_mode_comes_from_the_environment(monkeypatch):
     assert kernels.mode() == "auto"
 
 
+def test_parts_that_wait_for_the_disk_run_on_more_threads(monkeypatch):
+    # the same parts, covering every item once in order, on one thread a core, or on
+    # WAITING_THREADS_PER_CORE a core for walks over arrays on disk
+    import threading
+
+    monkeypatch.setattr(os, "cpu_count", lambda: 2)
+    n = 40 * kernels.THREADED_ITEMS
+    for waits, threads in ((False, 2), (True, 2 * kernels.WAITING_THREADS_PER_CORE)):
+        seen, barrier = set(), threading.Barrier(threads, timeout=30)
+
+        def run(part):
+            seen.add(threading.get_ident())
+            barrier.wait()          # holds only if `threads` parts run at once
+            return (np.arange(part.start, part.stop),)
+
+        parts = kernels.in_threads(run, n, waits=waits)
+        assert np.array_equal(np.concatenate([p[0] for p in parts]), np.arange(n))
+        assert len(parts) == 4 * threads and len(seen) == threads
+
+
 def _run(code: str, env: dict) -> subprocess.CompletedProcess:
     return subprocess.run([sys.executable, "-c", textwrap.dedent(code)], capture_output=True,
                           text=True, env={**os.environ, **env}, timeout=300)

@@ -54,6 +54,12 @@ class Mesh:
                                  f"{data.n_cells} cells and {data.n_faces} faces")
             self._memo["geometry"] = geometry
 
+    @property
+    def on_disk(self) -> bool:
+        """Whether its arrays are kept on disk (a streamed check): a walk over it waits
+        for pages read back."""
+        return self._keep is not None
+
     def __repr__(self) -> str:
         counts = ", ".join(f"{n} {t}" for t, n in self.cell_counts.items())
         return f"Mesh({self.path!r}, {self.dim}-D, {counts}, groups={list(self.group_names)})"

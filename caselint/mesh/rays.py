@@ -175,7 +175,7 @@ def march_on(mesh: "Mesh", origin: np.ndarray, direction: np.ndarray, active: np
         parts = in_threads(lambda p: kernel.march(
             cf.offsets, cf.faces, mesh.owner, mesh.neighbour, mesh.face_area_vectors,
             mesh.face_centroids, wall, stop, origin[p], direction[p], active[p],
-            *state.arrays(p), max_steps, MAX_STALLED, _PARALLEL), n)
+            *state.arrays(p), max_steps, MAX_STALLED, _PARALLEL), n, waits=mesh.on_disk)
         for k, values in enumerate(zip(*parts)):
             (hit, status, width, cells, moved)[k][:] = np.concatenate(values)
         return hit, status, width, cells, moved
@@ -377,7 +377,7 @@ def within_on(mesh: "Mesh", origin: np.ndarray, direction: np.ndarray, active: n
             cf.offsets, cf.faces, mesh.owner, mesh.neighbour, mesh.face_area_vectors,
             mesh.face_centroids, stop, origin[p], direction[p], active[p], limit[p],
             *state.arrays(p), mesh.data.face_offsets, mesh.data.face_points, mesh.points,
-            max_steps, MAX_STALLED, _PARALLEL), n)
+            max_steps, MAX_STALLED, _PARALLEL), n, waits=mesh.on_disk)
         for k, values in enumerate(zip(*parts)):
             (reached, short, moved)[k][:] = np.concatenate(values)
         return reached, short, moved

@@ -220,7 +220,7 @@ def walk_on(mesh: "Mesh", state: StackState, walled: np.ndarray,
     parts = in_threads(lambda p: kernel.walk(
         *topo, mesh.owner, mesh.neighbour, mesh.face_area_vectors, mesh.face_areas,
         mesh.face_centroids, walled, stop, ids, *state.arrays(p), *shape, cos_turn,
-        max_cells, float(reach_m), mesh.dim == 3), n)
+        max_cells, float(reach_m), mesh.dim == 3), n, waits=mesh.on_disk)
     tables, moved = zip(*parts)
     heights = np.zeros((n, max(t.shape[1] for t in tables)))
     at = 0

@@ -49,6 +49,9 @@ class Quantity:
 QUANTITIES = (
     Quantity("face_area_vectors", "face", lambda m: m.face_area_vectors),
     Quantity("face_centroids", "face", lambda m: m.face_centroids),
+    # from the area vectors of the piece in memory, where the whole mesh's would be read
+    # back from disk (19 s of a 100M-cell check's rules, sampled)
+    Quantity("face_areas", "face", lambda m: m.face_areas),
     Quantity("cell_volumes", "cell", lambda m: m.cell_volumes),
     Quantity("cell_centroids", "cell", lambda m: m.cell_centroids),
     Quantity("cell_apex", "cell", lambda m: m.geometry.apex),
@@ -241,6 +244,7 @@ def analysed_in_partitions(data: MeshData, plan: Plan,
     known = {
         "topology.cell_faces": cf,
         "geometry": geometry_of(v),
+        "geometry.face_areas": v["face_areas"],
         "quality.face_metrics": (v["non_orthogonality_deg"], v["skewness"]),
         "quality.face_warp": v["face_warp_deg"],
         "quality.cell_metrics": (v["scaled_jacobian"], v["min_corner_jacobian"],

@@ -74,7 +74,7 @@ def mark_on(mesh: "Mesh", cell: np.ndarray, entry: np.ndarray, left: np.ndarray,
     in_threads(lambda p: kernel.mark(
         cf.offsets, cf.faces, data.face_offsets, data.face_points, mesh.owner,
         mesh.neighbour, mesh.face_area_vectors, mesh.face_centroids, cell[p], entry[p],
-        left[p], marked, stop, moved[p]), len(cell))
+        left[p], marked, stop, moved[p]), len(cell), waits=mesh.on_disk)
     at = np.flatnonzero(moved)
     return at, cell[at], entry[at], left[at]
 
