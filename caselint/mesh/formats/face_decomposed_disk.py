@@ -367,8 +367,10 @@ def face_point_writes(local_offsets: np.ndarray, local_points: np.ndarray,
     if kernel is not None:
         n = int(sizes[kept].sum())
         dst, values = np.empty(n, dtype=dst_dtype), np.empty(n, dtype=point_dtype)
-        kernel.face_point_writes(local_offsets, local_points, face_ids, offsets, point_ids,
-                                 dst, values)
+        written = kernel.face_point_writes(local_offsets, local_points, face_ids, offsets,
+                                           point_ids, dst, values)
+        if written != n:                # the same sum, counted twice: never, unless a bug
+            raise RuntimeError(f"face point writes: {written} made for {n} counted")
         return dst, values
     src = np.repeat(kept, sizes)                # the kept faces' points, in order
     sizes = sizes[kept]
