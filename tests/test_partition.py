@@ -195,13 +195,26 @@ def test_put_writes_runs_as_slices_and_the_rest_by_index():
         measure.put(got, ids, values)
         expected[ids] = values
         assert np.array_equal(got, expected)
-        # the runs given, as assembly gives them, and the gather back the other way
+        # the runs given, as assembly gives them
         got[:] = 0
         measure.put(got, ids, values, measure.runs_of(ids))
         assert np.array_equal(got, expected)
-        whole = rng.random((1000, 3))
-        taken = measure.gather(whole, ids, measure.runs_of(ids))
-        assert taken.flags.c_contiguous and np.array_equal(taken, whole[ids])
+        # from rows of a larger array where both rows and ids run (assembly from a
+        # piece's own arrays): the runs break where either does
+        rows = ids + 7
+        source = rng.random((3000, 3))
+        seg = measure.segments(rows, ids)
+        assert (seg is None) == (ids is scattered or not len(ids))
+        if seg is not None:
+            got[:] = 0
+            for src, dst, n in seg:
+                got[dst:dst + n] = source[src:src + n]
+            expected[:] = 0
+            expected[ids] = source[rows]
+            assert np.array_equal(got, expected)
+    assert measure.segments(np.arange(5, 11), np.r_[0:3, 7:10]).tolist() == [[5, 0, 3],
+                                                                            [8, 7, 3]]
+    assert measure.segments(np.r_[0:2, 4:8], np.arange(6)).tolist() == [[0, 0, 2], [4, 2, 4]]
     # runs as (start in ids, first id, length); none past MAX_RUNS
     assert measure.runs_of(runs).tolist() == [[0, 10, 490], [490, 700, 200], [690, 950, 1],
                                               [691, 3, 6]]

@@ -17,7 +17,7 @@ cluster.
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable, Iterable
 
 import numpy as np
@@ -72,13 +72,17 @@ BY_NAME = {q.name: q for q in QUANTITIES}
 @dataclass(frozen=True, eq=False)
 class PieceResult:
     """The quantities of one partition: ``values[name]`` for its owned cells (global ids
-    ``cells``), owned faces (``faces``) or owned internal faces (``internal``)."""
+    ``cells``), owned faces (``faces``) or owned internal faces (``internal``). Where
+    ``segments`` has the runs (:func:`segments`) of a kind of entity (``cell``, ``face``,
+    ``internal``), its values are the piece's own arrays, all its entities: the owned
+    ones are copied from them run by run when assembled, not gathered first."""
 
     index: int
     cells: np.ndarray
     faces: np.ndarray
     internal: np.ndarray
     values: dict[str, np.ndarray]
+    segments: dict[str, np.ndarray | None] = field(default_factory=dict)
 
 
 def measure_piece(piece: Piece, names: Iterable[str] | None = None,
@@ -92,13 +96,19 @@ def measure_piece(piece: Piece, names: Iterable[str] | None = None,
             piece.data, geometry=mesh.geometry, known={"topology.cell_faces": mesh.cell_faces})
         inner = piece.owned_faces[piece.owned_faces < piece.data.n_internal]
         local = {"cell": piece.owned_cells, "face": piece.owned_faces, "internal": inner}
+        owned = {"cell": piece.cells[piece.owned_cells], "face": piece.faces[piece.owned_faces],
+                 "internal": piece.faces[inner]}
         # a partition of consecutive cells owns a run of its piece's cells and a few runs
-        # of its faces: copied as slices, where an index array gathers element by element
-        runs = {per: runs_of(ids) for per, ids in local.items()}
-        values = {q.name: gather(q.compute(mesh), local[q.per], runs[q.per])
-                  for q in chosen}
-    return PieceResult(piece.index, piece.cells[piece.owned_cells], piece.faces[piece.owned_faces],
-                       piece.faces[inner], values)
+        # of its faces, runs of the whole mesh's ids too: copied from the piece's arrays
+        # into the whole-mesh ones run by run when assembled (no gathered copy)
+        runs = {per: segments(local[per], owned[per]) for per in local}
+        values = {}
+        for q in chosen:
+            whole = q.compute(mesh)
+            values[q.name] = whole if runs[q.per] is not None else \
+                np.ascontiguousarray(whole[local[q.per]])
+    return PieceResult(piece.index, owned["cell"], owned["face"], owned["internal"], values,
+                       runs)
 
 
 def measure_walker(names: tuple[str, ...] | None, walker: Walker) -> PieceResult:
@@ -133,7 +143,11 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
             per = BY_NAME[name].per
             if name not in out:
                 out[name] = empty(name, (size[per],) + values.shape[1:], values.dtype)
-            put(out[name], ids[per], values, runs[per])
+            if result.segments.get(per) is not None:
+                for src, dst, n in result.segments[per]:
+                    out[name][dst:dst + n] = values[src:src + n]
+            else:
+                put(out[name], ids[per], values, runs[per])
             seen[name] = seen.get(name, 0) + len(ids[per])
         del result, ids, values     # not held while the next partition is analysed
     for name, count in seen.items():
@@ -144,8 +158,8 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
     return out
 
 
-#: :func:`put` and :func:`gather` copy runs of consecutive ids as slices when there are
-#: fewer than this.
+#: :func:`put` and assembly by :func:`segments` copy runs of consecutive ids as slices
+#: when there are fewer than this.
 MAX_RUNS = 256
 
 
@@ -161,15 +175,18 @@ def runs_of(ids: np.ndarray) -> np.ndarray | None:
     return np.column_stack([starts, np.asarray(ids)[starts], np.diff(np.r_[starts, len(ids)])])
 
 
-def gather(array: np.ndarray, ids: np.ndarray, runs: np.ndarray | None) -> np.ndarray:
-    """``array[ids]`` (a new array), copied run by run when ``runs`` (:func:`runs_of` of
-    ``ids``) are given."""
-    if runs is None:
-        return np.ascontiguousarray(array[ids])
-    out = np.empty((len(ids),) + array.shape[1:], dtype=array.dtype)
-    for start, first, n in runs:
-        out[start:start + n] = array[first:first + n]
-    return out
+def segments(rows: np.ndarray, ids: np.ndarray) -> np.ndarray | None:
+    """(s, 3) runs along which both ``rows`` (where values are) and ``ids`` (where they
+    go) step by one: the first row, the first id and the length of each; None when there
+    are :data:`MAX_RUNS` or more (or none)."""
+    if not len(ids):
+        return None
+    breaks = np.flatnonzero((np.diff(rows) != 1) | (np.diff(ids) != 1)) + 1
+    if len(breaks) >= MAX_RUNS:
+        return None
+    starts = np.r_[0, breaks]
+    return np.column_stack([np.asarray(rows)[starts], np.asarray(ids)[starts],
+                            np.diff(np.r_[starts, len(ids)])])
 
 
 def put(array: np.ndarray, ids: np.ndarray, values: np.ndarray,
@@ -264,5 +281,5 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
 
 
 __all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
-           "assemble", "gather", "geometry_of", "measure_made", "measure_piece",
-           "measure_pieces", "measure_walker", "put", "runs_of"]
+           "assemble", "geometry_of", "measure_made", "measure_piece",
+           "measure_pieces", "measure_walker", "put", "runs_of", "segments"]
