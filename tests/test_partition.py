@@ -192,29 +192,29 @@ def test_put_writes_runs_as_slices_and_the_rest_by_index():
     for ids in (runs, scattered, np.arange(0), np.arange(1000)):
         values = rng.random((len(ids), 3))
         got, expected = np.zeros((1000, 3)), np.zeros((1000, 3))
-        measure.put(got, ids, values)
+        measure.put(got, ids, values, measure.runs_of(ids))
         expected[ids] = values
         assert np.array_equal(got, expected)
-        # the runs given, as assembly gives them
+        # by index, as for ids in no useful order
         got[:] = 0
-        measure.put(got, ids, values, measure.runs_of(ids))
+        measure.put(got, ids, values, None)
         assert np.array_equal(got, expected)
         # from rows of a larger array where both rows and ids run (assembly from a
         # piece's own arrays): the runs break where either does
         rows = ids + 7
         source = rng.random((3000, 3))
-        seg = measure.segments(rows, ids)
+        seg = measure.runs_of(ids, rows=rows)
         assert (seg is None) == (ids is scattered or not len(ids))
         if seg is not None:
             got[:] = 0
-            for src, dst, n in seg:
-                got[dst:dst + n] = source[src:src + n]
+            measure.put(got, ids, source, seg)
             expected[:] = 0
             expected[ids] = source[rows]
             assert np.array_equal(got, expected)
-    assert measure.segments(np.arange(5, 11), np.r_[0:3, 7:10]).tolist() == [[5, 0, 3],
-                                                                            [8, 7, 3]]
-    assert measure.segments(np.r_[0:2, 4:8], np.arange(6)).tolist() == [[0, 0, 2], [4, 2, 4]]
+    assert measure.runs_of(np.r_[0:3, 7:10], rows=np.arange(5, 11)).tolist() == [[5, 0, 3],
+                                                                                [8, 7, 3]]
+    assert measure.runs_of(np.arange(6), rows=np.r_[0:2, 4:8]).tolist() == [[0, 0, 2],
+                                                                           [4, 2, 4]]
     # runs as (start in ids, first id, length); none past MAX_RUNS
     assert measure.runs_of(runs).tolist() == [[0, 10, 490], [490, 700, 200], [690, 950, 1],
                                               [691, 3, 6]]

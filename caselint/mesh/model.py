@@ -28,6 +28,7 @@ from functools import cached_property
 import numpy as np
 
 from caselint.mesh.celltypes import CELL_TYPES, N_NODES, TYPE_INDEX
+from caselint.mesh.geometry import chunks
 
 #: ``MeshData.cell_shape`` of a cell whose shape is not one of ``CELL_TYPES``.
 POLYHEDRON = -1
@@ -85,13 +86,10 @@ class ReadReport:
 CHECK_PART = 1 << 22
 
 
-def _parts(n: int):
-    return (slice(a, min(a + CHECK_PART, n)) for a in range(0, n, CHECK_PART))
-
-
 def value_span(values: np.ndarray) -> tuple[int, int]:
     """The least and the greatest of ``values`` (integers, at least one)."""
-    spans = [(int(values[sl].min()), int(values[sl].max())) for sl in _parts(len(values))]
+    spans = [(int(values[sl].min()), int(values[sl].max()))
+             for sl in chunks(len(values), CHECK_PART)]
     return min(s[0] for s in spans), max(s[1] for s in spans)
 
 
@@ -99,7 +97,7 @@ def fewest_points(face_offsets: np.ndarray) -> tuple[int, int]:
     """The fewest points of any face and the first face with that few, from the face
     offsets (at least one face)."""
     fewest, face = None, -1
-    for sl in _parts(len(face_offsets) - 1):
+    for sl in chunks(len(face_offsets) - 1, CHECK_PART):
         sizes = np.diff(face_offsets[sl.start:sl.stop + 1])
         k = int(np.argmin(sizes))
         if fewest is None or int(sizes[k]) < fewest:
@@ -178,7 +176,8 @@ class MeshData:
         fewest, face = fewest_points(self.face_offsets)
         if fewest < 1:
             raise ValueError(f"face {face} has no points")
-        n_int = sum(int(np.count_nonzero(self.neighbour[sl] >= 0)) for sl in _parts(n_faces))
+        n_int = sum(int(np.count_nonzero(self.neighbour[sl] >= 0))
+                    for sl in chunks(n_faces, CHECK_PART))
         if n_int and value_span(self.neighbour[:n_int])[0] < 0:
             raise ValueError("internal faces (with a neighbour) must come before boundary faces")
         for name, values, lo, hi in (("owner", self.owner, 0, self.n_cells),

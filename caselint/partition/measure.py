@@ -73,9 +73,10 @@ BY_NAME = {q.name: q for q in QUANTITIES}
 class PieceResult:
     """The quantities of one partition: ``values[name]`` for its owned cells (global ids
     ``cells``), owned faces (``faces``) or owned internal faces (``internal``). Where
-    ``segments`` has the runs (:func:`segments`) of a kind of entity (``cell``, ``face``,
-    ``internal``), its values are the piece's own arrays, all its entities: the owned
-    ones are copied from them run by run when assembled, not gathered first."""
+    ``segments`` has the runs of a kind of entity (``cell``, ``face``, ``internal``;
+    :func:`runs_of` of its global ids and of its rows in the piece), its values are the
+    piece's own arrays, all its entities: the owned ones are copied from them run by run
+    when assembled, not gathered first."""
 
     index: int
     cells: np.ndarray
@@ -101,7 +102,7 @@ def measure_piece(piece: Piece, names: Iterable[str] | None = None,
         # a partition of consecutive cells owns a run of its piece's cells and a few runs
         # of its faces, runs of the whole mesh's ids too: copied from the piece's arrays
         # into the whole-mesh ones run by run when assembled (no gathered copy)
-        runs = {per: segments(local[per], owned[per]) for per in local}
+        runs = {per: runs_of(owned[per], rows=local[per]) for per in local}
         values = {}
         for q in chosen:
             whole = q.compute(mesh)
@@ -138,16 +139,14 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
     seen: dict[str, int] = {}
     for result in results:
         ids = {"cell": result.cells, "face": result.faces, "internal": result.internal}
-        runs = {per: runs_of(i) for per, i in ids.items()}     # once for all quantities
+        # once for all quantities: from the piece's rows where it sent its whole arrays
+        runs = {per: result.segments.get(per) if result.segments.get(per) is not None
+                else runs_of(i) for per, i in ids.items()}
         for name, values in result.values.items():
             per = BY_NAME[name].per
             if name not in out:
                 out[name] = empty(name, (size[per],) + values.shape[1:], values.dtype)
-            if result.segments.get(per) is not None:
-                for src, dst, n in result.segments[per]:
-                    out[name][dst:dst + n] = values[src:src + n]
-            else:
-                put(out[name], ids[per], values, runs[per])
+            put(out[name], ids[per], values, runs[per])
             seen[name] = seen.get(name, 0) + len(ids[per])
         del result, ids, values     # not held while the next partition is analysed
     for name, count in seen.items():
@@ -158,53 +157,41 @@ def assemble(results: Iterable[PieceResult], n_cells: int, n_faces: int, n_inter
     return out
 
 
-#: :func:`put` and assembly by :func:`segments` copy runs of consecutive ids as slices
-#: when there are fewer than this.
+#: :func:`put` copies runs of consecutive ids as slices when there are fewer than this.
 MAX_RUNS = 256
 
 
-def runs_of(ids: np.ndarray) -> np.ndarray | None:
-    """(r, 3) runs of consecutive ids in ``ids``: where each starts in ``ids``, its first
-    id and its length; None when there are :data:`MAX_RUNS` or more (or no ids)."""
+def runs_of(ids: np.ndarray, rows: np.ndarray | None = None) -> np.ndarray | None:
+    """(r, 3) runs along which ``ids`` (where values go) and ``rows`` (where they are;
+    default: their positions, ``0 .. len(ids) - 1``) both step by one: the first row, the
+    first id and the length of each; None when there are :data:`MAX_RUNS` or more (or no
+    ids)."""
     if not len(ids):
         return None
-    breaks = np.flatnonzero(np.diff(ids) != 1) + 1
+    steps = np.diff(ids) != 1
+    if rows is not None:
+        steps |= np.diff(rows) != 1
+    breaks = np.flatnonzero(steps) + 1
     if len(breaks) >= MAX_RUNS:
         return None
     starts = np.r_[0, breaks]
-    return np.column_stack([starts, np.asarray(ids)[starts], np.diff(np.r_[starts, len(ids)])])
-
-
-def segments(rows: np.ndarray, ids: np.ndarray) -> np.ndarray | None:
-    """(s, 3) runs along which both ``rows`` (where values are) and ``ids`` (where they
-    go) step by one: the first row, the first id and the length of each; None when there
-    are :data:`MAX_RUNS` or more (or none)."""
-    if not len(ids):
-        return None
-    breaks = np.flatnonzero((np.diff(rows) != 1) | (np.diff(ids) != 1)) + 1
-    if len(breaks) >= MAX_RUNS:
-        return None
-    starts = np.r_[0, breaks]
-    return np.column_stack([np.asarray(rows)[starts], np.asarray(ids)[starts],
-                            np.diff(np.r_[starts, len(ids)])])
+    first = starts if rows is None else np.asarray(rows)[starts]
+    return np.column_stack([first, np.asarray(ids)[starts], np.diff(np.r_[starts, len(ids)])])
 
 
 def put(array: np.ndarray, ids: np.ndarray, values: np.ndarray,
-        runs: np.ndarray | None = None) -> None:
-    """``array[ids] = values``, as slices where ``ids`` are a few runs of consecutive
-    ids (``runs``, :func:`runs_of` of ``ids`` when already known): a partition of
-    consecutive cells owns consecutive cells and, in a mesh folder's numbering, its
-    internal faces and its faces in each boundary group are runs too. A slice is copied in
-    one go into an array on disk, where an index array goes element by element (a third
-    of the time of assembling a streamed 4M-cell mesh)."""
-    if not len(ids):
-        return
-    runs = runs_of(ids) if runs is None else runs
+        runs: np.ndarray | None) -> None:
+    """``array[ids] = values[rows]``, ``runs`` (:func:`runs_of` of ``ids`` and ``rows``)
+    copied as slices; ``runs`` None: ``array[ids] = values``, an entry at a time. A
+    partition of consecutive cells owns consecutive cells and, in a mesh folder's
+    numbering, its internal faces and its faces in each boundary group are runs too. A
+    slice is copied in one go into an array on disk, where an index array goes element
+    by element (a third of the time of assembling a streamed 4M-cell mesh)."""
     if runs is None:
         array[ids] = values
         return
-    for start, first, n in runs:
-        array[first:first + n] = values[start:start + n]
+    for row, first, n in runs:
+        array[first:first + n] = values[row:row + n]
 
 
 def measure_pieces(data: MeshData, plan: Plan, names: Iterable[str] | None = None,
@@ -282,4 +269,4 @@ def geometry_of(values: dict[str, np.ndarray]) -> Geometry:
 
 __all__ = ["BY_NAME", "PieceResult", "QUANTITIES", "Quantity", "analysed_in_partitions",
            "assemble", "geometry_of", "measure_made", "measure_piece",
-           "measure_pieces", "measure_walker", "put", "runs_of", "segments"]
+           "measure_pieces", "measure_walker", "put", "runs_of"]
